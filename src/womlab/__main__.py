@@ -1,0 +1,7 @@
+"""``python -m womlab`` is the ``womlab`` command."""
+
+import sys
+
+from .cli import main
+
+sys.exit(main())

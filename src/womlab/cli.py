@@ -1,0 +1,130 @@
+"""The ``womlab`` command. It only parses, calls the public functions and writes files.
+
+A user mistake (a :class:`~womlab.errors.WomlabError`) is printed as one line on
+standard error with exit status 2, never as a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from .errors import WomlabError
+
+__all__ = ["main"]
+
+
+def _positive(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
+    if value < 1 and value != -1:
+        raise argparse.ArgumentTypeError(f"must be >= 1 (or -1 for every core), got {value}")
+    return value
+
+
+def _load(args: argparse.Namespace):  # noqa: ANN202
+    from .scenario import load_scenario
+
+    scenario = load_scenario(args.config)
+    changes = {}
+    if getattr(args, "replicates", None) is not None:
+        changes["run.replicates"] = args.replicates
+    if getattr(args, "jobs", None) is not None:
+        changes["run.jobs"] = args.jobs
+    if getattr(args, "engine", None) is not None:
+        changes["run.engine"] = args.engine
+    return scenario.replace(changes) if changes else scenario
+
+
+def _print_table(frame, out=sys.stdout) -> None:  # noqa: ANN001
+    print(frame.to_string(index=False, float_format=lambda v: f"{v:.4g}"), file=out)
+
+
+def cmd_run(args: argparse.Namespace) -> int:
+    from .outputs import save_batch
+    from .studies import run_replicates
+
+    scenario = _load(args)
+    out = Path(args.out) if args.out else Path("out") / Path(args.config).stem
+    batch = run_replicates(scenario, progress=not args.quiet)
+    written = save_batch(batch, out)
+    metrics = batch.metrics()[["metric", "network_median", "network_q05", "network_q95", "aggregate"]]
+    print(f"{scenario.name}: {batch.replicates} runs of {scenario.market.organisations} organisations "
+          f"on a {scenario.network.kind} network, {batch.wall_time:.1f} s")
+    _print_table(metrics)
+    print(f"wrote {len(written)} files to {out}/")
+    return 0
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from .aggregate import bass_peak_time, mapped_parameters
+    from .scenario import load_scenario
+
+    scenario = load_scenario(args.config)
+    par = mapped_parameters(scenario)
+    a = scenario.adoption
+    rows = [
+        ("scenario", scenario.name),
+        ("organisations", scenario.market.organisations),
+        ("initial customers", scenario.market.n_initial),
+        ("regions", scenario.market.regions),
+        ("network", scenario.network.kind),
+        ("mean degree", f"{par.mean_degree:.4g}"),
+        ("rule", a.rule),
+        ("mean talkers per customer", f"{par.mean_talkers:.4g}"),
+        ("mapped Bass p", f"{par.p:.4g}"),
+        ("mapped Bass Q", f"{par.Q:.4g}"),
+        ("Bass peak time ln(Q/p)/(p+Q)", f"{bass_peak_time(par.p, par.Q):.3f}" if par.Q > par.p > 0 else "n/a (Q <= p)"),
+        ("stock-and-flow slope", f"{par.slope:.4g}"),
+        ("periods x steps per period", f"{scenario.run.periods} x {scenario.run.steps_per_period}"),
+        ("replicates, engine, jobs", f"{scenario.run.replicates}, {scenario.run.engine}, {scenario.run.jobs}"),
+    ]
+    if par.cap is not None:
+        rows.insert(-3, ("cap", f"{par.cap:.4g}"))
+    width = max(len(k) for k, _ in rows)
+    print(f"{args.config}: valid")
+    for key, value in rows:
+        print(f"  {key:<{width}}  {value}")
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="womlab",
+        description="Word-of-mouth growth on referral networks, set against the aggregate model.",
+    )
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    run = sub.add_parser("run", help="run replicates of a scenario and write its results folder")
+    run.add_argument("config", help="scenario TOML file")
+    run.add_argument("--replicates", type=_positive, help="number of replicate runs (overrides run.replicates)")
+    run.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
+    run.add_argument("--engine", choices=["array", "mesa"], help="overrides run.engine")
+    run.add_argument("--out", help="results folder (default out/<config name>)")
+    run.add_argument("--quiet", action="store_true", help="no progress bar")
+    run.set_defaults(func=cmd_run)
+
+    check = sub.add_parser("check", help="validate a scenario and print its derived quantities")
+    check.add_argument("config", help="scenario TOML file")
+    check.set_defaults(func=cmd_check)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.func(args)
+    except WomlabError as exc:
+        print(f"womlab: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("womlab: interrupted; files already written are intact", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

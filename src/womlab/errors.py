@@ -1,0 +1,29 @@
+"""The small exception family of womlab.
+
+Every error a user can cause by what they ask for is a :class:`WomlabError`; the
+``womlab`` command turns one into a single line on standard error and exit status 2.
+"""
+
+from __future__ import annotations
+
+__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError"]
+
+
+class WomlabError(Exception):
+    """Base class of every error womlab raises on purpose."""
+
+
+class ScenarioError(WomlabError, ValueError):
+    """A scenario field has a wrong name, type or value.
+
+    The message always names the dotted field, the value given and what is allowed,
+    e.g. ``adoption.satisfied_share must be in [0, 1], got 1.4``.
+    """
+
+
+class NetworkError(WomlabError, ValueError):
+    """A referral network cannot be built or read as asked."""
+
+
+class StoreError(WomlabError):
+    """A results folder cannot be written, read or resumed."""

@@ -1,0 +1,95 @@
+"""Writing a batch's results folder: CSV tables, the figure and a manifest.
+
+Files are written to a temporary name and renamed into place, so an interrupted write
+never leaves a half-written file under its real name, and a failure leaves the files
+already written intact.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import platform
+import tempfile
+from datetime import datetime, timezone
+from importlib import metadata
+from pathlib import Path
+from typing import Any, Callable
+
+from .errors import StoreError
+
+__all__ = ["save_batch", "versions", "atomic_write"]
+
+_LIBRARIES = ("womlab", "numpy", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib")
+
+
+def versions() -> dict[str, str]:
+    """Versions of Python, womlab and the libraries it runs on."""
+    out = {"python": platform.python_version()}
+    for name in _LIBRARIES:
+        try:
+            out[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            out[name] = "not installed"
+    return out
+
+
+def atomic_write(path: Path, write: Callable[[Path], Any]) -> Path:
+    """Call ``write(tmp)`` on a temporary file beside ``path``, then rename it into place."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=path.parent)
+    os.close(fd)
+    try:
+        write(Path(tmp))
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
+
+
+def manifest(batch, extra: dict | None = None) -> dict[str, Any]:  # noqa: ANN001 - Batch
+    """What a results folder records about how it was made."""
+    return {
+        "scenario": batch.scenario.to_dict(),
+        "root_seed": batch.scenario.seed,
+        "replicates": batch.replicates,
+        "spawn_keys": "SeedSequence(root_seed, spawn_key=(replicate,))",
+        "engine": batch.scenario.run.engine,
+        "wall_time_s": round(batch.wall_time, 3),
+        "written": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "versions": versions(),
+        **(extra or {}),
+    }
+
+
+def save_batch(batch, out: str | Path, *, figure: bool = True) -> list[Path]:  # noqa: ANN001 - Batch
+    """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
+
+    Returns the paths written.
+
+    Raises
+    ------
+    StoreError
+        If ``out`` exists and is not a folder, or cannot be written.
+    """
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise StoreError(f"--out {str(out)!r} exists and is not a folder")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise StoreError(f"--out {str(out)!r} cannot be created: {exc}") from None
+    written = [
+        atomic_write(out / "curves.csv", lambda p: batch.curves().to_csv(p, index=False)),
+        atomic_write(out / "summary.csv", lambda p: batch.summary().to_csv(p, index=False, float_format="%.6g")),
+        atomic_write(out / "metrics.csv", lambda p: batch.metrics().to_csv(p, index=False, float_format="%.6g")),
+    ]
+    if figure:
+        from .plots import adoption_figure
+
+        fig = adoption_figure(batch)
+        written.append(atomic_write(out / "adoption.png", lambda p: fig.savefig(p, dpi=130, format="png")))
+    text = json.dumps(manifest(batch), indent=2)
+    written.append(atomic_write(out / "manifest.json", lambda p: p.write_text(text + "\n", encoding="utf-8")))
+    return written
