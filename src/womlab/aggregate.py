@@ -225,11 +225,14 @@ def stock_and_flow(
 def aggregate_curve(scenario: Scenario) -> np.ndarray:
     """The aggregate prediction of the customer share on periods 0..T, same step and form.
 
-    ``share`` and ``count``: the Bass difference equation with the mapped p and Q;
+    ``share`` and ``count``: the Bass difference equation with the mapped p and Q, or on
+    the continuous clock (``run.clock = "continuous"``) the Bass closed form itself;
     ``capped``: the stock-and-flow model with the mapped slope and cap.
     """
     a, run = scenario.adoption, scenario.run
     par = mapped_parameters(scenario)
+    if run.clock == "continuous":
+        return bass_share(np.arange(run.periods + 1, dtype=float), par.p, par.Q, par.initial_share)
     if a.rule == "capped":
         n = scenario.market.organisations
         customers = stock_and_flow(

@@ -4,6 +4,16 @@ A run keeps per-organisation vectors — adoption period (−1 = never), referre
 external, initial, or never), whether satisfied — and derives every per-period count
 from them, so that no engine can report counts that disagree with its own adopters.
 Period 0 is the seeded state; a run of ``periods = T`` has exactly T + 1 rows.
+
+Finer grids. Engines that know when within a period each adoption happened (the event
+engine: exact times; the array engine: the end of the step) also keep
+``adoption_time`` (float per organisation, NaN = never). Period k covers the times
+(k − 1, k], so ``adoption_period = ceil(adoption_time)``. :meth:`RunResult.curve` with
+``every = 1/n`` (by default the scenario's ``run.report_every``, kept as
+``report_every``) gives rows at times 0, 1/n, 2/n, …, T — ``period`` then holds the
+period each row's time falls in, and ``new_customers`` counts adoptions since the
+previous row. Every per-period count (``customers``, ``share``, …) stays on the period
+grid, so the T + 1 row rule holds for them whatever the report grid.
 """
 
 from __future__ import annotations
@@ -44,6 +54,12 @@ class RunResult:
         Root seed; with ``spawn_key`` it replays the run.
     spawn_key : tuple
         The SeedSequence spawn key of the run.
+    adoption_time : numpy.ndarray, optional
+        float64 per organisation: when in continuous time it became a customer (0 for
+        the initial customers), NaN if never by the horizon. None when the engine does
+        not record it (Mesa).
+    report_every : float
+        Default spacing of :meth:`curve` rows (1/n of a period; 1 = the period grid).
     """
 
     periods: int
@@ -56,6 +72,8 @@ class RunResult:
     seed: int = 0
     spawn_key: tuple = ()
     extra: dict = field(default_factory=dict)
+    adoption_time: np.ndarray | None = None
+    report_every: float = 1.0
 
     @property
     def n(self) -> int:
@@ -93,16 +111,53 @@ class RunResult:
         np.add.at(counts, (self.adoption_period[adopted], self.region[adopted]), 1)
         return np.cumsum(counts, axis=0)
 
-    def curve(self) -> pd.DataFrame:
-        """Per-period table: period, time, customers, new_customers, satisfied_customers."""
-        t = np.arange(self.periods + 1)
+    def curve(self, every: float | None = None) -> pd.DataFrame:
+        """Table of period, time, customers, new_customers, satisfied_customers.
+
+        Parameters
+        ----------
+        every : float, optional
+            Row spacing, 1/n of a period; defaults to ``report_every``. With 1 (the
+            default for a scenario that does not ask for finer) there is one row per
+            period, T + 1 rows. Finer grids need ``adoption_time``.
+
+        Raises
+        ------
+        ValueError
+            If ``every`` is not 1/n of a period, or is finer than 1 without ``adoption_time``.
+        """
+        every = self.report_every if every is None else float(every)
+        per = int(round(1 / every)) if 0 < every <= 1 else 0
+        if per < 1 or abs(1 / every - per) > 1e-9:
+            raise ValueError(f"every must be 1/n of a period for a whole n >= 1, got {every!r}")
+        if per == 1:
+            t = np.arange(self.periods + 1)
+            return pd.DataFrame(
+                {
+                    "period": t,
+                    "time": t.astype(float),
+                    "customers": self.customers,
+                    "new_customers": self.new_customers,
+                    "satisfied_customers": self.satisfied_customers,
+                }
+            )
+        if self.adoption_time is None:
+            raise ValueError(f"a report grid finer than one period needs adoption times; the {self.engine} engine keeps none")
+        slots = self.periods * per
+        at = self.adoption_time
+        seen = ~np.isnan(at)
+        # row r covers times ((r − 1)/n, r/n]; row 0 is the seeded state (time 0)
+        row = np.ceil(np.round(at[seen] * per, 9)).astype(np.int64)
+        new = np.bincount(row, minlength=slots + 1)[: slots + 1]
+        sat = np.bincount(row[self.satisfied[seen]], minlength=slots + 1)[: slots + 1]
+        k = np.arange(slots + 1)
         return pd.DataFrame(
             {
-                "period": t,
-                "time": t.astype(float),
-                "customers": self.customers,
-                "new_customers": self.new_customers,
-                "satisfied_customers": self.satisfied_customers,
+                "period": (k + per - 1) // per,
+                "time": k / per,
+                "customers": np.cumsum(new),
+                "new_customers": new,
+                "satisfied_customers": np.cumsum(sat),
             }
         )
 

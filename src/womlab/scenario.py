@@ -35,6 +35,8 @@ The file has one table per section::
     replicates = 100
     engine = "array"
     jobs = 1
+    clock = "discrete"          # or "continuous": exact event times, no time step
+    report_every = 1.0          # curve grid, 1/n of a period
 
 Adding a section: write a frozen dataclass with a ``section`` class variable and a
 ``check(self, scenario)`` method, add it as a field of :class:`Scenario` and to
@@ -67,12 +69,19 @@ __all__ = [
     "RULES",
     "STEP_FORMS",
     "ENGINES",
+    "CLOCKS",
+    "CONTINUOUS_RULES",
 ]
 
 NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "scale_free", "edgelist")
 RULES = ("share", "count", "capped")
 STEP_FORMS = ("exponential", "linear")
 ENGINES = ("array", "mesa")
+CLOCKS = ("discrete", "continuous")
+# Rules whose word-of-mouth influence is a constant rate per satisfied-customer neighbour,
+# the ones the continuous clock runs exactly (womlab.events). A new rule joins this list
+# only if it is of that form.
+CONTINUOUS_RULES = ("share", "count")
 TALKER_DISTRIBUTIONS = ("fixed", "poisson")
 
 
@@ -291,6 +300,13 @@ class RunSpec:
         ``array`` (fast, numpy) or ``mesa`` (one Mesa agent per organisation).
     jobs : int
         Parallel worker processes (joblib); −1 uses every core.
+    clock : str
+        ``discrete`` (steps of ``time_step``; the array or Mesa engine) or ``continuous``
+        (the event engine, :mod:`womlab.events`: exact adoption times, no time step; for
+        the rules in ``CONTINUOUS_RULES``, with ``engine = "array"``).
+    report_every : float
+        Spacing of the rows of :meth:`RunResult.curve` on a finer grid (1/n of a period;
+        1 gives the period grid). Per-period tables are always on the period grid.
     """
 
     section: ClassVar[str] = "run"
@@ -300,6 +316,8 @@ class RunSpec:
     replicates: int = 100
     engine: str = "array"
     jobs: int = 1
+    clock: str = "discrete"
+    report_every: float = 1.0
 
     def check(self, scenario: Scenario) -> None:
         _positive_int("run.periods", self.periods)
@@ -311,10 +329,30 @@ class RunSpec:
         dt = self.time_step
         if not (0 < dt <= 1) or abs(1 / dt - round(1 / dt)) > 1e-9:
             _fail("run.time_step", dt, "1/n of a period for a whole n >= 1 (1, 0.5, 0.25, 0.1, ...)")
-
+        r = self.report_every
+        if not (0 < r <= 1) or abs(1 / r - round(1 / r)) > 1e-9:
+            _fail("run.report_every", r, "1/n of a period for a whole n >= 1 (1, 0.5, 0.25, 0.1, ...)")
+        _one_of("run.clock", self.clock, CLOCKS)
+        if self.clock == "continuous":
+            rule = scenario.adoption.rule
+            if rule not in CONTINUOUS_RULES:
+                raise ScenarioError(
+                    f'adoption.rule = "{rule}" cannot run on run.clock = "continuous": the continuous clock needs '
+                    f"word-of-mouth influence at a constant rate per satisfied customer neighbour "
+                    f'(rules {", ".join(CONTINUOUS_RULES)}); use run.clock = "discrete"'
+                )
+            if self.engine != "array":
+                raise ScenarioError(
+                    f'run.engine = "{self.engine}" runs on run.clock = "discrete" only; '
+                    f'run.clock = "continuous" uses the event engine (leave run.engine = "array")'
+                )
     @property
     def steps_per_period(self) -> int:
         return int(round(1 / self.time_step))
+
+    @property
+    def reports_per_period(self) -> int:
+        return int(round(1 / self.report_every))
 
 
 SECTIONS: dict[str, type] = {

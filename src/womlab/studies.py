@@ -38,6 +38,7 @@ __all__ = [
     "run_paired",
     "Batch",
     "ENGINES",
+    "engine_for",
 ]
 
 
@@ -67,8 +68,19 @@ def _array_engine(scenario, network, initial, rng):  # noqa: ANN001
     return run_array(scenario, network, initial, rng)
 
 
+def _event_engine(scenario, network, initial, rng):  # noqa: ANN001
+    from .events import run_events
+
+    return run_events(scenario, network, initial, rng)
+
+
 Engine = Callable[[Scenario, ReferralNetwork, np.ndarray, np.random.Generator], RunResult]
-ENGINES: dict[str, Engine] = {"array": _array_engine, "mesa": _mesa_engine}
+ENGINES: dict[str, Engine] = {"array": _array_engine, "mesa": _mesa_engine, "events": _event_engine}
+
+
+def engine_for(scenario: Scenario) -> Engine:
+    """The engine a scenario runs on: the event engine on the continuous clock, else ``run.engine``."""
+    return ENGINES["events" if scenario.run.clock == "continuous" else scenario.run.engine]
 
 
 def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: ReferralNetwork | None = None) -> RunResult:
@@ -103,7 +115,7 @@ def _run_variants(
     out = {}
     for name, scenario in variants.items():
         initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
-        result = ENGINES[scenario.run.engine](scenario, network, initial, np.random.default_rng(st.dynamics))
+        result = engine_for(scenario)(scenario, network, initial, np.random.default_rng(st.dynamics))
         result.seed, result.spawn_key = scenario.seed, tuple(key)
         out[name] = result
     return out
@@ -190,10 +202,11 @@ class Batch:
         return self._aggregate
 
     def curves(self) -> pd.DataFrame:
-        """One row per replicate and period: replicate, period, time, customers, new_customers, satisfied_customers."""
+        """One row per replicate and report time (``run.report_every``; by default per period):
+        replicate, period, time, customers, new_customers, satisfied_customers."""
         frames = []
         for i, run in enumerate(self.runs):
-            c = run.curve()
+            c = run.curve(self.scenario.run.report_every)
             c.insert(0, "replicate", i)
             frames.append(c)
         return pd.concat(frames, ignore_index=True)[["replicate", *CURVE_COLUMNS]]
