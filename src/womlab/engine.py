@@ -1,9 +1,10 @@
 """The array engine: one run in vectorised numpy over CSR adjacency.
 
 No per-organisation Python objects. State lives in arrays: who is a customer, each
-organisation's talkers, whether it would be satisfied, and its summed hazard. Each step
-computes every rate from the state at the start of the step (one sparse product,
-``A @ talking``), then applies every adoption at once (synchronous update).
+organisation's talkers, whether it would be satisfied, its exposure (the talkers of its
+satisfied-customer neighbours, Tᵢ) and its accumulated hazard. Every rate in a step is
+computed from the state at the start of the step, then every adoption is applied at
+once (synchronous update).
 
 Random draws, all from the dynamics stream and all up front, in this order:
 talkers (Poisson only), satisfaction, one Exp(1) resistance Eᵢ per organisation, one
@@ -12,6 +13,23 @@ which its summed step hazard (:func:`womlab.rules.step_hazard`) reaches Eᵢ —
 per-step probabilities as drawing a fresh uniform every step, but with a single draw
 per organisation, so that two variants compared on the same streams see the same
 resistances (common random numbers) whatever the state.
+
+Work only where it matters. A step's hazard is h₀ = step_hazard(rate at Tᵢ = 0) for an
+organisation with no talking neighbour, the same for all of them; so organisation i's
+summed hazard after s steps is h₀·s + Xᵢ, where Xᵢ adds up h(λᵢ) − h₀ over the steps it
+was exposed (Tᵢ > 0). Hence:
+
+* customers need no work at all;
+* an organisation never exposed adopts, by external influence alone, at the first step
+  s with h₀·s ≥ Eᵢ — known up front, so these are bucketed by step once;
+* only exposed potential customers (the *active* set) have rates computed each step;
+* exposure is kept up to date incrementally: when organisations start talking, their
+  CSR rows add their talkers to their neighbours' Tᵢ (O(ties of the new talkers),
+  O(E) over the whole run) instead of one full sparse product ``A @ talking`` per step.
+
+The rule's rate from exposure is computed in one place, :func:`exposed_hazard`; a rule
+whose rate is not a function of Tᵢ and Dᵢ changes that function (and the bucketing,
+if its rate without talking neighbours is not constant).
 """
 
 from __future__ import annotations
@@ -21,9 +39,18 @@ import numpy as np
 from . import rules
 from .networks import ReferralNetwork
 from .results import RunResult
-from .scenario import Scenario
+from .scenario import Adoption, Scenario
 
-__all__ = ["run_array", "pick_referrers"]
+__all__ = ["run_array", "pick_referrers", "exposed_hazard"]
+
+
+def _row_entries(network: ReferralNetwork, ids: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Positions in ``network.indices`` of the rows ``ids``, concatenated, and each row's length."""
+    start = network.indptr[ids].astype(np.int64)
+    lengths = network.indptr[ids + 1].astype(np.int64) - start
+    total = int(lengths.sum())
+    offsets = np.repeat(start - np.cumsum(lengths) + lengths, lengths) + np.arange(total)
+    return offsets, lengths
 
 
 def pick_referrers(
@@ -41,10 +68,7 @@ def pick_referrers(
         # adopters are potential customers, so their own talk is 0 and need not be removed
         pos = np.searchsorted(c, u * c[-1], side="right")
         return np.minimum(pos, network.n - 1).astype(np.int32)
-    start = network.indptr[adopters].astype(np.int64)
-    stop = network.indptr[adopters + 1].astype(np.int64)
-    lengths = stop - start
-    offsets = np.repeat(start - np.cumsum(lengths) + lengths, lengths) + np.arange(lengths.sum())
+    offsets, lengths = _row_entries(network, adopters)
     nbrs = network.indices[offsets]
     c = np.cumsum(talk[nbrs], dtype=np.float64)
     seg_end = np.cumsum(lengths)
@@ -54,6 +78,17 @@ def pick_referrers(
     pos = np.searchsorted(c, base + u * total, side="right")
     pos = np.clip(pos, seg_start, seg_end - 1)
     return nbrs[pos].astype(np.int32)
+
+
+def exposed_hazard(
+    rule: str, talking: np.ndarray, total: np.ndarray, adoption: Adoption, dt: float, form: str
+) -> np.ndarray:
+    """One step's hazard for organisations with exposure ``talking`` (Tᵢ) and ``total`` (Dᵢ).
+
+    The one place the array engine turns a rule into hazard; the rate itself is
+    :func:`womlab.rules.adoption_rate`, shared with every engine.
+    """
+    return rules.step_hazard(rules.adoption_rate(rule, talking, total, adoption), dt, form)
 
 
 def run_array(
@@ -71,6 +106,11 @@ def run_array(
         Ids of the customers at period 0.
     rng : numpy.random.Generator
         The dynamics stream.
+
+    Returns
+    -------
+    RunResult
+        With ``adoption_time`` = the end of the step of adoption (NaN = never).
     """
     adoption, run = scenario.adoption, scenario.run
     n, dt, form, rule = network.n, run.time_step, run.step_probability, adoption.rule
@@ -81,48 +121,141 @@ def run_array(
     resistance = rng.standard_exponential(n)
     u_cause = rng.random(n)
 
-    adoption_period = np.full(n, -1, dtype=np.int32)
+    initial = np.asarray(initial, dtype=np.int32)
+    adoption_step = np.full(n, -1, dtype=np.int32)
     referrer = np.full(n, -1, dtype=np.int32)
     customer = np.zeros(n, dtype=bool)
     customer[initial] = True
-    adoption_period[initial] = 0
+    adoption_step[initial] = 0
     talk = np.where(customer & would_be_satisfied, tau, np.float32(0))
-    hazard = np.zeros(n)
 
     if network.complete:
-        all_talkers = np.full(n, tau.sum(dtype=np.float64)) - tau
-        matrix = None
+        _run_complete(network, scenario, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer)
     else:
-        matrix = network.matrix(np.float32)
-        all_talkers = matrix @ tau
+        _run_sparse(network, scenario, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer)
 
-    for step in range(1, run.periods * spp + 1):
-        if matrix is None:
-            talking = talk.sum(dtype=np.float64) - talk
-        else:
-            talking = matrix @ talk
-        potential = ~customer
-        rate = rules.adoption_rate(rule, talking, all_talkers, adoption)
-        hazard += np.where(potential, rules.step_hazard(rate, dt, form), 0.0)
-        new = np.flatnonzero(potential & (hazard >= resistance))
-        if new.size == 0:
-            continue
-        ext = rules.external_share(rule, talking[new], all_talkers[new], adoption)
-        by_wom = u_cause[new] >= ext
-        wom = new[by_wom]
-        if wom.size:
-            u = (u_cause[wom] - ext[by_wom]) / (1 - ext[by_wom])
-            referrer[wom] = pick_referrers(network, wom, talk, u)
-        customer[new] = True
-        adoption_period[new] = (step + spp - 1) // spp
-        talk[new] = np.where(would_be_satisfied[new], tau[new], np.float32(0))
-
+    adopted = adoption_step >= 0
+    adoption_period = np.where(adopted, (adoption_step + spp - 1) // spp, -1).astype(np.int32)
     return RunResult(
         periods=run.periods,
         adoption_period=adoption_period,
         referrer=referrer,
         satisfied=customer & would_be_satisfied,
         region=network.region,
-        initial=np.asarray(initial, dtype=np.int32),
+        initial=initial,
         engine="array",
+        adoption_time=np.where(adopted, adoption_step / spp, np.nan),
+        report_every=run.report_every,
     )
+
+
+def _attribute(
+    network: ReferralNetwork,
+    scenario: Scenario,
+    new: np.ndarray,
+    talking_new: np.ndarray,
+    total_new: np.ndarray,
+    talk: np.ndarray,
+    u_cause: np.ndarray,
+    referrer: np.ndarray,
+) -> None:
+    """Draw each new adopter's cause: external, or a talking neighbour ∝ its talkers."""
+    adoption = scenario.adoption
+    ext = rules.external_share(adoption.rule, talking_new, total_new, adoption)
+    by_wom = u_cause[new] >= ext
+    wom = new[by_wom]
+    if wom.size:
+        u = (u_cause[wom] - ext[by_wom]) / (1 - ext[by_wom])
+        referrer[wom] = pick_referrers(network, wom, talk, u)
+
+
+def _run_complete(network, scenario, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer) -> None:  # noqa: ANN001, E501
+    """Complete network from totals: every potential customer's exposure is the market's talk."""
+    adoption, run = scenario.adoption, scenario.run
+    dt, form, rule = run.time_step, run.step_probability, adoption.rule
+    potential = np.flatnonzero(~customer)
+    total = float(tau.sum(dtype=np.float64)) - tau[potential].astype(np.float64)
+    res = resistance[potential]
+    hazard = np.zeros(potential.size)
+    market_talk = float(talk.sum(dtype=np.float64))
+    for step in range(1, run.periods * run.steps_per_period + 1):
+        talking = np.full(potential.size, market_talk)  # a potential customer's own talk is 0
+        hazard += exposed_hazard(rule, talking, total, adoption, dt, form)
+        hit = hazard >= res
+        if not hit.any():
+            continue
+        new = potential[hit]
+        _attribute(network, scenario, new, talking[hit], total[hit], talk, u_cause, referrer)
+        customer[new] = True
+        adoption_step[new] = step
+        talk[new] = np.where(would_be_satisfied[new], tau[new], np.float32(0))
+        market_talk += float(talk[new].sum(dtype=np.float64))
+        keep = ~hit
+        potential, total, res, hazard = potential[keep], total[keep], res[keep], hazard[keep]
+
+
+def _run_sparse(network, scenario, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer) -> None:  # noqa: ANN001, E501
+    """CSR network: work on the exposed potential customers only; exposure updated incrementally."""
+    adoption, run = scenario.adoption, scenario.run
+    n, dt, form, rule = network.n, run.time_step, run.step_probability, adoption.rule
+    steps = run.periods * run.steps_per_period
+    total = network.matrix(np.float64) @ tau.astype(np.float64)  # Dᵢ, fixed for the run
+    zero = np.zeros(1)
+    h0 = float(exposed_hazard(rule, zero, zero, adoption, dt, form)[0])  # a step's hazard with no talking neighbour
+
+    # never-exposed organisations adopt by external influence at the first step s with h0·s >= Eᵢ
+    if h0 > 0:
+        with np.errstate(over="ignore", invalid="ignore"):
+            first = np.ceil(resistance / h0) if np.isfinite(h0) else np.ones(n)
+        first = np.where(first < 1, 1, first)
+        due = np.flatnonzero(first <= steps)
+        due = due[np.argsort(first[due], kind="stable")].astype(np.int32)
+        bounds = np.searchsorted(first[due], np.arange(1, steps + 2), side="left")
+    else:
+        due, bounds = np.zeros(0, dtype=np.int32), np.zeros(steps + 2, dtype=np.int64)
+
+    talking = np.zeros(n)  # Tᵢ
+    exposed = np.zeros(n, dtype=bool)
+    stamp = np.zeros(n, dtype=np.int64)  # scratch for de-duplicating newly exposed ids
+    # the active set (exposed potential customers), kept compact: ids, Dᵢ, Eᵢ, Xᵢ
+    a_ids = np.zeros(0, dtype=np.int32)
+    a_total, a_res, a_extra = np.zeros(0), np.zeros(0), np.zeros(0)
+    finite = bool(np.isfinite(h0))
+    speakers = np.flatnonzero(talk > 0).astype(np.int32)
+    for step in range(1, steps + 1):
+        if speakers.size:  # exposure from those who started talking last step
+            offsets, lengths = _row_entries(network, speakers)
+            nbrs = network.indices[offsets]
+            np.add.at(talking, nbrs, np.repeat(talk[speakers].astype(np.float64), lengths))
+            fresh = nbrs[~exposed[nbrs] & ~customer[nbrs]]
+            if fresh.size:
+                stamp[fresh] = np.arange(fresh.size)
+                fresh = fresh[stamp[fresh] == np.arange(fresh.size)]  # one of each
+                exposed[fresh] = True
+                a_ids = np.concatenate([a_ids, fresh])
+                a_total = np.concatenate([a_total, total[fresh]])
+                a_res = np.concatenate([a_res, resistance[fresh]])
+                a_extra = np.concatenate([a_extra, np.zeros(fresh.size)])
+        parts = []
+        hit = None
+        if a_ids.size:
+            if finite:
+                a_extra += exposed_hazard(rule, talking[a_ids], a_total, adoption, dt, form) - h0
+            hit = h0 * step + a_extra >= a_res
+            parts.append(a_ids[hit])
+        outside = due[bounds[step - 1] : bounds[step]]
+        if outside.size:
+            outside = outside[~customer[outside] & (~exposed[outside] | (not finite))]
+            parts.append(outside)
+        new = np.sort(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.int32)
+        speakers = np.zeros(0, dtype=np.int32)
+        if new.size == 0:
+            continue
+        _attribute(network, scenario, new, talking[new], total[new], talk, u_cause, referrer)
+        customer[new] = True
+        adoption_step[new] = step
+        talk[new] = np.where(would_be_satisfied[new], tau[new], np.float32(0))
+        speakers = new[talk[new] > 0]
+        if hit is not None and hit.any():
+            keep = ~hit
+            a_ids, a_total, a_res, a_extra = a_ids[keep], a_total[keep], a_res[keep], a_extra[keep]
