@@ -224,6 +224,8 @@ def fit_bass(
         names = ("p", "Q")
     res = _best_fit(residual, starts, lower, upper)
     m = float(res.x[2]) if fit_m else m_fixed
+    if fit_m and m > 1.0 - 1e-9:
+        m = 1.0  # the solver stays strictly inside its bounds; a fit on the bound m = 1 is m = 1
     se = _stderr(res, names, body[0].size)
     se.setdefault("m", 0.0)
     return BassFit(
