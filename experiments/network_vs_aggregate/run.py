@@ -72,7 +72,7 @@ def run_all(replicates: int | None, jobs: int | None) -> tuple[pd.DataFrame, dic
             "m_eff": h["m_eff"],
             "fit_converged": bool(c.bass_fit.success),
             "t50_degree_mean_field": h["t50_degree_mean_field"],
-            "rmse_bass_difference": h["rmse_bass"],
+            "rmse_bass_difference": h["rmse_reference"],
             "rmse_degree_mean_field": h["rmse_degree_mean_field"],
             "final_share": float(m.loc["final_share", "network"]),
             "seconds": round(time.perf_counter() - start, 2),

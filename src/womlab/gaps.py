@@ -126,6 +126,13 @@ class Comparison:
     def scenario(self) -> Scenario:
         return self.batch.scenario
 
+    @property
+    def reference(self) -> str:
+        """The mapped aggregate curve the headline is measured against: ``bass_difference``
+        (same grid and step form as the runs), or ``stock_and_flow`` for the ``capped`` rule,
+        whose ceiling the Bass curves do not have."""
+        return "stock_and_flow" if self.scenario.adoption.rule == "capped" else "bass_difference"
+
     def curve_table(self) -> pd.DataFrame:
         """Per period: the network's mean, sd, q05, q50, q95 and every aggregate curve."""
         summary = self.batch.summary().drop(columns=["aggregate"])
@@ -137,13 +144,13 @@ class Comparison:
         """The numbers a summary leads with.
 
         ``Q_ratio`` (Q_eff / Q_mapped) and its interval, the t50 delay of the network
-        behind the Bass difference model (the same grid and step), the ratio of peak
+        behind the :attr:`reference` model (the same grid and step), the ratio of peak
         new-customer shares, and the largest gap to that model and when it occurs.
         """
         m = self.metrics.set_index("metric")
         g = self.gaps.set_index("aggregate")
         f = self.fits.set_index("parameter")
-        ref = "bass_difference"
+        ref = self.reference
         out = {
             "Q_mapped": float(f.loc["Q", "mapped"]),
             "Q_eff": float(f.loc["Q", "estimate"]),
@@ -162,7 +169,7 @@ class Comparison:
             "peak_ratio_high": float(m.loc["peak_new_share", "network_high"] / m.loc["peak_new_share", ref]),
             "max_gap": float(g.loc[ref, "gap_at_max"]),
             "time_of_max_gap": float(g.loc[ref, "time_of_max_gap"]),
-            "rmse_bass": float(g.loc[ref, "rmse"]),
+            "rmse_reference": float(g.loc[ref, "rmse"]),
             "rmse_degree_mean_field": float(g.loc["degree_mean_field", "rmse"]),
         }
         return out
@@ -178,7 +185,7 @@ class Comparison:
 
         Files: ``compare_curves.csv``, ``compare_metrics.csv``, ``compare_gaps.csv``,
         ``compare_fits.csv``, ``compare_replicates.csv`` (per-replicate metrics, fits and
-        gaps to the Bass difference model), ``comparison.png``, ``compare_manifest.json``.
+        gaps to the :attr:`reference` model), ``comparison.png``, ``compare_manifest.json``.
         Each is written atomically (:func:`womlab.outputs.atomic_write`).
 
         Raises
@@ -220,8 +227,9 @@ class Comparison:
 
     def _replicate_table(self) -> pd.DataFrame:
         fits = self.replicate_fits.rename(columns={c: f"fit_{c}" for c in self.replicate_fits.columns if c != "replicate"})
-        gaps = self.replicate_gaps[self.replicate_gaps["aggregate"] == "bass_difference"].drop(columns=["aggregate"])
-        gaps = gaps.rename(columns={c: f"{c}_bass_difference" for c in gaps.columns if c != "replicate"})
+        ref = self.reference
+        gaps = self.replicate_gaps[self.replicate_gaps["aggregate"] == ref].drop(columns=["aggregate"])
+        gaps = gaps.rename(columns={c: f"{c}_{ref}" for c in gaps.columns if c != "replicate"})
         return self.replicate_metrics.merge(fits, on="replicate").merge(gaps, on="replicate")
 
     def summary_text(self) -> str:
@@ -235,13 +243,13 @@ class Comparison:
             f"  word of mouth kept   Q_eff / Q_mapped = {h['Q_ratio']:.3f}  (95 % {h['Q_ratio_low']:.3f} to "
             f"{h['Q_ratio_high']:.3f}; Q_eff = {h['Q_eff']:.4g}, Q_mapped = {h['Q_mapped']:.4g}, "
             f"p_eff = {h['p_eff']:.3g}, m_eff = {h['m_eff']:.3g})",
-            f"  time to 50 %         network {h['t50_network']:.2f}, {h['t50_delay']:+.2f} periods vs the Bass "
-            f"difference model (95 % {h['t50_delay_low']:+.2f} to {h['t50_delay_high']:+.2f}); degree mean-field "
+            f"  time to 50 %         network {h['t50_network']:.2f}, {h['t50_delay']:+.2f} periods vs the "
+            f"{AGGREGATE_LABELS[self.reference]} (95 % {h['t50_delay_low']:+.2f} to {h['t50_delay_high']:+.2f}); degree mean-field "
             f"{h['t50_degree_mean_field']:.2f}",
-            f"  peak new customers   network / Bass = {h['peak_ratio']:.3f}  (95 % {h['peak_ratio_low']:.3f} to "
+            f"  peak new customers   network / model = {h['peak_ratio']:.3f}  (95 % {h['peak_ratio_low']:.3f} to "
             f"{h['peak_ratio_high']:.3f})",
             f"  largest gap          {h['max_gap']:+.3f} of the market at period {h['time_of_max_gap']:g}; RMSE "
-            f"{h['rmse_bass']:.3f} to Bass, {h['rmse_degree_mean_field']:.3f} to the degree mean-field",
+            f"{h["rmse_reference"]:.3f} to that model, {h['rmse_degree_mean_field']:.3f} to the degree mean-field",
             f"  stock-and-flow fit   slope {sf.slope:.4g}, cap {sf.cap:.3g} "
             f"({'converged' if sf.success else 'did not converge'})",
         ]

@@ -107,7 +107,7 @@ def comparison_figure(comparison, *, title: str | None = None) -> Figure:  # noq
     top.legend(loc="lower right", fontsize=7.5, frameon=False)
     top.set_title(title or batch.scenario.name, fontsize=11)
     top.text(0.02, 0.97, f"Q_eff / Q_mapped = {h['Q_ratio']:.2f} ({h['Q_ratio_low']:.2f}–{h['Q_ratio_high']:.2f})\n"
-             f"t50 delay vs Bass difference: {h['t50_delay']:+.2f} periods",
+             f"t50 delay vs {AGGREGATE_LABELS[comparison.reference]}: {h['t50_delay']:+.2f} periods",
              transform=top.transAxes, va="top", fontsize=8)
 
     new = np.diff(shares, axis=1)
@@ -120,10 +120,11 @@ def comparison_figure(comparison, *, title: str | None = None) -> Figure:  # noq
     mid.set_ylabel("new customers per period,\nshare of market")
     mid.grid(alpha=0.3)
 
-    ref = comparison.curves["bass_difference"]
+    ref_name = comparison.reference
+    ref = comparison.curves[ref_name]
     per_run = shares - ref
     band = bottom.fill_between(t, np.quantile(per_run, 0.05, axis=0), np.quantile(per_run, 0.95, axis=0),
-                               color=AGGREGATE_COLOUR, alpha=0.12, lw=0, label="5–95 % of runs, vs Bass difference")
+                               color=AGGREGATE_COLOUR, alpha=0.12, lw=0, label=f"5–95 % of runs, vs {AGGREGATE_LABELS[ref_name]}")
     bottom.axhline(0, color="black", lw=0.8)
     for name, curve in comparison.curves.items():
         bottom.plot(t, mean - curve, **CURVE_STYLES.get(name, {}))
