@@ -249,7 +249,7 @@ class Comparison:
             f"  peak new customers   network / model = {h['peak_ratio']:.3f}  (95 % {h['peak_ratio_low']:.3f} to "
             f"{h['peak_ratio_high']:.3f})",
             f"  largest gap          {h['max_gap']:+.3f} of the market at period {h['time_of_max_gap']:g}; RMSE "
-            f"{h["rmse_reference"]:.3f} to that model, {h['rmse_degree_mean_field']:.3f} to the degree mean-field",
+            f"{h['rmse_reference']:.3f} to that model, {h['rmse_degree_mean_field']:.3f} to the degree mean-field",
             f"  stock-and-flow fit   slope {sf.slope:.4g}, cap {sf.cap:.3g} "
             f"({'converged' if sf.success else 'did not converge'})",
         ]
