@@ -95,7 +95,7 @@ KINDS = ["complete", "ring", "regular", "random", "small_world", "regional", "sc
 def test_events_agree_with_discrete_engine_at_small_step(kind, tmp_path):
     # Two engines for the same continuous-time process: the discrete one at dt = 0.05 differs
     # only by O(dt). Mean share curves within 4 SE of the difference at every period (SE from
-    # the replicates' spread, 150 each); two-sample KS on final and mid-curve customer counts
+    # the replicates' spread, 120 each); two-sample KS on final and mid-curve customer counts
     # with p > 0.001. Poisson talkers and the count rule on some kinds exercise both rate forms.
     network = {"kind": kind, "mean_degree": 6}
     market = {"organisations": 500, "initial_customers": 5, "regions": 2}
@@ -114,10 +114,10 @@ def test_events_agree_with_discrete_engine_at_small_step(kind, tmp_path):
             "network": network,
             "adoption": {"rule": rule, "external": 0.01, "word_of_mouth": q, "satisfied_share": 0.8,
                          "talkers_per_customer": talkers},
-            "run": {"periods": 15, "time_step": 0.05, "clock": "discrete"},
+            "run": {"periods": 12, "time_step": 0.05, "clock": "discrete"},
         }
     )
-    reps = 150
+    reps = 120
     discrete = run_replicates(s, reps).shares()
     events = run_replicates(s.replace("run.clock", "continuous"), reps).shares()
     se = np.sqrt(discrete.var(axis=0, ddof=1) / reps + events.var(axis=0, ddof=1) / reps)
