@@ -31,6 +31,14 @@ from .metrics import curve_metrics, time_to_share
 from .networks import ReferralNetwork, build_network, read_edgelist
 from .outputs import save_batch
 from .plots import adoption_figure
+from .referrals import (
+    generations,
+    referral_tree_summary,
+    referrals_per_customer,
+    reproduction_by_period,
+    top_degree_referral_share,
+    word_of_mouth_by_period,
+)
 from .results import RunResult
 from .scenario import Scenario, load_scenario
 from .seeding import STRATEGIES, choose_seeds
@@ -58,9 +66,13 @@ __all__ = [
     "build_network",
     "choose_seeds",
     "curve_metrics",
+    "generations",
     "load_scenario",
     "mapped_parameters",
     "read_edgelist",
+    "referral_tree_summary",
+    "referrals_per_customer",
+    "reproduction_by_period",
     "run_one",
     "run_paired",
     "run_replicates",
@@ -68,4 +80,6 @@ __all__ = [
     "stock_and_flow",
     "streams",
     "time_to_share",
+    "top_degree_referral_share",
+    "word_of_mouth_by_period",
 ]
