@@ -31,6 +31,7 @@ from .metrics import curve_metrics, time_to_share
 from .networks import ReferralNetwork, build_network, read_edgelist
 from .outputs import save_batch
 from .plots import adoption_figure
+from .programme import ProgrammeStudy, evaluate_programme, programme_economics
 from .referrals import (
     generations,
     referral_tree_summary,
@@ -50,6 +51,7 @@ __all__ = [
     "AggregateParameters",
     "Batch",
     "NetworkError",
+    "ProgrammeStudy",
     "ReferralNetwork",
     "RunResult",
     "STRATEGIES",
@@ -66,9 +68,11 @@ __all__ = [
     "build_network",
     "choose_seeds",
     "curve_metrics",
+    "evaluate_programme",
     "generations",
     "load_scenario",
     "mapped_parameters",
+    "programme_economics",
     "read_edgelist",
     "referral_tree_summary",
     "referrals_per_customer",
