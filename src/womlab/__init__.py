@@ -29,8 +29,8 @@ from .aggregate import (
 from .errors import NetworkError, ScenarioError, StoreError, WomlabError
 from .metrics import curve_metrics, time_to_share
 from .networks import ReferralNetwork, build_network, read_edgelist
-from .outputs import save_batch
-from .plots import adoption_figure
+from .outputs import save_batch, save_programme
+from .plots import adoption_figure, programme_figure, referral_tree_figure
 from .programme import ProgrammeStudy, evaluate_programme, programme_economics
 from .referrals import (
     generations,
@@ -73,7 +73,9 @@ __all__ = [
     "load_scenario",
     "mapped_parameters",
     "programme_economics",
+    "programme_figure",
     "read_edgelist",
+    "referral_tree_figure",
     "referral_tree_summary",
     "referrals_per_customer",
     "reproduction_by_period",
@@ -81,6 +83,7 @@ __all__ = [
     "run_paired",
     "run_replicates",
     "save_batch",
+    "save_programme",
     "stock_and_flow",
     "streams",
     "time_to_share",

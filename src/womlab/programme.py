@@ -50,6 +50,7 @@ from .scenario import Referral, Scenario
 
 __all__ = [
     "ENROLMENT_STREAM",
+    "PROGRAMME_ENGINES",
     "ProgrammeRun",
     "enrolment_rng",
     "enrolled_organisations",
@@ -66,6 +67,9 @@ __all__ = [
 #: Extra spawn-key word of the enrolment stream ("REFR" in ASCII): far above any child
 #: index that spawning from the dynamics stream would ever produce.
 ENROLMENT_STREAM = 0x52454652
+
+#: Engines that apply a referral programme inside their step loop.
+PROGRAMME_ENGINES = ("array",)
 
 
 def enrolment_rng(rng: np.random.Generator) -> np.random.Generator:
@@ -523,6 +527,11 @@ def evaluate_programme(
     if not scenario.referral.active:
         raise ScenarioError(
             'referral.enrol must be one of all, share, strategy to evaluate a programme, got "none"'
+        )
+    if scenario.run.engine not in PROGRAMME_ENGINES:
+        raise ScenarioError(
+            f"run.engine must be one of {', '.join(PROGRAMME_ENGINES)} for a referral programme "
+            f"(the programme is not yet applied by the others), got {scenario.run.engine!r}"
         )
     replicates = scenario.run.replicates if replicates is None else replicates
     jobs = scenario.run.jobs if jobs is None else jobs
