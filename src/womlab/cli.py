@@ -83,6 +83,20 @@ def cmd_referral(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_compare(args: argparse.Namespace) -> int:
+    from .gaps import compare
+
+    scenario = _load(args)
+    out = Path(args.out) if args.out else Path("out") / f"{Path(args.config).stem}-compare"
+    comparison = compare(scenario, bootstrap=args.bootstrap, progress=not args.quiet)
+    written = comparison.save(out)
+    print(comparison.summary_text())
+    print()
+    _print_table(comparison.metrics)
+    print(f"wrote {len(written)} files to {out}/")
+    return 0
+
+
 def cmd_check(args: argparse.Namespace) -> int:
     from .aggregate import bass_peak_time, mapped_parameters
     from .scenario import load_scenario
@@ -138,6 +152,19 @@ def build_parser() -> argparse.ArgumentParser:
     referral.add_argument("--out", help="results folder (default out/<config name>-referral)")
     referral.add_argument("--quiet", action="store_true", help="no progress bar")
     referral.set_defaults(func=cmd_referral)
+
+    comp = sub.add_parser(
+        "compare",
+        help="run replicates and set the network beside every aggregate model: gaps, fitted parameters, figure",
+    )
+    comp.add_argument("config", help="scenario TOML file")
+    comp.add_argument("--replicates", type=_positive, help="number of replicate runs (overrides run.replicates)")
+    comp.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
+    comp.add_argument("--engine", choices=["array", "mesa"], help="overrides run.engine")
+    comp.add_argument("--bootstrap", type=_positive, default=1000, help="bootstrap resamples for the intervals (default 1000)")
+    comp.add_argument("--out", help="results folder (default out/<config name>-compare)")
+    comp.add_argument("--quiet", action="store_true", help="no progress bar")
+    comp.set_defaults(func=cmd_compare)
 
     check = sub.add_parser("check", help="validate a scenario and print its derived quantities")
     check.add_argument("config", help="scenario TOML file")
