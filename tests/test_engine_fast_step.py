@@ -14,6 +14,7 @@ import pytest
 
 from womlab import Scenario, build_network, rules
 from womlab.engine import pick_referrers, run_array
+from womlab.programme import start_programme
 
 
 def plain_run(scenario, network, initial, rng):
@@ -23,20 +24,24 @@ def plain_run(scenario, network, initial, rng):
     sat = rules.draw_satisfied(adoption.satisfied_share, n, rng)
     resistance = rng.standard_exponential(n)
     u_cause = rng.random(n)
-    period = np.full(n, -1, dtype=np.int32)
+    adopted_in = np.full(n, -1, dtype=np.int32)
     referrer = np.full(n, -1, dtype=np.int32)
     customer = np.zeros(n, dtype=bool)
     customer[initial] = True
-    period[initial] = 0
-    talk = np.where(customer & sat, tau, np.float32(0)).astype(np.float64)
+    adopted_in[initial] = 0
+    talk = np.where(customer & sat, tau, np.float32(0))
     hazard = np.zeros(n)
+    programme = start_programme(scenario, network, rng)
     if network.complete:
         all_talkers = tau.sum(dtype=np.float64) - tau
     else:
         matrix = network.matrix(np.float64)
         all_talkers = matrix @ tau.astype(np.float64)
     for step in range(1, run.periods * spp + 1):
-        talking = (talk.sum() - talk) if network.complete else matrix @ talk
+        period = (step + spp - 1) // spp
+        counted = talk if programme is None else programme.talk(talk, customer & sat, period)
+        counted = counted.astype(np.float64)
+        talking = (counted.sum() - counted) if network.complete else matrix @ counted
         potential = ~customer
         rate = rules.adoption_rate(rule, talking, all_talkers, adoption)
         hazard += np.where(potential, rules.step_hazard(rate, dt, form), 0.0)
@@ -48,11 +53,13 @@ def plain_run(scenario, network, initial, rng):
         wom = new[by_wom]
         if wom.size:
             u = (u_cause[wom] - ext[by_wom]) / (1 - ext[by_wom])
-            referrer[wom] = pick_referrers(network, wom, talk.astype(np.float32), u)
+            referrer[wom] = pick_referrers(network, wom, counted, u)
+            if programme is not None:
+                programme.settle(period, wom, referrer[wom])
         customer[new] = True
-        period[new] = (step + spp - 1) // spp
+        adopted_in[new] = period
         talk[new] = np.where(sat[new], tau[new], 0.0)
-    return period, referrer, customer & sat
+    return adopted_in, referrer, customer & sat, programme
 
 
 CASES = [
@@ -85,7 +92,7 @@ def test_fast_step_is_the_plain_step(kind, rule, form, dt, talkers, p):
         net = build_network(s, np.random.default_rng([seed, 1]))
         initial = np.sort(np.random.default_rng([seed, 2]).choice(800, 8, replace=False)).astype(np.int32)
         fast = run_array(s, net, initial, np.random.default_rng([seed, 3]))
-        period, referrer, satisfied = plain_run(s, net, initial, np.random.default_rng([seed, 3]))
+        period, referrer, satisfied, _ = plain_run(s, net, initial, np.random.default_rng([seed, 3]))
         assert np.array_equal(fast.adoption_period, period)
         assert np.array_equal(fast.referrer, referrer)
         assert np.array_equal(fast.satisfied, satisfied)
@@ -98,3 +105,30 @@ def test_external_rate_above_one_step_adopts_everyone_at_once():
                             "adoption": {"external": 1.0}, "run": {"periods": 3, "step_probability": "linear"}})
     r = run_array(s, build_network(s, np.random.default_rng(0)), np.array([0, 1], dtype=np.int32), np.random.default_rng(1))
     assert r.customers.tolist() == [2, 200, 200, 200]
+
+
+@pytest.mark.parametrize("kind", ["small_world", "complete"])
+def test_fast_step_is_the_plain_step_with_a_referral_programme(kind):
+    # a programme boosts enrolled customers' talk in a window and stops when its budget is
+    # spent: the fast step recomputes exposure when the boost starts or stops, and must match
+    s = Scenario.from_dict(
+        {
+            "seed": 5,
+            "market": {"organisations": 600, "initial_customers": 6},
+            "network": {"kind": kind, "mean_degree": 6},
+            "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.7, "talkers_per_customer": 1},
+            "run": {"periods": 30, "time_step": 0.5},
+            "referral": {"enrol": "share", "enrol_share": 0.5, "start": 4, "end": 20, "talk_multiplier": 2.0,
+                         "extra_talkers": 1.0, "reward": 1.0, "budget": 60.0},
+        }
+    )
+    for seed in range(2):
+        net = build_network(s, np.random.default_rng([seed, 1]))
+        initial = np.arange(6, dtype=np.int32) * 100
+        dyn = np.random.SeedSequence(seed)
+        fast = run_array(s, net, initial, np.random.default_rng(dyn))
+        period, referrer, satisfied, programme = plain_run(s, net, initial, np.random.default_rng(dyn))
+        assert np.array_equal(fast.adoption_period, period)
+        assert np.array_equal(fast.referrer, referrer)
+        assert np.array_equal(fast.extra["programme_cost"], programme.record()["programme_cost"])
+        assert 0 < fast.extra["budget_exhausted_period"] < 30  # the budget ran out inside the window

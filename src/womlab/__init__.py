@@ -51,8 +51,17 @@ from .metrics import (
     time_to_share,
 )
 from .networks import ReferralNetwork, build_network, read_edgelist
-from .outputs import save_batch
-from .plots import adoption_figure, comparison_figure
+from .outputs import save_batch, save_programme
+from .plots import adoption_figure, comparison_figure, programme_figure, referral_tree_figure
+from .programme import ProgrammeStudy, evaluate_programme, programme_economics
+from .referrals import (
+    generations,
+    referral_tree_summary,
+    referrals_per_customer,
+    reproduction_by_period,
+    top_degree_referral_share,
+    word_of_mouth_by_period,
+)
 from .results import RunResult
 from .scenario import Scenario, load_scenario
 from .seeding import STRATEGIES, choose_seeds
@@ -66,6 +75,7 @@ __all__ = [
     "Batch",
     "Comparison",
     "NetworkError",
+    "ProgrammeStudy",
     "ReferralNetwork",
     "RunResult",
     "STRATEGIES",
@@ -92,22 +102,33 @@ __all__ = [
     "degree_classes",
     "degree_mean_field",
     "degree_mean_field_curve",
+    "evaluate_programme",
     "fit_bass",
     "fit_bass_sales",
     "fit_replicates",
     "fit_stock_and_flow",
+    "generations",
     "load_scenario",
     "mapped_parameters",
     "pooled_gaps",
     "pooled_metrics",
+    "programme_economics",
+    "programme_figure",
     "read_edgelist",
+    "referral_tree_figure",
+    "referral_tree_summary",
+    "referrals_per_customer",
     "replicate_gaps",
     "replicate_metrics",
+    "reproduction_by_period",
     "run_one",
     "run_paired",
     "run_replicates",
     "save_batch",
+    "save_programme",
     "stock_and_flow",
     "streams",
     "time_to_share",
+    "top_degree_referral_share",
+    "word_of_mouth_by_period",
 ]

@@ -30,6 +30,14 @@ was exposed (Tᵢ > 0). Hence:
 The rule's rate from exposure is computed in one place, :func:`exposed_hazard`; a rule
 whose rate is not a function of Tᵢ and Dᵢ changes that function (and the bucketing,
 if its rate without talking neighbours is not constant).
+
+A referral programme (``[referral]``, :mod:`womlab.programme`) touches the loop at two
+marked points only: the talkers that count in a step (boosted for enrolled satisfied
+customers while the programme runs) and, after attribution, the payment for the step's
+referrals. Its enrolment draws come from a stream of their own, so the draws above are
+the same with or without a programme. Exposure is recomputed in full (one sparse
+product) in the steps where the programme starts or stops boosting, and kept up to date
+incrementally in between.
 """
 
 from __future__ import annotations
@@ -38,6 +46,7 @@ import numpy as np
 
 from . import rules
 from .networks import ReferralNetwork
+from .programme import ProgrammeRun, start_programme
 from .results import RunResult
 from .scenario import Adoption, Scenario
 
@@ -128,11 +137,13 @@ def run_array(
     customer[initial] = True
     adoption_step[initial] = 0
     talk = np.where(customer & would_be_satisfied, tau, np.float32(0))
+    programme = start_programme(scenario, network, rng)  # None without a programme; draws nothing from rng
 
+    state = _State(tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer, programme)
     if network.complete:
-        _run_complete(network, scenario, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer)
+        _run_complete(network, scenario, state)
     else:
-        _run_sparse(network, scenario, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer)
+        _run_sparse(network, scenario, state)
 
     adopted = adoption_step >= 0
     adoption_period = np.where(adopted, (adoption_step + spp - 1) // spp, -1).astype(np.int32)
@@ -146,67 +157,83 @@ def run_array(
         engine="array",
         adoption_time=np.where(adopted, adoption_step / spp, np.nan),
         report_every=run.report_every,
+        extra={} if programme is None else programme.record(),
     )
 
 
-def _attribute(
-    network: ReferralNetwork,
-    scenario: Scenario,
-    new: np.ndarray,
-    talking_new: np.ndarray,
-    total_new: np.ndarray,
-    talk: np.ndarray,
-    u_cause: np.ndarray,
-    referrer: np.ndarray,
-) -> None:
-    """Draw each new adopter's cause: external, or a talking neighbour ∝ its talkers."""
-    adoption = scenario.adoption
-    ext = rules.external_share(adoption.rule, talking_new, total_new, adoption)
-    by_wom = u_cause[new] >= ext
-    wom = new[by_wom]
-    if wom.size:
-        u = (u_cause[wom] - ext[by_wom]) / (1 - ext[by_wom])
-        referrer[wom] = pick_referrers(network, wom, talk, u)
+class _State:
+    """One run's per-organisation arrays (no per-organisation objects), shared by the step loops."""
+
+    def __init__(self, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer,  # noqa: ANN001
+                 programme: ProgrammeRun | None) -> None:
+        self.tau, self.talk, self.would_be_satisfied = tau, talk, would_be_satisfied
+        self.resistance, self.u_cause = resistance, u_cause
+        self.customer, self.adoption_step, self.referrer = customer, adoption_step, referrer
+        self.programme = programme
+
+    def boosting(self, period: int) -> bool:
+        return self.programme is not None and self.programme.running(period)
+
+    def counted(self, period: int) -> np.ndarray:
+        """Programme: the talkers that count in ``period`` (``talk`` itself without a boost)."""
+        if not self.boosting(period):
+            return self.talk
+        return self.programme.talk(self.talk, self.customer & self.would_be_satisfied, period)
+
+    def adopt(self, network, scenario, new, talking_new, total_new, step, period) -> None:  # noqa: ANN001
+        """Attribute, pay (programme) and apply the step's adoptions ``new``."""
+        adoption = scenario.adoption
+        counted = self.counted(period)
+        ext = rules.external_share(adoption.rule, talking_new, total_new, adoption)
+        by_wom = self.u_cause[new] >= ext
+        wom = new[by_wom]
+        if wom.size:
+            u = (self.u_cause[wom] - ext[by_wom]) / (1 - ext[by_wom])
+            self.referrer[wom] = pick_referrers(network, wom, counted, u)
+            if self.programme is not None:  # programme: pay for this step's attributed referrals
+                self.programme.settle(period, wom, self.referrer[wom])
+        self.customer[new] = True
+        self.adoption_step[new] = step
+        self.talk[new] = np.where(self.would_be_satisfied[new], self.tau[new], np.float32(0))
 
 
-def _run_complete(network, scenario, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer) -> None:  # noqa: ANN001, E501
+def _run_complete(network: ReferralNetwork, scenario: Scenario, st: _State) -> None:
     """Complete network from totals: every potential customer's exposure is the market's talk."""
     adoption, run = scenario.adoption, scenario.run
-    dt, form, rule = run.time_step, run.step_probability, adoption.rule
-    potential = np.flatnonzero(~customer)
-    total = float(tau.sum(dtype=np.float64)) - tau[potential].astype(np.float64)
-    res = resistance[potential]
+    dt, form, rule, spp = run.time_step, run.step_probability, adoption.rule, run.steps_per_period
+    potential = np.flatnonzero(~st.customer)
+    total = float(st.tau.sum(dtype=np.float64)) - st.tau[potential].astype(np.float64)
+    res = st.resistance[potential]
     hazard = np.zeros(potential.size)
-    market_talk = float(talk.sum(dtype=np.float64))
-    for step in range(1, run.periods * run.steps_per_period + 1):
-        talking = np.full(potential.size, market_talk)  # a potential customer's own talk is 0
+    for step in range(1, run.periods * spp + 1):
+        period = (step + spp - 1) // spp
+        # a potential customer's own talk is 0, so its exposure is the whole market's
+        talking = np.full(potential.size, st.counted(period).sum(dtype=np.float64))
         hazard += exposed_hazard(rule, talking, total, adoption, dt, form)
         hit = hazard >= res
         if not hit.any():
             continue
-        new = potential[hit]
-        _attribute(network, scenario, new, talking[hit], total[hit], talk, u_cause, referrer)
-        customer[new] = True
-        adoption_step[new] = step
-        talk[new] = np.where(would_be_satisfied[new], tau[new], np.float32(0))
-        market_talk += float(talk[new].sum(dtype=np.float64))
+        st.adopt(network, scenario, potential[hit], talking[hit], total[hit], step, period)
         keep = ~hit
         potential, total, res, hazard = potential[keep], total[keep], res[keep], hazard[keep]
 
 
-def _run_sparse(network, scenario, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer) -> None:  # noqa: ANN001, E501
+def _run_sparse(network: ReferralNetwork, scenario: Scenario, st: _State) -> None:
     """CSR network: work on the exposed potential customers only; exposure updated incrementally."""
     adoption, run = scenario.adoption, scenario.run
-    n, dt, form, rule = network.n, run.time_step, run.step_probability, adoption.rule
-    steps = run.periods * run.steps_per_period
-    total = network.matrix(np.float64) @ tau.astype(np.float64)  # Dᵢ, fixed for the run
+    n, dt, form, rule, spp = network.n, run.time_step, run.step_probability, adoption.rule, run.steps_per_period
+    steps = run.periods * spp
+    customer, resistance = st.customer, st.resistance
+    matrix = network.matrix(np.float64)
+    total = matrix @ st.tau.astype(np.float64)  # Dᵢ, fixed for the run
     zero = np.zeros(1)
     h0 = float(exposed_hazard(rule, zero, zero, adoption, dt, form)[0])  # a step's hazard with no talking neighbour
+    finite = bool(np.isfinite(h0))
 
     # never-exposed organisations adopt by external influence at the first step s with h0·s >= Eᵢ
     if h0 > 0:
         with np.errstate(over="ignore", invalid="ignore"):
-            first = np.ceil(resistance / h0) if np.isfinite(h0) else np.ones(n)
+            first = np.ceil(resistance / h0) if finite else np.ones(n)
         first = np.where(first < 1, 1, first)
         due = np.flatnonzero(first <= steps)
         due = due[np.argsort(first[due], kind="stable")].astype(np.int32)
@@ -220,22 +247,33 @@ def _run_sparse(network, scenario, tau, talk, would_be_satisfied, resistance, u_
     # the active set (exposed potential customers), kept compact: ids, Dᵢ, Eᵢ, Xᵢ
     a_ids = np.zeros(0, dtype=np.int32)
     a_total, a_res, a_extra = np.zeros(0), np.zeros(0), np.zeros(0)
-    finite = bool(np.isfinite(h0))
-    speakers = np.flatnonzero(talk > 0).astype(np.int32)
+    speakers = np.zeros(0, dtype=np.int32)
+    boosting = None
+
+    def expose(candidates: np.ndarray) -> None:
+        nonlocal a_ids, a_total, a_res, a_extra
+        fresh = candidates[~exposed[candidates] & ~customer[candidates]]
+        if fresh.size:
+            stamp[fresh] = np.arange(fresh.size)
+            fresh = fresh[stamp[fresh] == np.arange(fresh.size)]  # one of each
+            exposed[fresh] = True
+            a_ids = np.concatenate([a_ids, fresh])
+            a_total = np.concatenate([a_total, total[fresh]])
+            a_res = np.concatenate([a_res, resistance[fresh]])
+            a_extra = np.concatenate([a_extra, np.zeros(fresh.size)])
+
     for step in range(1, steps + 1):
-        if speakers.size:  # exposure from those who started talking last step
+        period = (step + spp - 1) // spp
+        if st.boosting(period) != boosting:  # first step, or the programme starts or stops boosting
+            boosting = st.boosting(period)
+            talking = matrix @ st.counted(period).astype(np.float64)
+            expose(np.flatnonzero(talking > 0))
+        elif speakers.size:  # exposure from those who started talking last step
             offsets, lengths = _row_entries(network, speakers)
             nbrs = network.indices[offsets]
-            np.add.at(talking, nbrs, np.repeat(talk[speakers].astype(np.float64), lengths))
-            fresh = nbrs[~exposed[nbrs] & ~customer[nbrs]]
-            if fresh.size:
-                stamp[fresh] = np.arange(fresh.size)
-                fresh = fresh[stamp[fresh] == np.arange(fresh.size)]  # one of each
-                exposed[fresh] = True
-                a_ids = np.concatenate([a_ids, fresh])
-                a_total = np.concatenate([a_total, total[fresh]])
-                a_res = np.concatenate([a_res, resistance[fresh]])
-                a_extra = np.concatenate([a_extra, np.zeros(fresh.size)])
+            counted = np.repeat(st.counted(period)[speakers].astype(np.float64), lengths)
+            np.add.at(talking, nbrs, counted)
+            expose(nbrs[counted > 0])
         parts = []
         hit = None
         if a_ids.size:
@@ -251,11 +289,8 @@ def _run_sparse(network, scenario, tau, talk, would_be_satisfied, resistance, u_
         speakers = np.zeros(0, dtype=np.int32)
         if new.size == 0:
             continue
-        _attribute(network, scenario, new, talking[new], total[new], talk, u_cause, referrer)
-        customer[new] = True
-        adoption_step[new] = step
-        talk[new] = np.where(would_be_satisfied[new], tau[new], np.float32(0))
-        speakers = new[talk[new] > 0]
+        st.adopt(network, scenario, new, talking[new], total[new], step, period)
+        speakers = new if boosting else new[st.talk[new] > 0]  # a boost may make a silent customer count
         if hit is not None and hit.any():
             keep = ~hit
             a_ids, a_total, a_res, a_extra = a_ids[keep], a_total[keep], a_res[keep], a_extra[keep]
