@@ -578,17 +578,16 @@ def _attach_in_arrays(base: np.ndarray, first: int, rows: int, m: int, rng: np.r
         out[in_base] = -(base[pos[in_base]] + 1)
         return out
 
+    coded = code(draws.ravel()).reshape(rows, -1)  # fixed while the draws are
     for _ in range(1000):
-        chosen = np.take_along_axis(draws, select, axis=1)
-        pointer = code(chosen.ravel())
+        pointer = np.take_along_axis(coded, select, axis=1).ravel()
         while True:  # pointer jumping: each round halves every remaining chain
             live = np.flatnonzero(pointer >= 0)
             if live.size == 0:
                 break
             pointer[live] = pointer[pointer[live]]
         resolved = -pointer - 1  # organisation in each target slot
-        value = code(draws.ravel()).reshape(rows, -1)
-        value = np.where(value >= 0, resolved[np.maximum(value, 0)], -value - 1)
+        value = np.where(coded >= 0, resolved[np.maximum(coded, 0)], -coded - 1)
         # first m distinct values in each row's sequence of draws
         order = np.argsort(value, axis=1, kind="stable")
         sorted_values = np.take_along_axis(value, order, axis=1)
@@ -602,6 +601,7 @@ def _attach_in_arrays(base: np.ndarray, first: int, rows: int, m: int, rng: np.r
         if short.size:  # some row ran out of draws: give every row m more, then resolve again
             more = np.floor(rng.random((rows, m)) * lengths[:, None]).astype(np.int64)
             draws = np.concatenate([draws, more], axis=1)
+            coded = np.concatenate([coded, code(more.ravel()).reshape(rows, m)], axis=1)
             continue
         new_select = np.argsort(~(fresh & (rank <= m)), axis=1, kind="stable")[:, :m]
         if np.array_equal(new_select, select):
