@@ -117,7 +117,7 @@ def mapped_parameters(scenario: Scenario) -> AggregateParameters:
     return AggregateParameters(
         p=a.external,
         Q=Q,
-        initial_share=m.n_initial / n,
+        initial_share=scenario.n_initial / n,
         mean_degree=k,
         mean_talkers=tau,
         slope=q * k / n if a.rule != "share" else q / (n * max(tau, 1e-300)),
@@ -235,7 +235,7 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
         customers = stock_and_flow(
             run.periods,
             n,
-            scenario.market.n_initial,
+            scenario.n_initial,
             slope=par.slope,
             satisfied_share=a.satisfied_share,
             talkers_per_customer=par.mean_talkers,

@@ -69,7 +69,8 @@ def cmd_check(args: argparse.Namespace) -> int:
     rows = [
         ("scenario", scenario.name),
         ("organisations", scenario.market.organisations),
-        ("initial customers", scenario.market.n_initial),
+        ("initial customers", scenario.n_initial),
+        ("seeding strategy", scenario.seeding.strategy),
         ("regions", scenario.market.regions),
         ("network", scenario.network.kind),
         ("mean degree", f"{par.mean_degree:.4g}"),

@@ -36,6 +36,15 @@ The file has one table per section::
     engine = "array"
     jobs = 1
 
+    [seeding]                   # optional: who the initial customers are
+    strategy = "hubs"           # random hubs bridges pagerank coreness fringe by_region spread greedy
+    budget = 120                # or leave out: market.initial_customers / initial_share
+
+    [study]                     # optional: the paired comparison of seeding strategies
+    strategies = ["random", "hubs", "bridges", "by_region"]
+    replicates = 200
+    discount_rate = 0.01        # per period, for discounted customer-periods
+
 Adding a section: write a frozen dataclass with a ``section`` class variable and a
 ``check(self, scenario)`` method, add it as a field of :class:`Scenario` and to
 ``SECTIONS``. Loading, type checks, unknown-key messages and ``replace`` are generic.
@@ -61,6 +70,8 @@ __all__ = [
     "Talkers",
     "Adoption",
     "RunSpec",
+    "Seeding",
+    "Study",
     "Scenario",
     "load_scenario",
     "NETWORK_KINDS",
@@ -73,6 +84,7 @@ NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "region
 RULES = ("share", "count", "capped")
 STEP_FORMS = ("exponential", "linear")
 ENGINES = ("array", "mesa")
+STUDY_OUTCOMES = ("customers", "customer_periods")
 TALKER_DISTRIBUTIONS = ("fixed", "poisson")
 
 
@@ -317,11 +329,120 @@ class RunSpec:
         return int(round(1 / self.time_step))
 
 
+@dataclass(frozen=True, kw_only=True)
+class Seeding:
+    """Who the initial customers are: a seeding strategy and its budget.
+
+    The number of initial customers is ``budget`` when given, else
+    ``market.initial_customers`` (or ``market.initial_share``); giving both with
+    different values is an error, so a scenario never says two things at once. The
+    strategy then chooses *which* organisations they are (``random`` by default: the
+    initial customers drawn uniformly, as without this section).
+
+    Parameters
+    ----------
+    strategy : str
+        A name registered in :data:`womlab.seeding.STRATEGIES`: ``random, hubs, bridges,
+        pagerank, coreness, fringe, by_region, spread, greedy``.
+    budget : int, optional
+        Number of initial customers (seeds).
+    betweenness_exact_up_to : int
+        ``bridges`` computes exact betweenness up to this many organisations and
+        sampled betweenness above it.
+    betweenness_sample : int
+        Number of source organisations sampled for betweenness on larger networks.
+    greedy_runs : int
+        Monte Carlo runs of the scenario's rule per evaluation of a seed set (``greedy``).
+    greedy_candidates : int
+        ``greedy`` considers only this many highest-degree organisations as candidates
+        (0: every organisation).
+    """
+
+    section: ClassVar[str] = "seeding"
+    strategy: str = "random"
+    budget: int | None = None
+    betweenness_exact_up_to: int = 3000
+    betweenness_sample: int = 500
+    greedy_runs: int = 20
+    greedy_candidates: int = 100
+
+    def check(self, scenario: Scenario) -> None:
+        from .seeding import STRATEGIES  # late import: seeding imports scenario; the registry is the truth
+
+        _one_of("seeding.strategy", self.strategy, tuple(sorted(STRATEGIES)))
+        m = scenario.market
+        if self.budget is not None:
+            if not (0 <= self.budget <= m.organisations):
+                _fail("seeding.budget", self.budget, f"between 0 and market.organisations = {m.organisations}")
+            given = m.initial_customers is not None or m.initial_share is not None
+            if given and m.n_initial != self.budget:
+                raise ScenarioError(
+                    f"seeding.budget = {self.budget} disagrees with market initial customers = {m.n_initial}; "
+                    "give the number of initial customers in one place (or the same number in both)"
+                )
+        _positive_int("seeding.betweenness_sample", self.betweenness_sample)
+        _non_negative("seeding.betweenness_exact_up_to", self.betweenness_exact_up_to)
+        _positive_int("seeding.greedy_runs", self.greedy_runs)
+        _non_negative("seeding.greedy_candidates", self.greedy_candidates)
+
+
+@dataclass(frozen=True, kw_only=True)
+class Study:
+    """The paired comparison of seeding strategies (:func:`womlab.compare_strategies`).
+
+    Parameters
+    ----------
+    strategies : list of str
+        Strategies to compare; ``random`` (the baseline of every lift) is added first
+        when missing.
+    replicates : int, optional
+        Paired replicates; defaults to ``run.replicates``.
+    discount_rate : float
+        Discount rate per period r of the discounted customer-periods
+        Σₜ customersₜ / (1 + r)ᵗ, t = 1..T.
+    outcome : str
+        The outcome lifts are computed on: ``customers`` (at the horizon) or
+        ``customer_periods`` (discounted).
+    bootstrap : int
+        Paired bootstrap resamples for the lift intervals.
+    """
+
+    section: ClassVar[str] = "study"
+    strategies: tuple[str, ...] = ("random", "hubs", "bridges", "pagerank", "coreness", "fringe", "by_region", "spread")
+    replicates: int | None = None
+    discount_rate: float = 0.0
+    outcome: str = "customers"
+    bootstrap: int = 2000
+
+    def check(self, scenario: Scenario) -> None:
+        from .seeding import STRATEGIES
+
+        if not self.strategies:
+            _fail("study.strategies", list(self.strategies), "a non-empty list of strategy names")
+        known = tuple(sorted(STRATEGIES))
+        for i, name in enumerate(self.strategies):
+            _one_of(f"study.strategies[{i}]", name, known)
+        if len(set(self.strategies)) != len(self.strategies):
+            _fail("study.strategies", list(self.strategies), "a list without repeated names")
+        if self.replicates is not None:
+            _positive_int("study.replicates", self.replicates)
+        _non_negative("study.discount_rate", self.discount_rate)
+        _one_of("study.outcome", self.outcome, STUDY_OUTCOMES)
+        _positive_int("study.bootstrap", self.bootstrap)
+
+    @property
+    def compared(self) -> tuple[str, ...]:
+        """The strategies as run: ``random`` first, then the others in the order given."""
+        return ("random", *(s for s in self.strategies if s != "random"))
+
+
 SECTIONS: dict[str, type] = {
     "market": Market,
     "network": NetworkSpec,
     "adoption": Adoption,
     "run": RunSpec,
+    "seeding": Seeding,
+    "study": Study,
 }
 _NESTED: dict[tuple[str, str], type] = {("adoption", "talkers_per_customer"): Talkers}
 
@@ -344,6 +465,8 @@ class Scenario:
     network: NetworkSpec = field(default_factory=NetworkSpec)
     adoption: Adoption = field(default_factory=Adoption)
     run: RunSpec = field(default_factory=RunSpec)
+    seeding: Seeding = field(default_factory=Seeding)
+    study: Study = field(default_factory=Study)
 
     def __post_init__(self) -> None:
         if not isinstance(self.seed, int) or self.seed < 0:
@@ -408,6 +531,11 @@ class Scenario:
     @property
     def organisations(self) -> int:
         return self.market.organisations
+
+    @property
+    def n_initial(self) -> int:
+        """Number of initial customers: ``seeding.budget`` when given, else ``market.n_initial``."""
+        return self.seeding.budget if self.seeding.budget is not None else self.market.n_initial
 
 
 def _section_type(parts: list[str]) -> type:
