@@ -30,10 +30,11 @@ from .errors import NetworkError, ScenarioError, StoreError, WomlabError
 from .metrics import curve_metrics, time_to_share
 from .networks import ReferralNetwork, build_network, read_edgelist
 from .outputs import save_batch
-from .plots import adoption_figure
+from .plots import adoption_figure, network_snapshot_figure, seeding_figure
 from .results import RunResult
 from .scenario import Scenario, load_scenario
 from .seeding import STRATEGIES, choose_seeds
+from .seeding_study import SeedingStudy, compare_strategies, lift_statistics, save_seeding_study
 from .studies import Batch, run_one, run_paired, run_replicates, streams
 
 __version__ = "0.1.0"
@@ -47,6 +48,7 @@ __all__ = [
     "STRATEGIES",
     "Scenario",
     "ScenarioError",
+    "SeedingStudy",
     "StoreError",
     "WomlabError",
     "adoption_figure",
@@ -57,14 +59,19 @@ __all__ = [
     "bass_share",
     "build_network",
     "choose_seeds",
+    "compare_strategies",
     "curve_metrics",
+    "lift_statistics",
     "load_scenario",
     "mapped_parameters",
+    "network_snapshot_figure",
     "read_edgelist",
     "run_one",
     "run_paired",
     "run_replicates",
     "save_batch",
+    "save_seeding_study",
+    "seeding_figure",
     "stock_and_flow",
     "streams",
     "time_to_share",

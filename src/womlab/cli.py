@@ -59,6 +59,26 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_seeding(args: argparse.Namespace) -> int:
+    from .scenario import load_scenario
+    from .seeding_study import compare_strategies, save_seeding_study
+
+    scenario = load_scenario(args.config)
+    out = Path(args.out) if args.out else Path("out") / f"{Path(args.config).stem}-seeding"
+    study = compare_strategies(scenario, replicates=args.replicates, jobs=args.jobs, progress=not args.quiet)
+    written = save_seeding_study(study, out)
+    table = study.strategies_table()
+    outcome = scenario.study.outcome
+    cols = ["strategy", f"{outcome}_mean", f"{outcome}_low", f"{outcome}_high", "lift_ratio", "lift_ratio_low",
+            "lift_ratio_high", "wilcoxon_p", "variance_reduction"]
+    print(f"{scenario.name}: {len(study.strategies)} seeding strategies x {study.replicates} paired replicates, "
+          f"budget {study.scenario.n_initial} of {scenario.market.organisations} organisations "
+          f"on a {scenario.network.kind} network, {study.wall_time:.1f} s")
+    _print_table(table[cols])
+    print(f"wrote {len(written)} files to {out}/")
+    return 0
+
+
 def cmd_check(args: argparse.Namespace) -> int:
     from .aggregate import bass_peak_time, mapped_parameters
     from .scenario import load_scenario
@@ -107,6 +127,14 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--out", help="results folder (default out/<config name>)")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
     run.set_defaults(func=cmd_run)
+
+    seeding = sub.add_parser("seeding", help="compare seeding strategies on paired replicates ([study] section)")
+    seeding.add_argument("config", help="scenario TOML file")
+    seeding.add_argument("--replicates", type=_positive, help="paired replicates (overrides study.replicates)")
+    seeding.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
+    seeding.add_argument("--out", help="results folder (default out/<config name>-seeding)")
+    seeding.add_argument("--quiet", action="store_true", help="no progress bar")
+    seeding.set_defaults(func=cmd_seeding)
 
     check = sub.add_parser("check", help="validate a scenario and print its derived quantities")
     check.add_argument("config", help="scenario TOML file")

@@ -56,6 +56,7 @@ import dataclasses
 import difflib
 import math
 import tomllib
+import types
 import typing
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -597,7 +598,8 @@ def _talkers(value: Any, dotted: str) -> Talkers:
 
 def _coerce(value: Any, hint: Any, dotted: str) -> Any:
     """Check ``value`` against a field's type hint; ints are accepted for floats."""
-    args = typing.get_args(hint)
+    union = typing.get_origin(hint) in (typing.Union, types.UnionType)
+    args = typing.get_args(hint) if union else ()  # a list hint's own args are its items, not alternatives
     optional = type(None) in args
     base = next((a for a in args if a is not type(None)), hint) if args else hint
     if value is None:
