@@ -19,8 +19,10 @@ Statistics per strategy
     percentile interval from a paired bootstrap (replicates resampled, the same resamples
     for every strategy, from their own seeded stream); a Wilcoxon signed-rank p-value of
     the paired differences (1 when every difference is zero); and what pairing bought:
-    the half-width of the paired difference's t-interval beside the unpaired one
-    (√(s²ₓ/R + s²_b/R)), and the variance reduction 1 − Var(x − b) / (Var x + Var b).
+    the half-width of the paired difference's t-interval (R − 1 degrees of freedom)
+    beside the half-width an unpaired design of the same size would give (pooled
+    two-sample t-interval, √(s²ₓ/R + s²_b/R), 2R − 2 degrees of freedom), and the
+    variance reduction 1 − Var(x − b) / (Var x + Var b).
 """
 
 from __future__ import annotations
@@ -146,7 +148,8 @@ def lift_statistics(
         p = 1.0
     else:
         p = float(stats.wilcoxon(x, b).pvalue)
-    tq = float(stats.t.ppf(0.975, r - 1)) if r > 1 else float("nan")
+    tq = float(stats.t.ppf(0.975, r - 1)) if r > 1 else float("nan")  # paired: R − 1 degrees of freedom
+    tq2 = float(stats.t.ppf(0.975, 2 * r - 2)) if r > 1 else float("nan")  # two independent samples: 2R − 2
     var_x, var_b, var_d = (float(v.var(ddof=1)) if r > 1 else float("nan") for v in (x, b, d))
     return {
         "lift_ratio": ratio,
@@ -157,7 +160,7 @@ def lift_statistics(
         "lift_diff_high": float(np.quantile(md, 0.975)),
         "wilcoxon_p": p,
         "paired_halfwidth": tq * np.sqrt(var_d / r),
-        "unpaired_halfwidth": tq * np.sqrt((var_x + var_b) / r),
+        "unpaired_halfwidth": tq2 * np.sqrt((var_x + var_b) / r),
         "variance_reduction": 1.0 - var_d / (var_x + var_b) if var_x + var_b > 0 else float("nan"),
     }
 
