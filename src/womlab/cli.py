@@ -39,8 +39,8 @@ def _load(args: argparse.Namespace):  # noqa: ANN202
     return scenario.replace(changes) if changes else scenario
 
 
-def _print_table(frame, out=sys.stdout) -> None:  # noqa: ANN001
-    print(frame.to_string(index=False, float_format=lambda v: f"{v:.4g}"), file=out)
+def _print_table(frame) -> None:  # noqa: ANN001
+    print(frame.to_string(index=False, float_format=lambda v: f"{v:.4g}"))
 
 
 def cmd_run(args: argparse.Namespace) -> int:

@@ -41,6 +41,9 @@ def atomic_write(path: Path, write: Callable[[Path], Any]) -> Path:
     os.close(fd)
     try:
         write(Path(tmp))
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; results folders are meant to be shared
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

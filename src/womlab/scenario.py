@@ -517,7 +517,7 @@ class Scenario:
             parts = dotted.split(".")
             node = data
             for depth, part in enumerate(parts[:-1]):
-                known = ["name", "seed", *SECTIONS] if depth == 0 else _field_names(_section_type(parts[: depth + 1]))
+                known = ["name", "seed", *SECTIONS] if depth == 0 else _field_names(_section_type(parts[:depth]))
                 if part not in known:
                     _unknown(".".join(parts[: depth + 1]), known)
                 child = node.get(part)
