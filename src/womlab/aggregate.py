@@ -96,6 +96,9 @@ def mapped_parameters(scenario: Scenario) -> AggregateParameters:
       stock-and-flow terms talkers = C·s·τ̄ (C customers), and each potential customer
       meets a share k̄/N of them, so buying = available × min(p + slope·talkers, cap) with
       **slope = q·k̄/N**.
+    * ``threshold`` and ``cascade`` have no Bass counterpart (a threshold crossing is all
+      or nothing; a cascade customer talks for one period only), so **Q = NaN** and
+      :func:`aggregate_curve` is NaN: their runs are shown without an aggregate curve.
 
     Examples
     --------
@@ -112,6 +115,8 @@ def mapped_parameters(scenario: Scenario) -> AggregateParameters:
     q = a.word_of_mouth
     if a.rule == "share":
         Q = q * s
+    elif a.rule in ("threshold", "cascade"):
+        Q = float("nan")
     else:
         Q = q * s * tau * k
     return AggregateParameters(
@@ -230,6 +235,8 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
     """
     a, run = scenario.adoption, scenario.run
     par = mapped_parameters(scenario)
+    if a.rule in ("threshold", "cascade"):
+        return np.full(run.periods + 1, np.nan)
     if a.rule == "capped":
         n = scenario.market.organisations
         customers = stock_and_flow(

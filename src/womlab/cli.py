@@ -98,7 +98,8 @@ def cmd_check(args: argparse.Namespace) -> int:
         ("mean talkers per customer", f"{par.mean_talkers:.4g}"),
         ("mapped Bass p", f"{par.p:.4g}"),
         ("mapped Bass Q", f"{par.Q:.4g}"),
-        ("Bass peak time ln(Q/p)/(p+Q)", f"{bass_peak_time(par.p, par.Q):.3f}" if par.Q > par.p > 0 else "n/a (Q <= p)"),
+        ("Bass peak time ln(Q/p)/(p+Q)", f"{bass_peak_time(par.p, par.Q):.3f}" if par.Q > par.p > 0
+         else "n/a (no Bass counterpart for this rule)" if par.Q != par.Q else "n/a (Q <= p)"),
         ("stock-and-flow slope", f"{par.slope:.4g}"),
         ("periods x steps per period", f"{scenario.run.periods} x {scenario.run.steps_per_period}"),
         ("replicates, engine, jobs", f"{scenario.run.replicates}, {scenario.run.engine}, {scenario.run.jobs}"),

@@ -42,6 +42,8 @@ def curve_metrics(share: np.ndarray) -> dict[str, float]:
     ``final_share`` the share at the horizon.
     """
     share = np.asarray(share, dtype=float)
+    if not np.isfinite(share).all():  # no curve (a rule without an aggregate counterpart)
+        return dict.fromkeys(METRIC_NAMES, float("nan"))
     new = np.diff(share)
     peak = int(np.argmax(new)) + 1 if new.size else 0
     return {

@@ -22,7 +22,7 @@ The file has one table per section::
     within_region_share = 0.85
 
     [adoption]
-    rule = "share"              # share count capped
+    rule = "share"              # share count capped threshold cascade
     external = 0.01             # Bass p, per period
     word_of_mouth = 0.3         # q, per period
     satisfied_share = 0.6
@@ -69,6 +69,7 @@ __all__ = [
     "Market",
     "NetworkSpec",
     "Talkers",
+    "Thresholds",
     "Adoption",
     "RunSpec",
     "Seeding",
@@ -82,11 +83,12 @@ __all__ = [
 ]
 
 NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "scale_free", "edgelist")
-RULES = ("share", "count", "capped")
+RULES = ("share", "count", "capped", "threshold", "cascade")
 STEP_FORMS = ("exponential", "linear")
 ENGINES = ("array", "mesa")
 STUDY_OUTCOMES = ("customers", "customer_periods")
 TALKER_DISTRIBUTIONS = ("fixed", "poisson")
+THRESHOLD_DISTRIBUTIONS = ("uniform", "fixed", "normal")
 
 
 # ----------------------------------------------------------------------------- checks
@@ -243,15 +245,34 @@ class Talkers:
 
 
 @dataclass(frozen=True, kw_only=True)
+class Thresholds:
+    """The distribution of the organisations' own thresholds θᵢ (``threshold`` rule).
+
+    θᵢ is drawn once per run: ``uniform`` on (``low``, ``high``] (the default, (0, 1]),
+    ``fixed`` at ``mean`` for everyone, or ``normal`` (``mean``, ``sd``) clipped to
+    (0, 1]. See :func:`womlab.rules.draw_thresholds`.
+    """
+
+    distribution: str = "uniform"
+    low: float = 0.0
+    high: float = 1.0
+    mean: float = 0.5
+    sd: float = 0.1
+
+
+@dataclass(frozen=True, kw_only=True)
 class Adoption:
     """The adoption rule: the rate at which a potential customer becomes a customer.
 
     Parameters
     ----------
     rule : str
-        ``share``: λ = p + q·T/D; ``count``: λ = p + q·T; ``capped``: λ = min(p + q·T, cap).
-        T is the sum of talkers over the organisation's satisfied-customer neighbours,
-        D the sum of talkers over all its neighbours. See :mod:`womlab.rules`.
+        ``share``: λ = p + q·T/D; ``count``: λ = p + q·T; ``capped``: λ = min(p + q·T, cap);
+        ``threshold``: adopts once T/D reaches its own θᵢ (plus p); ``cascade``: independent
+        cascade, each newly satisfied customer persuades each neighbour with probability q
+        during the next period (plus p). T is the sum of talkers over the organisation's
+        satisfied-customer neighbours, D the sum of talkers over all its neighbours. See
+        :mod:`womlab.rules`.
     external : float
         External influence p (Bass coefficient of innovation), per period.
     word_of_mouth : float
@@ -263,6 +284,9 @@ class Adoption:
         ``{distribution = "poisson", mean = 2}``.
     cap : float
         Ceiling on the adoption rate per period (``capped``).
+    threshold : Thresholds
+        Distribution of the organisations' thresholds (``threshold``), e.g.
+        ``{distribution = "uniform", low = 0, high = 1}``.
     """
 
     section: ClassVar[str] = "adoption"
@@ -272,9 +296,19 @@ class Adoption:
     satisfied_share: float = 1.0
     talkers_per_customer: Talkers = field(default_factory=Talkers)
     cap: float = 0.05
+    threshold: Thresholds = field(default_factory=Thresholds)
 
     def check(self, scenario: Scenario) -> None:
         _one_of("adoption.rule", self.rule, RULES)
+        if self.rule == "cascade":
+            _in_unit("adoption.word_of_mouth", self.word_of_mouth)  # a probability per tie under cascade
+        th = self.threshold
+        _one_of("adoption.threshold.distribution", th.distribution, THRESHOLD_DISTRIBUTIONS)
+        for name in ("low", "high", "mean"):
+            _in_unit(f"adoption.threshold.{name}", getattr(th, name))
+        _non_negative("adoption.threshold.sd", th.sd)
+        if th.low >= th.high:
+            _fail("adoption.threshold.high", th.high, f"> adoption.threshold.low = {th.low}")
         _non_negative("adoption.external", self.external)
         _non_negative("adoption.word_of_mouth", self.word_of_mouth)
         _in_unit("adoption.satisfied_share", self.satisfied_share)
@@ -445,7 +479,7 @@ SECTIONS: dict[str, type] = {
     "seeding": Seeding,
     "study": Study,
 }
-_NESTED: dict[tuple[str, str], type] = {("adoption", "talkers_per_customer"): Talkers}
+_NESTED: dict[tuple[str, str], type] = {("adoption", "talkers_per_customer"): Talkers, ("adoption", "threshold"): Thresholds}
 
 
 @dataclass(frozen=True, kw_only=True)
