@@ -58,8 +58,11 @@ SNAPSHOT_MAX_ORGANISATIONS = 600
 _BOOTSTRAP_KEY = (2**32 - 1, 0)  # spawn key of the bootstrap stream: no replicate uses it
 
 
-def run_outcomes(result: RunResult, discount_rate: float = 0.0) -> dict[str, Any]:
+def run_outcomes(result: RunResult, discount_rate: float = 0.0, keep_first: bool = False) -> dict[str, Any]:
     """The outcomes of one run, and its customer share per period (key ``share``).
+
+    With ``keep_first``, the run of replicate 0 (spawn key ``(0,)``) is kept whole under
+    key ``run`` (for the network snapshot), so it need not be run twice.
 
     Examples
     --------
@@ -72,13 +75,16 @@ def run_outcomes(result: RunResult, discount_rate: float = 0.0) -> dict[str, Any
     share = result.share
     m = curve_metrics(share)
     t = np.arange(1, customers.size)
-    return {
+    out = {
         "customers": int(customers[-1]),
         "t50": m["t50"],
         "peak_period": int(m["peak_period"]),
         "customer_periods": float(np.sum(customers[1:] / (1.0 + discount_rate) ** t)),
         "share": share.astype(np.float32),
     }
+    if keep_first and tuple(result.spawn_key) == (0,):
+        out["run"] = result
+    return out
 
 
 def _interval(x: np.ndarray) -> tuple[float, float, float]:
@@ -242,6 +248,7 @@ def compare_strategies(
     jobs: int | None = None,
     *,
     progress: bool = False,
+    snapshot: bool | None = None,
 ) -> SeedingStudy:
     """Run seeding strategies on paired replicates and compare them with ``random``.
 
@@ -259,6 +266,9 @@ def compare_strategies(
         Worker processes; defaults to ``run.jobs``. Results do not depend on it.
     progress : bool
         Show a progress bar.
+    snapshot : bool, optional
+        Keep replicate 0's network and runs for :func:`womlab.network_snapshot_figure`;
+        by default only for networks of at most 600 organisations (not complete).
 
     Raises
     ------
@@ -283,9 +293,11 @@ def compare_strategies(
     jobs = scenario.run.jobs if jobs is None else jobs
     names = study.compared
     variants = {name: scenario.replace("seeding.strategy", name) for name in names}
+    if snapshot is None:
+        snapshot = scenario.market.organisations <= SNAPSHOT_MAX_ORGANISATIONS and scenario.network.kind != "complete"
     start = time.perf_counter()
     reduced = run_paired(variants, replicates, jobs=jobs, progress=progress,
-                         reduce=partial(run_outcomes, discount_rate=study.discount_rate))
+                         reduce=partial(run_outcomes, discount_rate=study.discount_rate, keep_first=snapshot))
     rows = []
     shares = {}
     for name in names:
@@ -293,13 +305,13 @@ def compare_strategies(
         for r, o in enumerate(reduced[name]):
             rows.append({"replicate": r, "strategy": name, **{k: o[k] for k in OUTCOMES},
                          "final_share": float(o["share"][-1])})
-    snapshot = None
-    if scenario.market.organisations <= SNAPSHOT_MAX_ORGANISATIONS and not scenario.network.kind == "complete":
+    kept = None
+    if snapshot:
+        # replicate 0's network, rebuilt from its own network stream: the one its runs were on
         network = build_network(scenario, np.random.default_rng(streams(scenario.seed, (0,)).network))
-        first = run_paired(variants, 1, keys=[(0,)])
-        snapshot = (network, {name: first[name][0] for name in names})
+        kept = (network, {name: reduced[name][0]["run"] for name in names})
     return SeedingStudy(scenario=scenario, strategies=names, runs=pd.DataFrame(rows), shares=shares,
-                        wall_time=time.perf_counter() - start, snapshot=snapshot)
+                        wall_time=time.perf_counter() - start, snapshot=kept)
 
 
 def save_seeding_study(study: SeedingStudy, out: str | Path, *, figures: bool = True) -> list[Path]:
