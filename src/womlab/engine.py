@@ -8,13 +8,19 @@ computes every rate from the state at the start of the step (one sparse product,
 Random draws, all from the dynamics stream and all up front, in this order:
 talkers (Poisson only), satisfaction, one Exp(1) resistance Eᵢ per organisation, one
 uniform per organisation for attribution, and (``threshold`` only) the thresholds θᵢ.
-Organisation i adopts at the first step at which its summed step hazard (:func:`womlab.rules.step_hazard`) reaches Eᵢ — the same
-per-step probabilities as drawing a fresh uniform every step, but with a single draw
+Organisation i adopts at the first step at which its summed step hazard
+(:func:`womlab.rules.step_hazard`) reaches Eᵢ — the same per-step probabilities as drawing a fresh uniform every step, but with a single draw
 per organisation, so that two variants compared on the same streams see the same
 resistances (common random numbers) whatever the state. The ``threshold`` rule's crossing
 is an infinite hazard, the ``cascade`` rule's one chance per tie a hazard of −ln(1 − q)
 per newly satisfied neighbour over the period after it became satisfied (both in
 :mod:`womlab.rules`).
+
+A referral programme (``[referral]``, :mod:`womlab.programme`) touches the loop at two
+marked points only: the talkers that count in a step (boosted for enrolled satisfied
+customers while the programme runs) and, after attribution, the payment for the step's
+referrals. Its enrolment draws come from a stream of their own, so the draws above are
+the same with or without a programme.
 """
 
 from __future__ import annotations
@@ -22,6 +28,7 @@ from __future__ import annotations
 import numpy as np
 
 from . import rules
+from .programme import start_programme
 from .networks import ReferralNetwork
 from .results import RunResult
 from .scenario import Scenario
@@ -94,6 +101,7 @@ def run_array(
     fresh_until[initial] = spp
     talk = rules.talk_weights(rule, tau, customer & would_be_satisfied, fresh_until >= 1)
     hazard = np.zeros(n)
+    programme = start_programme(scenario, network, rng)  # None without a programme; draws nothing from rng
 
     if network.complete:
         all_talkers = np.full(n, tau.sum(dtype=np.float64)) - tau
@@ -105,10 +113,13 @@ def run_array(
     for step in range(1, run.periods * spp + 1):
         if rule == "cascade":
             talk = rules.talk_weights(rule, tau, customer & would_be_satisfied, fresh_until >= step)
+        period = (step + spp - 1) // spp
+        # programme: the talkers that count this step (``talk`` itself without a boost)
+        counted = talk if programme is None else programme.talk(talk, customer & would_be_satisfied, period)
         if matrix is None:
-            talking = talk.sum(dtype=np.float64) - talk
+            talking = counted.sum(dtype=np.float64) - counted
         else:
-            talking = matrix @ talk
+            talking = matrix @ counted
         potential = ~customer
         rate = rules.adoption_rate(rule, talking, all_talkers, adoption, theta)
         hazard += np.where(potential, rules.step_hazard(rate, dt, form), 0.0)
@@ -120,9 +131,11 @@ def run_array(
         wom = new[by_wom]
         if wom.size:
             u = (u_cause[wom] - ext[by_wom]) / (1 - ext[by_wom])
-            referrer[wom] = pick_referrers(network, wom, talk, u)
+            referrer[wom] = pick_referrers(network, wom, counted, u)
+            if programme is not None:  # programme: pay for this step's attributed referrals
+                programme.settle(period, wom, referrer[wom])
         customer[new] = True
-        adoption_period[new] = (step + spp - 1) // spp
+        adoption_period[new] = period
         fresh_until[new] = step + spp
         talk[new] = np.where(would_be_satisfied[new], tau[new], np.float32(0))
 
@@ -134,4 +147,5 @@ def run_array(
         region=network.region,
         initial=np.asarray(initial, dtype=np.int32),
         engine="array",
+        extra={} if programme is None else programme.record(),
     )
