@@ -85,12 +85,15 @@ def enrolment_rng(rng: np.random.Generator) -> np.random.Generator:
     return np.random.default_rng(child)
 
 
-def enrolled_organisations(referral: Referral, network: ReferralNetwork, rng: np.random.Generator) -> np.ndarray:
+def enrolled_organisations(
+    referral: Referral, network: ReferralNetwork, rng: np.random.Generator, *, scenario: Scenario | None = None
+) -> np.ndarray:
     """Which organisations the programme enrols (bool per organisation).
 
     ``all``: everyone; ``share``: each independently with probability ``enrol_share``;
     ``strategy``: the ``enrol_count`` organisations chosen by
-    :func:`womlab.seeding.choose_seeds`; ``none``: nobody. ``rng`` is the enrolment stream.
+    :func:`womlab.seeding.choose_seeds` (with ``scenario`` supplying the strategy's options
+    from ``[seeding]``, which ``greedy`` needs); ``none``: nobody. ``rng`` is the enrolment stream.
     """
     n = network.n
     if referral.enrol == "all":
@@ -101,7 +104,7 @@ def enrolled_organisations(referral: Referral, network: ReferralNetwork, rng: np
         from .seeding import choose_seeds  # late import: keeps this module importable by seeding's users
 
         out = np.zeros(n, dtype=bool)
-        out[choose_seeds(referral.strategy, network, referral.enrol_count, rng)] = True
+        out[choose_seeds(referral.strategy, network, referral.enrol_count, rng, scenario=scenario)] = True
         return out
     return np.zeros(n, dtype=bool)
 
@@ -223,7 +226,7 @@ def start_programme(scenario: Scenario, network: ReferralNetwork, rng: np.random
     referral = scenario.referral
     if not referral.active:
         return None
-    enrolled = enrolled_organisations(referral, network, enrolment_rng(rng))
+    enrolled = enrolled_organisations(referral, network, enrolment_rng(rng), scenario=scenario)
     return ProgrammeRun(referral, enrolled, scenario.run.periods)
 
 
