@@ -44,6 +44,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import ScenarioError
+from .metrics import discount_factors
 from .networks import ReferralNetwork
 from .results import RunResult
 from .scenario import Referral, Scenario
@@ -231,17 +232,6 @@ def start_programme(scenario: Scenario, network: ReferralNetwork, rng: np.random
 
 
 # ----------------------------------------------------------------------------- economics
-def discount_factors(rate: float, periods: int) -> np.ndarray:
-    """(1 + r)^−t for t = 0..T.
-
-    Examples
-    --------
-    >>> discount_factors(0.1, 2).round(4).tolist()
-    [1.0, 0.9091, 0.8264]
-    """
-    return (1.0 + rate) ** -np.arange(periods + 1, dtype=float)
-
-
 def _value_per_period(referral: Referral) -> float:
     return 1.0 if referral.value_per_period is None else referral.value_per_period
 

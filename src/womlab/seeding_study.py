@@ -38,7 +38,7 @@ import pandas as pd
 from scipy import stats
 
 from .errors import StoreError
-from .metrics import curve_metrics
+from .metrics import curve_metrics, discount_factors
 from .networks import ReferralNetwork, build_network
 from .results import RunResult
 from .scenario import Scenario
@@ -74,12 +74,11 @@ def run_outcomes(result: RunResult, discount_rate: float = 0.0, keep_first: bool
     customers = result.customers
     share = result.share
     m = curve_metrics(share)
-    t = np.arange(1, customers.size)
     out = {
         "customers": int(customers[-1]),
         "t50": m["t50"],
         "peak_period": int(m["peak_period"]),
-        "customer_periods": float(np.sum(customers[1:] / (1.0 + discount_rate) ** t)),
+        "customer_periods": float(np.sum(customers[1:] * discount_factors(discount_rate, customers.size - 1)[1:])),
         "share": share.astype(np.float32),
     }
     if keep_first and tuple(result.spawn_key) == (0,):
