@@ -257,7 +257,10 @@ def _sensitivity_figure(table: pd.DataFrame, design: str) -> Figure:
             ax.bar(pos - 0.2, t["S1"], 0.4, yerr=1.96 * t["S1_se"], label="first order S₁", color=COLOUR)
             ax.bar(pos + 0.2, t["ST"], 0.4, yerr=1.96 * t["ST_se"], label="total S_T", color="#c0392b")
             ax.set_xticks(pos, t["axis"], fontsize=7, rotation=20)
-            ax.set_ylim(min(0, float(np.nanmin(t["S1"])) - 0.05) if t["S1"].notna().any() else 0, 1.05)
+            finite = np.concatenate([t["S1"].to_numpy(float), t["ST"].to_numpy(float)])
+            finite = finite[np.isfinite(finite)]
+            if finite.size:
+                ax.set_ylim(min(0.0, finite.min() - 0.05), max(1.05, finite.max() + 0.05))
             ax.legend(fontsize=7, frameon=False)
         else:
             ax.scatter(t["mu_star"], t["sigma"], color=COLOUR)
@@ -281,8 +284,8 @@ def _table(frame: pd.DataFrame, limit: int = 400) -> str:
     if len(frame) > limit:
         note = f"<p class='note'>First {limit} of {len(frame)} rows; the whole table is in the folder's files.</p>"
         frame = frame.head(limit)
-    return frame.to_html(index=False, classes="womlab-table", border=0, na_rep="–",
-                         float_format=lambda v: f"{v:.4g}") + note
+    table = frame.to_html(index=False, classes="womlab-table", border=0, na_rep="–", float_format=lambda v: f"{v:.4g}")
+    return f"<div class='wide'>{table}</div>{note}"
 
 
 _CSS = """
@@ -292,7 +295,7 @@ table.womlab-table{border-collapse:collapse;font-size:0.8em;margin:0.5em 0}
 table.womlab-table th,table.womlab-table td{padding:2px 8px;white-space:nowrap;border-bottom:1px solid #eee;text-align:right}
 table.womlab-table th{background:#f4f6f8}
 pre{background:#f7f7f7;padding:0.8em;overflow:auto;font-size:0.8em}
-img{max-width:100%}.note{color:#666;font-size:0.85em}
+img{max-width:100%}.wide{overflow-x:auto}.note{color:#666;font-size:0.85em}
 """
 
 
@@ -328,8 +331,10 @@ def write_report(folder: str | Path | ResultsStore) -> Path:
     for outcome in SHOWN_OUTCOMES:
         if ("mean", outcome) in wide.columns:
             by_point[f"{outcome} mean"] = by_point["point"].map(wide[("mean", outcome)])
-            by_point[f"{outcome} 95% CI"] = by_point["point"].map(
-                (wide[("ci_low", outcome)].map("{:.4g}".format) + " – " + wide[("ci_high", outcome)].map("{:.4g}".format)))
+            lo, hi = wide[("ci_low", outcome)], wide[("ci_high", outcome)]
+            ci = pd.Series([f"{a:.4g} – {b:.4g}" if np.isfinite(a) and np.isfinite(b) else "–" for a, b in zip(lo, hi)],
+                           index=wide.index)
+            by_point[f"{outcome} 95% CI"] = by_point["point"].map(ci)
 
     esc = html.escape
     n_ok = int((runs["status"] == "ok").sum())
