@@ -406,6 +406,7 @@ def run_sweep(
     points = design_points(scenario)
     scenarios = point_scenarios(scenario, points)  # every point validated before anything runs
     replicates = spec.replicates
+    library_versions = versions()
     identity_scenario = scenario.to_dict()
     identity_scenario["run"].pop("jobs", None)
     manifest = {
@@ -420,7 +421,7 @@ def run_sweep(
         "replicates": replicates,
         "runs": len(points) * replicates,
         "outcomes": list(OUTCOMES),
-        "versions": versions(),
+        "versions": library_versions,
         "identity": {"scenario": identity_scenario, "curves": bool(curves), "format": 1},
     }
     store = ResultsStore.create_or_resume(out, manifest, points)
@@ -447,7 +448,7 @@ def run_sweep(
     else:
         workers = effective_n_jobs(scenario.run.jobs if jobs is None else jobs)
         backend = f"loky, {workers} workers" if workers > 1 else "in-process"
-    session = store.begin_session({"backend": backend, "pending": len(pending), "womlab": versions()["womlab"]})
+    session = store.begin_session({"backend": backend, "pending": len(pending), "womlab": library_versions["womlab"]})
 
     chunks = _chunks(pending, workers, chunk_size)
     tasks = ([(i, r, scenarios[i]) for i, r in chunk] for chunk in chunks)
