@@ -152,8 +152,8 @@ def main() -> None:
     lines += [
         "",
         f"- Contention check: the runs' own wall times, summed, are {inflation:.2f}× longer in the two loky "
-        "workers than in-process (1.0 would mean two free cores; about 2 means the two workers shared one "
-        "core's worth of CPU with the machine's other processes, and no speed-up was possible).",
+        "workers than in-process, fastest call of each (1.0: two free cores; about 2: the workers shared about one "
+        "core's worth of CPU with the machine's other processes during at least one call).",
         f"- jobs = 2 over jobs = 1: {one / loky:.2f}× with automatic chunks, "
         f"{one / best['jobs = 2 (loky), one run per task']:.2f}× with one run per task.",
         f"- Dask against loky jobs = 2: a running cluster "
