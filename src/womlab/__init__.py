@@ -74,6 +74,10 @@ from .scenario import Scenario, load_scenario
 from .seeding import STRATEGIES, choose_seeds
 from .seeding_study import SeedingStudy, compare_strategies, lift_statistics, save_seeding_study
 from .studies import Batch, run_one, run_paired, run_replicates, streams
+from .report import sensitivity_table, sweep_figures, sweep_summary, write_report
+from .sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
+from .store import ResultsStore
+from .sweep import SweepSummary, design_points, point_scenarios, run_sweep
 
 __version__ = "0.1.0"
 
@@ -145,4 +149,18 @@ __all__ = [
     "time_to_share",
     "top_degree_referral_share",
     "word_of_mouth_by_period",
+    # sweeps, results store, sensitivity, report
+    "ResultsStore",
+    "SweepSummary",
+    "design_points",
+    "morris_design",
+    "morris_effects",
+    "point_scenarios",
+    "run_sweep",
+    "saltelli_design",
+    "sensitivity_table",
+    "sobol_indices",
+    "sweep_figures",
+    "sweep_summary",
+    "write_report",
 ]

@@ -54,6 +54,17 @@ The file has one table per section::
     lifetime_value = 40.0       # or value_per_period = 1.0
     discount_rate = 0.01
 
+A sweep (see :mod:`womlab.sweep`) adds a ``[sweep]`` table and its axes, one per dotted
+scenario field::
+
+    [sweep]
+    design = "grid"             # grid latin sobol morris
+    samples = 64                # latin: points; sobol: base sample N (a power of 2); morris: trajectories
+    replicates = 10
+    [sweep.axes]
+    "adoption.word_of_mouth" = { from = 0.05, to = 0.5, steps = 10 }   # log = true for a log scale
+    "network.kind" = ["random", "small_world", "regional"]
+
 Adding a section: write a frozen dataclass with a ``section`` class variable and a
 ``check(self, scenario)`` method, add it as a field of :class:`Scenario` and to
 ``SECTIONS``. Loading, type checks, unknown-key messages and ``replace`` are generic.
@@ -83,6 +94,8 @@ __all__ = [
     "RunSpec",
     "Seeding",
     "Study",
+    "Axis",
+    "SweepSpec",
     "Referral",
     "Scenario",
     "load_scenario",
@@ -90,6 +103,7 @@ __all__ = [
     "RULES",
     "STEP_FORMS",
     "ENGINES",
+    "SWEEP_DESIGNS",
 ]
 
 NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "scale_free", "edgelist")
@@ -99,6 +113,7 @@ ENGINES = ("array", "mesa")
 STUDY_OUTCOMES = ("customers", "customer_periods")
 TALKER_DISTRIBUTIONS = ("fixed", "poisson")
 THRESHOLD_DISTRIBUTIONS = ("uniform", "fixed", "normal")
+SWEEP_DESIGNS = ("grid", "latin", "sobol", "morris")
 ENROLMENTS = ("none", "all", "share", "strategy")
 REWARD_SCHEMES = ("linear", "bonus", "both")
 
@@ -596,6 +611,191 @@ class Referral:
         return periods if self.end is None else self.end
 
 
+@dataclass(frozen=True, kw_only=True)
+class Axis:
+    """One axis of a sweep: a dotted scenario field and the values it takes.
+
+    Either a list of ``values`` (numbers or text, e.g. network kinds) or a range
+    ``start``..``stop`` (TOML keys ``from`` and ``to``), on a log scale if ``log``.
+    ``steps`` (range axes, ``grid`` design only) is the number of evenly spaced values,
+    ends included. A whole-number field gets rounded values.
+    """
+
+    name: str
+    values: tuple | None = None
+    start: float | None = None
+    stop: float | None = None
+    steps: int | None = None
+    log: bool = False
+
+    @property
+    def is_range(self) -> bool:
+        return self.values is None
+
+    def to_table(self) -> Any:
+        """The axis as written in a scenario file: a list, or ``{from, to, steps, log}``."""
+        if self.values is not None:
+            return list(self.values)
+        table: dict[str, Any] = {"from": self.start, "to": self.stop}
+        if self.steps is not None:
+            table["steps"] = self.steps
+        if self.log:
+            table["log"] = True
+        return table
+
+
+@dataclass(frozen=True, kw_only=True)
+class SweepSpec:
+    """A parameter sweep: which scenario fields vary, over which values, how sampled.
+
+    Parameters
+    ----------
+    design : str
+        ``grid`` (every combination of the axes' values), ``latin`` (Latin hypercube of
+        ``samples`` points), ``sobol`` (Saltelli sampling on a scrambled Sobol' sequence:
+        ``samples × (axes + 2)`` points, for Sobol indices) or ``morris`` (``samples``
+        Morris trajectories of ``axes + 1`` points, for elementary effects).
+    samples : int
+        Points (``latin``), base sample N (``sobol``, a power of 2), or trajectories
+        (``morris``). Not used by ``grid``.
+    replicates : int
+        Seeded replicate runs at every point.
+    levels : int
+        Number of grid levels of each axis in the Morris design (even, >= 2).
+    axes : tuple of Axis
+        Read from the ``[sweep.axes]`` table, one key per dotted scenario field. With
+        ``latin``, ``sobol`` and ``morris`` a list axis is sampled as a discrete uniform
+        choice among its values (the unit interval split into equal parts); ``morris``
+        takes range axes only.
+    """
+
+    section: ClassVar[str] = "sweep"
+    design: str = "grid"
+    samples: int = 64
+    replicates: int = 10
+    levels: int = 4
+    axes: tuple[Axis, ...] = ()
+
+    def check(self, scenario: Scenario) -> None:
+        _one_of("sweep.design", self.design, SWEEP_DESIGNS)
+        _positive_int("sweep.samples", self.samples)
+        _positive_int("sweep.replicates", self.replicates)
+        if self.design == "sobol" and (self.samples < 2 or self.samples & (self.samples - 1)):
+            _fail("sweep.samples", self.samples, 'a power of 2 >= 2 for design = "sobol" (balance of the Sobol\' sequence)')
+        if self.design == "morris" and (self.levels < 2 or self.levels % 2):
+            _fail("sweep.levels", self.levels, 'an even whole number >= 2 for design = "morris"')
+        for axis in self.axes:
+            _check_axis(axis, self.design)
+
+    def to_table(self) -> dict[str, Any]:
+        """The section as written in a scenario file (axes keyed by dotted field)."""
+        return {
+            "design": self.design,
+            "samples": self.samples,
+            "replicates": self.replicates,
+            "levels": self.levels,
+            "axes": {a.name: a.to_table() for a in self.axes},
+        }
+
+    def axis(self, name: str) -> Axis:
+        for a in self.axes:
+            if a.name == name:
+                return a
+        raise KeyError(name)
+
+
+def field_type(dotted: str) -> type:
+    """The Python type of the scenario field ``dotted`` (int, float, str or bool).
+
+    Raises ScenarioError with a did-you-mean if no such field exists. Used to validate
+    sweep axes; ``adoption.talkers_per_customer`` (a number or a table) counts as float.
+    """
+    parts = dotted.split(".")
+    top = ["name", "seed", *(k for k in SECTIONS if k != "sweep")]
+    if parts[0] not in top:
+        _unknown(dotted if len(parts) == 1 else parts[0], top)
+    hint: Any = _hints(Scenario)[parts[0]]
+    for depth in range(1, len(parts)):
+        if not dataclasses.is_dataclass(hint):
+            _unknown(".".join(parts[: depth + 1]), [])
+        known = _field_names(hint)
+        if parts[depth] not in known:
+            _unknown(".".join(parts[: depth + 1]), known)
+        hint = _hints(hint)[parts[depth]]
+    if hint is Talkers:
+        return float
+    if dataclasses.is_dataclass(hint):
+        raise ScenarioError(f"{dotted} is a table of fields; a sweep axis must name one of them "
+                            f"({', '.join(dotted + '.' + n for n in _field_names(hint))})")
+    args = [a for a in typing.get_args(hint) if a is not type(None)]
+    return args[0] if args else hint
+
+
+def _check_axis(axis: Axis, design: str) -> None:
+    where = f"sweep.axes.{axis.name!r}"
+    try:
+        kind = field_type(axis.name)
+    except ScenarioError as exc:
+        raise ScenarioError(f"{where}: {exc}") from None
+    if axis.values is not None:
+        if len(axis.values) == 0:
+            _fail(where, [], "a non-empty list of values")
+        if len(set(map(repr, axis.values))) != len(axis.values):
+            _fail(where, list(axis.values), "a list without repeated values")
+        if design == "morris":
+            _fail(where, list(axis.values), 'a range { from, to } for design = "morris" (elementary effects need a scale)')
+        return
+    if kind not in (int, float):
+        _fail(where, axis.to_table(), f"a list of values ({axis.name} is {kind.__name__}, not a number)")
+    for key, value in (("from", axis.start), ("to", axis.stop)):
+        if value is None:
+            raise ScenarioError(f"{where}.{key} is required for a range axis (or give a list of values)")
+        if not math.isfinite(value):
+            _fail(f"{where}.{key}", value, "a finite number")
+    if axis.start == axis.stop:
+        _fail(f"{where}.to", axis.stop, f"different from 'from' = {axis.start}")
+    if axis.log and (axis.start <= 0 or axis.stop <= 0):
+        _fail(where, axis.to_table(), "a range of positive numbers when log = true")
+    if design == "grid":
+        if axis.steps is None:
+            raise ScenarioError(f'{where}.steps is required for a range axis with design = "grid"')
+        if axis.steps < 2:
+            _fail(f"{where}.steps", axis.steps, "a whole number >= 2")
+
+
+def _axes(value: Any, dotted: str) -> tuple[Axis, ...]:
+    """Parse the ``[sweep.axes]`` table: dotted field name → list, or {from, to, steps, log}."""
+    if isinstance(value, (list, tuple)) and all(isinstance(a, Axis) for a in value):
+        return tuple(value)
+    if not isinstance(value, Mapping):
+        raise ScenarioError(f"[{dotted}] must be a table of dotted field = values, got {value!r}")
+    axes = []
+    for name, spec in value.items():
+        where = f"{dotted}.{name!r}"
+        if isinstance(spec, (list, tuple)):
+            for i, v in enumerate(spec):
+                if isinstance(v, (dict, list, tuple)) or v is None:
+                    raise ScenarioError(f"{where}[{i}] must be a number, text or true/false, got {v!r}")
+            axes.append(Axis(name=str(name), values=tuple(spec)))
+            continue
+        if not isinstance(spec, Mapping):
+            raise ScenarioError(f"{where} must be a list of values or a table {{ from, to, steps, log }}, got {spec!r}")
+        known = ["from", "to", "steps", "log"]
+        for key in spec:
+            if key not in known:
+                _unknown(f"{where}.{key}", known)
+        axes.append(
+            Axis(
+                name=str(name),
+                start=_coerce(spec.get("from"), float | None, f"{where}.from"),
+                stop=_coerce(spec.get("to"), float | None, f"{where}.to"),
+                steps=_coerce(spec.get("steps"), int | None, f"{where}.steps"),
+                log=_coerce(spec.get("log", False), bool, f"{where}.log"),
+            )
+        )
+    return tuple(axes)
+
+
 SECTIONS: dict[str, type] = {
     "market": Market,
     "network": NetworkSpec,
@@ -604,8 +804,13 @@ SECTIONS: dict[str, type] = {
     "seeding": Seeding,
     "study": Study,
     "referral": Referral,
+    "sweep": SweepSpec,
 }
-_NESTED: dict[tuple[str, str], type] = {("adoption", "talkers_per_customer"): Talkers, ("adoption", "threshold"): Thresholds}
+_NESTED: dict[tuple[str, str], type] = {
+    ("adoption", "talkers_per_customer"): Talkers,
+    ("adoption", "threshold"): Thresholds,
+    ("sweep", "axes"): Axis,
+}
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -629,6 +834,7 @@ class Scenario:
     seeding: Seeding = field(default_factory=Seeding)
     study: Study = field(default_factory=Study)
     referral: Referral = field(default_factory=Referral)
+    sweep: SweepSpec = field(default_factory=SweepSpec)
 
     def __post_init__(self) -> None:
         if not isinstance(self.seed, int) or self.seed < 0:
@@ -662,7 +868,12 @@ class Scenario:
 
     def to_dict(self) -> dict[str, Any]:
         """The scenario as nested plain values (TOML/JSON-ready, None fields dropped)."""
-        return _drop_none(dataclasses.asdict(self))
+        data = _drop_none(dataclasses.asdict(self))
+        for key in SECTIONS:  # a section with its own file form (sweep axes keyed by field)
+            to_table = getattr(getattr(self, key), "to_table", None)
+            if to_table is not None:
+                data[key] = to_table()
+        return data
 
     def replace(self, field_or_changes: str | Mapping[str, Any], value: Any = ..., /) -> Scenario:
         """A new validated scenario with one or more dotted fields changed.
@@ -735,6 +946,8 @@ def _build_section(cls: type, dotted: str, value: Any, base_dir: str | Path | No
         nested = _NESTED.get((dotted, key))
         if nested is Talkers:
             kwargs[key] = _talkers(item, name)
+        elif nested is Axis:
+            kwargs[key] = _axes(item, name)
         elif nested is not None:
             kwargs[key] = _build_section(nested, name, item, base_dir)
         else:
