@@ -8,11 +8,14 @@ once (synchronous update).
 
 Random draws, all from the dynamics stream and all up front, in this order:
 talkers (Poisson only), satisfaction, one Exp(1) resistance Eᵢ per organisation, one
-uniform per organisation for attribution. Organisation i adopts at the first step at
-which its summed step hazard (:func:`womlab.rules.step_hazard`) reaches Eᵢ — the same
-per-step probabilities as drawing a fresh uniform every step, but with a single draw
-per organisation, so that two variants compared on the same streams see the same
-resistances (common random numbers) whatever the state.
+uniform per organisation for attribution, and (``threshold`` only) the thresholds θᵢ.
+Organisation i adopts at the first step at which its summed step hazard
+(:func:`womlab.rules.step_hazard`) reaches Eᵢ — the same per-step probabilities as
+drawing a fresh uniform every step, but with a single draw per organisation, so that two
+variants compared on the same streams see the same resistances (common random numbers)
+whatever the state. The ``threshold`` rule's crossing is an infinite hazard, the
+``cascade`` rule's one chance per tie a hazard of −ln(1 − q) per newly satisfied
+neighbour over the period after it became satisfied (both in :mod:`womlab.rules`).
 
 Work only where it matters. A step's hazard is h₀ = step_hazard(rate at Tᵢ = 0) for an
 organisation with no talking neighbour, the same for all of them; so organisation i's
@@ -26,10 +29,17 @@ was exposed (Tᵢ > 0). Hence:
 * exposure is kept up to date incrementally: when organisations start talking, their
   CSR rows add their talkers to their neighbours' Tᵢ (O(ties of the new talkers),
   O(E) over the whole run) instead of one full sparse product ``A @ talking`` per step.
+  Where what a customer puts into Tᵢ can change after it adopted (``cascade``: only in
+  the period after; a referral programme's boost), the step's weights are compared with
+  the last step's, O(N), and only the changed rows are applied (with their difference).
 
-The rule's rate from exposure is computed in one place, :func:`exposed_hazard`; a rule
-whose rate is not a function of Tᵢ and Dᵢ changes that function (and the bucketing,
-if its rate without talking neighbours is not constant).
+What a rule needs from the loop lives in two places: :func:`exposed_hazard` (a step's
+hazard from Tᵢ, Dᵢ and, for ``threshold``, θᵢ — the rate itself is
+:func:`womlab.rules.adoption_rate`, shared with every engine) and :meth:`_State.weights`
+(what each organisation puts into its neighbours' Tᵢ this step,
+:func:`womlab.rules.talk_weights` and the programme's boost). A new rule whose rate with
+no talking neighbour is not the same for everyone would also change the bucketing of
+never-exposed organisations in ``_run_sparse``.
 
 A referral programme (``[referral]``, :mod:`womlab.programme`) touches the loop at two
 marked points only: the talkers that count in a step (boosted for enrolled satisfied
@@ -90,14 +100,21 @@ def pick_referrers(
 
 
 def exposed_hazard(
-    rule: str, talking: np.ndarray, total: np.ndarray, adoption: Adoption, dt: float, form: str
+    rule: str,
+    talking: np.ndarray,
+    total: np.ndarray,
+    adoption: Adoption,
+    dt: float,
+    form: str,
+    threshold: np.ndarray | None = None,
 ) -> np.ndarray:
     """One step's hazard for organisations with exposure ``talking`` (Tᵢ) and ``total`` (Dᵢ).
 
     The one place the array engine turns a rule into hazard; the rate itself is
-    :func:`womlab.rules.adoption_rate`, shared with every engine.
+    :func:`womlab.rules.adoption_rate`, shared with every engine. ``threshold`` holds θᵢ
+    of the same organisations (``threshold`` rule only).
     """
-    return rules.step_hazard(rules.adoption_rate(rule, talking, total, adoption), dt, form)
+    return rules.step_hazard(rules.adoption_rate(rule, talking, total, adoption, threshold), dt, form)
 
 
 def run_array(
@@ -129,6 +146,7 @@ def run_array(
     would_be_satisfied = rules.draw_satisfied(adoption.satisfied_share, n, rng)
     resistance = rng.standard_exponential(n)
     u_cause = rng.random(n)
+    theta = rules.draw_thresholds(adoption.threshold, n, rng) if rule == "threshold" else None
 
     initial = np.asarray(initial, dtype=np.int32)
     adoption_step = np.full(n, -1, dtype=np.int32)
@@ -139,7 +157,8 @@ def run_array(
     talk = np.where(customer & would_be_satisfied, tau, np.float32(0))
     programme = start_programme(scenario, network, rng)  # None without a programme; draws nothing from rng
 
-    state = _State(tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer, programme)
+    state = _State(rule, spp, tau, talk, would_be_satisfied, resistance, u_cause, theta, customer, adoption_step,
+                   referrer, programme)
     if network.complete:
         _run_complete(network, scenario, state)
     else:
@@ -164,27 +183,40 @@ def run_array(
 class _State:
     """One run's per-organisation arrays (no per-organisation objects), shared by the step loops."""
 
-    def __init__(self, tau, talk, would_be_satisfied, resistance, u_cause, customer, adoption_step, referrer,  # noqa: ANN001
-                 programme: ProgrammeRun | None) -> None:
+    def __init__(self, rule, spp, tau, talk, would_be_satisfied, resistance, u_cause, theta, customer,  # noqa: ANN001
+                 adoption_step, referrer, programme: ProgrammeRun | None) -> None:
+        self.rule, self.spp = rule, spp
         self.tau, self.talk, self.would_be_satisfied = tau, talk, would_be_satisfied
-        self.resistance, self.u_cause = resistance, u_cause
+        self.resistance, self.u_cause, self.theta = resistance, u_cause, theta
         self.customer, self.adoption_step, self.referrer = customer, adoption_step, referrer
         self.programme = programme
+        # whether a customer's weight in its neighbours' Tᵢ can change after it adopted
+        self.varying = rule == "cascade" or programme is not None
 
     def boosting(self, period: int) -> bool:
         return self.programme is not None and self.programme.running(period)
 
-    def counted(self, period: int) -> np.ndarray:
-        """Programme: the talkers that count in ``period`` (``talk`` itself without a boost)."""
-        if not self.boosting(period):
-            return self.talk
-        return self.programme.talk(self.talk, self.customer & self.would_be_satisfied, period)
+    def weights(self, step: int, period: int) -> np.ndarray:
+        """What each organisation puts into its neighbours' Tᵢ in ``step`` (float32).
 
-    def adopt(self, network, scenario, new, talking_new, total_new, step, period) -> None:  # noqa: ANN001
-        """Attribute, pay (programme) and apply the step's adoptions ``new``."""
+        Its talkers if a satisfied customer (``talk``); under ``cascade`` 1 during the
+        period after it became a satisfied customer (:func:`womlab.rules.talk_weights`);
+        programme: boosted for enrolled satisfied customers while the programme runs.
+        """
+        talking_customer = self.customer & self.would_be_satisfied
+        talk = self.talk
+        if self.rule == "cascade":
+            # a customer adopted at step s (0: initial) counts in steps s + 1 .. s + spp, its period after
+            talk = rules.talk_weights(self.rule, self.tau, talking_customer, self.adoption_step + self.spp >= step)
+        if self.boosting(period):
+            talk = self.programme.talk(talk, talking_customer, period)
+        return talk
+
+    def adopt(self, network, scenario, new, talking_new, total_new, counted, step, period) -> None:  # noqa: ANN001
+        """Attribute, pay (programme) and apply the step's adoptions ``new``; ``counted`` = the step's weights."""
         adoption = scenario.adoption
-        counted = self.counted(period)
-        ext = rules.external_share(adoption.rule, talking_new, total_new, adoption)
+        theta = None if self.theta is None else self.theta[new]
+        ext = rules.external_share(adoption.rule, talking_new, total_new, adoption, theta)
         by_wom = self.u_cause[new] >= ext
         wom = new[by_wom]
         if wom.size:
@@ -198,24 +230,51 @@ class _State:
 
 
 def _run_complete(network: ReferralNetwork, scenario: Scenario, st: _State) -> None:
-    """Complete network from totals: every potential customer's exposure is the market's talk."""
+    """Complete network from totals: every potential customer's exposure is the market's weight."""
     adoption, run = scenario.adoption, scenario.run
     dt, form, rule, spp = run.time_step, run.step_probability, adoption.rule, run.steps_per_period
     potential = np.flatnonzero(~st.customer)
     total = float(st.tau.sum(dtype=np.float64)) - st.tau[potential].astype(np.float64)
     res = st.resistance[potential]
+    theta = None if st.theta is None else st.theta[potential]
     hazard = np.zeros(potential.size)
     for step in range(1, run.periods * spp + 1):
         period = (step + spp - 1) // spp
-        # a potential customer's own talk is 0, so its exposure is the whole market's
-        talking = np.full(potential.size, st.counted(period).sum(dtype=np.float64))
-        hazard += exposed_hazard(rule, talking, total, adoption, dt, form)
+        counted = st.weights(step, period)
+        # a potential customer puts nothing in, so its exposure is the whole market's
+        talking = np.full(potential.size, counted.sum(dtype=np.float64))
+        hazard += exposed_hazard(rule, talking, total, adoption, dt, form, theta)
         hit = hazard >= res
         if not hit.any():
             continue
-        st.adopt(network, scenario, potential[hit], talking[hit], total[hit], step, period)
+        st.adopt(network, scenario, potential[hit], talking[hit], total[hit], counted, step, period)
         keep = ~hit
         potential, total, res, hazard = potential[keep], total[keep], res[keep], hazard[keep]
+        theta = None if theta is None else theta[keep]
+
+
+class _Active:
+    """The exposed potential customers, kept compact: ids, Dᵢ, Eᵢ, θᵢ and Xᵢ (hazard beyond h₀·steps)."""
+
+    def __init__(self, total: np.ndarray, resistance: np.ndarray, theta: np.ndarray | None) -> None:
+        self._total, self._resistance, self._theta = total, resistance, theta
+        self.ids = np.zeros(0, dtype=np.int32)
+        self.total, self.resistance, self.extra = np.zeros(0), np.zeros(0), np.zeros(0)
+        self.theta = None if theta is None else np.zeros(0)
+
+    def add(self, fresh: np.ndarray) -> None:
+        self.ids = np.concatenate([self.ids, fresh])
+        self.total = np.concatenate([self.total, self._total[fresh]])
+        self.resistance = np.concatenate([self.resistance, self._resistance[fresh]])
+        self.extra = np.concatenate([self.extra, np.zeros(fresh.size)])
+        if self.theta is not None:
+            self.theta = np.concatenate([self.theta, self._theta[fresh]])
+
+    def keep(self, mask: np.ndarray) -> None:
+        self.ids, self.total, self.resistance, self.extra = (
+            self.ids[mask], self.total[mask], self.resistance[mask], self.extra[mask])
+        if self.theta is not None:
+            self.theta = self.theta[mask]
 
 
 def _run_sparse(network: ReferralNetwork, scenario: Scenario, st: _State) -> None:
@@ -227,7 +286,7 @@ def _run_sparse(network: ReferralNetwork, scenario: Scenario, st: _State) -> Non
     matrix = network.matrix(np.float64)
     total = matrix @ st.tau.astype(np.float64)  # Dᵢ, fixed for the run
     zero = np.zeros(1)
-    h0 = float(exposed_hazard(rule, zero, zero, adoption, dt, form)[0])  # a step's hazard with no talking neighbour
+    h0 = float(exposed_hazard(rule, zero, zero, adoption, dt, form, zero + 1)[0])  # a step's hazard, no talking neighbour
     finite = bool(np.isfinite(h0))
 
     # never-exposed organisations adopt by external influence at the first step s with h0·s >= Eᵢ
@@ -244,53 +303,59 @@ def _run_sparse(network: ReferralNetwork, scenario: Scenario, st: _State) -> Non
     talking = np.zeros(n)  # Tᵢ
     exposed = np.zeros(n, dtype=bool)
     stamp = np.zeros(n, dtype=np.int64)  # scratch for de-duplicating newly exposed ids
-    # the active set (exposed potential customers), kept compact: ids, Dᵢ, Eᵢ, Xᵢ
-    a_ids = np.zeros(0, dtype=np.int32)
-    a_total, a_res, a_extra = np.zeros(0), np.zeros(0), np.zeros(0)
+    active = _Active(total, resistance, st.theta)
+    applied = None  # the weights Tᵢ holds, where they can change after adoption
     speakers = np.zeros(0, dtype=np.int32)
-    boosting = None
 
     def expose(candidates: np.ndarray) -> None:
-        nonlocal a_ids, a_total, a_res, a_extra
         fresh = candidates[~exposed[candidates] & ~customer[candidates]]
         if fresh.size:
             stamp[fresh] = np.arange(fresh.size)
             fresh = fresh[stamp[fresh] == np.arange(fresh.size)]  # one of each
             exposed[fresh] = True
-            a_ids = np.concatenate([a_ids, fresh])
-            a_total = np.concatenate([a_total, total[fresh]])
-            a_res = np.concatenate([a_res, resistance[fresh]])
-            a_extra = np.concatenate([a_extra, np.zeros(fresh.size)])
+            active.add(fresh)
+
+    def apply(rows: np.ndarray, weight: np.ndarray) -> None:
+        """Add ``weight`` of each organisation in ``rows`` to its neighbours' Tᵢ (their CSR rows)."""
+        offsets, lengths = _row_entries(network, rows)
+        nbrs = network.indices[offsets]
+        w = np.repeat(weight, lengths)
+        np.add.at(talking, nbrs, w)
+        expose(nbrs[w > 0])
 
     for step in range(1, steps + 1):
         period = (step + spp - 1) // spp
-        if st.boosting(period) != boosting:  # first step, or the programme starts or stops boosting
-            boosting = st.boosting(period)
-            talking = matrix @ st.counted(period).astype(np.float64)
+        if step == 1:  # one sparse product to start from
+            counted = st.weights(step, period)
+            talking = matrix @ counted.astype(np.float64)
             expose(np.flatnonzero(talking > 0))
-        elif speakers.size:  # exposure from those who started talking last step
-            offsets, lengths = _row_entries(network, speakers)
-            nbrs = network.indices[offsets]
-            counted = np.repeat(st.counted(period)[speakers].astype(np.float64), lengths)
-            np.add.at(talking, nbrs, counted)
-            expose(nbrs[counted > 0])
+            applied = counted.copy() if st.varying else None
+        elif st.varying:  # apply only the weights that changed, by their difference
+            counted = st.weights(step, period)
+            changed = np.flatnonzero(counted != applied)
+            if changed.size:
+                apply(changed, counted[changed].astype(np.float64) - applied[changed].astype(np.float64))
+                applied[changed] = counted[changed]
+        else:  # only last step's adopters started talking
+            counted = st.talk
+            if speakers.size:
+                apply(speakers, counted[speakers].astype(np.float64))
         parts = []
         hit = None
-        if a_ids.size:
+        if active.ids.size:
             if finite:
-                a_extra += exposed_hazard(rule, talking[a_ids], a_total, adoption, dt, form) - h0
-            hit = h0 * step + a_extra >= a_res
-            parts.append(a_ids[hit])
+                active.extra += exposed_hazard(rule, talking[active.ids], active.total, adoption, dt, form, active.theta) - h0
+            hit = h0 * step + active.extra >= active.resistance
+            parts.append(active.ids[hit])
         outside = due[bounds[step - 1] : bounds[step]]
         if outside.size:
             outside = outside[~customer[outside] & (~exposed[outside] | (not finite))]
             parts.append(outside)
         new = np.sort(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.int32)
-        speakers = np.zeros(0, dtype=np.int32)
         if new.size == 0:
+            speakers = new
             continue
-        st.adopt(network, scenario, new, talking[new], total[new], step, period)
-        speakers = new if boosting else new[st.talk[new] > 0]  # a boost may make a silent customer count
+        st.adopt(network, scenario, new, talking[new], total[new], counted, step, period)
+        speakers = new[st.talk[new] > 0]
         if hit is not None and hit.any():
-            keep = ~hit
-            a_ids, a_total, a_res, a_extra = a_ids[keep], a_total[keep], a_res[keep], a_extra[keep]
+            active.keep(~hit)
