@@ -163,9 +163,13 @@ def test_finer_report_grid_agrees_with_period_grid():
 
 
 def test_rules_that_cannot_run_on_the_continuous_clock():
-    base = {"adoption": {"rule": "capped"}, "run": {"clock": "continuous"}}
-    with pytest.raises(ScenarioError, match=r'adoption.rule = "capped" cannot run on run.clock = "continuous"'):
-        Scenario.from_dict(base)
+    from womlab.scenario import CONTINUOUS_RULES, RULES
+
+    # every rule that is not a constant rate per satisfied neighbour (capped, threshold, cascade, ...)
+    for rule in sorted(set(RULES) - set(CONTINUOUS_RULES)):
+        with pytest.raises(ScenarioError, match=rf'adoption.rule = "{rule}" cannot run on run.clock = "continuous"'):
+            Scenario.from_dict({"adoption": {"rule": rule}, "run": {"clock": "continuous"}})
+    assert "capped" not in CONTINUOUS_RULES
     with pytest.raises(ScenarioError, match=r'run.engine = "mesa" runs on run.clock = "discrete" only'):
         Scenario.from_dict({"run": {"clock": "continuous", "engine": "mesa"}})
     with pytest.raises(ScenarioError, match=r"run.clock must be one of discrete, continuous; got 'continous'"):
