@@ -176,5 +176,7 @@ def test_rules_that_cannot_run_on_the_continuous_clock():
         Scenario.from_dict({"run": {"clock": "continous"}})
     with pytest.raises(ScenarioError, match=r'referral.enrol = "all": a referral programme runs on run.clock = "discrete"'):
         Scenario.from_dict({"run": {"clock": "continuous"}, "referral": {"enrol": "all"}})
+    with pytest.raises(ScenarioError, match=r'run.report_every must be a whole period \(1\) with run.engine = "mesa"'):
+        Scenario.from_dict({"run": {"engine": "mesa", "report_every": 0.5}})
     with pytest.raises(ScenarioError, match=r"run.report_every must be 1/n of a period"):
         Scenario.from_dict({"run": {"report_every": 0.3}})

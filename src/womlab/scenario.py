@@ -407,6 +407,8 @@ class RunSpec:
         if not (0 < r <= 1) or abs(1 / r - round(1 / r)) > 1e-9:
             _fail("run.report_every", r, "1/n of a period for a whole n >= 1 (1, 0.5, 0.25, 0.1, ...)")
         _one_of("run.clock", self.clock, CLOCKS)
+        if r < 1 and self.engine == "mesa" and self.clock == "discrete":
+            _fail("run.report_every", r, 'a whole period (1) with run.engine = "mesa", which keeps adoption periods only')
         if self.clock == "continuous":
             rule = scenario.adoption.rule
             if rule not in CONTINUOUS_RULES:
