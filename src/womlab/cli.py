@@ -141,6 +141,8 @@ def cmd_check(args: argparse.Namespace) -> int:
         ("stock-and-flow slope", f"{par.slope:.4g}"),
         ("periods x steps per period", f"{scenario.run.periods} x {scenario.run.steps_per_period}"),
         ("replicates, engine, jobs", f"{scenario.run.replicates}, {scenario.run.engine}, {scenario.run.jobs}"),
+        ("clock", "continuous (event engine: exact adoption times)" if scenario.run.clock == "continuous"
+         else f"discrete, steps of {scenario.run.time_step:g} period"),
     ]
     if par.cap is not None:
         rows.insert(-3, ("cap", f"{par.cap:.4g}"))
