@@ -1,0 +1,470 @@
+"""The Mesa model: one agent per organisation, the textbook per-agent form of the rules.
+
+This is the only module of womlab that imports Mesa, so that a change in Mesa's API
+touches one file. It mirrors the array engine (:mod:`womlab.engine`) rule for rule —
+both call the formulas of :mod:`womlab.rules` — but decides one organisation at a time,
+the way the rules are usually written down:
+
+1. At the start of each step every potential customer sums the talkers of its
+   satisfied-customer neighbours (Tᵢ) — read from its neighbours on Mesa's network
+   space — and, with the summed talkers of all its neighbours (Dᵢ), gets its rate from
+   :func:`~womlab.rules.adoption_rate` and its step probability from
+   :func:`~womlab.rules.step_probability`.
+2. It draws its own uniform against that probability. An organisation that adopts
+   draws its cause: external with probability :func:`~womlab.rules.external_share`,
+   otherwise one satisfied-customer neighbour, chosen with probability proportional
+   to its talkers (``numpy.random.Generator.choice``).
+3. Only when every potential customer has decided are the adoptions applied
+   (compute-then-apply, a synchronous update): each new customer draws whether it is
+   satisfied (:func:`~womlab.rules.draw_satisfied`) and, if so, starts talking in the
+   next step.
+
+The array engine instead draws one Exp(1) resistance per organisation and compares it
+with the summed step hazard; the two methods have the same per-step probabilities, and
+``tests/test_engines_agree.py`` holds their curves together statistically.
+
+On the ``complete`` network no ties are materialised: organisations sit on an empty
+network space and every organisation's neighbourhood is all the others, so Tᵢ and Dᵢ
+come from model-level totals (the talk of all satisfied customers; all talkers but
+one's own).
+
+Randomness: every draw comes from one numpy stream, ``model.rng``, which is the
+dynamics stream handed in (or the run's dynamics stream from
+:func:`womlab.studies.streams`). Mesa's stdlib ``model.random`` is seeded from it but
+never used for a draw.
+
+Importing Mesa forces the multiprocessing start method to ``spawn`` (a side effect of
+``mesa.batchrunner``); this module puts the previous setting back, so that importing
+womlab changes nothing outside it.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import difflib
+import multiprocessing
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+import networkx as nx
+import numpy as np
+
+_start_method = multiprocessing.get_start_method(allow_none=True)
+import mesa  # noqa: E402
+from mesa.agent import AgentSet  # noqa: E402
+from mesa.discrete_space import FixedAgent, Network  # noqa: E402
+
+if multiprocessing.get_start_method(allow_none=True) != _start_method:  # undo mesa.batchrunner's import side effect
+    multiprocessing.set_start_method(_start_method, force=True)
+del _start_method
+
+from . import rules  # noqa: E402
+from .errors import ScenarioError  # noqa: E402
+from .networks import ReferralNetwork, build_network  # noqa: E402
+from .results import RunResult  # noqa: E402
+from .scenario import SECTIONS, Scenario  # noqa: E402
+from .seeding import initial_customers  # noqa: E402
+from .studies import streams  # noqa: E402
+
+__all__ = ["ReferralModel", "Organisation", "run_mesa", "FLAT_PARAMETERS"]
+
+# run.replicates, run.engine and run.jobs describe batches, not one model run
+_NOT_FLAT = {("run", "replicates"), ("run", "engine"), ("run", "jobs")}
+
+#: Flat keyword parameter of :class:`ReferralModel` → the dotted scenario field it sets.
+FLAT_PARAMETERS: dict[str, str] = {
+    "name": "name",
+    "seed": "seed",
+    **{
+        f.name: f"{section}.{f.name}"
+        for section, cls in SECTIONS.items()
+        for f in dataclasses.fields(cls)
+        if (section, f.name) not in _NOT_FLAT
+    },
+}
+
+
+def _scenario_from_flat(scenario: Scenario | None, parameters: Mapping[str, Any]) -> Scenario:
+    """The scenario a model is built from: ``scenario`` (or the defaults) with the flat parameters set."""
+    for key in parameters:
+        if key not in FLAT_PARAMETERS:
+            close = difflib.get_close_matches(key, list(FLAT_PARAMETERS), n=1)
+            hint = f"; did you mean {close[0]!r}?" if close else ""
+            raise ScenarioError(
+                f"unknown ReferralModel parameter {key!r}{hint} (known: {', '.join(sorted(FLAT_PARAMETERS))})"
+            )
+    if scenario is not None:
+        if not parameters:
+            return scenario
+        return scenario.replace({FLAT_PARAMETERS[k]: v for k, v in parameters.items()})
+    nested: dict[str, Any] = {}
+    for key, value in parameters.items():
+        dotted = FLAT_PARAMETERS[key]
+        if "." in dotted:
+            section, name = dotted.split(".")
+            nested.setdefault(section, {})[name] = value
+        else:
+            nested[dotted] = value
+    return Scenario.from_dict(nested)
+
+
+class Organisation(FixedAgent):
+    """One organisation, fixed to its cell of the referral network.
+
+    Attributes
+    ----------
+    organisation : int
+        Its id on the referral network, 0..N−1 (Mesa's ``unique_id`` is that plus one).
+    talkers : float
+        How many people there would talk about the product once it is a satisfied
+        customer, drawn at creation by :func:`womlab.rules.draw_talkers`.
+    customer : bool
+        Whether it is a customer.
+    satisfied : bool
+        Whether it is a satisfied customer (drawn at adoption).
+    talk : float
+        Talkers it contributes to its neighbours now: ``talkers`` if a satisfied
+        customer, else 0.
+    adoption_period : int
+        Period in which it became a customer (0 for initial customers), −1 if not yet.
+    referrer : int
+        Id of the satisfied customer whose word of mouth caused its adoption; −1 for
+        external influence, initial customers and potential customers.
+    neighbours : list of Organisation
+        Its neighbours on the network space (empty on the complete network, where
+        every other organisation is a neighbour and the model supplies totals).
+
+    Examples
+    --------
+    >>> from womlab.model import ReferralModel
+    >>> model = ReferralModel(organisations=50, initial_customers=5, kind="ring", mean_degree=4)
+    >>> first = model.organisation(0)
+    >>> len(first.neighbours), first.customer in (True, False)
+    (4, True)
+    """
+
+    def __init__(self, model: ReferralModel, cell: Any, organisation: int) -> None:
+        super().__init__(model)
+        self.cell = cell
+        self.organisation = organisation
+        spec = model.scenario.adoption.talkers_per_customer
+        self.talkers = float(rules.draw_talkers(spec, 1, model.rng)[0])
+        self.customer = False
+        self.satisfied = False
+        self.talk = 0.0
+        self.adoption_period = -1
+        self.referrer = -1
+        self.neighbours: list[Organisation] = []
+        self.neighbour_talkers = 0.0
+        self.adopting = False
+        self._cause = -1
+
+    def meet_neighbours(self) -> None:
+        """Read its neighbours off the network space (once; the network does not change)."""
+        self.neighbours = list(self.cell.neighborhood.agents)
+        self.neighbour_talkers = float(sum(n.talkers for n in self.neighbours))
+
+    def decide(self) -> None:
+        """Compute phase: from the neighbours' state at the start of the step, draw whether to adopt."""
+        model = self.model
+        if model.complete:
+            talking = model.talk_total  # a potential customer's own talk is 0
+            total = model.talkers_total - self.talkers
+        else:
+            talking = 0.0
+            for other in self.neighbours:
+                talking += other.talk
+            total = self.neighbour_talkers
+        probability, external = model.chances(talking, total)
+        rng = model.rng
+        self.adopting = bool(rng.random() < probability)
+        if not self.adopting:
+            return
+        if rng.random() < external:
+            self._cause = -1
+            return
+        if model.complete:
+            candidates, weights = model.talking_now()
+        else:
+            candidates = [n for n in self.neighbours if n.talk > 0]
+            weights = np.array([n.talk for n in candidates])
+        pick = int(rng.choice(len(candidates), p=weights / weights.sum()))
+        self._cause = candidates[pick].organisation
+
+    def adopt(self, period: int) -> None:
+        """Apply phase: become a customer in ``period`` and draw whether satisfied."""
+        model = self.model
+        self.customer = True
+        self.adopting = False
+        self.adoption_period = period
+        self.referrer = self._cause
+        self.satisfied = bool(rules.draw_satisfied(model.scenario.adoption.satisfied_share, 1, model.rng)[0])
+        self.talk = self.talkers if self.satisfied else 0.0
+
+
+class ReferralModel(mesa.Model):
+    """Word-of-mouth adoption on a referral network, one Mesa agent per organisation.
+
+    Each call to :meth:`step` is one step of length ``run.time_step``: every potential
+    customer decides from its neighbours' state at the start of the step, then all
+    adoptions are applied at once (see :mod:`womlab.model`). With ``time_step`` = 1/n
+    there are n steps per period, and an organisation adopting in step s gets the
+    adoption period ⌈s / n⌉.
+
+    Parameters
+    ----------
+    scenario : Scenario, optional
+        The scenario to run; defaults to womlab's defaults. Only its ``market``,
+        ``network``, ``adoption`` and ``run`` (periods, time_step, step_probability)
+        sections are used.
+    network : ReferralNetwork or networkx.Graph, optional
+        The referral network. A networkx graph (nodes 0..N−1 or any sortable labels,
+        optional integer ``region`` attribute) is read, never changed. By default the
+        network is built from the run's network stream, exactly as :func:`womlab.run_one`
+        builds it.
+    initial : sequence of int, optional
+        Ids of the customers at period 0; by default drawn from the run's seeding
+        stream, as :func:`womlab.run_one` draws them.
+    rng : numpy.random.Generator or int, optional
+        The dynamics stream (an int seeds a new Generator); by default the run's
+        dynamics stream. Every draw of the model comes from it.
+    replicate : int
+        The replicate whose streams (``SeedSequence(seed, spawn_key=(replicate,))``)
+        supply the defaults above, so ``ReferralModel(..., replicate=r)`` is replicate
+        r of :func:`womlab.run_replicates` with ``engine = "mesa"``. Give Mesa's batch
+        runner ``"replicate": range(R)`` for R different replicates (its
+        ``iterations`` repeat the same seeded run).
+    **parameters
+        Flat scenario fields, for Mesa's batch runner: each name in
+        :data:`FLAT_PARAMETERS` sets one dotted field — ``name``, ``seed``; market:
+        ``organisations``, ``initial_customers``, ``initial_share``, ``regions``;
+        network: ``kind``, ``mean_degree``, ``rewiring``, ``within_region_share``,
+        ``path``, ``nodes_path``; adoption: ``rule``, ``external``, ``word_of_mouth``,
+        ``satisfied_share``, ``talkers_per_customer``, ``cap``; run: ``periods``,
+        ``time_step``, ``step_probability``. Without ``scenario`` they build
+        ``Scenario.from_dict`` of the nested sections; with ``scenario`` they are
+        applied by ``Scenario.replace``. Either way the result is validated.
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The scenario as run.
+    network : ReferralNetwork
+        The referral network as arrays.
+    space : mesa.discrete_space.Network
+        Mesa's network space, one cell per organisation (no ties on the complete network).
+    datacollector : mesa.DataCollector
+        One row per step (row 0: the seeded state): ``step``, ``period``, ``time``,
+        ``customers``, ``new_customers`` (in that step), ``satisfied_customers``.
+    running : bool
+        Turns False on the first :meth:`step` past the horizon, so that Mesa's batch
+        runner (which reports the collector's row ``model.steps − 1``) reports the
+        state at the horizon.
+
+    Raises
+    ------
+    ScenarioError
+        For an unknown flat parameter (with a did-you-mean), an invalid value, or
+        initial customers that are not distinct ids of the network.
+
+    Examples
+    --------
+    >>> from womlab.model import ReferralModel
+    >>> model = ReferralModel(organisations=200, initial_customers=4, kind="random", mean_degree=6, periods=10)
+    >>> model.run_model()
+    >>> table = model.datacollector.get_model_vars_dataframe()
+    >>> len(table), int(table["customers"].iloc[-1]) == int(model.result().customers[-1])
+    (11, True)
+
+    With Mesa's own batch runner::
+
+        import mesa
+        rows = mesa.batch_run(ReferralModel, parameters={"organisations": 200, "kind": "random",
+                              "word_of_mouth": [0.2, 0.4], "replicate": range(10)},
+                              number_processes=1, display_progress=False)
+    """
+
+    def __init__(
+        self,
+        scenario: Scenario | None = None,
+        *,
+        network: ReferralNetwork | nx.Graph | None = None,
+        initial: Sequence[int] | np.ndarray | None = None,
+        rng: np.random.Generator | int | None = None,
+        replicate: int = 0,
+        **parameters: Any,
+    ) -> None:
+        scenario = _scenario_from_flat(scenario, parameters)
+        st = streams(scenario.seed, (replicate,))
+        if network is None:
+            network = build_network(scenario, np.random.default_rng(st.network))
+        elif isinstance(network, nx.Graph):
+            network = ReferralNetwork.from_networkx(network)
+        if initial is None:
+            initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
+        initial = np.asarray(initial, dtype=np.int64).ravel()
+        if initial.size and (initial.min() < 0 or initial.max() >= network.n or np.unique(initial).size != initial.size):
+            raise ScenarioError(
+                f"initial customers must be distinct organisation ids in 0..{network.n - 1}, got {initial.tolist()[:10]}"
+            )
+        if rng is None:
+            rng = np.random.default_rng(st.dynamics)
+        elif not isinstance(rng, np.random.Generator):
+            rng = np.random.default_rng(rng)
+        super().__init__(rng=rng)  # model.rng is the dynamics stream itself
+
+        self.scenario = scenario
+        self.network = network
+        self.complete = network.complete
+        run = scenario.run
+        self.time_step = run.time_step
+        self.steps_per_period = run.steps_per_period
+        self.horizon_steps = run.periods * run.steps_per_period
+        self.step_count = 0
+        self.period = 0
+        self._chances: dict[tuple[float, float], tuple[float, float]] = {}
+
+        graph = nx.empty_graph(network.n) if network.complete else _graph_of(network)
+        self.space = Network(graph, random=self.random)
+        cells = [self.space[i] for i in range(network.n)]
+        organisations = [Organisation(self, cells[i], i) for i in range(network.n)]
+        self._by_id = organisations
+        for agent in organisations:
+            agent.meet_neighbours()
+        self.talkers_total = float(sum(a.talkers for a in organisations))
+
+        for i in initial.tolist():
+            organisations[i].adopt(0)
+        self.initial = np.sort(initial).astype(np.int32)
+        self.potential = AgentSet([a for a in organisations if not a.customer], random=self.random)
+        self.customers = int(initial.size)
+        self.new_customers = int(initial.size)
+        self.satisfied_customers = sum(1 for i in initial.tolist() if organisations[i].satisfied)
+        self.talk_total = 0.0
+        self._talking_now: tuple[list[Organisation], np.ndarray] | None = None
+
+        self.datacollector = mesa.DataCollector(
+            model_reporters={
+                "step": "step_count",
+                "period": "period",
+                "time": lambda m: m.step_count * m.time_step,
+                "customers": "customers",
+                "new_customers": "new_customers",
+                "satisfied_customers": "satisfied_customers",
+            }
+        )
+        self.datacollector.collect(self)
+
+    # ------------------------------------------------------------------ helpers
+    def organisation(self, organisation: int) -> Organisation:
+        """The agent of organisation ``organisation`` (0..N−1)."""
+        return self._by_id[organisation]
+
+    def chances(self, talking: float, total: float) -> tuple[float, float]:
+        """Step probability and external share for a potential customer with T = ``talking``, D = ``total``.
+
+        Straight from :mod:`womlab.rules`; remembered per (T, D), since the formulas
+        are pure functions and most organisations share a few values.
+        """
+        key = (talking, total)
+        found = self._chances.get(key)
+        if found is None:
+            adoption, run = self.scenario.adoption, self.scenario.run
+            t, d = np.array([talking]), np.array([total])
+            rate = rules.adoption_rate(adoption.rule, t, d, adoption)
+            probability = float(rules.step_probability(rate, run.time_step, run.step_probability)[0])
+            external = float(rules.external_share(adoption.rule, t, d, adoption)[0])
+            found = self._chances[key] = (probability, external)
+        return found
+
+    def talking_now(self) -> tuple[list[Organisation], np.ndarray]:
+        """Complete network: every organisation that talks now, and its talk (the referrer candidates)."""
+        if self._talking_now is None:
+            speakers = list(self.agents.select(lambda a: a.talk > 0))
+            self._talking_now = (speakers, np.array([a.talk for a in speakers]))
+        return self._talking_now
+
+    # ------------------------------------------------------------------ dynamics
+    def step(self) -> None:
+        """One step: every potential customer decides, then every adoption is applied."""
+        if self.step_count >= self.horizon_steps:
+            self.running = False
+            return
+        self.step_count += 1
+        self.period = -(-self.step_count // self.steps_per_period)
+        if self.complete:
+            self.talk_total = float(self.agents.agg("talk", sum))
+            self._talking_now = None
+        self.potential.do("decide")
+        adopters = self.potential.select(lambda a: a.adopting)
+        adopters.do("adopt", self.period)
+        for agent in adopters:
+            self.potential.remove(agent)
+        self.new_customers = len(adopters)
+        self.customers += self.new_customers
+        self.satisfied_customers += sum(1 for a in adopters if a.satisfied)
+        self.datacollector.collect(self)
+
+    def result(self) -> RunResult:
+        """The run so far as a :class:`~womlab.results.RunResult` (the same object the array engine returns).
+
+        Per-organisation vectors are read off the agents; ``periods`` is the
+        scenario's horizon.
+        """
+        agents = self._by_id
+        customer = np.array([a.customer for a in agents], dtype=bool)
+        return RunResult(
+            periods=self.scenario.run.periods,
+            adoption_period=np.array([a.adoption_period for a in agents], dtype=np.int32),
+            referrer=np.array([a.referrer for a in agents], dtype=np.int32),
+            satisfied=customer & np.array([a.satisfied for a in agents], dtype=bool),
+            region=np.asarray(self.network.region, dtype=np.int32).copy(),
+            initial=self.initial.copy(),
+            engine="mesa",
+        )
+
+
+def _graph_of(network: ReferralNetwork) -> nx.Graph:
+    """A fresh networkx graph of the network's ties, for Mesa's network space."""
+    graph = nx.empty_graph(network.n)
+    rows = np.repeat(np.arange(network.n), np.diff(network.indptr))
+    upper = rows < network.indices
+    graph.add_edges_from(zip(rows[upper].tolist(), network.indices[upper].tolist()))
+    return graph
+
+
+def run_mesa(
+    scenario: Scenario, network: ReferralNetwork, initial: np.ndarray, rng: np.random.Generator
+) -> RunResult:
+    """One run of the scenario on the Mesa model: the ``"mesa"`` engine of :data:`womlab.studies.ENGINES`.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        Supplies the adoption rule and the run's horizon, step and step form.
+    network : ReferralNetwork
+        The referral network (read, never changed).
+    initial : numpy.ndarray
+        Ids of the customers at period 0.
+    rng : numpy.random.Generator
+        The dynamics stream; every draw of the run comes from it.
+
+    Returns
+    -------
+    RunResult
+        The same object as :func:`womlab.engine.run_array` returns.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from womlab import Scenario, build_network
+    >>> from womlab.model import run_mesa
+    >>> s = Scenario.from_dict({"market": {"organisations": 100}, "network": {"kind": "ring", "mean_degree": 4},
+    ...                         "run": {"periods": 5}})
+    >>> net = build_network(s, np.random.default_rng(1))
+    >>> run_mesa(s, net, np.array([0, 50]), np.random.default_rng(2)).customers.shape
+    (6,)
+    """
+    model = ReferralModel(scenario, network=network, initial=initial, rng=rng)
+    model.run_model()
+    return model.result()
