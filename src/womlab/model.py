@@ -13,7 +13,7 @@ the way the rules are usually written down:
 2. It draws its own uniform against that probability. An organisation that adopts
    draws its cause: external with probability :func:`~womlab.rules.external_share`,
    otherwise one satisfied-customer neighbour, chosen with probability proportional
-   to its talkers (``numpy.random.Generator.choice``).
+   to its talkers (a roulette wheel walked over its neighbours).
 3. Only when every potential customer has decided are the adoptions applied
    (compute-then-apply, a synchronous update): each new customer draws whether it is
    satisfied (:func:`~womlab.rules.draw_satisfied`) and, if so, starts talking in the
@@ -40,8 +40,10 @@ womlab changes nothing outside it.
 
 from __future__ import annotations
 
+import bisect
 import dataclasses
 import difflib
+import itertools
 import multiprocessing
 from collections.abc import Mapping, Sequence
 from typing import Any
@@ -183,13 +185,19 @@ class Organisation(FixedAgent):
         if rng.random() < external:
             self._cause = -1
             return
+        # word of mouth: a roulette wheel over the talking neighbours, slots sized by their talk
         if model.complete:
-            candidates, weights = model.talking_now()
-        else:
-            candidates = [n for n in self.neighbours if n.talk > 0]
-            weights = np.array([n.talk for n in candidates])
-        pick = int(rng.choice(len(candidates), p=weights / weights.sum()))
-        self._cause = candidates[pick].organisation
+            speakers, cumulative = model.talking_now()
+            pick = bisect.bisect_right(cumulative, rng.random() * cumulative[-1])
+            self._cause = speakers[min(pick, len(speakers) - 1)].organisation
+            return
+        left = rng.random() * talking
+        for other in self.neighbours:
+            if other.talk > 0:
+                self._cause = other.organisation
+                left -= other.talk
+                if left < 0:
+                    break
 
     def adopt(self, period: int) -> None:
         """Apply phase: become a customer in ``period`` and draw whether satisfied."""
@@ -341,7 +349,7 @@ class ReferralModel(mesa.Model):
         self.new_customers = int(initial.size)
         self.satisfied_customers = sum(1 for i in initial.tolist() if organisations[i].satisfied)
         self.talk_total = 0.0
-        self._talking_now: tuple[list[Organisation], np.ndarray] | None = None
+        self._talking_now: tuple[list[Organisation], list[float]] | None = None
 
         self.datacollector = mesa.DataCollector(
             model_reporters={
@@ -377,11 +385,11 @@ class ReferralModel(mesa.Model):
             found = self._chances[key] = (probability, external)
         return found
 
-    def talking_now(self) -> tuple[list[Organisation], np.ndarray]:
-        """Complete network: every organisation that talks now, and its talk (the referrer candidates)."""
+    def talking_now(self) -> tuple[list[Organisation], list[float]]:
+        """Complete network: every organisation that talks now, and the running sum of their talk."""
         if self._talking_now is None:
             speakers = list(self.agents.select(lambda a: a.talk > 0))
-            self._talking_now = (speakers, np.array([a.talk for a in speakers]))
+            self._talking_now = (speakers, list(itertools.accumulate(a.talk for a in speakers)))
         return self._talking_now
 
     # ------------------------------------------------------------------ dynamics
