@@ -37,7 +37,7 @@ from scipy import stats
 from womlab import Scenario, run_replicates
 
 N = 500
-R_ARRAY = 300
+R_ARRAY = 200
 R_MESA = 200
 SEED_ARRAY = 7001
 SEED_MESA = 7002
