@@ -19,18 +19,49 @@ from __future__ import annotations
 from .aggregate import (
     AggregateParameters,
     aggregate_curve,
+    bass_density,
     bass_difference,
     bass_ode,
     bass_peak_time,
     bass_share,
+    degree_classes,
+    degree_mean_field,
+    degree_mean_field_curve,
     mapped_parameters,
     stock_and_flow,
 )
 from .errors import NetworkError, ScenarioError, StoreError, WomlabError
-from .metrics import curve_metrics, time_to_share
+from .fitting import (
+    BassFit,
+    StockFlowFit,
+    bass_fit_table,
+    fit_bass,
+    fit_bass_sales,
+    fit_replicates,
+    fit_stock_and_flow,
+)
+from .gaps import Comparison, aggregate_curves, compare
+from .metrics import (
+    curve_gap,
+    curve_metrics,
+    pooled_gaps,
+    pooled_metrics,
+    replicate_gaps,
+    replicate_metrics,
+    time_to_share,
+)
 from .networks import ReferralNetwork, build_network, read_edgelist
-from .outputs import save_batch
-from .plots import adoption_figure
+from .outputs import save_batch, save_programme
+from .plots import adoption_figure, comparison_figure, programme_figure, referral_tree_figure
+from .programme import ProgrammeStudy, evaluate_programme, programme_economics
+from .referrals import (
+    generations,
+    referral_tree_summary,
+    referrals_per_customer,
+    reproduction_by_period,
+    top_degree_referral_share,
+    word_of_mouth_by_period,
+)
 from .results import RunResult
 from .scenario import Scenario, load_scenario
 from .seeding import STRATEGIES, choose_seeds
@@ -40,32 +71,64 @@ __version__ = "0.1.0"
 
 __all__ = [
     "AggregateParameters",
+    "BassFit",
     "Batch",
+    "Comparison",
     "NetworkError",
+    "ProgrammeStudy",
     "ReferralNetwork",
     "RunResult",
     "STRATEGIES",
     "Scenario",
     "ScenarioError",
+    "StockFlowFit",
     "StoreError",
     "WomlabError",
     "adoption_figure",
     "aggregate_curve",
+    "aggregate_curves",
+    "bass_density",
     "bass_difference",
+    "bass_fit_table",
     "bass_ode",
     "bass_peak_time",
     "bass_share",
     "build_network",
     "choose_seeds",
+    "compare",
+    "comparison_figure",
+    "curve_gap",
     "curve_metrics",
+    "degree_classes",
+    "degree_mean_field",
+    "degree_mean_field_curve",
+    "evaluate_programme",
+    "fit_bass",
+    "fit_bass_sales",
+    "fit_replicates",
+    "fit_stock_and_flow",
+    "generations",
     "load_scenario",
     "mapped_parameters",
+    "pooled_gaps",
+    "pooled_metrics",
+    "programme_economics",
+    "programme_figure",
     "read_edgelist",
+    "referral_tree_figure",
+    "referral_tree_summary",
+    "referrals_per_customer",
+    "replicate_gaps",
+    "replicate_metrics",
+    "reproduction_by_period",
     "run_one",
     "run_paired",
     "run_replicates",
     "save_batch",
+    "save_programme",
     "stock_and_flow",
     "streams",
     "time_to_share",
+    "top_degree_referral_share",
+    "word_of_mouth_by_period",
 ]

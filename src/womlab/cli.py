@@ -39,8 +39,8 @@ def _load(args: argparse.Namespace):  # noqa: ANN202
     return scenario.replace(changes) if changes else scenario
 
 
-def _print_table(frame, out=sys.stdout) -> None:  # noqa: ANN001
-    print(frame.to_string(index=False, float_format=lambda v: f"{v:.4g}"), file=out)
+def _print_table(frame) -> None:  # noqa: ANN001
+    print(frame.to_string(index=False, float_format=lambda v: f"{v:.4g}"))
 
 
 def cmd_run(args: argparse.Namespace) -> int:
@@ -55,6 +55,44 @@ def cmd_run(args: argparse.Namespace) -> int:
     print(f"{scenario.name}: {batch.replicates} runs of {scenario.market.organisations} organisations "
           f"on a {scenario.network.kind} network, {batch.wall_time:.1f} s")
     _print_table(metrics)
+    print(f"wrote {len(written)} files to {out}/")
+    return 0
+
+
+def cmd_referral(args: argparse.Namespace) -> int:
+    import time
+
+    from .outputs import save_programme
+    from .programme import evaluate_programme
+
+    scenario = _load(args)
+    out = Path(args.out) if args.out else Path("out") / f"{Path(args.config).stem}-referral"
+    start = time.perf_counter()
+    study = evaluate_programme(scenario, progress=not args.quiet)
+    wall = time.perf_counter() - start
+    written = save_programme(study, out, wall_time=wall)
+    ref = scenario.referral
+    value = f"lifetime value {ref.lifetime_value:g}" if ref.lifetime_value is not None else (
+        f"value {1.0 if ref.value_per_period is None else ref.value_per_period:g} per customer per period")
+    print(f"{scenario.name}: referral programme (enrol {ref.enrol}, periods {ref.start}-{ref.last_period(scenario.run.periods)}) "
+          f"vs none, {study.replicates} paired replicates of {scenario.market.organisations} organisations "
+          f"on a {scenario.network.kind} network, {wall:.1f} s")
+    print(f"{value}, discount rate {ref.discount_rate:g} per period")
+    _print_table(study.summary()[["outcome", "estimate", "low", "high"]])
+    print(f"wrote {len(written)} files to {out}/")
+    return 0
+
+
+def cmd_compare(args: argparse.Namespace) -> int:
+    from .gaps import compare
+
+    scenario = _load(args)
+    out = Path(args.out) if args.out else Path("out") / f"{Path(args.config).stem}-compare"
+    comparison = compare(scenario, bootstrap=args.bootstrap, progress=not args.quiet)
+    written = comparison.save(out)
+    print(comparison.summary_text())
+    print()
+    _print_table(comparison.metrics)
     print(f"wrote {len(written)} files to {out}/")
     return 0
 
@@ -106,6 +144,27 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--out", help="results folder (default out/<config name>)")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
     run.set_defaults(func=cmd_run)
+
+    referral = sub.add_parser("referral", help="evaluate the scenario's referral programme against no programme")
+    referral.add_argument("config", help="scenario TOML file with a [referral] section")
+    referral.add_argument("--replicates", type=_positive, help="paired replicates (overrides run.replicates)")
+    referral.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
+    referral.add_argument("--out", help="results folder (default out/<config name>-referral)")
+    referral.add_argument("--quiet", action="store_true", help="no progress bar")
+    referral.set_defaults(func=cmd_referral)
+
+    comp = sub.add_parser(
+        "compare",
+        help="run replicates and set the network beside every aggregate model: gaps, fitted parameters, figure",
+    )
+    comp.add_argument("config", help="scenario TOML file")
+    comp.add_argument("--replicates", type=_positive, help="number of replicate runs (overrides run.replicates)")
+    comp.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
+    comp.add_argument("--engine", choices=["array", "mesa"], help="overrides run.engine")
+    comp.add_argument("--bootstrap", type=_positive, default=1000, help="bootstrap resamples for the intervals (default 1000)")
+    comp.add_argument("--out", help="results folder (default out/<config name>-compare)")
+    comp.add_argument("--quiet", action="store_true", help="no progress bar")
+    comp.set_defaults(func=cmd_compare)
 
     check = sub.add_parser("check", help="validate a scenario and print its derived quantities")
     check.add_argument("config", help="scenario TOML file")

@@ -12,6 +12,12 @@ which its summed step hazard (:func:`womlab.rules.step_hazard`) reaches Eᵢ —
 per-step probabilities as drawing a fresh uniform every step, but with a single draw
 per organisation, so that two variants compared on the same streams see the same
 resistances (common random numbers) whatever the state.
+
+A referral programme (``[referral]``, :mod:`womlab.programme`) touches the loop at two
+marked points only: the talkers that count in a step (boosted for enrolled satisfied
+customers while the programme runs) and, after attribution, the payment for the step's
+referrals. Its enrolment draws come from a stream of their own, so the draws above are
+the same with or without a programme.
 """
 
 from __future__ import annotations
@@ -19,6 +25,7 @@ from __future__ import annotations
 import numpy as np
 
 from . import rules
+from .programme import start_programme
 from .networks import ReferralNetwork
 from .results import RunResult
 from .scenario import Scenario
@@ -88,6 +95,7 @@ def run_array(
     adoption_period[initial] = 0
     talk = np.where(customer & would_be_satisfied, tau, np.float32(0))
     hazard = np.zeros(n)
+    programme = start_programme(scenario, network, rng)  # None without a programme; draws nothing from rng
 
     if network.complete:
         all_talkers = np.full(n, tau.sum(dtype=np.float64)) - tau
@@ -97,10 +105,13 @@ def run_array(
         all_talkers = matrix @ tau
 
     for step in range(1, run.periods * spp + 1):
+        period = (step + spp - 1) // spp
+        # programme: the talkers that count this step (``talk`` itself without a boost)
+        counted = talk if programme is None else programme.talk(talk, customer & would_be_satisfied, period)
         if matrix is None:
-            talking = talk.sum(dtype=np.float64) - talk
+            talking = counted.sum(dtype=np.float64) - counted
         else:
-            talking = matrix @ talk
+            talking = matrix @ counted
         potential = ~customer
         rate = rules.adoption_rate(rule, talking, all_talkers, adoption)
         hazard += np.where(potential, rules.step_hazard(rate, dt, form), 0.0)
@@ -112,9 +123,11 @@ def run_array(
         wom = new[by_wom]
         if wom.size:
             u = (u_cause[wom] - ext[by_wom]) / (1 - ext[by_wom])
-            referrer[wom] = pick_referrers(network, wom, talk, u)
+            referrer[wom] = pick_referrers(network, wom, counted, u)
+            if programme is not None:  # programme: pay for this step's attributed referrals
+                programme.settle(period, wom, referrer[wom])
         customer[new] = True
-        adoption_period[new] = (step + spp - 1) // spp
+        adoption_period[new] = period
         talk[new] = np.where(would_be_satisfied[new], tau[new], np.float32(0))
 
     return RunResult(
@@ -125,4 +138,5 @@ def run_array(
         region=network.region,
         initial=np.asarray(initial, dtype=np.int32),
         engine="array",
+        extra={} if programme is None else programme.record(),
     )

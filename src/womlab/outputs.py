@@ -18,7 +18,7 @@ from typing import Any, Callable
 
 from .errors import StoreError
 
-__all__ = ["save_batch", "versions", "atomic_write"]
+__all__ = ["save_batch", "save_programme", "versions", "atomic_write"]
 
 _LIBRARIES = ("womlab", "numpy", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib")
 
@@ -41,6 +41,9 @@ def atomic_write(path: Path, write: Callable[[Path], Any]) -> Path:
     os.close(fd)
     try:
         write(Path(tmp))
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; results folders are meant to be shared
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
@@ -91,5 +94,57 @@ def save_batch(batch, out: str | Path, *, figure: bool = True) -> list[Path]:  #
         fig = adoption_figure(batch)
         written.append(atomic_write(out / "adoption.png", lambda p: fig.savefig(p, dpi=130, format="png")))
     text = json.dumps(manifest(batch), indent=2)
+    written.append(atomic_write(out / "manifest.json", lambda p: p.write_text(text + "\n", encoding="utf-8")))
+    return written
+
+
+def save_programme(study, out: str | Path, *, figure: bool = True, wall_time: float = 0.0) -> list[Path]:  # noqa: ANN001
+    """Write a referral programme study's results folder.
+
+    Files: ``programme_summary.csv`` (outcome, estimate, 95 % interval),
+    ``programme_runs.csv`` (one row per replicate), ``programme_curves.csv`` (baseline and
+    programme share per period), ``programme_cumulative.csv`` (cumulative cost and
+    incremental value per period), ``referral_tree.csv`` (tree statistics, baseline beside
+    programme), ``programme.png``, ``referral_tree.png`` and ``manifest.json``.
+
+    Raises
+    ------
+    StoreError
+        If ``out`` exists and is not a folder, or cannot be created.
+    """
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise StoreError(f"--out {str(out)!r} exists and is not a folder")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise StoreError(f"--out {str(out)!r} cannot be created: {exc}") from None
+    tables = {
+        "programme_summary.csv": study.summary(),
+        "programme_runs.csv": study.per_replicate(),
+        "programme_curves.csv": study.curves(),
+        "programme_cumulative.csv": study.cumulative(),
+        "referral_tree.csv": study.tree(),
+    }
+    written = [
+        atomic_write(out / name, lambda p, t=table: t.to_csv(p, index=False, float_format="%.6g"))
+        for name, table in tables.items()
+    ]
+    if figure:
+        from .plots import programme_figure, referral_tree_figure
+
+        for name, fig in (("programme.png", programme_figure(study)), ("referral_tree.png", referral_tree_figure(study))):
+            written.append(atomic_write(out / name, lambda p, f=fig: f.savefig(p, dpi=130, format="png")))
+    info = {
+        "scenario": study.scenario.to_dict(),
+        "root_seed": study.scenario.seed,
+        "replicates": study.replicates,
+        "spawn_keys": "SeedSequence(root_seed, spawn_key=(replicate,)); baseline and programme paired",
+        "engine": study.scenario.run.engine,
+        "wall_time_s": round(wall_time, 3),
+        "written": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "versions": versions(),
+    }
+    text = json.dumps(info, indent=2)
     written.append(atomic_write(out / "manifest.json", lambda p: p.write_text(text + "\n", encoding="utf-8")))
     return written

@@ -11,7 +11,7 @@ from matplotlib.figure import Figure
 
 from .aggregate import bass_share, mapped_parameters
 
-__all__ = ["adoption_figure"]
+__all__ = ["adoption_figure", "comparison_figure", "programme_figure", "referral_tree_figure"]
 
 NETWORK_COLOUR = "#1f5f8b"
 AGGREGATE_COLOUR = "#c0392b"
@@ -62,5 +62,163 @@ def adoption_figure(batch, *, title: str | None = None) -> Figure:  # noqa: ANN0
     bottom.set_ylabel("new customers per period,\nshare of market")
     bottom.grid(alpha=0.3)
     bottom.legend(loc="upper right", fontsize=8, frameon=False)
+    bottom.set_xlim(0, t[-1])
+    return fig
+
+
+PROGRAMME_COLOUR = "#d35400"
+
+
+def programme_figure(study, *, title: str | None = None) -> Figure:  # noqa: ANN001 - ProgrammeStudy
+    """A referral programme against its baseline: customer share with bands, and cumulative
+    discounted cost against cumulative incremental discounted value, break-even period marked.
+
+    Parameters
+    ----------
+    study : womlab.programme.ProgrammeStudy
+    title : str, optional
+        Defaults to the scenario's name.
+    """
+    s = study.scenario
+    ref = s.referral
+    curves = study.curves()
+    cum = study.cumulative()
+    t = curves["period"].to_numpy()
+    fig = Figure(figsize=(7.5, 7.0), layout="constrained")
+    top, bottom = fig.subplots(2, 1, sharex=True)
+    for name, colour in (("baseline", NETWORK_COLOUR), ("programme", PROGRAMME_COLOUR)):
+        top.fill_between(t, curves[f"{name}_q05"], curves[f"{name}_q95"], color=colour, alpha=0.18, lw=0)
+        top.plot(t, curves[f"{name}_mean"], color=colour, lw=2, label=f"{name}, mean and 5–95 % band")
+    end = ref.last_period(s.run.periods)
+    for ax in (top, bottom):
+        ax.axvspan(ref.start - 1, end, color="#999999", alpha=0.08, lw=0)
+        ax.grid(alpha=0.3)
+    top.set_ylabel("customers, share of market")
+    top.set_ylim(0, 1.02)
+    top.legend(loc="lower right", fontsize=8, frameon=False, title=f"{study.replicates} paired replicates",
+               title_fontsize=8)
+    top.set_title(title or s.name, fontsize=11)
+
+    bottom.plot(t, cum["cumulative_cost"], color=AGGREGATE_COLOUR, lw=2, label="cumulative cost (discounted)")
+    bottom.plot(t, cum["cumulative_incremental_value"], color=PROGRAMME_COLOUR, lw=2,
+                label="cumulative incremental value (discounted)")
+    be = study.break_even_period()
+    if np.isfinite(be):
+        bottom.axvline(be, color=BASS_COLOUR, ls="--", lw=1.2)
+        bottom.annotate(f"break-even, period {be:g}", (be, 0), xytext=(4, 6), textcoords="offset points",
+                        fontsize=8, color=BASS_COLOUR)
+    else:
+        bottom.text(0.02, 0.92, "no break-even by the horizon", transform=bottom.transAxes, fontsize=8,
+                    color=BASS_COLOUR)
+    bottom.set_xlabel("period (shaded: programme window)")
+    bottom.set_ylabel("value, mean over replicates")
+    bottom.legend(loc="upper left", fontsize=8, frameon=False)
+    bottom.set_xlim(0, t[-1])
+    return fig
+
+
+def referral_tree_figure(study, *, title: str | None = None) -> Figure:  # noqa: ANN001 - ProgrammeStudy
+    """Referral-tree statistics, baseline beside programme: word-of-mouth share of adoptions by
+    period, referrals per customer (distribution), and the reproduction number by adoption period.
+
+    Parameters
+    ----------
+    study : womlab.programme.ProgrammeStudy
+    title : str, optional
+        Defaults to the scenario's name.
+    """
+    from .referrals import referrals_per_customer, reproduction_by_period, word_of_mouth_by_period
+
+    fig = Figure(figsize=(11.0, 3.8), layout="constrained")
+    a, b, c = fig.subplots(1, 3)
+    for name, runs, colour in (("baseline", study.baseline, NETWORK_COLOUR),
+                               ("programme", study.programme, PROGRAMME_COLOUR)):
+        wom = word_of_mouth_by_period(runs).groupby("period")[["adoptions", "word_of_mouth"]].sum()
+        a.plot(wom.index, wom["word_of_mouth"] / wom["adoptions"].where(wom["adoptions"] > 0), color=colour,
+               lw=2, label=name)
+        per = referrals_per_customer(runs)
+        b.plot(per["referrals"], per["share"], "o-", ms=3, color=colour, lw=1.5, label=name)
+        rep = reproduction_by_period(runs)
+        b_ok = rep["customers"] > 0
+        c.plot(rep.loc[b_ok, "period"], rep.loc[b_ok, "reproduction"], color=colour, lw=2, label=name)
+        c.fill_between(rep.loc[b_ok, "period"], rep.loc[b_ok, "reproduction"] - 2 * rep.loc[b_ok, "se"],
+                       rep.loc[b_ok, "reproduction"] + 2 * rep.loc[b_ok, "se"], color=colour, alpha=0.15, lw=0)
+    a.set(xlabel="period", ylabel="share of adoptions by word of mouth", ylim=(0, 1.02))
+    b.set(xlabel="referrals made by a customer", ylabel="share of customers", yscale="log")
+    c.set(xlabel="adoption period", ylabel="mean referrals made (±2 SE)")
+    c.axhline(1.0, color=BASS_COLOUR, lw=0.8, ls=":")
+    for ax in (a, b, c):
+        ax.grid(alpha=0.3)
+        ax.legend(fontsize=8, frameon=False)
+    fig.suptitle(title or f"{study.scenario.name}: referral trees", fontsize=11)
+    return fig
+
+
+# colour and line style of each aggregate curve in comparison figures
+CURVE_STYLES = {
+    "bass_mapped": dict(color=BASS_COLOUR, ls=":", lw=1.4),
+    "bass_difference": dict(color=AGGREGATE_COLOUR, ls="--", lw=1.6),
+    "stock_and_flow": dict(color="#e67e22", ls=(0, (1, 2)), lw=2.2),
+    "degree_mean_field": dict(color="#27ae60", ls="-.", lw=1.6),
+    "bass_fitted": dict(color="#8e44ad", ls="-", lw=1.2),
+}
+
+
+def comparison_figure(comparison, *, title: str | None = None) -> Figure:  # noqa: ANN001 - Comparison
+    """The network band with every aggregate curve, new customers per period, and the gap over time.
+
+    Parameters
+    ----------
+    comparison : womlab.gaps.Comparison
+    title : str, optional
+        Defaults to the scenario's name.
+    """
+    from .gaps import AGGREGATE_LABELS
+
+    batch = comparison.batch
+    summary = batch.summary()
+    shares = batch.shares()
+    t = summary["time"].to_numpy()
+    mean = shares.mean(axis=0)
+    h = comparison.headline()
+
+    fig = Figure(figsize=(8, 9), layout="constrained")
+    top, mid, bottom = fig.subplots(3, 1, sharex=True, height_ratios=[3, 2, 2])
+    top.fill_between(t, summary["q05"], summary["q95"], color=NETWORK_COLOUR, alpha=0.2, lw=0,
+                     label=f"network, 5–95 % of {batch.replicates} runs")
+    top.plot(t, mean, color=NETWORK_COLOUR, lw=2.2, label="network, mean")
+    for name, curve in comparison.curves.items():
+        top.plot(t, curve, label=AGGREGATE_LABELS.get(name, name), **CURVE_STYLES.get(name, {}))
+    top.set_ylabel("customers, share of market")
+    top.set_ylim(0, 1.02)
+    top.grid(alpha=0.3)
+    top.legend(loc="lower right", fontsize=7.5, frameon=False)
+    top.set_title(title or batch.scenario.name, fontsize=11)
+    top.text(0.02, 0.97, f"Q_eff / Q_mapped = {h['Q_ratio']:.2f} ({h['Q_ratio_low']:.2f}–{h['Q_ratio_high']:.2f})\n"
+             f"t50 delay vs {AGGREGATE_LABELS[comparison.reference]}: {h['t50_delay']:+.2f} periods",
+             transform=top.transAxes, va="top", fontsize=8)
+
+    new = np.diff(shares, axis=1)
+    tn = t[1:]
+    mid.fill_between(tn, np.quantile(new, 0.05, axis=0), np.quantile(new, 0.95, axis=0),
+                     color=NETWORK_COLOUR, alpha=0.2, lw=0)
+    mid.plot(tn, new.mean(axis=0), color=NETWORK_COLOUR, lw=2.2, label="network, mean")
+    for name, curve in comparison.curves.items():
+        mid.plot(tn, np.diff(curve), **CURVE_STYLES.get(name, {}))
+    mid.set_ylabel("new customers per period,\nshare of market")
+    mid.grid(alpha=0.3)
+
+    ref_name = comparison.reference
+    ref = comparison.curves[ref_name]
+    per_run = shares - ref
+    band = bottom.fill_between(t, np.quantile(per_run, 0.05, axis=0), np.quantile(per_run, 0.95, axis=0),
+                               color=AGGREGATE_COLOUR, alpha=0.12, lw=0, label=f"5–95 % of runs, vs {AGGREGATE_LABELS[ref_name]}")
+    bottom.axhline(0, color="black", lw=0.8)
+    for name, curve in comparison.curves.items():
+        bottom.plot(t, mean - curve, **CURVE_STYLES.get(name, {}))
+    bottom.set_ylabel("gap: network mean\n− aggregate curve")
+    bottom.set_xlabel("period")
+    bottom.grid(alpha=0.3)
+    bottom.legend(handles=[band], loc="lower right", fontsize=7, frameon=False)
     bottom.set_xlim(0, t[-1])
     return fig

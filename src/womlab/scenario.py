@@ -36,6 +36,16 @@ The file has one table per section::
     engine = "array"
     jobs = 1
 
+    [referral]                  # optional: a referral programme (womlab.evaluate_programme)
+    enrol = "all"               # none all share strategy
+    start = 5                   # first and last period the programme runs
+    end = 30
+    talk_multiplier = 1.5       # on an enrolled customer's word of mouth
+    reward = 25.0               # per successful referral, to the referrer
+    budget = 20000.0
+    lifetime_value = 40.0       # or value_per_period = 1.0
+    discount_rate = 0.01
+
 Adding a section: write a frozen dataclass with a ``section`` class variable and a
 ``check(self, scenario)`` method, add it as a field of :class:`Scenario` and to
 ``SECTIONS``. Loading, type checks, unknown-key messages and ``replace`` are generic.
@@ -61,6 +71,7 @@ __all__ = [
     "Talkers",
     "Adoption",
     "RunSpec",
+    "Referral",
     "Scenario",
     "load_scenario",
     "NETWORK_KINDS",
@@ -74,6 +85,8 @@ RULES = ("share", "count", "capped")
 STEP_FORMS = ("exponential", "linear")
 ENGINES = ("array", "mesa")
 TALKER_DISTRIBUTIONS = ("fixed", "poisson")
+ENROLMENTS = ("none", "all", "share", "strategy")
+REWARD_SCHEMES = ("linear", "bonus", "both")
 
 
 # ----------------------------------------------------------------------------- checks
@@ -317,11 +330,125 @@ class RunSpec:
         return int(round(1 / self.time_step))
 
 
+@dataclass(frozen=True, kw_only=True)
+class Referral:
+    """A referral programme, and the economics it is judged by.
+
+    An organisation is *enrolled* by ``enrol``; while the programme runs (periods
+    ``start`` .. ``end``, and until the budget is spent) an enrolled satisfied customer's
+    talkers count ``talk_multiplier`` times, plus ``extra_talkers``, in its neighbours'
+    word-of-mouth rate (the denominator Dᵢ of the ``share`` rule is left as it is: the
+    programme adds word of mouth, it does not change whom a neighbour listens to). Every
+    adoption in the window attributed to an enrolled referrer is a successful referral
+    and is paid for, in order, while the budget lasts. See :mod:`womlab.programme`.
+
+    Parameters
+    ----------
+    enrol : str
+        ``none`` (no programme: the baseline), ``all`` (every customer), ``share`` (each
+        organisation independently with probability ``enrol_share``) or ``strategy``
+        (the ``enrol_count`` organisations a seeding strategy chooses).
+    enrol_share : float
+        Probability of enrolment for ``enrol = "share"``.
+    strategy : str
+        Seeding strategy name (:data:`womlab.seeding.STRATEGIES`) for ``enrol = "strategy"``.
+    enrol_count : int
+        Number of organisations the strategy enrols.
+    start, end : int
+        First and last period (inclusive) in which the programme runs; ``end`` defaults
+        to the horizon ``run.periods``.
+    talk_multiplier : float
+        Multiplier on an enrolled satisfied customer's talkers (1: no boost).
+    extra_talkers : float
+        Talkers added to an enrolled satisfied customer (0: none).
+    scheme : str
+        ``linear`` (``reward`` per successful referral), ``bonus`` (``bonus`` once, when a
+        referrer's paid referrals reach ``bonus_threshold``) or ``both``.
+    reward, bonus : float
+        Payments to the referrer.
+    bonus_threshold : int
+        Number of paid referrals at which the bonus is paid.
+    referred_reward : float
+        Payment to the referred organisation for each successful referral (any scheme).
+    budget : float, optional
+        Cap on total payments (undiscounted). A payment that does not fit is not made;
+        from then on nothing is paid and the boost stops. Default: no cap.
+    value_per_period : float, optional
+        Value of a customer in each period it is a customer, from its adoption period to
+        the horizon. Default 1 when ``lifetime_value`` is not given.
+    lifetime_value : float, optional
+        Alternative to ``value_per_period``: a customer's whole value, counted at its
+        adoption period.
+    discount_rate : float
+        Discount rate per period r: a value or payment in period t counts (1 + r)^−t.
+    """
+
+    section: ClassVar[str] = "referral"
+    enrol: str = "none"
+    enrol_share: float = 1.0
+    strategy: str = "hubs"
+    enrol_count: int = 0
+    start: int = 1
+    end: int | None = None
+    talk_multiplier: float = 1.0
+    extra_talkers: float = 0.0
+    scheme: str = "linear"
+    reward: float = 0.0
+    bonus: float = 0.0
+    bonus_threshold: int = 3
+    referred_reward: float = 0.0
+    budget: float | None = None
+    value_per_period: float | None = None
+    lifetime_value: float | None = None
+    discount_rate: float = 0.0
+
+    def check(self, scenario: Scenario) -> None:
+        _one_of("referral.enrol", self.enrol, ENROLMENTS)
+        _in_unit("referral.enrol_share", self.enrol_share)
+        n = scenario.market.organisations
+        if self.enrol == "strategy":
+            from .seeding import STRATEGIES  # late import: seeding imports scenario; the registry is the truth
+
+            _one_of("referral.strategy", self.strategy, tuple(sorted(STRATEGIES)))
+            if not 1 <= self.enrol_count <= n:
+                _fail("referral.enrol_count", self.enrol_count,
+                      f'between 1 and market.organisations = {n} for enrol = "strategy"')
+        T = scenario.run.periods
+        if not 1 <= self.start <= T:
+            _fail("referral.start", self.start, f"a period between 1 and run.periods = {T}")
+        if self.end is not None and not self.start <= self.end <= T:
+            _fail("referral.end", self.end, f"a period between referral.start = {self.start} and run.periods = {T}")
+        for name in ("talk_multiplier", "extra_talkers", "reward", "bonus", "referred_reward", "discount_rate"):
+            _non_negative(f"referral.{name}", getattr(self, name))
+        _one_of("referral.scheme", self.scheme, REWARD_SCHEMES)
+        _positive_int("referral.bonus_threshold", self.bonus_threshold)
+        if self.budget is not None and not (math.isfinite(self.budget) and self.budget > 0):
+            _fail("referral.budget", self.budget, "a finite number > 0 (leave it out for no cap)")
+        if self.value_per_period is not None and self.lifetime_value is not None:
+            raise ScenarioError(
+                "referral.value_per_period and referral.lifetime_value are alternatives; give one, "
+                f"got {self.value_per_period!r} and {self.lifetime_value!r}"
+            )
+        for name in ("value_per_period", "lifetime_value"):
+            if getattr(self, name) is not None:
+                _non_negative(f"referral.{name}", getattr(self, name))
+
+    @property
+    def active(self) -> bool:
+        """Whether there is a programme at all (``enrol`` is not ``none``)."""
+        return self.enrol != "none"
+
+    def last_period(self, periods: int) -> int:
+        """The programme's last period on a horizon of ``periods``."""
+        return periods if self.end is None else self.end
+
+
 SECTIONS: dict[str, type] = {
     "market": Market,
     "network": NetworkSpec,
     "adoption": Adoption,
     "run": RunSpec,
+    "referral": Referral,
 }
 _NESTED: dict[tuple[str, str], type] = {("adoption", "talkers_per_customer"): Talkers}
 
@@ -344,6 +471,7 @@ class Scenario:
     network: NetworkSpec = field(default_factory=NetworkSpec)
     adoption: Adoption = field(default_factory=Adoption)
     run: RunSpec = field(default_factory=RunSpec)
+    referral: Referral = field(default_factory=Referral)
 
     def __post_init__(self) -> None:
         if not isinstance(self.seed, int) or self.seed < 0:
@@ -393,7 +521,7 @@ class Scenario:
             parts = dotted.split(".")
             node = data
             for depth, part in enumerate(parts[:-1]):
-                known = ["name", "seed", *SECTIONS] if depth == 0 else _field_names(_section_type(parts[: depth + 1]))
+                known = ["name", "seed", *SECTIONS] if depth == 0 else _field_names(_section_type(parts[:depth]))
                 if part not in known:
                     _unknown(".".join(parts[: depth + 1]), known)
                 child = node.get(part)
