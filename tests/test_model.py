@@ -194,3 +194,35 @@ def test_importing_the_model_leaves_the_multiprocessing_start_method_alone() -> 
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=None)
     assert out.returncode == 0, out.stderr
+
+
+def _with_programme(**referral) -> Scenario:
+    base = ReferralModel(**FLAT).scenario
+    return base.replace({f"referral.{k}": v for k, v in referral.items()})
+
+
+def test_programme_without_boost_or_payments_reproduces_the_baseline() -> None:
+    # womlab.programme: enrolment has its own stream, so a programme that changes nothing
+    # sees the baseline's dynamics draws and gives the baseline run, organisation by organisation
+    base = _run(scenario=ReferralModel(**FLAT).scenario).result()
+    same = _run(scenario=_with_programme(enrol="all")).result()
+    np.testing.assert_array_equal(same.adoption_period, base.adoption_period)
+    np.testing.assert_array_equal(same.referrer, base.referrer)
+    assert same.extra["programme_cost"].sum() == 0
+    # everyone enrolled, the window the whole horizon: every word-of-mouth adoption is a successful referral
+    assert same.extra["programme_paid_referrals"].sum() == (same.referrer >= 0).sum() > 0
+
+
+def test_programme_pays_enrolled_referrers_in_its_window_within_budget() -> None:
+    scenario = _with_programme(enrol="share", enrol_share=0.5, start=3, end=8, talk_multiplier=3.0,
+                               reward=2.0, budget=40.0)
+    result = _run(scenario=scenario).result()
+    extra = result.extra
+    rewarded = np.flatnonzero(extra["rewarded"])
+    assert rewarded.size == extra["programme_paid_referrals"].sum() > 0
+    assert extra["enrolled"][result.referrer[rewarded]].all()
+    assert ((result.adoption_period[rewarded] >= 3) & (result.adoption_period[rewarded] <= 8)).all()
+    assert extra["programme_cost"].sum() == 2.0 * rewarded.size <= 40.0
+    boosted = _run(scenario=scenario.replace("referral.reward", 0.0)).result()
+    plain = _run(scenario=ReferralModel(**FLAT).scenario).result()
+    assert boosted.customers[8] > plain.customers[8]  # tripled word of mouth in periods 3-8 shows

@@ -23,6 +23,12 @@ The array engine instead draws one Exp(1) resistance per organisation and compar
 with the summed step hazard; the two methods have the same per-step probabilities, and
 ``tests/test_engines_agree.py`` holds their curves together statistically.
 
+A referral programme (``[referral]``, :mod:`womlab.programme`) is run by the same
+:class:`~womlab.programme.ProgrammeRun` as in the array engine, at the same two points:
+at the start of each step it says which talkers count (boosted for enrolled satisfied
+customers while it runs; each agent's ``counted``), and after the step's adoptions it
+pays for the step's attributed referrals.
+
 On the ``complete`` network no ties are materialised: organisations sit on an empty
 network space and every organisation's neighbourhood is all the others, so Tᵢ and Dᵢ
 come from model-level totals (the talk of all satisfied customers; all talkers but
@@ -63,6 +69,7 @@ del _start_method
 from . import rules  # noqa: E402
 from .errors import ScenarioError  # noqa: E402
 from .networks import ReferralNetwork, build_network  # noqa: E402
+from .programme import start_programme  # noqa: E402
 from .results import RunResult  # noqa: E402
 from .scenario import SECTIONS, Scenario  # noqa: E402
 from .seeding import initial_customers  # noqa: E402
@@ -127,6 +134,9 @@ class Organisation(FixedAgent):
     talk : float
         Talkers it contributes to its neighbours now: ``talkers`` if a satisfied
         customer, else 0.
+    counted : float
+        The talkers that count this step: ``talk``, boosted while a referral programme
+        in which it is enrolled runs.
     adoption_period : int
         Period in which it became a customer (0 for initial customers), −1 if not yet.
     referrer : int
@@ -154,6 +164,7 @@ class Organisation(FixedAgent):
         self.customer = False
         self.satisfied = False
         self.talk = 0.0
+        self.counted = 0.0
         self.adoption_period = -1
         self.referrer = -1
         self.neighbours: list[Organisation] = []
@@ -175,7 +186,7 @@ class Organisation(FixedAgent):
         else:
             talking = 0.0
             for other in self.neighbours:
-                talking += other.talk
+                talking += other.counted
             total = self.neighbour_talkers
         probability, external = model.chances(talking, total)
         rng = model.rng
@@ -193,9 +204,9 @@ class Organisation(FixedAgent):
             return
         left = rng.random() * talking
         for other in self.neighbours:
-            if other.talk > 0:
+            if other.counted > 0:
                 self._cause = other.organisation
-                left -= other.talk
+                left -= other.counted
                 if left < 0:
                     break
 
@@ -207,7 +218,7 @@ class Organisation(FixedAgent):
         self.adoption_period = period
         self.referrer = self._cause
         self.satisfied = bool(rules.draw_satisfied(model.scenario.adoption.satisfied_share, 1, model.rng)[0])
-        self.talk = self.talkers if self.satisfied else 0.0
+        self.talk = self.counted = self.talkers if self.satisfied else 0.0
 
 
 class ReferralModel(mesa.Model):
@@ -320,6 +331,8 @@ class ReferralModel(mesa.Model):
         elif not isinstance(rng, np.random.Generator):
             rng = np.random.default_rng(rng)
         super().__init__(rng=rng)  # model.rng is the dynamics stream itself
+        # None without a programme; enrolment has its own stream, model.rng is not advanced
+        self.programme = start_programme(scenario, network, self.rng)
 
         self.scenario = scenario
         self.network = network
@@ -386,11 +399,20 @@ class ReferralModel(mesa.Model):
         return found
 
     def talking_now(self) -> tuple[list[Organisation], list[float]]:
-        """Complete network: every organisation that talks now, and the running sum of their talk."""
+        """Complete network: every organisation whose talk counts now, and the running sum of it."""
         if self._talking_now is None:
-            speakers = list(self.agents.select(lambda a: a.talk > 0))
-            self._talking_now = (speakers, list(itertools.accumulate(a.talk for a in speakers)))
+            speakers = list(self.agents.select(lambda a: a.counted > 0))
+            self._talking_now = (speakers, list(itertools.accumulate(a.counted for a in speakers)))
         return self._talking_now
+
+    def _count_talk(self) -> None:
+        """Programme: set every agent's ``counted`` talkers for this step."""
+        agents = self._by_id
+        talk = np.array([a.talk for a in agents], dtype=np.float32)
+        talking_customer = np.array([a.customer and a.satisfied for a in agents], dtype=bool)
+        counted = self.programme.talk(talk, talking_customer, self.period)
+        for agent, value in zip(agents, counted.tolist()):
+            agent.counted = value
 
     # ------------------------------------------------------------------ dynamics
     def step(self) -> None:
@@ -400,12 +422,21 @@ class ReferralModel(mesa.Model):
             return
         self.step_count += 1
         self.period = -(-self.step_count // self.steps_per_period)
+        if self.programme is not None:
+            self._count_talk()
         if self.complete:
-            self.talk_total = float(self.agents.agg("talk", sum))
+            self.talk_total = float(self.agents.agg("counted", sum))
             self._talking_now = None
         self.potential.do("decide")
         adopters = self.potential.select(lambda a: a.adopting)
         adopters.do("adopt", self.period)
+        if self.programme is not None:  # pay for this step's attributed referrals (ids ascending)
+            referred = [a for a in adopters if a.referrer >= 0]
+            self.programme.settle(
+                self.period,
+                np.array([a.organisation for a in referred], dtype=np.int64),
+                np.array([a.referrer for a in referred], dtype=np.int64),
+            )
         for agent in adopters:
             self.potential.remove(agent)
         self.new_customers = len(adopters)
@@ -429,6 +460,7 @@ class ReferralModel(mesa.Model):
             region=np.asarray(self.network.region, dtype=np.int32).copy(),
             initial=self.initial.copy(),
             engine="mesa",
+            extra={} if self.programme is None else self.programme.record(),
         )
 
 
