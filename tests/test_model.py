@@ -9,6 +9,7 @@ the rest is common practice for a seeded simulation (same seed, same run).
 from __future__ import annotations
 
 import copy
+import gc
 import subprocess
 import sys
 
@@ -226,3 +227,18 @@ def test_programme_pays_enrolled_referrers_in_its_window_within_budget() -> None
     boosted = _run(scenario=scenario.replace("referral.reward", 0.0)).result()
     plain = _run(scenario=ReferralModel(**FLAT).scenario).result()
     assert boosted.customers[8] > plain.customers[8]  # tripled word of mouth in periods 3-8 shows
+
+
+def test_a_batch_run_does_not_keep_its_models_alive() -> None:
+    # Mesa 3.3 holds models in class-level structures (mesa.Agent._ids, keyed by the model;
+    # the cache behind Cell.get_neighborhood); a batch of replicates must not keep every
+    # finished model, and all its agents, in memory
+    def alive() -> int:
+        gc.collect()
+        return sum(isinstance(o, ReferralModel) for o in gc.get_objects())
+
+    before = alive()
+    scenario = ReferralModel(**FLAT).scenario.replace("run.engine", "mesa")
+    for r in range(3):
+        run_one(scenario, (r,))
+    assert alive() <= before + 1  # at most the model built by hand above

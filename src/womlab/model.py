@@ -150,9 +150,10 @@ class Organisation(FixedAgent):
     --------
     >>> from womlab.model import ReferralModel
     >>> model = ReferralModel(organisations=50, initial_customers=5, kind="ring", mean_degree=4)
-    >>> first = model.organisation(0)
-    >>> len(first.neighbours), first.customer in (True, False)
-    (4, True)
+    >>> sorted(other.organisation for other in model.organisation(0).neighbours)
+    [1, 2, 48, 49]
+    >>> model.organisation(0).talkers
+    1.0
     """
 
     def __init__(self, model: ReferralModel, cell: Any, organisation: int) -> None:
@@ -173,8 +174,13 @@ class Organisation(FixedAgent):
         self._cause = -1
 
     def meet_neighbours(self) -> None:
-        """Read its neighbours off the network space (once; the network does not change)."""
-        self.neighbours = list(self.cell.neighborhood.agents)
+        """Read its neighbours off the network space (once; the network does not change).
+
+        From the cell's ``connections``, not ``cell.neighborhood``: in Mesa 3.3 the latter
+        goes through a class-level cache that keeps every cell — and so every model —
+        alive for the life of the process.
+        """
+        self.neighbours = [agent for cell in self.cell.connections.values() for agent in cell.agents]
         self.neighbour_talkers = float(sum(n.talkers for n in self.neighbours))
 
     def decide(self) -> None:
@@ -285,6 +291,12 @@ class ReferralModel(mesa.Model):
     ScenarioError
         For an unknown flat parameter (with a did-you-mean), an invalid value, or
         initial customers that are not distinct ids of the network.
+
+    Notes
+    -----
+    Mesa 3.3 keeps a reference to every model it has numbered agents for
+    (``mesa.Agent._ids``), so a model built by hand lives until the process ends;
+    :func:`run_mesa`, which the batches use, drops that reference after each run.
 
     Examples
     --------
@@ -507,4 +519,18 @@ def run_mesa(
     """
     model = ReferralModel(scenario, network=network, initial=initial, rng=rng)
     model.run_model()
-    return model.result()
+    result = model.result()
+    _forget(model)
+    return result
+
+
+def _forget(model: mesa.Model) -> None:
+    """Drop Mesa's class-level reference to a finished model, so that it can be freed.
+
+    Mesa 3.3 numbers agents per model in ``mesa.Agent._ids``, a dict keyed by the model
+    itself, and never removes the entry: without this every model of a batch — and all
+    its agents — would stay in memory until the worker exits.
+    """
+    ids = getattr(mesa.Agent, "_ids", None)
+    if isinstance(ids, dict):
+        ids.pop(model, None)
