@@ -20,6 +20,7 @@ test: $(STAMP)
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/engines.py
+	$(BIN)/python benchmarks/sweeps.py
 
 clean:
 	rm -rf $(VENV) out

@@ -78,6 +78,19 @@ def test_enrolment_is_common_to_variants_and_does_not_touch_dynamics():
         assert 0.2 < x.extra["enrolled"].mean() < 0.4
 
 
+def test_enrolment_by_hubs_enrols_the_highest_degree_organisations():
+    # The hubs strategy's definition (highest degree; womlab.seeding) applied to enrolment.
+    from womlab import build_network, streams
+
+    s = _scenario(enrol="strategy", strategy="hubs", enrol_count=30, talk_multiplier=2.0)
+    run = run_paired({"p": s}, 1)["p"][0]
+    net = build_network(s, np.random.default_rng(streams(s.seed, (0,)).network))
+    deg = net.degree()
+    enrolled = run.extra["enrolled"]
+    assert enrolled.sum() == 30
+    assert deg[enrolled].min() >= deg[~enrolled].max()
+
+
 # ---------------------------------------------------------------- payments and budget
 def test_cost_is_reward_times_attributed_referrals_in_the_window():
     # Issue 6's definition: cost = reward x referrals attributed to enrolled referrers in the window.

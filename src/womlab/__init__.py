@@ -52,7 +52,14 @@ from .metrics import (
 )
 from .networks import ReferralNetwork, build_network, read_edgelist
 from .outputs import save_batch, save_programme
-from .plots import adoption_figure, comparison_figure, programme_figure, referral_tree_figure
+from .plots import (
+    adoption_figure,
+    comparison_figure,
+    network_snapshot_figure,
+    programme_figure,
+    referral_tree_figure,
+    seeding_figure,
+)
 from .programme import ProgrammeStudy, evaluate_programme, programme_economics
 from .referrals import (
     generations,
@@ -65,7 +72,12 @@ from .referrals import (
 from .results import RunResult
 from .scenario import Scenario, load_scenario
 from .seeding import STRATEGIES, choose_seeds
+from .seeding_study import SeedingStudy, compare_strategies, lift_statistics, save_seeding_study
 from .studies import Batch, run_one, run_paired, run_replicates, streams
+from .report import sensitivity_table, sweep_figures, sweep_summary, write_report
+from .sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
+from .store import ResultsStore
+from .sweep import SweepSummary, design_points, point_scenarios, run_sweep
 
 __version__ = "0.1.0"
 
@@ -81,6 +93,7 @@ __all__ = [
     "STRATEGIES",
     "Scenario",
     "ScenarioError",
+    "SeedingStudy",
     "StockFlowFit",
     "StoreError",
     "WomlabError",
@@ -96,6 +109,7 @@ __all__ = [
     "build_network",
     "choose_seeds",
     "compare",
+    "compare_strategies",
     "comparison_figure",
     "curve_gap",
     "curve_metrics",
@@ -108,8 +122,10 @@ __all__ = [
     "fit_replicates",
     "fit_stock_and_flow",
     "generations",
+    "lift_statistics",
     "load_scenario",
     "mapped_parameters",
+    "network_snapshot_figure",
     "pooled_gaps",
     "pooled_metrics",
     "programme_economics",
@@ -126,9 +142,25 @@ __all__ = [
     "run_replicates",
     "save_batch",
     "save_programme",
+    "save_seeding_study",
+    "seeding_figure",
     "stock_and_flow",
     "streams",
     "time_to_share",
     "top_degree_referral_share",
     "word_of_mouth_by_period",
+    # sweeps, results store, sensitivity, report
+    "ResultsStore",
+    "SweepSummary",
+    "design_points",
+    "morris_design",
+    "morris_effects",
+    "point_scenarios",
+    "run_sweep",
+    "saltelli_design",
+    "sensitivity_table",
+    "sobol_indices",
+    "sweep_figures",
+    "sweep_summary",
+    "write_report",
 ]

@@ -104,6 +104,9 @@ def mapped_parameters(scenario: Scenario) -> AggregateParameters:
       stock-and-flow terms talkers = C·s·τ̄ (C customers), and each potential customer
       meets a share k̄/N of them, so buying = available × min(p + slope·talkers, cap) with
       **slope = q·k̄/N**.
+    * ``threshold`` and ``cascade`` have no Bass counterpart (a threshold crossing is all
+      or nothing; a cascade customer talks for one period only), so **Q = NaN** and
+      :func:`aggregate_curve` is NaN: their runs are shown without an aggregate curve.
 
     Examples
     --------
@@ -120,12 +123,14 @@ def mapped_parameters(scenario: Scenario) -> AggregateParameters:
     q = a.word_of_mouth
     if a.rule == "share":
         Q = q * s
+    elif a.rule in ("threshold", "cascade"):
+        Q = float("nan")
     else:
         Q = q * s * tau * k
     return AggregateParameters(
         p=a.external,
         Q=Q,
-        initial_share=m.n_initial / n,
+        initial_share=scenario.n_initial / n,
         mean_degree=k,
         mean_talkers=tau,
         slope=q * k / n if a.rule != "share" else q / (n * max(tau, 1e-300)),
@@ -252,12 +257,14 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
     """
     a, run = scenario.adoption, scenario.run
     par = mapped_parameters(scenario)
+    if a.rule in ("threshold", "cascade"):
+        return np.full(run.periods + 1, np.nan)
     if a.rule == "capped":
         n = scenario.market.organisations
         customers = stock_and_flow(
             run.periods,
             n,
-            scenario.market.n_initial,
+            scenario.n_initial,
             slope=par.slope,
             satisfied_share=a.satisfied_share,
             talkers_per_customer=par.mean_talkers,
@@ -427,7 +434,7 @@ def degree_mean_field_curve(scenario: Scenario, network: object, *, form: str | 
         network,
         scenario.adoption,
         run.periods,
-        initial_share=scenario.market.n_initial / scenario.market.organisations,
+        initial_share=scenario.n_initial / scenario.market.organisations,
         time_step=run.time_step,
         form=run.step_probability if form is None else form,
     )

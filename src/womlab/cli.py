@@ -59,6 +59,26 @@ def cmd_run(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_seeding(args: argparse.Namespace) -> int:
+    from .scenario import load_scenario
+    from .seeding_study import compare_strategies, save_seeding_study
+
+    scenario = load_scenario(args.config)
+    out = Path(args.out) if args.out else Path("out") / f"{Path(args.config).stem}-seeding"
+    study = compare_strategies(scenario, replicates=args.replicates, jobs=args.jobs, progress=not args.quiet)
+    written = save_seeding_study(study, out)
+    table = study.strategies_table()
+    outcome = scenario.study.outcome
+    cols = ["strategy", f"{outcome}_mean", f"{outcome}_low", f"{outcome}_high", "lift_ratio", "lift_ratio_low",
+            "lift_ratio_high", "wilcoxon_p", "variance_reduction"]
+    print(f"{scenario.name}: {len(study.strategies)} seeding strategies x {study.replicates} paired replicates, "
+          f"budget {study.scenario.n_initial} of {scenario.market.organisations} organisations "
+          f"on a {scenario.network.kind} network, {study.wall_time:.1f} s")
+    _print_table(table[cols])
+    print(f"wrote {len(written)} files to {out}/")
+    return 0
+
+
 def cmd_referral(args: argparse.Namespace) -> int:
     import time
 
@@ -107,7 +127,8 @@ def cmd_check(args: argparse.Namespace) -> int:
     rows = [
         ("scenario", scenario.name),
         ("organisations", scenario.market.organisations),
-        ("initial customers", scenario.market.n_initial),
+        ("initial customers", scenario.n_initial),
+        ("seeding strategy", scenario.seeding.strategy),
         ("regions", scenario.market.regions),
         ("network", scenario.network.kind),
         ("mean degree", f"{par.mean_degree:.4g}"),
@@ -115,7 +136,8 @@ def cmd_check(args: argparse.Namespace) -> int:
         ("mean talkers per customer", f"{par.mean_talkers:.4g}"),
         ("mapped Bass p", f"{par.p:.4g}"),
         ("mapped Bass Q", f"{par.Q:.4g}"),
-        ("Bass peak time ln(Q/p)/(p+Q)", f"{bass_peak_time(par.p, par.Q):.3f}" if par.Q > par.p > 0 else "n/a (Q <= p)"),
+        ("Bass peak time ln(Q/p)/(p+Q)", f"{bass_peak_time(par.p, par.Q):.3f}" if par.Q > par.p > 0
+         else "n/a (no Bass counterpart for this rule)" if par.Q != par.Q else "n/a (Q <= p)"),
         ("stock-and-flow slope", f"{par.slope:.4g}"),
         ("periods x steps per period", f"{scenario.run.periods} x {scenario.run.steps_per_period}"),
         ("replicates, engine, jobs", f"{scenario.run.replicates}, {scenario.run.engine}, {scenario.run.jobs}"),
@@ -126,6 +148,41 @@ def cmd_check(args: argparse.Namespace) -> int:
     print(f"{args.config}: valid")
     for key, value in rows:
         print(f"  {key:<{width}}  {value}")
+    return 0
+
+
+def cmd_sweep(args: argparse.Namespace) -> int:
+    from .scenario import load_scenario
+    from .sweep import run_sweep
+
+    scenario = load_scenario(args.config)
+    out = Path(args.out) if args.out else Path("out") / f"{Path(args.config).stem}-sweep"
+    summary = run_sweep(
+        scenario,
+        out,
+        args.jobs,
+        scheduler=args.scheduler,
+        cluster=args.cluster,
+        curves=args.curves,
+        chunk_size=args.chunk_size,
+        progress=not args.quiet,
+        report=not args.no_report,
+    )
+    print(f"{scenario.name}: sweep of {summary.points} points x {scenario.sweep.replicates} replicates = "
+          f"{summary.runs} runs ({summary.backend}); {summary.skipped} already done, {summary.ran} run now, "
+          f"{summary.failures} failed; {summary.wall_time:.1f} s")
+    if summary.failures:
+        first = summary.failed.iloc[0]
+        print(f"first failure: point {first['point']}, replicate {first['replicate']}: {first['error']}")
+    print(f"results in {out}/" + (f" (report: {summary.report})" if summary.report else ""))
+    return 0
+
+
+def cmd_report(args: argparse.Namespace) -> int:
+    from .report import write_report
+
+    path = write_report(args.folder)
+    print(f"wrote {path}")
     return 0
 
 
@@ -144,6 +201,14 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--out", help="results folder (default out/<config name>)")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
     run.set_defaults(func=cmd_run)
+
+    seeding = sub.add_parser("seeding", help="compare seeding strategies on paired replicates ([study] section)")
+    seeding.add_argument("config", help="scenario TOML file")
+    seeding.add_argument("--replicates", type=_positive, help="paired replicates (overrides study.replicates)")
+    seeding.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
+    seeding.add_argument("--out", help="results folder (default out/<config name>-seeding)")
+    seeding.add_argument("--quiet", action="store_true", help="no progress bar")
+    seeding.set_defaults(func=cmd_seeding)
 
     referral = sub.add_parser("referral", help="evaluate the scenario's referral programme against no programme")
     referral.add_argument("config", help="scenario TOML file with a [referral] section")
@@ -169,6 +234,24 @@ def build_parser() -> argparse.ArgumentParser:
     check = sub.add_parser("check", help="validate a scenario and print its derived quantities")
     check.add_argument("config", help="scenario TOML file")
     check.set_defaults(func=cmd_check)
+
+    sweep = sub.add_parser("sweep", help="run the scenario's [sweep] into a resumable results folder")
+    sweep.add_argument("config", help="scenario TOML file with a [sweep] section")
+    sweep.add_argument("--out", help="results folder (default out/<config name>-sweep); rerun to resume")
+    sweep.add_argument("--jobs", type=_positive, help="worker processes on this machine, -1 for every core "
+                       "(default run.jobs)")
+    where = sweep.add_mutually_exclusive_group()
+    where.add_argument("--scheduler", metavar="tcp://HOST:PORT", help="run on a Dask cluster's scheduler")
+    where.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers here")
+    sweep.add_argument("--curves", action="store_true", help="also keep each run's per-period curve")
+    sweep.add_argument("--chunk-size", type=_positive, help="runs per task (default: automatic)")
+    sweep.add_argument("--no-report", action="store_true", help="do not write report.html at the end")
+    sweep.add_argument("--quiet", action="store_true", help="no progress bar")
+    sweep.set_defaults(func=cmd_sweep)
+
+    report = sub.add_parser("report", help="write report.html and summary.csv of a sweep's results folder")
+    report.add_argument("folder", help="a sweep's results folder")
+    report.set_defaults(func=cmd_report)
     return parser
 
 

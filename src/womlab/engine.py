@@ -7,11 +7,14 @@ computes every rate from the state at the start of the step (one sparse product,
 
 Random draws, all from the dynamics stream and all up front, in this order:
 talkers (Poisson only), satisfaction, one Exp(1) resistance Eᵢ per organisation, one
-uniform per organisation for attribution. Organisation i adopts at the first step at
-which its summed step hazard (:func:`womlab.rules.step_hazard`) reaches Eᵢ — the same
-per-step probabilities as drawing a fresh uniform every step, but with a single draw
+uniform per organisation for attribution, and (``threshold`` only) the thresholds θᵢ.
+Organisation i adopts at the first step at which its summed step hazard
+(:func:`womlab.rules.step_hazard`) reaches Eᵢ — the same per-step probabilities as drawing a fresh uniform every step, but with a single draw
 per organisation, so that two variants compared on the same streams see the same
-resistances (common random numbers) whatever the state.
+resistances (common random numbers) whatever the state. The ``threshold`` rule's crossing
+is an infinite hazard, the ``cascade`` rule's one chance per tie a hazard of −ln(1 − q)
+per newly satisfied neighbour over the period after it became satisfied (both in
+:mod:`womlab.rules`).
 
 A referral programme (``[referral]``, :mod:`womlab.programme`) touches the loop at two
 marked points only: the talkers that count in a step (boosted for enrolled satisfied
@@ -87,13 +90,16 @@ def run_array(
     would_be_satisfied = rules.draw_satisfied(adoption.satisfied_share, n, rng)
     resistance = rng.standard_exponential(n)
     u_cause = rng.random(n)
+    theta = rules.draw_thresholds(adoption.threshold, n, rng) if rule == "threshold" else None
 
     adoption_period = np.full(n, -1, dtype=np.int32)
     referrer = np.full(n, -1, dtype=np.int32)
     customer = np.zeros(n, dtype=bool)
     customer[initial] = True
     adoption_period[initial] = 0
-    talk = np.where(customer & would_be_satisfied, tau, np.float32(0))
+    fresh_until = np.full(n, -1, dtype=np.int64)  # last step of each customer's first period satisfied
+    fresh_until[initial] = spp
+    talk = rules.talk_weights(rule, tau, customer & would_be_satisfied, fresh_until >= 1)
     hazard = np.zeros(n)
     programme = start_programme(scenario, network, rng)  # None without a programme; draws nothing from rng
 
@@ -105,6 +111,8 @@ def run_array(
         all_talkers = matrix @ tau
 
     for step in range(1, run.periods * spp + 1):
+        if rule == "cascade":
+            talk = rules.talk_weights(rule, tau, customer & would_be_satisfied, fresh_until >= step)
         period = (step + spp - 1) // spp
         # programme: the talkers that count this step (``talk`` itself without a boost)
         counted = talk if programme is None else programme.talk(talk, customer & would_be_satisfied, period)
@@ -113,12 +121,12 @@ def run_array(
         else:
             talking = matrix @ counted
         potential = ~customer
-        rate = rules.adoption_rate(rule, talking, all_talkers, adoption)
+        rate = rules.adoption_rate(rule, talking, all_talkers, adoption, theta)
         hazard += np.where(potential, rules.step_hazard(rate, dt, form), 0.0)
         new = np.flatnonzero(potential & (hazard >= resistance))
         if new.size == 0:
             continue
-        ext = rules.external_share(rule, talking[new], all_talkers[new], adoption)
+        ext = rules.external_share(rule, talking[new], all_talkers[new], adoption, None if theta is None else theta[new])
         by_wom = u_cause[new] >= ext
         wom = new[by_wom]
         if wom.size:
@@ -128,6 +136,7 @@ def run_array(
                 programme.settle(period, wom, referrer[wom])
         customer[new] = True
         adoption_period[new] = period
+        fresh_until[new] = step + spp
         talk[new] = np.where(would_be_satisfied[new], tau[new], np.float32(0))
 
     return RunResult(

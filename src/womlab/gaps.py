@@ -77,7 +77,7 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
         "bass_mapped": bass_share(t, par.p, par.Q, par.initial_share),
         "bass_difference": bass_difference(run.periods, par.p, par.Q, par.initial_share,
                                            time_step=run.time_step, form=run.step_probability),
-        "stock_and_flow": stock_and_flow(run.periods, n, market.n_initial, slope=par.slope,
+        "stock_and_flow": stock_and_flow(run.periods, n, scenario.n_initial, slope=par.slope,
                                          satisfied_share=a.satisfied_share, talkers_per_customer=par.mean_talkers,
                                          external=par.p, cap=par.cap, time_step=run.time_step,
                                          form=run.step_probability) / n,

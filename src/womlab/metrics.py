@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 __all__ = [
+    "discount_factors",
     "time_to_share",
     "curve_metrics",
     "curve_gap",
@@ -64,6 +65,8 @@ def curve_metrics(share: np.ndarray) -> dict[str, float]:
     ``final_share`` the share at the horizon.
     """
     share = np.asarray(share, dtype=float)
+    if not np.isfinite(share).all():  # no curve (a rule without an aggregate counterpart)
+        return dict.fromkeys(METRIC_NAMES, float("nan"))
     new = np.diff(share)
     peak = int(np.argmax(new)) + 1 if new.size else 0
     return {
@@ -253,3 +256,14 @@ def pooled_gaps(
         row["replicate_rmse"] = float(per_run.loc[per_run["aggregate"] == name, "rmse"].mean())
         rows.append(row)
     return pd.DataFrame(rows)
+
+
+def discount_factors(rate: float, periods: int) -> np.ndarray:
+    """(1 + r)^−t for t = 0..T.
+
+    Examples
+    --------
+    >>> discount_factors(0.1, 2).round(4).tolist()
+    [1.0, 0.9091, 0.8264]
+    """
+    return (1.0 + rate) ** -np.arange(periods + 1, dtype=float)

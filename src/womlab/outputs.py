@@ -20,7 +20,8 @@ from .errors import StoreError
 
 __all__ = ["save_batch", "save_programme", "versions", "atomic_write"]
 
-_LIBRARIES = ("womlab", "numpy", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib")
+_LIBRARIES = ("womlab", "numpy", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib",
+              "pyarrow", "dask", "distributed", "tqdm")
 
 
 def versions() -> dict[str, str]:

@@ -44,6 +44,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import ScenarioError
+from .metrics import discount_factors
 from .networks import ReferralNetwork
 from .results import RunResult
 from .scenario import Referral, Scenario
@@ -85,12 +86,15 @@ def enrolment_rng(rng: np.random.Generator) -> np.random.Generator:
     return np.random.default_rng(child)
 
 
-def enrolled_organisations(referral: Referral, network: ReferralNetwork, rng: np.random.Generator) -> np.ndarray:
+def enrolled_organisations(
+    referral: Referral, network: ReferralNetwork, rng: np.random.Generator, *, scenario: Scenario | None = None
+) -> np.ndarray:
     """Which organisations the programme enrols (bool per organisation).
 
     ``all``: everyone; ``share``: each independently with probability ``enrol_share``;
     ``strategy``: the ``enrol_count`` organisations chosen by
-    :func:`womlab.seeding.choose_seeds`; ``none``: nobody. ``rng`` is the enrolment stream.
+    :func:`womlab.seeding.choose_seeds` (with ``scenario`` supplying the strategy's options
+    from ``[seeding]``, which ``greedy`` needs); ``none``: nobody. ``rng`` is the enrolment stream.
     """
     n = network.n
     if referral.enrol == "all":
@@ -101,7 +105,7 @@ def enrolled_organisations(referral: Referral, network: ReferralNetwork, rng: np
         from .seeding import choose_seeds  # late import: keeps this module importable by seeding's users
 
         out = np.zeros(n, dtype=bool)
-        out[choose_seeds(referral.strategy, network, referral.enrol_count, rng)] = True
+        out[choose_seeds(referral.strategy, network, referral.enrol_count, rng, scenario=scenario)] = True
         return out
     return np.zeros(n, dtype=bool)
 
@@ -223,22 +227,11 @@ def start_programme(scenario: Scenario, network: ReferralNetwork, rng: np.random
     referral = scenario.referral
     if not referral.active:
         return None
-    enrolled = enrolled_organisations(referral, network, enrolment_rng(rng))
+    enrolled = enrolled_organisations(referral, network, enrolment_rng(rng), scenario=scenario)
     return ProgrammeRun(referral, enrolled, scenario.run.periods)
 
 
 # ----------------------------------------------------------------------------- economics
-def discount_factors(rate: float, periods: int) -> np.ndarray:
-    """(1 + r)^−t for t = 0..T.
-
-    Examples
-    --------
-    >>> discount_factors(0.1, 2).round(4).tolist()
-    [1.0, 0.9091, 0.8264]
-    """
-    return (1.0 + rate) ** -np.arange(periods + 1, dtype=float)
-
-
 def _value_per_period(referral: Referral) -> float:
     return 1.0 if referral.value_per_period is None else referral.value_per_period
 

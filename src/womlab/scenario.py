@@ -22,7 +22,7 @@ The file has one table per section::
     within_region_share = 0.85
 
     [adoption]
-    rule = "share"              # share count capped
+    rule = "share"              # share count capped threshold cascade
     external = 0.01             # Bass p, per period
     word_of_mouth = 0.3         # q, per period
     satisfied_share = 0.6
@@ -36,6 +36,14 @@ The file has one table per section::
     engine = "array"
     jobs = 1
 
+    [seeding]                   # optional: who the initial customers are
+    strategy = "hubs"           # random hubs bridges pagerank coreness fringe by_region spread greedy
+    budget = 120                # or leave out: market.initial_customers / initial_share
+
+    [study]                     # optional: the paired comparison of seeding strategies
+    strategies = ["random", "hubs", "bridges", "by_region"]
+    replicates = 200
+    discount_rate = 0.01        # per period, for discounted customer-periods
     [referral]                  # optional: a referral programme (womlab.evaluate_programme)
     enrol = "all"               # none all share strategy
     start = 5                   # first and last period the programme runs
@@ -45,6 +53,17 @@ The file has one table per section::
     budget = 20000.0
     lifetime_value = 40.0       # or value_per_period = 1.0
     discount_rate = 0.01
+
+A sweep (see :mod:`womlab.sweep`) adds a ``[sweep]`` table and its axes, one per dotted
+scenario field::
+
+    [sweep]
+    design = "grid"             # grid latin sobol morris
+    samples = 64                # latin: points; sobol: base sample N (a power of 2); morris: trajectories
+    replicates = 10
+    [sweep.axes]
+    "adoption.word_of_mouth" = { from = 0.05, to = 0.5, steps = 10 }   # log = true for a log scale
+    "network.kind" = ["random", "small_world", "regional"]
 
 Adding a section: write a frozen dataclass with a ``section`` class variable and a
 ``check(self, scenario)`` method, add it as a field of :class:`Scenario` and to
@@ -57,6 +76,7 @@ import dataclasses
 import difflib
 import math
 import tomllib
+import types
 import typing
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -69,8 +89,13 @@ __all__ = [
     "Market",
     "NetworkSpec",
     "Talkers",
+    "Thresholds",
     "Adoption",
     "RunSpec",
+    "Seeding",
+    "Study",
+    "Axis",
+    "SweepSpec",
     "Referral",
     "Scenario",
     "load_scenario",
@@ -78,13 +103,17 @@ __all__ = [
     "RULES",
     "STEP_FORMS",
     "ENGINES",
+    "SWEEP_DESIGNS",
 ]
 
 NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "scale_free", "edgelist")
-RULES = ("share", "count", "capped")
+RULES = ("share", "count", "capped", "threshold", "cascade")
 STEP_FORMS = ("exponential", "linear")
 ENGINES = ("array", "mesa")
+STUDY_OUTCOMES = ("customers", "customer_periods")
 TALKER_DISTRIBUTIONS = ("fixed", "poisson")
+THRESHOLD_DISTRIBUTIONS = ("uniform", "fixed", "normal")
+SWEEP_DESIGNS = ("grid", "latin", "sobol", "morris")
 ENROLMENTS = ("none", "all", "share", "strategy")
 REWARD_SCHEMES = ("linear", "bonus", "both")
 
@@ -243,15 +272,34 @@ class Talkers:
 
 
 @dataclass(frozen=True, kw_only=True)
+class Thresholds:
+    """The distribution of the organisations' own thresholds θᵢ (``threshold`` rule).
+
+    θᵢ is drawn once per run: ``uniform`` on (``low``, ``high``] (the default, (0, 1]),
+    ``fixed`` at ``mean`` for everyone, or ``normal`` (``mean``, ``sd``) clipped to
+    (0, 1]. See :func:`womlab.rules.draw_thresholds`.
+    """
+
+    distribution: str = "uniform"
+    low: float = 0.0
+    high: float = 1.0
+    mean: float = 0.5
+    sd: float = 0.1
+
+
+@dataclass(frozen=True, kw_only=True)
 class Adoption:
     """The adoption rule: the rate at which a potential customer becomes a customer.
 
     Parameters
     ----------
     rule : str
-        ``share``: λ = p + q·T/D; ``count``: λ = p + q·T; ``capped``: λ = min(p + q·T, cap).
-        T is the sum of talkers over the organisation's satisfied-customer neighbours,
-        D the sum of talkers over all its neighbours. See :mod:`womlab.rules`.
+        ``share``: λ = p + q·T/D; ``count``: λ = p + q·T; ``capped``: λ = min(p + q·T, cap);
+        ``threshold``: adopts once T/D reaches its own θᵢ (plus p); ``cascade``: independent
+        cascade, each newly satisfied customer persuades each neighbour with probability q
+        during the next period (plus p). T is the sum of talkers over the organisation's
+        satisfied-customer neighbours, D the sum of talkers over all its neighbours. See
+        :mod:`womlab.rules`.
     external : float
         External influence p (Bass coefficient of innovation), per period.
     word_of_mouth : float
@@ -263,6 +311,9 @@ class Adoption:
         ``{distribution = "poisson", mean = 2}``.
     cap : float
         Ceiling on the adoption rate per period (``capped``).
+    threshold : Thresholds
+        Distribution of the organisations' thresholds (``threshold``), e.g.
+        ``{distribution = "uniform", low = 0, high = 1}``.
     """
 
     section: ClassVar[str] = "adoption"
@@ -272,9 +323,19 @@ class Adoption:
     satisfied_share: float = 1.0
     talkers_per_customer: Talkers = field(default_factory=Talkers)
     cap: float = 0.05
+    threshold: Thresholds = field(default_factory=Thresholds)
 
     def check(self, scenario: Scenario) -> None:
         _one_of("adoption.rule", self.rule, RULES)
+        if self.rule == "cascade":
+            _in_unit("adoption.word_of_mouth", self.word_of_mouth)  # a probability per tie under cascade
+        th = self.threshold
+        _one_of("adoption.threshold.distribution", th.distribution, THRESHOLD_DISTRIBUTIONS)
+        for name in ("low", "high", "mean"):
+            _in_unit(f"adoption.threshold.{name}", getattr(th, name))
+        _non_negative("adoption.threshold.sd", th.sd)
+        if th.low >= th.high:
+            _fail("adoption.threshold.high", th.high, f"> adoption.threshold.low = {th.low}")
         _non_negative("adoption.external", self.external)
         _non_negative("adoption.word_of_mouth", self.word_of_mouth)
         _in_unit("adoption.satisfied_share", self.satisfied_share)
@@ -328,6 +389,113 @@ class RunSpec:
     @property
     def steps_per_period(self) -> int:
         return int(round(1 / self.time_step))
+
+
+@dataclass(frozen=True, kw_only=True)
+class Seeding:
+    """Who the initial customers are: a seeding strategy and its budget.
+
+    The number of initial customers is ``budget`` when given, else
+    ``market.initial_customers`` (or ``market.initial_share``); giving both with
+    different values is an error, so a scenario never says two things at once. The
+    strategy then chooses *which* organisations they are (``random`` by default: the
+    initial customers drawn uniformly, as without this section).
+
+    Parameters
+    ----------
+    strategy : str
+        A name registered in :data:`womlab.seeding.STRATEGIES`: ``random, hubs, bridges,
+        pagerank, coreness, fringe, by_region, spread, greedy``.
+    budget : int, optional
+        Number of initial customers (seeds).
+    betweenness_exact_up_to : int
+        ``bridges`` computes exact betweenness up to this many organisations and
+        sampled betweenness above it.
+    betweenness_sample : int
+        Number of source organisations sampled for betweenness on larger networks.
+    greedy_runs : int
+        Monte Carlo runs of the scenario's rule per evaluation of a seed set (``greedy``).
+    greedy_candidates : int
+        ``greedy`` considers only this many highest-degree organisations as candidates
+        (0: every organisation).
+    """
+
+    section: ClassVar[str] = "seeding"
+    strategy: str = "random"
+    budget: int | None = None
+    betweenness_exact_up_to: int = 3000
+    betweenness_sample: int = 500
+    greedy_runs: int = 20
+    greedy_candidates: int = 100
+
+    def check(self, scenario: Scenario) -> None:
+        from .seeding import STRATEGIES  # late import: seeding imports scenario; the registry is the truth
+
+        _one_of("seeding.strategy", self.strategy, tuple(sorted(STRATEGIES)))
+        m = scenario.market
+        if self.budget is not None:
+            if not (0 <= self.budget <= m.organisations):
+                _fail("seeding.budget", self.budget, f"between 0 and market.organisations = {m.organisations}")
+            given = m.initial_customers is not None or m.initial_share is not None
+            if given and m.n_initial != self.budget:
+                raise ScenarioError(
+                    f"seeding.budget = {self.budget} disagrees with market initial customers = {m.n_initial}; "
+                    "give the number of initial customers in one place (or the same number in both)"
+                )
+        _positive_int("seeding.betweenness_sample", self.betweenness_sample)
+        _non_negative("seeding.betweenness_exact_up_to", self.betweenness_exact_up_to)
+        _positive_int("seeding.greedy_runs", self.greedy_runs)
+        _non_negative("seeding.greedy_candidates", self.greedy_candidates)
+
+
+@dataclass(frozen=True, kw_only=True)
+class Study:
+    """The paired comparison of seeding strategies (:func:`womlab.compare_strategies`).
+
+    Parameters
+    ----------
+    strategies : list of str
+        Strategies to compare; ``random`` (the baseline of every lift) is added first
+        when missing.
+    replicates : int, optional
+        Paired replicates; defaults to ``run.replicates``.
+    discount_rate : float
+        Discount rate per period r of the discounted customer-periods
+        Σₜ customersₜ / (1 + r)ᵗ, t = 1..T.
+    outcome : str
+        The outcome lifts are computed on: ``customers`` (at the horizon) or
+        ``customer_periods`` (discounted).
+    bootstrap : int
+        Paired bootstrap resamples for the lift intervals.
+    """
+
+    section: ClassVar[str] = "study"
+    strategies: tuple[str, ...] = ("random", "hubs", "bridges", "pagerank", "coreness", "fringe", "by_region", "spread")
+    replicates: int | None = None
+    discount_rate: float = 0.0
+    outcome: str = "customers"
+    bootstrap: int = 2000
+
+    def check(self, scenario: Scenario) -> None:
+        from .seeding import STRATEGIES
+
+        if not self.strategies:
+            _fail("study.strategies", list(self.strategies), "a non-empty list of strategy names")
+        known = tuple(sorted(STRATEGIES))
+        for i, name in enumerate(self.strategies):
+            _one_of(f"study.strategies[{i}]", name, known)
+        if len(set(self.strategies)) != len(self.strategies):
+            _fail("study.strategies", list(self.strategies), "a list without repeated names")
+        if self.replicates is not None:
+            _positive_int("study.replicates", self.replicates)
+        _non_negative("study.discount_rate", self.discount_rate)
+        _one_of("study.outcome", self.outcome, STUDY_OUTCOMES)
+        _positive_int("study.bootstrap", self.bootstrap)
+
+    @property
+    def compared(self) -> tuple[str, ...]:
+        """The strategies as run: ``random`` first, then the others in the order given."""
+        return ("random", *(s for s in self.strategies if s != "random"))
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -443,14 +611,206 @@ class Referral:
         return periods if self.end is None else self.end
 
 
+@dataclass(frozen=True, kw_only=True)
+class Axis:
+    """One axis of a sweep: a dotted scenario field and the values it takes.
+
+    Either a list of ``values`` (numbers or text, e.g. network kinds) or a range
+    ``start``..``stop`` (TOML keys ``from`` and ``to``), on a log scale if ``log``.
+    ``steps`` (range axes, ``grid`` design only) is the number of evenly spaced values,
+    ends included. A whole-number field gets rounded values.
+    """
+
+    name: str
+    values: tuple | None = None
+    start: float | None = None
+    stop: float | None = None
+    steps: int | None = None
+    log: bool = False
+
+    @property
+    def is_range(self) -> bool:
+        return self.values is None
+
+    def to_table(self) -> Any:
+        """The axis as written in a scenario file: a list, or ``{from, to, steps, log}``."""
+        if self.values is not None:
+            return list(self.values)
+        table: dict[str, Any] = {"from": self.start, "to": self.stop}
+        if self.steps is not None:
+            table["steps"] = self.steps
+        if self.log:
+            table["log"] = True
+        return table
+
+
+@dataclass(frozen=True, kw_only=True)
+class SweepSpec:
+    """A parameter sweep: which scenario fields vary, over which values, how sampled.
+
+    Parameters
+    ----------
+    design : str
+        ``grid`` (every combination of the axes' values), ``latin`` (Latin hypercube of
+        ``samples`` points), ``sobol`` (Saltelli sampling on a scrambled Sobol' sequence:
+        ``samples × (axes + 2)`` points, for Sobol indices) or ``morris`` (``samples``
+        Morris trajectories of ``axes + 1`` points, for elementary effects).
+    samples : int
+        Points (``latin``), base sample N (``sobol``, a power of 2), or trajectories
+        (``morris``). Not used by ``grid``.
+    replicates : int
+        Seeded replicate runs at every point.
+    levels : int
+        Number of grid levels of each axis in the Morris design (even, >= 2).
+    axes : tuple of Axis
+        Read from the ``[sweep.axes]`` table, one key per dotted scenario field. With
+        ``latin``, ``sobol`` and ``morris`` a list axis is sampled as a discrete uniform
+        choice among its values (the unit interval split into equal parts); ``morris``
+        takes range axes only.
+    """
+
+    section: ClassVar[str] = "sweep"
+    design: str = "grid"
+    samples: int = 64
+    replicates: int = 10
+    levels: int = 4
+    axes: tuple[Axis, ...] = ()
+
+    def check(self, scenario: Scenario) -> None:
+        _one_of("sweep.design", self.design, SWEEP_DESIGNS)
+        _positive_int("sweep.samples", self.samples)
+        _positive_int("sweep.replicates", self.replicates)
+        if self.design == "sobol" and (self.samples < 2 or self.samples & (self.samples - 1)):
+            _fail("sweep.samples", self.samples, 'a power of 2 >= 2 for design = "sobol" (balance of the Sobol\' sequence)')
+        if self.design == "morris" and (self.levels < 2 or self.levels % 2):
+            _fail("sweep.levels", self.levels, 'an even whole number >= 2 for design = "morris"')
+        for axis in self.axes:
+            _check_axis(axis, self.design)
+
+    def to_table(self) -> dict[str, Any]:
+        """The section as written in a scenario file (axes keyed by dotted field)."""
+        return {
+            "design": self.design,
+            "samples": self.samples,
+            "replicates": self.replicates,
+            "levels": self.levels,
+            "axes": {a.name: a.to_table() for a in self.axes},
+        }
+
+    def axis(self, name: str) -> Axis:
+        for a in self.axes:
+            if a.name == name:
+                return a
+        raise KeyError(name)
+
+
+def field_type(dotted: str) -> type:
+    """The Python type of the scenario field ``dotted`` (int, float, str or bool).
+
+    Raises ScenarioError with a did-you-mean if no such field exists. Used to validate
+    sweep axes; ``adoption.talkers_per_customer`` (a number or a table) counts as float.
+    """
+    parts = dotted.split(".")
+    top = ["name", "seed", *(k for k in SECTIONS if k != "sweep")]
+    if parts[0] not in top:
+        _unknown(dotted if len(parts) == 1 else parts[0], top)
+    hint: Any = _hints(Scenario)[parts[0]]
+    for depth in range(1, len(parts)):
+        if not dataclasses.is_dataclass(hint):
+            _unknown(".".join(parts[: depth + 1]), [])
+        known = _field_names(hint)
+        if parts[depth] not in known:
+            _unknown(".".join(parts[: depth + 1]), known)
+        hint = _hints(hint)[parts[depth]]
+    if hint is Talkers:
+        return float
+    if dataclasses.is_dataclass(hint):
+        raise ScenarioError(f"{dotted} is a table of fields; a sweep axis must name one of them "
+                            f"({', '.join(dotted + '.' + n for n in _field_names(hint))})")
+    args = [a for a in typing.get_args(hint) if a is not type(None)]
+    return args[0] if args else hint
+
+
+def _check_axis(axis: Axis, design: str) -> None:
+    where = f"sweep.axes.{axis.name!r}"
+    try:
+        kind = field_type(axis.name)
+    except ScenarioError as exc:
+        raise ScenarioError(f"{where}: {exc}") from None
+    if axis.values is not None:
+        if len(axis.values) == 0:
+            _fail(where, [], "a non-empty list of values")
+        if len(set(map(repr, axis.values))) != len(axis.values):
+            _fail(where, list(axis.values), "a list without repeated values")
+        if design == "morris":
+            _fail(where, list(axis.values), 'a range { from, to } for design = "morris" (elementary effects need a scale)')
+        return
+    if kind not in (int, float):
+        _fail(where, axis.to_table(), f"a list of values ({axis.name} is {kind.__name__}, not a number)")
+    for key, value in (("from", axis.start), ("to", axis.stop)):
+        if value is None:
+            raise ScenarioError(f"{where}.{key} is required for a range axis (or give a list of values)")
+        if not math.isfinite(value):
+            _fail(f"{where}.{key}", value, "a finite number")
+    if axis.start == axis.stop:
+        _fail(f"{where}.to", axis.stop, f"different from 'from' = {axis.start}")
+    if axis.log and (axis.start <= 0 or axis.stop <= 0):
+        _fail(where, axis.to_table(), "a range of positive numbers when log = true")
+    if design == "grid":
+        if axis.steps is None:
+            raise ScenarioError(f'{where}.steps is required for a range axis with design = "grid"')
+        if axis.steps < 2:
+            _fail(f"{where}.steps", axis.steps, "a whole number >= 2")
+
+
+def _axes(value: Any, dotted: str) -> tuple[Axis, ...]:
+    """Parse the ``[sweep.axes]`` table: dotted field name → list, or {from, to, steps, log}."""
+    if isinstance(value, (list, tuple)) and all(isinstance(a, Axis) for a in value):
+        return tuple(value)
+    if not isinstance(value, Mapping):
+        raise ScenarioError(f"[{dotted}] must be a table of dotted field = values, got {value!r}")
+    axes = []
+    for name, spec in value.items():
+        where = f"{dotted}.{name!r}"
+        if isinstance(spec, (list, tuple)):
+            for i, v in enumerate(spec):
+                if isinstance(v, (dict, list, tuple)) or v is None:
+                    raise ScenarioError(f"{where}[{i}] must be a number, text or true/false, got {v!r}")
+            axes.append(Axis(name=str(name), values=tuple(spec)))
+            continue
+        if not isinstance(spec, Mapping):
+            raise ScenarioError(f"{where} must be a list of values or a table {{ from, to, steps, log }}, got {spec!r}")
+        known = ["from", "to", "steps", "log"]
+        for key in spec:
+            if key not in known:
+                _unknown(f"{where}.{key}", known)
+        axes.append(
+            Axis(
+                name=str(name),
+                start=_coerce(spec.get("from"), float | None, f"{where}.from"),
+                stop=_coerce(spec.get("to"), float | None, f"{where}.to"),
+                steps=_coerce(spec.get("steps"), int | None, f"{where}.steps"),
+                log=_coerce(spec.get("log", False), bool, f"{where}.log"),
+            )
+        )
+    return tuple(axes)
+
+
 SECTIONS: dict[str, type] = {
     "market": Market,
     "network": NetworkSpec,
     "adoption": Adoption,
     "run": RunSpec,
+    "seeding": Seeding,
+    "study": Study,
     "referral": Referral,
+    "sweep": SweepSpec,
 }
-_NESTED: dict[tuple[str, str], type] = {("adoption", "talkers_per_customer"): Talkers}
+_NESTED: dict[tuple[str, str], type] = {
+    ("adoption", "talkers_per_customer"): Talkers,
+    ("adoption", "threshold"): Thresholds,
+    ("sweep", "axes"): Axis,
+}
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -471,7 +831,10 @@ class Scenario:
     network: NetworkSpec = field(default_factory=NetworkSpec)
     adoption: Adoption = field(default_factory=Adoption)
     run: RunSpec = field(default_factory=RunSpec)
+    seeding: Seeding = field(default_factory=Seeding)
+    study: Study = field(default_factory=Study)
     referral: Referral = field(default_factory=Referral)
+    sweep: SweepSpec = field(default_factory=SweepSpec)
 
     def __post_init__(self) -> None:
         if not isinstance(self.seed, int) or self.seed < 0:
@@ -505,7 +868,12 @@ class Scenario:
 
     def to_dict(self) -> dict[str, Any]:
         """The scenario as nested plain values (TOML/JSON-ready, None fields dropped)."""
-        return _drop_none(dataclasses.asdict(self))
+        data = _drop_none(dataclasses.asdict(self))
+        for key in SECTIONS:  # a section with its own file form (sweep axes keyed by field)
+            to_table = getattr(getattr(self, key), "to_table", None)
+            if to_table is not None:
+                data[key] = to_table()
+        return data
 
     def replace(self, field_or_changes: str | Mapping[str, Any], value: Any = ..., /) -> Scenario:
         """A new validated scenario with one or more dotted fields changed.
@@ -536,6 +904,11 @@ class Scenario:
     @property
     def organisations(self) -> int:
         return self.market.organisations
+
+    @property
+    def n_initial(self) -> int:
+        """Number of initial customers: ``seeding.budget`` when given, else ``market.n_initial``."""
+        return self.seeding.budget if self.seeding.budget is not None else self.market.n_initial
 
 
 def _section_type(parts: list[str]) -> type:
@@ -573,6 +946,8 @@ def _build_section(cls: type, dotted: str, value: Any, base_dir: str | Path | No
         nested = _NESTED.get((dotted, key))
         if nested is Talkers:
             kwargs[key] = _talkers(item, name)
+        elif nested is Axis:
+            kwargs[key] = _axes(item, name)
         elif nested is not None:
             kwargs[key] = _build_section(nested, name, item, base_dir)
         else:
@@ -597,7 +972,8 @@ def _talkers(value: Any, dotted: str) -> Talkers:
 
 def _coerce(value: Any, hint: Any, dotted: str) -> Any:
     """Check ``value`` against a field's type hint; ints are accepted for floats."""
-    args = typing.get_args(hint)
+    union = typing.get_origin(hint) in (typing.Union, types.UnionType)
+    args = typing.get_args(hint) if union else ()  # a list hint's own args are its items, not alternatives
     optional = type(None) in args
     base = next((a for a in args if a is not type(None)), hint) if args else hint
     if value is None:

@@ -18,7 +18,7 @@ from __future__ import annotations
 import time
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -109,8 +109,14 @@ def _run_variants(
     return out
 
 
-def _chunk(variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]]) -> list[tuple[tuple, dict[str, RunResult]]]:
-    return [(key, _run_variants(variants, key)) for key in keys]
+def _chunk(
+    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None
+) -> list[tuple[tuple, dict[str, Any]]]:
+    out = []
+    for key in keys:
+        runs = _run_variants(variants, key)
+        out.append((key, runs if reduce is None else {name: reduce(r) for name, r in runs.items()}))
+    return out
 
 
 def _check_pairable(variants: Mapping[str, Scenario]) -> None:
@@ -128,19 +134,26 @@ def _check_pairable(variants: Mapping[str, Scenario]) -> None:
 
 
 def _execute(
-    variants: Mapping[str, Scenario], keys: list[tuple[int, ...]], jobs: int, progress: bool
-) -> dict[tuple, dict[str, RunResult]]:
-    """Run every key, chunked across ``jobs`` workers; results keyed by spawn key."""
+    variants: Mapping[str, Scenario],
+    keys: list[tuple[int, ...]],
+    jobs: int,
+    progress: bool,
+    reduce: Callable[[RunResult], Any] | None = None,
+) -> dict[tuple, dict[str, Any]]:
+    """Run every key, chunked across ``jobs`` workers; results keyed by spawn key.
+
+    ``reduce``, if given, is applied to each run inside the worker (a picklable function),
+    so that only its small return value travels back."""
     from joblib import Parallel, delayed, effective_n_jobs
 
     workers = effective_n_jobs(jobs)
     if workers == 1 or len(keys) == 1:
         chunks = [[k] for k in keys]
-        results = (_chunk(variants, c) for c in chunks)
+        results = (_chunk(variants, c, reduce) for c in chunks)
     else:
         size = max(1, min(32, len(keys) // (workers * 4)))
         chunks = [keys[i : i + size] for i in range(0, len(keys), size)]
-        results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c) for c in chunks)
+        results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c, reduce) for c in chunks)
     done: dict[tuple, dict[str, RunResult]] = {}
     bar = None
     if progress:
@@ -269,19 +282,36 @@ def run_paired(
     jobs: int = 1,
     progress: bool = False,
     keys: Iterable[tuple[int, ...]] | None = None,
-) -> dict[str, list[RunResult]]:
+    reduce: Callable[[RunResult], Any] | None = None,
+) -> dict[str, list[Any]]:
     """Run every variant on the same replicates with common random numbers.
 
     Each replicate builds one network (from the first variant's network stream); every
     variant then runs on it with its seeding and dynamics streams started afresh from
     the same SeedSequences. Variants must share seed, market and network.
 
+    Parameters
+    ----------
+    variants : mapping
+        Variant name → scenario.
+    replicates : int
+        Number of replicates (spawn keys ``(0,) .. (replicates − 1,)``) unless ``keys`` is given.
+    jobs : int
+        Worker processes (joblib).
+    progress : bool
+        Show a progress bar.
+    keys : iterable of tuple, optional
+        The spawn keys to run instead (e.g. ``[(0,)]`` to replay replicate 0).
+    reduce : callable, optional
+        A picklable function applied to each RunResult inside the worker; its return
+        value replaces the run (keeps large studies small in memory).
+
     Returns
     -------
     dict
-        Variant name → its runs, in replicate order.
+        Variant name → its runs (or reduced runs), in replicate order.
     """
     _check_pairable(variants)
     keys = [(r,) for r in range(replicates)] if keys is None else [tuple(k) for k in keys]
-    done = _execute(dict(variants), keys, jobs, progress)
+    done = _execute(dict(variants), keys, jobs, progress, reduce)
     return {name: [done[k][name] for k in keys] for name in variants}
