@@ -98,8 +98,11 @@ def test_flat_parameters_map_onto_the_scenario() -> None:
         "run": {"periods": 12},
     })
     assert model.scenario == nested
-    assert FLAT_PARAMETERS["word_of_mouth"] == "adoption.word_of_mouth"
+    assert FLAT_PARAMETERS["word_of_mouth"] == FLAT_PARAMETERS["adoption_word_of_mouth"] == "adoption.word_of_mouth"
     assert "replicates" not in FLAT_PARAMETERS and "engine" not in FLAT_PARAMETERS
+    assert FLAT_PARAMETERS["referral_budget"] == "referral.budget" and "budget" not in FLAT_PARAMETERS
+    nested_threshold = ReferralModel(**FLAT, rule="threshold", threshold={"distribution": "fixed", "mean": 0.3})
+    assert nested_threshold.scenario.adoption.threshold.mean == 0.3
     based = ReferralModel(nested, periods=5, external=0.02)  # with a scenario: Scenario.replace
     assert based.scenario == nested.replace({"run.periods": 5, "adoption.external": 0.02})
 
@@ -109,6 +112,8 @@ def test_bad_flat_parameters_name_the_field() -> None:
         ReferralModel(**FLAT, word_of_mouht=0.3)
     with pytest.raises(ScenarioError, match=r"adoption\.satisfied_share must be in \[0, 1\], got 1\.4"):
         ReferralModel(**{**FLAT, "satisfied_share": 1.4})
+    with pytest.raises(ScenarioError, match="give one of seeding_strategy, referral_strategy"):
+        ReferralModel(**FLAT, strategy="hubs")
     with pytest.raises(ScenarioError, match="initial customers must be distinct"):
         ReferralModel(**FLAT, initial=[0, 0, 5])
 
@@ -242,3 +247,14 @@ def test_a_batch_run_does_not_keep_its_models_alive() -> None:
     for r in range(3):
         run_one(scenario, (r,))
     assert alive() <= before + 1  # at most the model built by hand above
+
+
+def test_cascade_referrers_became_customers_in_the_period_before() -> None:
+    # Kempe, Kleinberg & Tardos (2003), independent cascade: a newly satisfied customer has
+    # its one chance per tie in the period after it became satisfied, and none later
+    model = _run(**{**FLAT, "rule": "cascade", "word_of_mouth": 0.4, "periods": 15})
+    result = model.result()
+    referred = np.flatnonzero(result.referrer >= 0)
+    assert referred.size > 20
+    gap = result.adoption_period[referred] - result.adoption_period[result.referrer[referred]]
+    assert (gap == 1).all()

@@ -5,9 +5,12 @@ touches one file. It mirrors the array engine (:mod:`womlab.engine`) rule for ru
 both call the formulas of :mod:`womlab.rules` — but decides one organisation at a time,
 the way the rules are usually written down:
 
-1. At the start of each step every potential customer sums the talkers of its
-   satisfied-customer neighbours (Tᵢ) — read from its neighbours on Mesa's network
-   space — and, with the summed talkers of all its neighbours (Dᵢ), gets its rate from
+1. At the start of each step every potential customer sums what its neighbours put
+   into its Tᵢ (:func:`~womlab.rules.talk_weights`: the talkers of satisfied customers;
+   under ``cascade`` 1 for each neighbour satisfied within the last period) — read from
+   its neighbours on Mesa's network space — and, with the summed talkers of all its
+   neighbours (Dᵢ) and, under ``threshold``, its own threshold θᵢ
+   (:func:`~womlab.rules.draw_thresholds`, drawn at creation), gets its rate from
    :func:`~womlab.rules.adoption_rate` and its step probability from
    :func:`~womlab.rules.step_probability`.
 2. It draws its own uniform against that probability. An organisation that adopts
@@ -77,25 +80,45 @@ from .studies import streams  # noqa: E402
 
 __all__ = ["ReferralModel", "Organisation", "run_mesa", "FLAT_PARAMETERS"]
 
-# run.replicates, run.engine and run.jobs describe batches, not one model run
+# these describe batches, studies and sweeps, not one model run
+_NOT_FLAT_SECTIONS = {"study", "sweep"}
 _NOT_FLAT = {("run", "replicates"), ("run", "engine"), ("run", "jobs")}
 
-#: Flat keyword parameter of :class:`ReferralModel` → the dotted scenario field it sets.
-FLAT_PARAMETERS: dict[str, str] = {
-    "name": "name",
-    "seed": "seed",
-    **{
-        f.name: f"{section}.{f.name}"
+
+def _flat_parameters() -> tuple[dict[str, str], dict[str, list[str]]]:
+    fields = [
+        (section, f.name)
         for section, cls in SECTIONS.items()
+        if section not in _NOT_FLAT_SECTIONS
         for f in dataclasses.fields(cls)
         if (section, f.name) not in _NOT_FLAT
-    },
-}
+    ]
+    flat = {"name": "name", "seed": "seed"}
+    flat.update({f"{section}_{name}": f"{section}.{name}" for section, name in fields})
+    owners: dict[str, list[str]] = {}
+    for section, name in fields:
+        owners.setdefault(name, []).append(f"{section}_{name}")
+    ambiguous = {name: spelled for name, spelled in owners.items() if len(spelled) > 1}
+    for section, name in fields:
+        if name not in ambiguous and name not in flat:
+            flat[name] = f"{section}.{name}"
+    return flat, ambiguous
+
+
+#: Flat keyword parameter of :class:`ReferralModel` → the dotted scenario field it sets.
+#: Every field is ``<section>_<field>`` (``adoption_word_of_mouth``); a field whose name
+#: is used by no other section is also its bare name (``word_of_mouth``).
+FLAT_PARAMETERS, _AMBIGUOUS = _flat_parameters()
 
 
 def _scenario_from_flat(scenario: Scenario | None, parameters: Mapping[str, Any]) -> Scenario:
     """The scenario a model is built from: ``scenario`` (or the defaults) with the flat parameters set."""
     for key in parameters:
+        if key in _AMBIGUOUS:
+            raise ScenarioError(
+                f"ReferralModel parameter {key!r} is a field of more than one section; "
+                f"give one of {', '.join(_AMBIGUOUS[key])}"
+            )
         if key not in FLAT_PARAMETERS:
             close = difflib.get_close_matches(key, list(FLAT_PARAMETERS), n=1)
             hint = f"; did you mean {close[0]!r}?" if close else ""
@@ -131,9 +154,13 @@ class Organisation(FixedAgent):
         Whether it is a customer.
     satisfied : bool
         Whether it is a satisfied customer (drawn at adoption).
+    threshold : float or None
+        Its own threshold θᵢ (``threshold`` rule only), drawn at creation by
+        :func:`womlab.rules.draw_thresholds`.
     talk : float
-        Talkers it contributes to its neighbours now: ``talkers`` if a satisfied
-        customer, else 0.
+        What it puts into its neighbours' Tᵢ now (:func:`womlab.rules.talk_weights`):
+        ``talkers`` if a satisfied customer, else 0; under ``cascade`` 1 during the
+        period after it became a satisfied customer, else 0.
     counted : float
         The talkers that count this step: ``talk``, boosted while a referral programme
         in which it is enrolled runs.
@@ -162,6 +189,11 @@ class Organisation(FixedAgent):
         self.organisation = organisation
         spec = model.scenario.adoption.talkers_per_customer
         self.talkers = float(rules.draw_talkers(spec, 1, model.rng)[0])
+        adoption = model.scenario.adoption
+        self.threshold = (
+            float(rules.draw_thresholds(adoption.threshold, 1, model.rng)[0]) if adoption.rule == "threshold" else None
+        )
+        self.fresh_until = -1  # under cascade: the last step in which it counts as newly satisfied
         self.customer = False
         self.satisfied = False
         self.talk = 0.0
@@ -194,7 +226,7 @@ class Organisation(FixedAgent):
             for other in self.neighbours:
                 talking += other.counted
             total = self.neighbour_talkers
-        probability, external = model.chances(talking, total)
+        probability, external = model.chances(talking, total, self.threshold)
         rng = model.rng
         self.adopting = bool(rng.random() < probability)
         if not self.adopting:
@@ -224,7 +256,8 @@ class Organisation(FixedAgent):
         self.adoption_period = period
         self.referrer = self._cause
         self.satisfied = bool(rules.draw_satisfied(model.scenario.adoption.satisfied_share, 1, model.rng)[0])
-        self.talk = self.counted = self.talkers if self.satisfied else 0.0
+        self.fresh_until = model.step_count + model.steps_per_period  # newly satisfied for one period
+        self.talk = self.counted = model.talk_weight(self)
 
 
 class ReferralModel(mesa.Model):
@@ -261,14 +294,22 @@ class ReferralModel(mesa.Model):
         ``iterations`` repeat the same seeded run).
     **parameters
         Flat scenario fields, for Mesa's batch runner: each name in
-        :data:`FLAT_PARAMETERS` sets one dotted field — ``name``, ``seed``; market:
-        ``organisations``, ``initial_customers``, ``initial_share``, ``regions``;
-        network: ``kind``, ``mean_degree``, ``rewiring``, ``within_region_share``,
-        ``path``, ``nodes_path``; adoption: ``rule``, ``external``, ``word_of_mouth``,
-        ``satisfied_share``, ``talkers_per_customer``, ``cap``; run: ``periods``,
-        ``time_step``, ``step_probability``. Without ``scenario`` they build
-        ``Scenario.from_dict`` of the nested sections; with ``scenario`` they are
-        applied by ``Scenario.replace``. Either way the result is validated.
+        :data:`FLAT_PARAMETERS` sets one dotted field. Every field of a section that
+        describes one run is ``<section>_<field>`` (``adoption_word_of_mouth``), and
+        also its bare name where no other section uses that name — ``name``, ``seed``;
+        market: ``organisations``, ``initial_customers``, ``initial_share``,
+        ``regions``; network: ``kind``, ``mean_degree``, ``rewiring``,
+        ``within_region_share``, ``path``, ``nodes_path``; adoption: ``rule``,
+        ``external``, ``word_of_mouth``, ``satisfied_share``, ``talkers_per_customer``,
+        ``cap``, ``threshold``; run: ``periods``, ``time_step``, ``step_probability``;
+        and the ``seeding`` and ``referral`` fields (``seeding_strategy`` and
+        ``referral_strategy``, ``seeding_budget`` and ``referral_budget``: names two
+        sections share are given with their section). ``run.replicates``,
+        ``run.engine``, ``run.jobs`` and the ``study`` and ``sweep`` sections describe
+        batches, not one run, and are not parameters. Without ``scenario`` the
+        parameters build ``Scenario.from_dict`` of the nested sections; with
+        ``scenario`` they are applied by ``Scenario.replace``. Either way the result
+        is validated.
 
     Attributes
     ----------
@@ -393,22 +434,41 @@ class ReferralModel(mesa.Model):
         """The agent of organisation ``organisation`` (0..N−1)."""
         return self._by_id[organisation]
 
-    def chances(self, talking: float, total: float) -> tuple[float, float]:
+    def chances(self, talking: float, total: float, threshold: float | None = None) -> tuple[float, float]:
         """Step probability and external share for a potential customer with T = ``talking``, D = ``total``.
 
-        Straight from :mod:`womlab.rules`; remembered per (T, D), since the formulas
-        are pure functions and most organisations share a few values.
+        Straight from :mod:`womlab.rules`; remembered per (T, D) — the formulas are pure
+        functions and most organisations share a few values — except under
+        ``threshold``, where each organisation's own θᵢ enters.
         """
         key = (talking, total)
-        found = self._chances.get(key)
+        found = self._chances.get(key) if threshold is None else None
         if found is None:
             adoption, run = self.scenario.adoption, self.scenario.run
             t, d = np.array([talking]), np.array([total])
-            rate = rules.adoption_rate(adoption.rule, t, d, adoption)
+            theta = None if threshold is None else np.array([threshold])
+            rate = rules.adoption_rate(adoption.rule, t, d, adoption, theta)
             probability = float(rules.step_probability(rate, run.time_step, run.step_probability)[0])
-            external = float(rules.external_share(adoption.rule, t, d, adoption)[0])
-            found = self._chances[key] = (probability, external)
+            external = float(rules.external_share(adoption.rule, t, d, adoption, theta)[0])
+            found = (probability, external)
+            if threshold is None:
+                self._chances[key] = found
         return found
+
+    def talk_weight(self, agent: Organisation) -> float:
+        """What ``agent`` puts into its neighbours' Tᵢ in the coming step (:func:`womlab.rules.talk_weights`)."""
+        weight = rules.talk_weights(
+            self.scenario.adoption.rule,
+            np.array([agent.talkers], dtype=np.float32),
+            np.array([agent.customer and agent.satisfied]),
+            np.array([agent.fresh_until >= self.step_count + 1]),
+        )
+        return float(weight[0])
+
+    def _refresh_cascade_talk(self) -> None:
+        """``cascade``: a customer counts in its neighbours' Tᵢ only for the period after it became satisfied."""
+        for agent in self.agents.select(lambda a: a.talk > 0 and a.fresh_until < self.step_count):
+            agent.talk = agent.counted = 0.0
 
     def talking_now(self) -> tuple[list[Organisation], list[float]]:
         """Complete network: every organisation whose talk counts now, and the running sum of it."""
@@ -434,6 +494,8 @@ class ReferralModel(mesa.Model):
             return
         self.step_count += 1
         self.period = -(-self.step_count // self.steps_per_period)
+        if self.scenario.adoption.rule == "cascade":
+            self._refresh_cascade_talk()
         if self.programme is not None:
             self._count_talk()
         if self.complete:
