@@ -70,7 +70,7 @@ __all__ = [
 ENROLMENT_STREAM = 0x52454652
 
 #: Engines that apply a referral programme inside their step loop.
-PROGRAMME_ENGINES = ("array",)
+PROGRAMME_ENGINES = ("array", "mesa")
 
 
 def enrolment_rng(rng: np.random.Generator) -> np.random.Generator:
