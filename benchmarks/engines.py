@@ -3,7 +3,8 @@
 Run with ``make bench`` (or ``python benchmarks/engines.py``). Writes
 ``benchmarks/results/engines.md``: the machine, date and versions, then
 
-1. seconds per run and organisation-steps per second of each engine on the same
+1. seconds per run and organisation-steps per second of each engine (Mesa included, the
+   full horizon at every N unless ``--mesa-periods-large`` asks for an estimate) on the same
    invented scenario (small_world, mean degree 10, rewiring 0.1, 50 periods) at
    N = 1,000, 10,000 and 100,000, with their ratios, all measured in this one process,
    interleaved, best of several repeats;
@@ -124,7 +125,7 @@ def compare_engines(sizes: list[int], periods: int, mesa_periods_large: int, rep
                 sm = scenario(n, horizon).replace("run.engine", "mesa")
                 return _time(lambda: ENGINES["mesa"](sm, net, init, np.random.default_rng(3)), times)
 
-            if n <= 10_000:
+            if n <= 10_000 or not mesa_periods_large:
                 row["mesa_periods"] = periods
                 row["mesa_s"] = mesa(periods, 1 if n > 1000 else reps)
             else:
@@ -263,8 +264,9 @@ def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[1_000, 10_000, 100_000])
     ap.add_argument("--periods", type=int, default=50)
-    ap.add_argument("--mesa-periods-large", type=int, default=6,
-                    help="above N = 10,000 Mesa runs 2 and this many periods, and the full horizon is extrapolated")
+    ap.add_argument("--mesa-periods-large", type=int, default=0,
+                    help="if > 2: above N = 10,000 Mesa runs 2 and this many periods and the full horizon is "
+                         "extrapolated (default 0: Mesa runs the full horizon at every N)")
     ap.add_argument("--repeats", type=int, default=3)
     ap.add_argument("--million", type=int, default=1_000_000, help="N of the large run; 0 skips it")
     ap.add_argument("--million-periods", type=int, default=100)
