@@ -258,3 +258,13 @@ def test_cascade_referrers_became_customers_in_the_period_before() -> None:
     assert referred.size > 20
     gap = result.adoption_period[referred] - result.adoption_period[result.referrer[referred]]
     assert (gap == 1).all()
+
+
+def test_womlab_imports_mesa_only_when_the_model_is_asked_for():
+    # Style rule of the project: Mesa sits behind one module and is loaded lazily (PEP 562).
+    import subprocess
+    import sys
+
+    code = ("import sys, womlab; assert 'mesa' not in sys.modules; "
+            "womlab.ReferralModel; assert 'mesa' in sys.modules")
+    assert subprocess.run([sys.executable, "-c", code]).returncode == 0

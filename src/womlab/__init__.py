@@ -163,4 +163,17 @@ __all__ = [
     "sweep_figures",
     "sweep_summary",
     "write_report",
+    # the Mesa model, imported on first use so that `import womlab` does not import mesa
+    "ReferralModel",
+    "run_mesa",
 ]
+
+_LAZY = {"ReferralModel", "run_mesa", "Organisation"}
+
+
+def __getattr__(name: str):  # PEP 562: the Mesa model loads only when asked for
+    if name in _LAZY:
+        from . import model
+
+        return getattr(model, name)
+    raise AttributeError(f"module 'womlab' has no attribute {name!r}")
