@@ -185,3 +185,24 @@ def _scenario(kind: str, *, organisations: int, periods: int, time_step: float =
         "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
         "run": {"periods": periods, "time_step": time_step},
     })
+
+
+def test_continuous_clock_compares_with_the_ode_forms():
+    # On the continuous clock the runs are exact in time, so the reference is the Bass ODE
+    # (Bass 1969) and the degree mean-field model is its ODE form (Pastor-Satorras & Vespignani 2001).
+    from womlab import Scenario, build_network, streams
+    from womlab.aggregate import degree_mean_field_curve
+    from womlab.gaps import compare
+
+    s = Scenario.from_dict({
+        "seed": 5, "market": {"organisations": 1500, "initial_customers": 15},
+        "network": {"kind": "random", "mean_degree": 8},
+        "adoption": {"rule": "count", "external": 0.01, "word_of_mouth": 0.05},
+        "run": {"periods": 20, "clock": "continuous"},
+    })
+    c = compare(s, 4, bootstrap=50, fit_bootstrap=20)
+    assert c.reference == "bass_mapped"
+    network = build_network(s, np.random.default_rng(streams(s.seed, (0,)).network))
+    ode = degree_mean_field_curve(s, network, form="ode")
+    assert abs(c.curves["degree_mean_field"] - ode).max() < 1e-12
+    assert c.headline()["rmse_reference"] == c.gaps.set_index("aggregate").loc["bass_mapped", "rmse"]

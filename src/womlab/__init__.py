@@ -73,7 +73,8 @@ from .results import RunResult
 from .scenario import Scenario, load_scenario
 from .seeding import STRATEGIES, choose_seeds
 from .seeding_study import SeedingStudy, compare_strategies, lift_statistics, save_seeding_study
-from .studies import Batch, run_one, run_paired, run_replicates, streams
+from .events import run_events
+from .studies import Batch, engine_for, run_one, run_paired, run_replicates, streams
 from .report import sensitivity_table, sweep_figures, sweep_summary, write_report
 from .sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
 from .store import ResultsStore
@@ -166,6 +167,9 @@ __all__ = [
     # the Mesa model, imported on first use so that `import womlab` does not import mesa
     "ReferralModel",
     "run_mesa",
+    # engines and their dispatch
+    "engine_for",
+    "run_events",
 ]
 
 _LAZY = {"ReferralModel", "run_mesa", "Organisation"}

@@ -429,10 +429,13 @@ def degree_mean_field(
 def degree_mean_field_curve(scenario: Scenario, network: object, *, form: str | None = None) -> np.ndarray:
     """:func:`degree_mean_field` for a scenario on ``network``, on periods 0..T.
 
-    ``form`` defaults to the run's own step form and time step, so the curve sits beside
-    the network runs on the same grid; ``form="ode"`` gives the continuous model.
+    ``form`` defaults to the run's own step form and time step (the ODE on the continuous
+    clock), so the curve sits beside the network runs on the same grid; ``form="ode"``
+    gives the continuous model.
     """
     run = scenario.run
+    if form is None and run.clock == "continuous":
+        form = "ode"
     return degree_mean_field(
         network,
         scenario.adoption,

@@ -129,9 +129,12 @@ class Comparison:
     @property
     def reference(self) -> str:
         """The mapped aggregate curve the headline is measured against: ``bass_difference``
-        (same grid and step form as the runs), or ``stock_and_flow`` for the ``capped`` rule,
-        whose ceiling the Bass curves do not have."""
-        return "stock_and_flow" if self.scenario.adoption.rule == "capped" else "bass_difference"
+        (same grid and step form as the runs), ``bass_mapped`` (the Bass ODE) on the
+        continuous clock, or ``stock_and_flow`` for the ``capped`` rule, whose ceiling the
+        Bass curves do not have."""
+        if self.scenario.adoption.rule == "capped":
+            return "stock_and_flow"
+        return "bass_mapped" if self.scenario.run.clock == "continuous" else "bass_difference"
 
     def curve_table(self) -> pd.DataFrame:
         """Per period: the network's mean, sd, q05, q50, q95 and every aggregate curve."""
