@@ -24,7 +24,6 @@ import datetime as dt
 import json
 import os
 import platform
-import resource
 import subprocess
 import sys
 import time

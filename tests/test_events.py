@@ -13,7 +13,6 @@ from scipy.integrate import solve_ivp
 
 from womlab import Scenario, ScenarioError, bass_ode, build_network, run_replicates
 from womlab.events import run_events
-from womlab.networks import ReferralNetwork
 
 
 def _bass_with_variance(t: np.ndarray, p: float, Q: float, f0: float) -> tuple[np.ndarray, np.ndarray]:

@@ -3,7 +3,6 @@ budget, discounting, ROI and the acceleration/expansion split."""
 
 from __future__ import annotations
 
-import math
 
 import numpy as np
 import pytest

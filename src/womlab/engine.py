@@ -139,7 +139,7 @@ def run_array(
         With ``adoption_time`` = the end of the step of adoption (NaN = never).
     """
     adoption, run = scenario.adoption, scenario.run
-    n, dt, form, rule = network.n, run.time_step, run.step_probability, adoption.rule
+    n, rule = network.n, adoption.rule
     spp = run.steps_per_period
 
     tau = rules.draw_talkers(adoption.talkers_per_customer, n, rng)

@@ -42,7 +42,6 @@ from .aggregate import (
     mapped_parameters,
     stock_and_flow,
 )
-from .errors import StoreError
 from .fitting import BassFit, StockFlowFit, bass_fit_table, fit_bass, fit_replicates, fit_stock_and_flow
 from .metrics import pooled_gaps, pooled_metrics, replicate_gaps, replicate_metrics
 from .networks import build_network
@@ -196,15 +195,9 @@ class Comparison:
         StoreError
             If ``out`` exists and is not a folder, or cannot be created.
         """
-        from .outputs import atomic_write, manifest
+        from .outputs import atomic_write, manifest, results_folder
 
-        out = Path(out)
-        if out.exists() and not out.is_dir():
-            raise StoreError(f"--out {str(out)!r} exists and is not a folder")
-        try:
-            out.mkdir(parents=True, exist_ok=True)
-        except OSError as exc:
-            raise StoreError(f"--out {str(out)!r} cannot be created: {exc}") from None
+        out = results_folder(out)
         fmt = "%.6g"
         tables = {
             "compare_curves.csv": self.curve_table(),

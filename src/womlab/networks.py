@@ -566,7 +566,7 @@ def _attach_in_arrays(base: np.ndarray, first: int, rows: int, m: int, rng: np.r
     lengths = l0 + 2 * m * np.arange(rows, dtype=np.int64)
     width = m + 4
     draws = np.floor(rng.random((rows, width)) * lengths[:, None]).astype(np.int64)
-    slots = np.arange(rows * m, dtype=np.int64).reshape(rows, m)  # code of target slot (t, o)
+
     select = np.broadcast_to(np.arange(m), (rows, m)).copy()
 
     def code(pos: np.ndarray) -> np.ndarray:

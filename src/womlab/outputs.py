@@ -18,7 +18,7 @@ from typing import Any, Callable
 
 from .errors import StoreError
 
-__all__ = ["save_batch", "save_programme", "versions", "atomic_write"]
+__all__ = ["results_folder", "save_batch", "save_programme", "versions", "atomic_write"]
 
 _LIBRARIES = ("womlab", "numpy", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib",
               "pyarrow", "dask", "distributed", "tqdm")
@@ -67,6 +67,24 @@ def manifest(batch, extra: dict | None = None) -> dict[str, Any]:  # noqa: ANN00
     }
 
 
+def results_folder(out: str | Path) -> Path:
+    """Create the results folder ``out`` if needed and return it as a Path.
+
+    Raises
+    ------
+    StoreError
+        If ``out`` exists and is not a folder, or cannot be created; nothing in it is touched.
+    """
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise StoreError(f"--out {str(out)!r} exists and is not a folder")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise StoreError(f"--out {str(out)!r} cannot be created: {exc}") from None
+    return out
+
+
 def save_batch(batch, out: str | Path, *, figure: bool = True) -> list[Path]:  # noqa: ANN001 - Batch
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
 
@@ -77,13 +95,7 @@ def save_batch(batch, out: str | Path, *, figure: bool = True) -> list[Path]:  #
     StoreError
         If ``out`` exists and is not a folder, or cannot be written.
     """
-    out = Path(out)
-    if out.exists() and not out.is_dir():
-        raise StoreError(f"--out {str(out)!r} exists and is not a folder")
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise StoreError(f"--out {str(out)!r} cannot be created: {exc}") from None
+    out = results_folder(out)
     written = [
         atomic_write(out / "curves.csv", lambda p: batch.curves().to_csv(p, index=False)),
         atomic_write(out / "summary.csv", lambda p: batch.summary().to_csv(p, index=False, float_format="%.6g")),
@@ -113,13 +125,7 @@ def save_programme(study, out: str | Path, *, figure: bool = True, wall_time: fl
     StoreError
         If ``out`` exists and is not a folder, or cannot be created.
     """
-    out = Path(out)
-    if out.exists() and not out.is_dir():
-        raise StoreError(f"--out {str(out)!r} exists and is not a folder")
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise StoreError(f"--out {str(out)!r} cannot be created: {exc}") from None
+    out = results_folder(out)
     tables = {
         "programme_summary.csv": study.summary(),
         "programme_runs.csv": study.per_replicate(),

@@ -37,7 +37,6 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
-from .errors import StoreError
 from .metrics import curve_metrics, discount_factors
 from .networks import ReferralNetwork, build_network
 from .results import RunResult
@@ -324,15 +323,9 @@ def save_seeding_study(study: SeedingStudy, out: str | Path, *, figures: bool = 
     """
     import json
 
-    from .outputs import atomic_write, manifest
+    from .outputs import atomic_write, manifest, results_folder
 
-    out = Path(out)
-    if out.exists() and not out.is_dir():
-        raise StoreError(f"--out {str(out)!r} exists and is not a folder")
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise StoreError(f"--out {str(out)!r} cannot be created: {exc}") from None
+    out = results_folder(out)
     table = study.strategies_table()
     written = [
         atomic_write(out / "strategies.csv", lambda p: table.to_csv(p, index=False, float_format="%.6g")),
