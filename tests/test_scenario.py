@@ -116,3 +116,12 @@ def test_edgelist_path_relative_to_the_scenario_file(tmp_path):
     (tmp_path / "t.toml").write_text('[market]\norganisations = 5\n[network]\nkind = "edgelist"\npath = "ties.csv"\n')
     with pytest.raises(ScenarioError, match=r"market.organisations must match the edge list \(3 organisations"):
         load_scenario(tmp_path / "t.toml")
+
+
+@pytest.mark.parametrize("path", sorted((ROOT / "configs").glob("*.toml")) + sorted((ROOT / "experiments").glob("*/*.toml")),
+                         ids=lambda p: p.name)
+def test_every_shipped_scenario_is_valid_and_says_it_is_invented(path):
+    # House rule: demo data and examples are an invented scenario of our own, and say so.
+    s = load_scenario(path)
+    assert "invented" in path.read_text(encoding="utf-8").lower()
+    assert s.market.organisations >= 1
