@@ -195,43 +195,34 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
-    run = sub.add_parser("run", help="run replicates of a scenario and write its results folder")
-    run.add_argument("config", help="scenario TOML file")
-    run.add_argument("--replicates", type=_positive, help="number of replicate runs (overrides run.replicates)")
-    run.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
-    run.add_argument("--engine", choices=["array", "mesa"], help="overrides run.engine")
-    run.add_argument("--out", help="results folder (default out/<config name>)")
-    run.add_argument("--quiet", action="store_true", help="no progress bar")
-    run.set_defaults(func=cmd_run)
+    def batch_command(name: str, func, help: str, config: str, replicates: str, out: str, engine: bool = False):  # noqa: ANN001, ANN202
+        """A subcommand with the options every batch command shares."""
+        cmd = sub.add_parser(name, help=help)
+        cmd.add_argument("config", help=config)
+        cmd.add_argument("--replicates", type=_positive, help=replicates)
+        cmd.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
+        if engine:
+            cmd.add_argument("--engine", choices=["array", "mesa"], help="overrides run.engine")
+        cmd.add_argument("--out", help=f"results folder (default {out})")
+        cmd.add_argument("--quiet", action="store_true", help="no progress bar")
+        cmd.set_defaults(func=func)
+        return cmd
 
-    seeding = sub.add_parser("seeding", help="compare seeding strategies on paired replicates ([study] section)")
-    seeding.add_argument("config", help="scenario TOML file")
-    seeding.add_argument("--replicates", type=_positive, help="paired replicates (overrides study.replicates)")
-    seeding.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
-    seeding.add_argument("--out", help="results folder (default out/<config name>-seeding)")
-    seeding.add_argument("--quiet", action="store_true", help="no progress bar")
-    seeding.set_defaults(func=cmd_seeding)
+    batch_command("run", cmd_run, "run replicates of a scenario and write its results folder",
+                  "scenario TOML file", "number of replicate runs (overrides run.replicates)",
+                  "out/<config name>", engine=True)
+    batch_command("seeding", cmd_seeding, "compare seeding strategies on paired replicates ([study] section)",
+                  "scenario TOML file", "paired replicates (overrides study.replicates)",
+                  "out/<config name>-seeding")
+    batch_command("referral", cmd_referral, "evaluate the scenario's referral programme against no programme",
+                  "scenario TOML file with a [referral] section", "paired replicates (overrides run.replicates)",
+                  "out/<config name>-referral")
 
-    referral = sub.add_parser("referral", help="evaluate the scenario's referral programme against no programme")
-    referral.add_argument("config", help="scenario TOML file with a [referral] section")
-    referral.add_argument("--replicates", type=_positive, help="paired replicates (overrides run.replicates)")
-    referral.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
-    referral.add_argument("--out", help="results folder (default out/<config name>-referral)")
-    referral.add_argument("--quiet", action="store_true", help="no progress bar")
-    referral.set_defaults(func=cmd_referral)
-
-    comp = sub.add_parser(
-        "compare",
-        help="run replicates and set the network beside every aggregate model: gaps, fitted parameters, figure",
-    )
-    comp.add_argument("config", help="scenario TOML file")
-    comp.add_argument("--replicates", type=_positive, help="number of replicate runs (overrides run.replicates)")
-    comp.add_argument("--jobs", type=_positive, help="worker processes, -1 for every core (overrides run.jobs)")
-    comp.add_argument("--engine", choices=["array", "mesa"], help="overrides run.engine")
+    comp = batch_command("compare", cmd_compare,
+                         "run replicates and set the network beside every aggregate model: gaps, fitted parameters, figure",
+                         "scenario TOML file", "number of replicate runs (overrides run.replicates)",
+                         "out/<config name>-compare", engine=True)
     comp.add_argument("--bootstrap", type=_positive, default=1000, help="bootstrap resamples for the intervals (default 1000)")
-    comp.add_argument("--out", help="results folder (default out/<config name>-compare)")
-    comp.add_argument("--quiet", action="store_true", help="no progress bar")
-    comp.set_defaults(func=cmd_compare)
 
     check = sub.add_parser("check", help="validate a scenario and print its derived quantities")
     check.add_argument("config", help="scenario TOML file")

@@ -20,6 +20,7 @@ import pandas as pd
 
 __all__ = [
     "discount_factors",
+    "mean_interval",
     "time_to_share",
     "curve_metrics",
     "curve_gap",
@@ -267,3 +268,24 @@ def discount_factors(rate: float, periods: int) -> np.ndarray:
     [1.0, 0.9091, 0.8264]
     """
     return (1.0 + rate) ** -np.arange(periods + 1, dtype=float)
+
+
+def mean_interval(x: np.ndarray, level: float = 0.95) -> tuple[float, float, float]:
+    """Mean of the finite values of ``x`` and its Student-t interval (NaN where undefined).
+
+    Examples
+    --------
+    >>> [round(v, 4) for v in mean_interval(np.array([1.0, 2.0, 3.0, np.nan]))]
+    [2.0, -0.4841, 4.4841]
+    """
+    from scipy import stats
+
+    x = np.asarray(x, dtype=float)
+    x = x[np.isfinite(x)]
+    if x.size == 0:
+        return (float("nan"),) * 3
+    mean = float(x.mean())
+    if x.size < 2:
+        return mean, float("nan"), float("nan")
+    half = float(stats.t.ppf(0.5 + level / 2, x.size - 1) * x.std(ddof=1) / np.sqrt(x.size))
+    return mean, mean - half, mean + half

@@ -37,14 +37,13 @@ Schmitt, P., Skiera, B. & Van den Bulte, C. (2011). Referral programs and custom
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
 from .errors import ScenarioError
-from .metrics import discount_factors
+from .metrics import discount_factors, mean_interval
 from .networks import ReferralNetwork
 from .results import RunResult
 from .scenario import Referral, Scenario
@@ -347,20 +346,6 @@ def programme_economics(baseline: RunResult, programme: RunResult, referral: Ref
     }
 
 
-def _mean_interval(x: np.ndarray) -> tuple[float, float, float]:
-    from scipy import stats
-
-    x = np.asarray(x, dtype=float)
-    x = x[np.isfinite(x)]
-    if x.size == 0:
-        return (float("nan"),) * 3
-    m = float(x.mean())
-    if x.size < 2:
-        return m, float("nan"), float("nan")
-    half = float(stats.t.ppf(0.975, x.size - 1) * x.std(ddof=1) / math.sqrt(x.size))
-    return m, m - half, m + half
-
-
 @dataclass(eq=False)
 class ProgrammeStudy:
     """A referral programme evaluated against its baseline on paired replicates.
@@ -405,7 +390,7 @@ class ProgrammeStudy:
         for col in ("incremental_customers", "incremental_value", "cost", "cost_undiscounted", "paid_referrals",
                     "acceleration", "expansion", "accelerated", "expanded", "lost",
                     "customers_baseline", "customers_programme"):
-            m, lo, hi = _mean_interval(table[col].to_numpy())
+            m, lo, hi = mean_interval(table[col].to_numpy())
             rows.append({"outcome": col, "estimate": m, "low": lo, "high": hi, "interval": "t, mean over replicates"})
         dv, c, dc = (table[k].to_numpy(dtype=float) for k in ("incremental_value", "cost", "incremental_customers"))
 

@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
+from .metrics import mean_interval
 from .outputs import atomic_write
 from .scenario import Scenario
 from .store import ResultsStore
@@ -73,7 +74,6 @@ def sweep_summary(folder: str | Path | ResultsStore) -> pd.DataFrame:
         the point's finished runs, ``reached`` those where the outcome exists (a run that
         never reaches 90 % of the market has no t90).
     """
-    from scipy import stats
 
     from .sweep import OUTCOMES
 
@@ -86,12 +86,10 @@ def sweep_summary(folder: str | Path | ResultsStore) -> pd.DataFrame:
         for outcome in OUTCOMES:
             x = group[outcome].astype("float64").to_numpy(na_value=np.nan)
             x = x[np.isfinite(x)]
-            n = x.size
-            mean = float(x.mean()) if n else np.nan
-            sd = float(x.std(ddof=1)) if n > 1 else np.nan
-            half = float(stats.t.ppf(0.975, n - 1) * sd / np.sqrt(n)) if n > 1 else np.nan
-            rows.append({"point": int(point), "outcome": outcome, "runs": len(group), "reached": n,
-                         "mean": mean, "sd": sd, "ci_low": mean - half, "ci_high": mean + half})
+            mean, low, high = mean_interval(x)
+            sd = float(x.std(ddof=1)) if x.size > 1 else np.nan
+            rows.append({"point": int(point), "outcome": outcome, "runs": len(group), "reached": x.size,
+                         "mean": mean, "sd": sd, "ci_low": low, "ci_high": high})
     table = pd.DataFrame(rows, columns=["point", "outcome", "runs", "reached", "mean", "sd", "ci_low", "ci_high"])
     return points.merge(table, on="point", how="right")
 

@@ -37,7 +37,7 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
-from .metrics import curve_metrics, discount_factors
+from .metrics import curve_metrics, discount_factors, mean_interval
 from .networks import ReferralNetwork, build_network
 from .results import RunResult
 from .scenario import Scenario
@@ -83,18 +83,6 @@ def run_outcomes(result: RunResult, discount_rate: float = 0.0, keep_first: bool
     if keep_first and tuple(result.spawn_key) == (0,):
         out["run"] = result
     return out
-
-
-def _interval(x: np.ndarray) -> tuple[float, float, float]:
-    """Mean and 95 % t-interval of the finite values of ``x``."""
-    x = x[np.isfinite(x)]
-    if x.size == 0:
-        return (float("nan"),) * 3
-    mean = float(x.mean())
-    if x.size < 2:
-        return mean, float("nan"), float("nan")
-    half = float(stats.t.ppf(0.975, x.size - 1) * x.std(ddof=1) / np.sqrt(x.size))
-    return mean, mean - half, mean + half
 
 
 def lift_statistics(
@@ -216,7 +204,7 @@ class SeedingStudy:
             g = wide[name]
             row: dict[str, Any] = {"strategy": name, "replicates": len(g)}
             for outcome in OUTCOMES:
-                mean, low, high = _interval(g[outcome].to_numpy(dtype=float))
+                mean, low, high = mean_interval(g[outcome].to_numpy(dtype=float))
                 row[f"{outcome}_mean"], row[f"{outcome}_low"], row[f"{outcome}_high"] = mean, low, high
             row["t50_reached"] = int(np.isfinite(g["t50"].to_numpy(dtype=float)).sum())
             row["lift_outcome"] = study.outcome
