@@ -35,7 +35,7 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "src"))
 
 from womlab import Scenario, build_network  # noqa: E402
-from womlab.studies import ENGINES  # noqa: E402
+from womlab.dynamics import ENGINES  # noqa: E402
 
 
 def scenario(n: int, periods: int, clock: str = "discrete") -> Scenario:
@@ -104,7 +104,7 @@ def compare_engines(sizes: list[int], periods: int, mesa_periods_large: int, rep
     rows = []
     have_mesa = True
     try:
-        import womlab.model  # noqa: F401
+        import womlab.dynamics.mesa_model  # noqa: F401
     except ImportError:
         have_mesa = False
     for n in sizes:
@@ -145,7 +145,7 @@ import json, resource, sys, time
 import numpy as np
 sys.path.insert(0, {src!r})
 from womlab import build_network
-from womlab.studies import ENGINES
+from womlab.dynamics import ENGINES
 sys.path.insert(0, {bench!r})
 from engines import scenario, _initial, floor_seconds
 what = {what!r}
@@ -240,7 +240,7 @@ def report(rows: list[dict], big: dict | None, command: str, big_n: int, big_per
     if notes:
         lines += [""] + [f"\\* {x}" for x in notes]
     if not any("mesa_s" in r for r in rows):
-        lines += ["", "The Mesa model (womlab.model) is not available in this checkout: its columns are n/a."]
+        lines += ["", "The Mesa model (womlab.dynamics.mesa_model) is not available in this checkout: its columns are n/a."]
     if big:
         lines += [
             "",

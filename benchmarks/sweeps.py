@@ -27,11 +27,11 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "src"))
 
-from womlab.outputs import versions  # noqa: E402
+from womlab.store import versions  # noqa: E402
 from womlab.scenario import Scenario  # noqa: E402
 from womlab.store import ResultsStore  # noqa: E402
 from womlab.studies import run_one  # noqa: E402
-from womlab.sweep import point_scenarios, run_sweep  # noqa: E402
+from womlab.studies.sweep import point_scenarios, run_sweep  # noqa: E402
 
 REPEATS = 5        # bare loop against jobs = 1, alternating, CPU time
 PARALLEL_REPEATS = 2

@@ -28,7 +28,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 import womlab
-from womlab.outputs import atomic_write, versions
+from womlab.store import atomic_write, versions
 
 HERE = Path(__file__).resolve().parent
 ORDER = ["complete", "random", "scale_free", "small_world_0.2", "small_world_0.02", "regional_0.7",

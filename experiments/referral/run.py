@@ -25,7 +25,7 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import NullFormatter
 
 import womlab
-from womlab.outputs import atomic_write
+from womlab.store import atomic_write
 
 HERE = Path(__file__).resolve().parent
 KINDS = ("random", "small_world", "regional", "scale_free")

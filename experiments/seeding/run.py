@@ -23,7 +23,7 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import FixedFormatter, FixedLocator, NullFormatter
 
 import womlab
-from womlab.outputs import atomic_write, versions
+from womlab.store import atomic_write, versions
 
 HERE = Path(__file__).resolve().parent
 KINDS = ("random", "small_world", "regional", "scale_free")

@@ -16,69 +16,84 @@ Quick start::
 
 from __future__ import annotations
 
-from .aggregate import (
+from womlab.aggregate import (
     AggregateParameters,
+    BassFit,
+    StockFlowFit,
     aggregate_curve,
     bass_density,
     bass_difference,
+    bass_fit_table,
     bass_ode,
     bass_peak_time,
     bass_share,
     degree_classes,
     degree_mean_field,
     degree_mean_field_curve,
-    mapped_parameters,
-    stock_and_flow,
-)
-from .errors import NetworkError, ScenarioError, StoreError, WomlabError
-from .fitting import (
-    BassFit,
-    StockFlowFit,
-    bass_fit_table,
     fit_bass,
     fit_bass_sales,
     fit_replicates,
     fit_stock_and_flow,
+    mapped_parameters,
+    stock_and_flow,
 )
-from .gaps import Comparison, aggregate_curves, compare
-from .metrics import (
-    curve_gap,
-    curve_metrics,
-    pooled_gaps,
-    pooled_metrics,
-    replicate_gaps,
-    replicate_metrics,
-    time_to_share,
-)
-from .networks import ReferralNetwork, build_network, read_edgelist
-from .outputs import save_batch, save_programme
-from .plots import (
+from womlab.dynamics import RunResult, engine_for, run_events, streams
+from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.networks import ReferralNetwork, build_network, read_edgelist
+from womlab.results import (
     adoption_figure,
     comparison_figure,
     network_snapshot_figure,
     programme_figure,
     referral_tree_figure,
+    save_batch,
+    save_programme,
+    save_seeding_study,
     seeding_figure,
+    sensitivity_table,
+    sweep_figures,
+    sweep_summary,
+    write_report,
 )
-from .programme import ProgrammeStudy, evaluate_programme, programme_economics
-from .referrals import (
+from womlab.scenario import Scenario, load_scenario
+from womlab.seeding import STRATEGIES, choose_seeds
+from womlab.store import ResultsStore
+from womlab.studies import (
+    Batch,
+    Comparison,
+    ProgrammeStudy,
+    SeedingStudy,
+    SweepSummary,
+    aggregate_curves,
+    compare,
+    compare_strategies,
+    curve_gap,
+    curve_metrics,
+    design_points,
+    evaluate_programme,
     generations,
+    lift_statistics,
+    morris_design,
+    morris_effects,
+    point_scenarios,
+    pooled_gaps,
+    pooled_metrics,
+    programme_economics,
     referral_tree_summary,
     referrals_per_customer,
+    replicate_gaps,
+    replicate_metrics,
     reproduction_by_period,
+    run_one,
+    run_paired,
+    run_replicates,
+    run_sweep,
+    saltelli_design,
+    sobol_indices,
+    time_to_share,
     top_degree_referral_share,
     word_of_mouth_by_period,
 )
-from .results import RunResult
-from .scenario import Scenario, load_scenario
-from .seeding import STRATEGIES, choose_seeds
-from .seeding_study import SeedingStudy, compare_strategies, lift_statistics, save_seeding_study
-from .events import run_events
-from .studies import Batch, engine_for, run_one, run_paired, run_replicates, streams
-from .report import sensitivity_table, sweep_figures, sweep_summary, write_report
-from .sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
-from .store import ResultsStore
-from .sweep import SweepSummary, design_points, point_scenarios, run_sweep
 
 __version__ = "0.1.0"
 
@@ -177,7 +192,7 @@ _LAZY = {"ReferralModel", "run_mesa", "Organisation"}
 
 def __getattr__(name: str):  # PEP 562: the Mesa model loads only when asked for
     if name in _LAZY:
-        from . import model
+        from womlab.dynamics import mesa_model
 
-        return getattr(model, name)
+        return getattr(mesa_model, name)
     raise AttributeError(f"module 'womlab' has no attribute {name!r}")

@@ -1,0 +1,56 @@
+"""The aggregate layer: growth when everyone talks to everyone, and fitting it to curves.
+
+Knows the rules and the scenario (below); nothing of networks, seeding, engines or agents.
+``models`` holds the Bass model (closed form, ODE, difference form), the stock-and-flow
+difference model and the micro-to-macro mapping; ``mean_field`` the degree-based
+mean-field model (fed a degree sequence, never a network object it must import);
+``fitting`` the least-squares fits of these curves to network runs or sales data.
+"""
+
+from __future__ import annotations
+
+from womlab.aggregate.fitting import (
+    BassFit,
+    StockFlowFit,
+    bass_fit_table,
+    fit_bass,
+    fit_bass_sales,
+    fit_replicates,
+    fit_stock_and_flow,
+)
+from womlab.aggregate.mean_field import degree_classes, degree_mean_field, degree_mean_field_curve
+from womlab.aggregate.models import (
+    AGGREGATE_LABELS,
+    AggregateParameters,
+    aggregate_curve,
+    bass_density,
+    bass_difference,
+    bass_ode,
+    bass_peak_time,
+    bass_share,
+    mapped_parameters,
+    stock_and_flow,
+)
+
+__all__ = [
+    "AGGREGATE_LABELS",
+    "AggregateParameters",
+    "mapped_parameters",
+    "bass_share",
+    "bass_density",
+    "bass_ode",
+    "bass_difference",
+    "stock_and_flow",
+    "aggregate_curve",
+    "bass_peak_time",
+    "degree_classes",
+    "degree_mean_field",
+    "degree_mean_field_curve",
+    "BassFit",
+    "StockFlowFit",
+    "fit_bass",
+    "fit_bass_sales",
+    "fit_replicates",
+    "bass_fit_table",
+    "fit_stock_and_flow",
+]

@@ -1,0 +1,49 @@
+"""The ``womlab`` command. It only parses, calls the public functions and writes files.
+
+One module per command (``run``, ``compare``, ``seeding``, ``referral``, ``check``,
+``sweep``); each has an ``add(subparsers)`` that declares its options and the function it
+calls. A new command is a new module here and one entry in :data:`COMMANDS`. A user
+mistake (a :class:`~womlab.errors.WomlabError`) is printed as one line on standard error
+with exit status 2, never as a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from womlab.cli import check, compare, referral, run, seeding, sweep
+from womlab.errors import WomlabError
+
+__all__ = ["main", "build_parser", "COMMANDS"]
+
+#: The command modules, in the order ``womlab --help`` lists them.
+COMMANDS = (run, seeding, referral, compare, check, sweep)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="womlab",
+        description="Word-of-mouth growth on referral networks, set against the aggregate model.",
+    )
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    for command in COMMANDS:
+        command.add(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.func(args)
+    except WomlabError as exc:
+        print(f"womlab: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("womlab: interrupted; files already written are intact", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

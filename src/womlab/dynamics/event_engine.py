@@ -1,0 +1,269 @@
+"""The event engine: exact adoption times on a continuous clock, no time step.
+
+For the rules whose word-of-mouth influence is a constant rate per satisfied-customer
+neighbour (``share`` and ``count``, :data:`womlab.scenario.CONTINUOUS_RULES`), a
+potential customer i adopts at rate λᵢ(t) = p + Σⱼ wⱼᵢ, the sum over its neighbours j
+that are satisfied customers at time t, with wⱼᵢ = q·τⱼ/Dᵢ (``share``) or q·τⱼ
+(``count``); τⱼ are j's talkers and Dᵢ the talkers of all of i's neighbours. By the
+memorylessness of competing exponential clocks this continuous-time process has
+exactly the law of first-passage times
+
+    tᵢ = min(Eᵢ, min over satisfied neighbours j of tⱼ + Dⱼᵢ),
+    Eᵢ ~ Exp(p),  Dⱼᵢ ~ Exp(wⱼᵢ),  tᵢ = 0 for the initial customers,
+
+since satisfaction and talkers do not depend on timing and can be drawn up front. That
+is a shortest-path problem from a virtual source tied to every organisation i by an arc
+of length Eᵢ (0 to the initial customers) and to nothing else: Dijkstra's algorithm
+(:func:`scipy.sparse.csgraph.dijkstra`, in C), O(E log N), stopped at the horizon. The
+predecessor of each organisation on its path is who persuaded it: the virtual source
+means external influence (referrer −1), a neighbour means that neighbour.
+
+Random draws, from the dynamics stream, in this order: talkers (Poisson only) and
+satisfaction (as the array engine), one Exp(1) per organisation (Eᵢ = that / p — the
+array engine's resistance, so the two engines share it), then one Exp(1) per stored
+direction of every tie in CSR order (Dⱼᵢ = that / wⱼᵢ; drawn for every tie whatever its
+ends, so the stream's layout does not depend on who is satisfied).
+
+The complete network is never materialised: there every potential customer i has
+the same integrated hazard Hᵢ(t) = p·t + cᵢ·Y(t), with Y(t) = ∫₀ᵗ X(s) ds, X the
+talkers of all satisfied customers, and cᵢ = q/(Σ τ − τᵢ) (``share``) or q (``count``).
+So organisations with equal cᵢ (one group per distinct talker count) adopt in the order
+of their Exp(1) resistances, and the next adoption is the earliest of each group's
+next: an exact event-driven simulation on totals, O(N·G) for G groups, with attribution
+drawn afterwards from the running totals (external with probability p/λᵢ, else a
+satisfied customer with probability ∝ its talkers). Its draws: talkers, satisfaction,
+one Exp(1) resistance and one uniform (attribution) per organisation.
+
+References
+----------
+Hammersley, J. M. & Welsh, D. J. A. (1965). First-passage percolation, subadditive
+processes, stochastic networks, and generalized renewal theory. In Bernoulli–Bayes–Laplace
+Anniversary Volume, 61–110.
+Dijkstra, E. W. (1959). A note on two problems in connexion with graphs. Numerische
+Mathematik 1, 269–271.
+Gillespie, D. T. (1977). Exact stochastic simulation of coupled chemical reactions.
+Journal of Physical Chemistry 81, 2340–2361.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import dijkstra
+
+from womlab import rules
+from womlab.dynamics.run_result import RunResult
+from womlab.errors import ScenarioError
+from womlab.networks import ReferralNetwork
+from womlab.scenario import CONTINUOUS_RULES, Scenario
+
+__all__ = ["run_events", "tie_rates"]
+
+
+def tie_rates(rule: str, network: ReferralNetwork, tau: np.ndarray, talking: np.ndarray, q: float) -> np.ndarray:
+    """Rate wⱼᵢ each stored tie j → i carries (CSR order, row j), 0 where j does not talk.
+
+    ``tau`` are everyone's talkers, ``talking`` the talkers of those who would talk once
+    customers (τⱼ if satisfied, else 0). ``share``: q·τⱼ/Dᵢ with Dᵢ the talkers of all
+    of i's neighbours; ``count``: q·τⱼ. It is :func:`womlab.rules.word_of_mouth_part`
+    split per neighbour.
+    """
+    rows = np.repeat(np.arange(network.n, dtype=np.int32), np.diff(network.indptr))
+    total = network.matrix(np.float64) @ tau.astype(np.float64) if rule == "share" else None
+    if rule == "share":
+        return rules.word_of_mouth_part(rule, talking[rows].astype(np.float64), total[network.indices], q)
+    return rules.word_of_mouth_part(rule, talking[rows].astype(np.float64), None, q)
+
+
+def run_events(
+    scenario: Scenario, network: ReferralNetwork, initial: np.ndarray, rng: np.random.Generator
+) -> RunResult:
+    """One run on the continuous clock: exact adoption times by first passage.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        Supplies the rule (``share`` or ``count``), p, q, satisfaction, talkers and the
+        horizon ``run.periods`` (``time_step`` and ``step_probability`` play no part).
+    network : ReferralNetwork
+        The referral network (the complete network is run from totals).
+    initial : numpy.ndarray
+        Ids of the customers at time 0.
+    rng : numpy.random.Generator
+        The dynamics stream.
+
+    Returns
+    -------
+    RunResult
+        With ``adoption_time`` (NaN = not by the horizon), ``adoption_period =
+        ceil(adoption_time)``, and each word-of-mouth adopter's referrer.
+
+    Raises
+    ------
+    ScenarioError
+        If the rule cannot run on the continuous clock.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from womlab import Scenario, build_network
+    >>> from womlab.dynamics.event_engine import run_events
+    >>> s = Scenario.from_dict({"market": {"organisations": 500, "initial_customers": 5},
+    ...                         "network": {"kind": "small_world", "mean_degree": 6}, "run": {"clock": "continuous", "periods": 20}})
+    >>> r = run_events(s, build_network(s, np.random.default_rng(1)), np.arange(5), np.random.default_rng(2))
+    >>> len(r.curve())
+    21
+    """
+    adoption, run = scenario.adoption, scenario.run
+    if adoption.rule not in CONTINUOUS_RULES:
+        raise ScenarioError(
+            f'adoption.rule = "{adoption.rule}" cannot run on run.clock = "continuous" '
+            f"(rules {', '.join(CONTINUOUS_RULES)} only)"
+        )
+    n, horizon = network.n, float(run.periods)
+    tau = rules.draw_talkers(adoption.talkers_per_customer, n, rng)
+    would_be_satisfied = rules.draw_satisfied(adoption.satisfied_share, n, rng)
+    talking = np.where(would_be_satisfied, tau, np.float32(0))
+    initial = np.asarray(initial, dtype=np.int32)
+    if network.complete:
+        time, referrer = _complete(scenario, tau, would_be_satisfied, talking, initial, rng)
+    else:
+        time, referrer = _first_passage(scenario, network, tau, talking, initial, rng)
+    adopted = time <= horizon
+    time = np.where(adopted, time, np.nan)
+    adoption_period = np.where(adopted, np.ceil(np.nan_to_num(time)), -1).astype(np.int32)
+    referrer = np.where(adopted, referrer, -1).astype(np.int32)
+    return RunResult(
+        periods=run.periods,
+        adoption_period=adoption_period,
+        referrer=referrer,
+        satisfied=adopted & would_be_satisfied,
+        region=network.region,
+        initial=initial,
+        engine="events",
+        adoption_time=time,
+        report_every=run.report_every,
+    )
+
+
+def _first_passage(
+    scenario: Scenario,
+    network: ReferralNetwork,
+    tau: np.ndarray,
+    talking: np.ndarray,
+    initial: np.ndarray,
+    rng: np.random.Generator,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Shortest paths from a virtual source (organisation n): arrival times and predecessors."""
+    adoption = scenario.adoption
+    n, p = network.n, adoption.external
+    external = rng.standard_exponential(n)
+    delay = rng.standard_exponential(network.indices.size)
+    w = tie_rates(adoption.rule, network, tau, talking, adoption.word_of_mouth)
+    live = w > 0
+    with np.errstate(divide="ignore"):
+        delay = np.divide(delay, w, out=delay, where=live)
+    # graph on n + 1 nodes: the network's live arcs, then the source's row
+    running = np.concatenate([[0], np.cumsum(live, dtype=np.int64)])
+    counts = running[network.indptr[1:]] - running[network.indptr[:-1]]
+    start = np.zeros(n, dtype=bool)
+    start[initial] = True
+    if p > 0:
+        src_cols = np.arange(n, dtype=np.int32)
+        src_len = np.where(start, 0.0, external / p)
+    else:
+        src_cols = initial
+        src_len = np.zeros(initial.size)
+    indptr = np.zeros(n + 2, dtype=np.int64)
+    np.cumsum(counts, out=indptr[1 : n + 1])
+    indptr[n + 1] = indptr[n] + src_cols.size
+    idx_type = np.int32 if indptr[-1] < np.iinfo(np.int32).max else np.int64
+    graph = sp.csr_array(
+        (
+            np.concatenate([delay[live], src_len]),
+            np.concatenate([network.indices[live], src_cols]).astype(idx_type),
+            indptr.astype(idx_type),
+        ),
+        shape=(n + 1, n + 1),
+    )
+    dist, pred = dijkstra(graph, directed=True, indices=n, return_predecessors=True, limit=float(scenario.run.periods))
+    dist, pred = dist[:n], pred[:n]
+    referrer = np.where((pred >= 0) & (pred < n), pred, -1)
+    return dist, referrer
+
+
+def _complete(
+    scenario: Scenario,
+    tau: np.ndarray,
+    would_be_satisfied: np.ndarray,
+    talking: np.ndarray,
+    initial: np.ndarray,
+    rng: np.random.Generator,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Exact event-driven run on the complete network from totals (see the module notes)."""
+    adoption = scenario.adoption
+    n, p, q, horizon = tau.size, adoption.external, adoption.word_of_mouth, float(scenario.run.periods)
+    resistance = rng.standard_exponential(n)
+    u_cause = rng.random(n)
+    time = np.full(n, np.inf)
+    time[initial] = 0.0
+    potential = np.ones(n, dtype=bool)
+    potential[initial] = False
+    all_talkers = float(tau.sum(dtype=np.float64))
+    # c_i per organisation: the weight of Y(t) in its hazard
+    if adoption.rule == "share":
+        d = all_talkers - tau.astype(np.float64)
+        c = np.divide(q, d, out=np.zeros(n), where=d > 0)
+    else:
+        c = np.full(n, float(q))
+    values, group = np.unique(c, return_inverse=True)
+    members = []
+    for g in range(values.size):
+        ids = np.flatnonzero(potential & (group == g))
+        members.append(ids[np.argsort(resistance[ids], kind="stable")])
+    heads = [0] * values.size
+    order = np.empty(n, dtype=np.int64)  # adopters in time order (initial first)
+    x_at = np.empty(n)  # talkers X just before each adoption
+    k = initial.size
+    order[:k] = initial
+    x_at[:k] = 0.0
+    x = float(talking[initial].sum(dtype=np.float64))
+    t = y = 0.0
+    cs = values.tolist()
+    res = [resistance[m].tolist() for m in members]
+    talk_list = talking.tolist()
+    while True:
+        best, best_dt = -1, np.inf
+        for g, cg in enumerate(cs):
+            h = heads[g]
+            if h < len(res[g]):
+                rate = p + cg * x
+                if rate > 0:
+                    dt = max(res[g][h] - p * t - cg * y, 0.0) / rate
+                    if dt < best_dt:
+                        best, best_dt = g, dt
+        if best < 0 or t + best_dt > horizon:
+            break
+        t += best_dt
+        y += x * best_dt
+        i = int(members[best][heads[best]])
+        heads[best] += 1
+        time[i] = t
+        order[k] = i
+        x_at[k] = x
+        k += 1
+        x += talk_list[i]
+    # attribution: external with probability p / (p + c_i X), else ∝ talkers among earlier adopters
+    referrer = np.full(n, -1, dtype=np.int64)
+    adopters = order[initial.size : k]
+    if adopters.size:
+        xs = x_at[initial.size : k]
+        wom = c[adopters] * xs
+        ext = np.divide(p, p + wom, out=np.ones(adopters.size), where=(p + wom) > 0)
+        u = u_cause[adopters]
+        by_wom = u >= ext
+        cum = np.cumsum(talking[order[:k]].astype(np.float64))
+        target = xs[by_wom] * (u[by_wom] - ext[by_wom]) / (1 - ext[by_wom])
+        pos = np.searchsorted(cum, target, side="right")
+        referrer[adopters[by_wom]] = order[np.minimum(pos, k - 1)]
+    return time, referrer

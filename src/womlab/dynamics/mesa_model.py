@@ -1,0 +1,598 @@
+"""The Mesa model: one agent per organisation, the textbook per-agent form of the rules.
+
+This is the only module of womlab that imports Mesa, so that a change in Mesa's API
+touches one file. It mirrors the array engine (:mod:`womlab.dynamics.array_engine`) rule for rule —
+both call the formulas of :mod:`womlab.rules` — but decides one organisation at a time,
+the way the rules are usually written down:
+
+1. At the start of each step every potential customer sums what its neighbours put
+   into its Tᵢ (:func:`~womlab.rules.talk_weights`: the talkers of satisfied customers;
+   under ``cascade`` 1 for each neighbour satisfied within the last period) — read from
+   its neighbours on Mesa's network space — and, with the summed talkers of all its
+   neighbours (Dᵢ) and, under ``threshold``, its own threshold θᵢ
+   (:func:`~womlab.rules.draw_thresholds`, drawn at creation), gets its rate from
+   :func:`~womlab.rules.adoption_rate` and its step probability from
+   :func:`~womlab.rules.step_probability`.
+2. It draws its own uniform against that probability. An organisation that adopts
+   draws its cause: external with probability :func:`~womlab.rules.external_share`,
+   otherwise one satisfied-customer neighbour, chosen with probability proportional
+   to its talkers (a roulette wheel walked over its neighbours).
+3. Only when every potential customer has decided are the adoptions applied
+   (compute-then-apply, a synchronous update): each new customer draws whether it is
+   satisfied (:func:`~womlab.rules.draw_satisfied`) and, if so, starts talking in the
+   next step.
+
+The array engine instead draws one Exp(1) resistance per organisation and compares it
+with the summed step hazard; the two methods have the same per-step probabilities, and
+``tests/test_engines_agree.py`` holds their curves together statistically.
+
+A referral programme (``[referral]``, :mod:`womlab.dynamics.programme`) is run by the same
+:class:`~womlab.dynamics.programme.ProgrammeRun` as in the array engine, at the same two points:
+at the start of each step it says which talkers count (boosted for enrolled satisfied
+customers while it runs; each agent's ``counted``), and after the step's adoptions it
+pays for the step's attributed referrals.
+
+On the ``complete`` network no ties are materialised: organisations sit on an empty
+network space and every organisation's neighbourhood is all the others, so Tᵢ and Dᵢ
+come from model-level totals (the talk of all satisfied customers; all talkers but
+one's own).
+
+Randomness: every draw comes from one numpy stream, ``model.rng``, which is the
+dynamics stream handed in (or the run's dynamics stream from
+:func:`womlab.dynamics.streams`). Mesa's stdlib ``model.random`` is seeded from it but
+never used for a draw.
+
+Importing Mesa forces the multiprocessing start method to ``spawn`` (a side effect of
+``mesa.batchrunner``); this module puts the previous setting back, so that importing
+womlab changes nothing outside it.
+"""
+
+from __future__ import annotations
+
+import bisect
+import dataclasses
+import difflib
+import itertools
+import multiprocessing
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+import networkx as nx
+import numpy as np
+
+_start_method = multiprocessing.get_start_method(allow_none=True)
+import mesa  # noqa: E402
+from mesa.agent import AgentSet  # noqa: E402
+from mesa.discrete_space import FixedAgent, Network  # noqa: E402
+
+if multiprocessing.get_start_method(allow_none=True) != _start_method:  # undo mesa.batchrunner's import side effect
+    multiprocessing.set_start_method(_start_method, force=True)
+del _start_method
+
+from womlab import rules  # noqa: E402
+from womlab.dynamics.programme import start_programme  # noqa: E402
+from womlab.dynamics.run_result import RunResult  # noqa: E402
+from womlab.dynamics.streams import streams  # noqa: E402
+from womlab.errors import ScenarioError  # noqa: E402
+from womlab.networks import ReferralNetwork, build_network  # noqa: E402
+from womlab.scenario import SECTIONS, Scenario  # noqa: E402
+from womlab.seeding import initial_customers  # noqa: E402
+
+__all__ = ["ReferralModel", "Organisation", "run_mesa", "FLAT_PARAMETERS"]
+
+# these describe batches, studies and sweeps, not one model run
+_NOT_FLAT_SECTIONS = {"study", "sweep"}
+_NOT_FLAT = {("run", "replicates"), ("run", "engine"), ("run", "jobs")}
+
+
+def _flat_parameters() -> tuple[dict[str, str], dict[str, list[str]]]:
+    fields = [
+        (section, f.name)
+        for section, cls in SECTIONS.items()
+        if section not in _NOT_FLAT_SECTIONS
+        for f in dataclasses.fields(cls)
+        if (section, f.name) not in _NOT_FLAT
+    ]
+    flat = {"name": "name", "seed": "seed"}
+    flat.update({f"{section}_{name}": f"{section}.{name}" for section, name in fields})
+    owners: dict[str, list[str]] = {}
+    for section, name in fields:
+        owners.setdefault(name, []).append(f"{section}_{name}")
+    ambiguous = {name: spelled for name, spelled in owners.items() if len(spelled) > 1}
+    for section, name in fields:
+        if name not in ambiguous and name not in flat:
+            flat[name] = f"{section}.{name}"
+    return flat, ambiguous
+
+
+#: Flat keyword parameter of :class:`ReferralModel` → the dotted scenario field it sets.
+#: Every field is ``<section>_<field>`` (``adoption_word_of_mouth``); a field whose name
+#: is used by no other section is also its bare name (``word_of_mouth``).
+FLAT_PARAMETERS, _AMBIGUOUS = _flat_parameters()
+
+
+def _scenario_from_flat(scenario: Scenario | None, parameters: Mapping[str, Any]) -> Scenario:
+    """The scenario a model is built from: ``scenario`` (or the defaults) with the flat parameters set."""
+    for key in parameters:
+        if key in _AMBIGUOUS:
+            raise ScenarioError(
+                f"ReferralModel parameter {key!r} is a field of more than one section; "
+                f"give one of {', '.join(_AMBIGUOUS[key])}"
+            )
+        if key not in FLAT_PARAMETERS:
+            close = difflib.get_close_matches(key, list(FLAT_PARAMETERS), n=1)
+            hint = f"; did you mean {close[0]!r}?" if close else ""
+            raise ScenarioError(
+                f"unknown ReferralModel parameter {key!r}{hint} (known: {', '.join(sorted(FLAT_PARAMETERS))})"
+            )
+    if scenario is not None:
+        if not parameters:
+            return scenario
+        return scenario.replace({FLAT_PARAMETERS[k]: v for k, v in parameters.items()})
+    nested: dict[str, Any] = {}
+    for key, value in parameters.items():
+        dotted = FLAT_PARAMETERS[key]
+        if "." in dotted:
+            section, name = dotted.split(".")
+            nested.setdefault(section, {})[name] = value
+        else:
+            nested[dotted] = value
+    return Scenario.from_dict(nested)
+
+
+class Organisation(FixedAgent):
+    """One organisation, fixed to its cell of the referral network.
+
+    Attributes
+    ----------
+    organisation : int
+        Its id on the referral network, 0..N−1 (Mesa's ``unique_id`` is that plus one).
+    talkers : float
+        How many people there would talk about the product once it is a satisfied
+        customer, drawn at creation by :func:`womlab.rules.draw_talkers`.
+    customer : bool
+        Whether it is a customer.
+    satisfied : bool
+        Whether it is a satisfied customer (drawn at adoption).
+    threshold : float or None
+        Its own threshold θᵢ (``threshold`` rule only), drawn at creation by
+        :func:`womlab.rules.draw_thresholds`.
+    talk : float
+        What it puts into its neighbours' Tᵢ now (:func:`womlab.rules.talk_weights`):
+        ``talkers`` if a satisfied customer, else 0; under ``cascade`` 1 during the
+        period after it became a satisfied customer, else 0.
+    counted : float
+        The talkers that count this step: ``talk``, boosted while a referral programme
+        in which it is enrolled runs.
+    adoption_period : int
+        Period in which it became a customer (0 for initial customers), −1 if not yet.
+    referrer : int
+        Id of the satisfied customer whose word of mouth caused its adoption; −1 for
+        external influence, initial customers and potential customers.
+    neighbours : list of Organisation
+        Its neighbours on the network space (empty on the complete network, where
+        every other organisation is a neighbour and the model supplies totals).
+
+    Examples
+    --------
+    >>> from womlab.dynamics.mesa_model import ReferralModel
+    >>> model = ReferralModel(organisations=50, initial_customers=5, kind="ring", mean_degree=4)
+    >>> sorted(other.organisation for other in model.organisation(0).neighbours)
+    [1, 2, 48, 49]
+    >>> model.organisation(0).talkers
+    1.0
+    """
+
+    def __init__(self, model: ReferralModel, cell: Any, organisation: int) -> None:
+        super().__init__(model)
+        self.cell = cell
+        self.organisation = organisation
+        spec = model.scenario.adoption.talkers_per_customer
+        self.talkers = float(rules.draw_talkers(spec, 1, model.rng)[0])
+        adoption = model.scenario.adoption
+        self.threshold = (
+            float(rules.draw_thresholds(adoption.threshold, 1, model.rng)[0]) if adoption.rule == "threshold" else None
+        )
+        self.fresh_until = -1  # under cascade: the last step in which it counts as newly satisfied
+        self.customer = False
+        self.satisfied = False
+        self.talk = 0.0
+        self.counted = 0.0
+        self.adoption_period = -1
+        self.referrer = -1
+        self.neighbours: list[Organisation] = []
+        self.neighbour_talkers = 0.0
+        self.adopting = False
+        self._cause = -1
+
+    def meet_neighbours(self) -> None:
+        """Read its neighbours off the network space (once; the network does not change).
+
+        From the cell's ``connections``, not ``cell.neighborhood``: in Mesa 3.3 the latter
+        goes through a class-level cache that keeps every cell — and so every model —
+        alive for the life of the process.
+        """
+        self.neighbours = [agent for cell in self.cell.connections.values() for agent in cell.agents]
+        self.neighbour_talkers = float(sum(n.talkers for n in self.neighbours))
+
+    def decide(self) -> None:
+        """Compute phase: from the neighbours' state at the start of the step, draw whether to adopt."""
+        model = self.model
+        if model.complete:
+            talking = model.talk_total  # a potential customer's own talk is 0
+            total = model.talkers_total - self.talkers
+        else:
+            talking = 0.0
+            for other in self.neighbours:
+                talking += other.counted
+            total = self.neighbour_talkers
+        probability, external = model.chances(talking, total, self.threshold)
+        rng = model.rng
+        self.adopting = bool(rng.random() < probability)
+        if not self.adopting:
+            return
+        if rng.random() < external:
+            self._cause = -1
+            return
+        # word of mouth: a roulette wheel over the talking neighbours, slots sized by their talk
+        if model.complete:
+            speakers, cumulative = model.talking_now()
+            pick = bisect.bisect_right(cumulative, rng.random() * cumulative[-1])
+            self._cause = speakers[min(pick, len(speakers) - 1)].organisation
+            return
+        left = rng.random() * talking
+        for other in self.neighbours:
+            if other.counted > 0:
+                self._cause = other.organisation
+                left -= other.counted
+                if left < 0:
+                    break
+
+    def adopt(self, period: int) -> None:
+        """Apply phase: become a customer in ``period`` and draw whether satisfied."""
+        model = self.model
+        self.customer = True
+        self.adopting = False
+        self.adoption_period = period
+        self.referrer = self._cause
+        self.satisfied = bool(rules.draw_satisfied(model.scenario.adoption.satisfied_share, 1, model.rng)[0])
+        self.fresh_until = model.step_count + model.steps_per_period  # newly satisfied for one period
+        self.talk = self.counted = model.talk_weight(self)
+
+
+class ReferralModel(mesa.Model):
+    """Word-of-mouth adoption on a referral network, one Mesa agent per organisation.
+
+    Each call to :meth:`step` is one step of length ``run.time_step``: every potential
+    customer decides from its neighbours' state at the start of the step, then all
+    adoptions are applied at once (see :mod:`womlab.dynamics.mesa_model`). With ``time_step`` = 1/n
+    there are n steps per period, and an organisation adopting in step s gets the
+    adoption period ⌈s / n⌉.
+
+    Parameters
+    ----------
+    scenario : Scenario, optional
+        The scenario to run; defaults to womlab's defaults. Only its ``market``,
+        ``network``, ``adoption`` and ``run`` (periods, time_step, step_probability)
+        sections are used.
+    network : ReferralNetwork or networkx.Graph, optional
+        The referral network. A networkx graph (nodes 0..N−1 or any sortable labels,
+        optional integer ``region`` attribute) is read, never changed. By default the
+        network is built from the run's network stream, exactly as :func:`womlab.run_one`
+        builds it.
+    initial : sequence of int, optional
+        Ids of the customers at period 0; by default drawn from the run's seeding
+        stream, as :func:`womlab.run_one` draws them.
+    rng : numpy.random.Generator or int, optional
+        The dynamics stream (an int seeds a new Generator); by default the run's
+        dynamics stream. Every draw of the model comes from it.
+    replicate : int
+        The replicate whose streams (``SeedSequence(seed, spawn_key=(replicate,))``)
+        supply the defaults above, so ``ReferralModel(..., replicate=r)`` is replicate
+        r of :func:`womlab.run_replicates` with ``engine = "mesa"``. Give Mesa's batch
+        runner ``"replicate": range(R)`` for R different replicates (its
+        ``iterations`` repeat the same seeded run).
+    **parameters
+        Flat scenario fields, for Mesa's batch runner: each name in
+        :data:`FLAT_PARAMETERS` sets one dotted field. Every field of a section that
+        describes one run is ``<section>_<field>`` (``adoption_word_of_mouth``), and
+        also its bare name where no other section uses that name — ``name``, ``seed``;
+        market: ``organisations``, ``initial_customers``, ``initial_share``,
+        ``regions``; network: ``kind``, ``mean_degree``, ``rewiring``,
+        ``within_region_share``, ``path``, ``nodes_path``; adoption: ``rule``,
+        ``external``, ``word_of_mouth``, ``satisfied_share``, ``talkers_per_customer``,
+        ``cap``, ``threshold``; run: ``periods``, ``time_step``, ``step_probability``;
+        and the ``seeding`` and ``referral`` fields (``seeding_strategy`` and
+        ``referral_strategy``, ``seeding_budget`` and ``referral_budget``: names two
+        sections share are given with their section). ``run.replicates``,
+        ``run.engine``, ``run.jobs`` and the ``study`` and ``sweep`` sections describe
+        batches, not one run, and are not parameters. Without ``scenario`` the
+        parameters build ``Scenario.from_dict`` of the nested sections; with
+        ``scenario`` they are applied by ``Scenario.replace``. Either way the result
+        is validated.
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The scenario as run.
+    network : ReferralNetwork
+        The referral network as arrays.
+    space : mesa.discrete_space.Network
+        Mesa's network space, one cell per organisation (no ties on the complete network).
+    datacollector : mesa.DataCollector
+        One row per step (row 0: the seeded state): ``step``, ``period``, ``time``,
+        ``customers``, ``new_customers`` (in that step), ``satisfied_customers``.
+    running : bool
+        Turns False on the first :meth:`step` past the horizon, so that Mesa's batch
+        runner (which reports the collector's row ``model.steps − 1``) reports the
+        state at the horizon.
+
+    Raises
+    ------
+    ScenarioError
+        For an unknown flat parameter (with a did-you-mean), an invalid value, or
+        initial customers that are not distinct ids of the network.
+
+    Notes
+    -----
+    Mesa 3.3 keeps a reference to every model it has numbered agents for
+    (``mesa.Agent._ids``), so a model built by hand lives until the process ends;
+    :func:`run_mesa`, which the batches use, drops that reference after each run.
+
+    Examples
+    --------
+    >>> from womlab.dynamics.mesa_model import ReferralModel
+    >>> model = ReferralModel(organisations=200, initial_customers=4, kind="random", mean_degree=6, periods=10)
+    >>> model.run_model()
+    >>> table = model.datacollector.get_model_vars_dataframe()
+    >>> len(table), int(table["customers"].iloc[-1]) == int(model.result().customers[-1])
+    (11, True)
+
+    With Mesa's own batch runner::
+
+        import mesa
+        rows = mesa.batch_run(ReferralModel, parameters={"organisations": 200, "kind": "random",
+                              "word_of_mouth": [0.2, 0.4], "replicate": range(10)},
+                              number_processes=1, display_progress=False)
+    """
+
+    def __init__(
+        self,
+        scenario: Scenario | None = None,
+        *,
+        network: ReferralNetwork | nx.Graph | None = None,
+        initial: Sequence[int] | np.ndarray | None = None,
+        rng: np.random.Generator | int | None = None,
+        replicate: int = 0,
+        **parameters: Any,
+    ) -> None:
+        scenario = _scenario_from_flat(scenario, parameters)
+        st = streams(scenario.seed, (replicate,))
+        if network is None:
+            network = build_network(scenario, np.random.default_rng(st.network))
+        elif isinstance(network, nx.Graph):
+            network = ReferralNetwork.from_networkx(network)
+        if initial is None:
+            initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
+        initial = np.asarray(initial, dtype=np.int64).ravel()
+        if initial.size and (initial.min() < 0 or initial.max() >= network.n or np.unique(initial).size != initial.size):
+            raise ScenarioError(
+                f"initial customers must be distinct organisation ids in 0..{network.n - 1}, got {initial.tolist()[:10]}"
+            )
+        if rng is None:
+            rng = np.random.default_rng(st.dynamics)
+        elif not isinstance(rng, np.random.Generator):
+            rng = np.random.default_rng(rng)
+        super().__init__(rng=rng)  # model.rng is the dynamics stream itself
+        # None without a programme; enrolment has its own stream, model.rng is not advanced
+        self.programme = start_programme(scenario, network, self.rng)
+
+        self.scenario = scenario
+        self.network = network
+        self.complete = network.complete
+        run = scenario.run
+        self.time_step = run.time_step
+        self.steps_per_period = run.steps_per_period
+        self.horizon_steps = run.periods * run.steps_per_period
+        self.step_count = 0
+        self.period = 0
+        self._chances: dict[tuple[float, float], tuple[float, float]] = {}
+
+        graph = nx.empty_graph(network.n) if network.complete else _graph_of(network)
+        self.space = Network(graph, random=self.random)
+        cells = [self.space[i] for i in range(network.n)]
+        organisations = [Organisation(self, cells[i], i) for i in range(network.n)]
+        self._by_id = organisations
+        for agent in organisations:
+            agent.meet_neighbours()
+        self.talkers_total = float(sum(a.talkers for a in organisations))
+
+        for i in initial.tolist():
+            organisations[i].adopt(0)
+        self.initial = np.sort(initial).astype(np.int32)
+        self.potential = AgentSet([a for a in organisations if not a.customer], random=self.random)
+        self.customers = int(initial.size)
+        self.new_customers = int(initial.size)
+        self.satisfied_customers = sum(1 for i in initial.tolist() if organisations[i].satisfied)
+        self.talk_total = 0.0
+        self._talking_now: tuple[list[Organisation], list[float]] | None = None
+
+        self.datacollector = mesa.DataCollector(
+            model_reporters={
+                "step": "step_count",
+                "period": "period",
+                "time": lambda m: m.step_count * m.time_step,
+                "customers": "customers",
+                "new_customers": "new_customers",
+                "satisfied_customers": "satisfied_customers",
+            }
+        )
+        self.datacollector.collect(self)
+
+    # ------------------------------------------------------------------ helpers
+    def organisation(self, organisation: int) -> Organisation:
+        """The agent of organisation ``organisation`` (0..N−1)."""
+        return self._by_id[organisation]
+
+    def chances(self, talking: float, total: float, threshold: float | None = None) -> tuple[float, float]:
+        """Step probability and external share for a potential customer with T = ``talking``, D = ``total``.
+
+        Straight from :mod:`womlab.rules`; remembered per (T, D) — the formulas are pure
+        functions and most organisations share a few values — except under
+        ``threshold``, where each organisation's own θᵢ enters.
+        """
+        key = (talking, total)
+        found = self._chances.get(key) if threshold is None else None
+        if found is None:
+            adoption, run = self.scenario.adoption, self.scenario.run
+            t, d = np.array([talking]), np.array([total])
+            theta = None if threshold is None else np.array([threshold])
+            rate = rules.adoption_rate(adoption.rule, t, d, adoption, theta)
+            probability = float(rules.step_probability(rate, run.time_step, run.step_probability)[0])
+            external = float(rules.external_share(adoption.rule, t, d, adoption, theta)[0])
+            found = (probability, external)
+            if threshold is None:
+                self._chances[key] = found
+        return found
+
+    def talk_weight(self, agent: Organisation) -> float:
+        """What ``agent`` puts into its neighbours' Tᵢ in the coming step (:func:`womlab.rules.talk_weights`)."""
+        weight = rules.talk_weights(
+            self.scenario.adoption.rule,
+            np.array([agent.talkers], dtype=np.float32),
+            np.array([agent.customer and agent.satisfied]),
+            np.array([agent.fresh_until >= self.step_count + 1]),
+        )
+        return float(weight[0])
+
+    def _refresh_cascade_talk(self) -> None:
+        """``cascade``: a customer counts in its neighbours' Tᵢ only for the period after it became satisfied."""
+        for agent in self.agents.select(lambda a: a.talk > 0 and a.fresh_until < self.step_count):
+            agent.talk = agent.counted = 0.0
+
+    def talking_now(self) -> tuple[list[Organisation], list[float]]:
+        """Complete network: every organisation whose talk counts now, and the running sum of it."""
+        if self._talking_now is None:
+            speakers = list(self.agents.select(lambda a: a.counted > 0))
+            self._talking_now = (speakers, list(itertools.accumulate(a.counted for a in speakers)))
+        return self._talking_now
+
+    def _count_talk(self) -> None:
+        """Programme: set every agent's ``counted`` talkers for this step."""
+        agents = self._by_id
+        talk = np.array([a.talk for a in agents], dtype=np.float32)
+        talking_customer = np.array([a.customer and a.satisfied for a in agents], dtype=bool)
+        counted = self.programme.talk(talk, talking_customer, self.period)
+        for agent, value in zip(agents, counted.tolist()):
+            agent.counted = value
+
+    # ------------------------------------------------------------------ dynamics
+    def step(self) -> None:
+        """One step: every potential customer decides, then every adoption is applied."""
+        if self.step_count >= self.horizon_steps:
+            self.running = False
+            return
+        self.step_count += 1
+        self.period = -(-self.step_count // self.steps_per_period)
+        if self.scenario.adoption.rule == "cascade":
+            self._refresh_cascade_talk()
+        if self.programme is not None:
+            self._count_talk()
+        if self.complete:
+            self.talk_total = float(self.agents.agg("counted", sum))
+            self._talking_now = None
+        self.potential.do("decide")
+        adopters = self.potential.select(lambda a: a.adopting)
+        adopters.do("adopt", self.period)
+        if self.programme is not None:  # pay for this step's attributed referrals (ids ascending)
+            referred = [a for a in adopters if a.referrer >= 0]
+            self.programme.settle(
+                self.period,
+                np.array([a.organisation for a in referred], dtype=np.int64),
+                np.array([a.referrer for a in referred], dtype=np.int64),
+            )
+        for agent in adopters:
+            self.potential.remove(agent)
+        self.new_customers = len(adopters)
+        self.customers += self.new_customers
+        self.satisfied_customers += sum(1 for a in adopters if a.satisfied)
+        self.datacollector.collect(self)
+
+    def result(self) -> RunResult:
+        """The run so far as a :class:`~womlab.dynamics.RunResult` (the same object the array engine returns).
+
+        Per-organisation vectors are read off the agents; ``periods`` is the
+        scenario's horizon.
+        """
+        agents = self._by_id
+        customer = np.array([a.customer for a in agents], dtype=bool)
+        return RunResult(
+            periods=self.scenario.run.periods,
+            adoption_period=np.array([a.adoption_period for a in agents], dtype=np.int32),
+            referrer=np.array([a.referrer for a in agents], dtype=np.int32),
+            satisfied=customer & np.array([a.satisfied for a in agents], dtype=bool),
+            region=np.asarray(self.network.region, dtype=np.int32).copy(),
+            initial=self.initial.copy(),
+            engine="mesa",
+            extra={} if self.programme is None else self.programme.record(),
+        )
+
+
+def _graph_of(network: ReferralNetwork) -> nx.Graph:
+    """A fresh networkx graph of the network's ties, for Mesa's network space."""
+    graph = nx.empty_graph(network.n)
+    rows = np.repeat(np.arange(network.n), np.diff(network.indptr))
+    upper = rows < network.indices
+    graph.add_edges_from(zip(rows[upper].tolist(), network.indices[upper].tolist()))
+    return graph
+
+
+def run_mesa(
+    scenario: Scenario, network: ReferralNetwork, initial: np.ndarray, rng: np.random.Generator
+) -> RunResult:
+    """One run of the scenario on the Mesa model: the ``"mesa"`` engine of :data:`womlab.dynamics.ENGINES`.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        Supplies the adoption rule and the run's horizon, step and step form.
+    network : ReferralNetwork
+        The referral network (read, never changed).
+    initial : numpy.ndarray
+        Ids of the customers at period 0.
+    rng : numpy.random.Generator
+        The dynamics stream; every draw of the run comes from it.
+
+    Returns
+    -------
+    RunResult
+        The same object as :func:`womlab.dynamics.array_engine.run_array` returns.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from womlab import Scenario, build_network
+    >>> from womlab.dynamics.mesa_model import run_mesa
+    >>> s = Scenario.from_dict({"market": {"organisations": 100}, "network": {"kind": "ring", "mean_degree": 4},
+    ...                         "run": {"periods": 5}})
+    >>> net = build_network(s, np.random.default_rng(1))
+    >>> run_mesa(s, net, np.array([0, 50]), np.random.default_rng(2)).customers.shape
+    (6,)
+    """
+    model = ReferralModel(scenario, network=network, initial=initial, rng=rng)
+    model.run_model()
+    result = model.result()
+    _forget(model)
+    return result
+
+
+def _forget(model: mesa.Model) -> None:
+    """Drop Mesa's class-level reference to a finished model, so that it can be freed.
+
+    Mesa 3.3 numbers agents per model in ``mesa.Agent._ids``, a dict keyed by the model
+    itself, and never removes the entry: without this every model of a batch — and all
+    its agents — would stay in memory until the worker exits.
+    """
+    ids = getattr(mesa.Agent, "_ids", None)
+    if isinstance(ids, dict):
+        ids.pop(model, None)

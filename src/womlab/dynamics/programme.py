@@ -1,0 +1,201 @@
+"""Referral programmes inside a run: who is enrolled, what the programme does to word of mouth, what it pays.
+
+A programme (the ``[referral]`` section, :class:`~womlab.scenario.Referral`) enrols
+organisations, boosts the word of mouth of enrolled satisfied customers while it runs,
+and pays for every successful referral — an adoption in the programme's window that the
+engine attributes to an enrolled referrer — until its budget is spent. Engines hold one
+:class:`ProgrammeRun` per run and call it at two points of each step:
+:meth:`ProgrammeRun.talk` (the talkers that count this step) and
+:meth:`ProgrammeRun.settle` (pay for this step's attributed referrals). Keeping the
+rules here means every engine runs the same programme. What a programme returns (its
+economics against a baseline) is a study: :mod:`womlab.studies.programme`.
+
+Randomness. Enrolment (``share``, or a strategy's tie-breaking) draws from its own
+stream: a SeedSequence with the run's dynamics entropy and spawn key extended by
+:data:`ENROLMENT_STREAM`. It is built without consuming or spawning from the dynamics
+stream, so a programme run sees exactly the dynamics draws of its baseline — whatever
+order an engine makes them in — and two programme variants on one replicate enrol the
+same organisations (common random numbers). A programme with ``talk_multiplier = 1``,
+no extra talkers and no payments therefore reproduces its baseline exactly.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from womlab.networks import ReferralNetwork
+from womlab.scenario import Referral, Scenario
+from womlab.seeding import choose_seeds
+
+__all__ = [
+    "ENROLMENT_STREAM",
+    "PROGRAMME_ENGINES",
+    "ProgrammeRun",
+    "enrolment_rng",
+    "enrolled_organisations",
+    "start_programme",
+]
+
+#: Extra spawn-key word of the enrolment stream ("REFR" in ASCII): far above any child
+#: index that spawning from the dynamics stream would ever produce.
+ENROLMENT_STREAM = 0x52454652
+
+#: Engines that apply a referral programme inside their step loop.
+PROGRAMME_ENGINES = ("array", "mesa")
+
+
+def enrolment_rng(rng: np.random.Generator) -> np.random.Generator:
+    """The enrolment stream of a run whose dynamics stream is ``rng``.
+
+    Derived from ``rng``'s SeedSequence (entropy and spawn key, extended by
+    :data:`ENROLMENT_STREAM`); ``rng`` itself is neither advanced nor spawned from.
+    """
+    seq = rng.bit_generator.seed_seq
+    if not isinstance(seq, np.random.SeedSequence):
+        raise TypeError("the dynamics generator must be seeded from a numpy SeedSequence")
+    child = np.random.SeedSequence(seq.entropy, spawn_key=(*seq.spawn_key, ENROLMENT_STREAM), pool_size=seq.pool_size)
+    return np.random.default_rng(child)
+
+
+def enrolled_organisations(
+    referral: Referral, network: ReferralNetwork, rng: np.random.Generator, *, scenario: Scenario | None = None
+) -> np.ndarray:
+    """Which organisations the programme enrols (bool per organisation).
+
+    ``all``: everyone; ``share``: each independently with probability ``enrol_share``;
+    ``strategy``: the ``enrol_count`` organisations chosen by
+    :func:`womlab.seeding.choose_seeds` (with ``scenario`` supplying the strategy's options
+    from ``[seeding]``, which ``greedy`` needs); ``none``: nobody. ``rng`` is the enrolment stream.
+    """
+    n = network.n
+    if referral.enrol == "all":
+        return np.ones(n, dtype=bool)
+    if referral.enrol == "share":
+        return rng.random(n) < referral.enrol_share
+    if referral.enrol == "strategy":
+        out = np.zeros(n, dtype=bool)
+        out[choose_seeds(referral.strategy, network, referral.enrol_count, rng, scenario=scenario)] = True
+        return out
+    return np.zeros(n, dtype=bool)
+
+
+class ProgrammeRun:
+    """A programme's state during one run: enrolment, window, payments and budget.
+
+    Parameters
+    ----------
+    referral : Referral
+    enrolled : numpy.ndarray
+        bool per organisation.
+    periods : int
+        The run's horizon T.
+
+    Notes
+    -----
+    Payments. A successful referral is an adoption in a period of the window
+    [``start``, ``end``] whose referrer is enrolled. Within a step, referrals are paid in
+    order of the referred organisation's id. Each costs ``referred_reward``, plus
+    ``reward`` under ``linear``/``both``, plus ``bonus`` under ``bonus``/``both`` when it
+    is the referrer's ``bonus_threshold``-th paid referral. A payment is made whole or not
+    at all: the first one that would take the total past ``budget`` is refused, and from
+    then on nothing is paid and the boost stops (from the next step). The boost also
+    stops once the total reaches the budget exactly.
+    """
+
+    def __init__(self, referral: Referral, enrolled: np.ndarray, periods: int) -> None:
+        self.referral = referral
+        self.enrolled = np.asarray(enrolled, dtype=bool)
+        self.start = referral.start
+        self.end = referral.last_period(periods)
+        n = self.enrolled.size
+        self.budget = np.inf if referral.budget is None else float(referral.budget)
+        self.cost = np.zeros(periods + 1)  # undiscounted payments per period
+        self.paid = np.zeros(periods + 1, dtype=np.int64)  # paid referrals per period
+        self.paid_by = np.zeros(n, dtype=np.int64)  # paid referrals per referrer
+        self.rewarded = np.zeros(n, dtype=bool)  # adoption was a paid referral
+        self.spent = 0.0
+        self.exhausted_period = -1  # period in which the budget ran out, −1 if never
+        linear = referral.scheme in ("linear", "both")
+        self._per_referral = referral.referred_reward + (referral.reward if linear else 0.0)
+        self._bonus = referral.bonus if referral.scheme in ("bonus", "both") else 0.0
+        self._m = np.float32(referral.talk_multiplier)
+        self._extra = np.float32(referral.extra_talkers)
+
+    @property
+    def exhausted(self) -> bool:
+        return self.exhausted_period >= 0
+
+    def running(self, period: int) -> bool:
+        """Whether the boost applies in ``period``: inside the window, budget not spent."""
+        return self.start <= period <= self.end and not self.exhausted
+
+    def talk(self, talk: np.ndarray, talking_customer: np.ndarray, period: int) -> np.ndarray:
+        """Talkers that count this step: boosted for enrolled satisfied customers while running.
+
+        ``talk`` is the engine's talkers per organisation (0 for non-talkers);
+        ``talking_customer`` marks the satisfied customers. Outside the window, or once the
+        budget is spent, ``talk`` itself is returned. With multiplier 1 and no extra
+        talkers the values are ``talk``'s, bit for bit.
+        """
+        if not self.running(period):
+            return talk
+        boost = self.enrolled & talking_customer
+        return np.where(boost, self._m * talk + self._extra, talk).astype(talk.dtype, copy=False)
+
+    def settle(self, period: int, adopters: np.ndarray, referrers: np.ndarray) -> None:
+        """Pay for the step's word-of-mouth adoptions ``adopters`` attributed to ``referrers``."""
+        if self.exhausted or not self.start <= period <= self.end or adopters.size == 0:
+            return
+        adopters = np.asarray(adopters)
+        referrers = np.asarray(referrers)
+        order = np.argsort(adopters, kind="stable")
+        adopters, referrers = adopters[order], referrers[order]
+        keep = self.enrolled[referrers]
+        adopters, referrers = adopters[keep], referrers[keep]
+        if adopters.size == 0:
+            return
+        cost = np.full(adopters.size, self._per_referral)
+        if self._bonus:
+            # ordinal of each referral among its referrer's paid referrals (adopter-id order)
+            by_ref = np.argsort(referrers, kind="stable")
+            r_sorted = referrers[by_ref]
+            first = np.r_[0, np.flatnonzero(np.diff(r_sorted)) + 1]
+            runs = np.diff(np.r_[first, r_sorted.size])
+            within = np.arange(r_sorted.size) - np.repeat(first, runs)
+            ordinal = np.empty(adopters.size, dtype=np.int64)
+            ordinal[by_ref] = self.paid_by[r_sorted] + within + 1
+            cost += np.where(ordinal == self.referral.bonus_threshold, self._bonus, 0.0)
+        total = self.spent + np.cumsum(cost)
+        fits = total <= self.budget
+        k = adopters.size if fits.all() else int(np.argmin(fits))  # payments made: a prefix
+        if k:
+            self.spent = float(total[k - 1])
+            self.cost[period] += float(cost[:k].sum())
+            self.paid[period] += k
+            np.add.at(self.paid_by, referrers[:k], 1)
+            self.rewarded[adopters[:k]] = True
+        if k < adopters.size or self.spent >= self.budget:
+            self.exhausted_period = period
+
+    def record(self) -> dict:
+        """The run's programme outcome, for :attr:`RunResult.extra`."""
+        return {
+            "programme_cost": self.cost.copy(),
+            "programme_paid_referrals": self.paid.copy(),
+            "enrolled": self.enrolled.copy(),
+            "rewarded": self.rewarded.copy(),
+            "budget_exhausted_period": int(self.exhausted_period),
+        }
+
+
+def start_programme(scenario: Scenario, network: ReferralNetwork, rng: np.random.Generator) -> ProgrammeRun | None:
+    """The programme of a run whose dynamics stream is ``rng``, or None without one.
+
+    Draws enrolment from :func:`enrolment_rng` (``rng`` is not advanced).
+    """
+    referral = scenario.referral
+    if not referral.active:
+        return None
+    enrolled = enrolled_organisations(referral, network, enrolment_rng(rng), scenario=scenario)
+    return ProgrammeRun(referral, enrolled, scenario.run.periods)
+

@@ -1,0 +1,55 @@
+"""The networks layer: referral networks built into arrays, edge lists, regions.
+
+Knows the scenario (below) and nothing of seeding, dynamics or studies (above).
+``network`` holds :class:`ReferralNetwork` and :func:`from_edges`; ``builders`` one
+function per kind (built straight into arrays, each with its networkx reference form);
+``edgelist`` the CSV reader; ``build`` the dispatch from a scenario's ``[network]``.
+"""
+
+from __future__ import annotations
+
+from womlab.networks.build import BUILDERS, build_network
+from womlab.networks.builders import (
+    complete,
+    networkx_random,
+    networkx_regional,
+    networkx_regular,
+    networkx_ring,
+    networkx_scale_free,
+    networkx_small_world,
+    random,
+    regional,
+    regular,
+    ring,
+    scale_free,
+    small_world,
+)
+from womlab.networks.edgelist import count_edgelist_organisations, edgelist_facts, read_edgelist
+from womlab.networks.network import ReferralNetwork, balanced_regions, from_edges
+from womlab.scenario.registry import register_edgelist_reader
+
+register_edgelist_reader(edgelist_facts)
+
+__all__ = [
+    "ReferralNetwork",
+    "BUILDERS",
+    "build_network",
+    "from_edges",
+    "complete",
+    "ring",
+    "regular",
+    "random",
+    "small_world",
+    "regional",
+    "scale_free",
+    "read_edgelist",
+    "count_edgelist_organisations",
+    "edgelist_facts",
+    "balanced_regions",
+    "networkx_ring",
+    "networkx_regular",
+    "networkx_random",
+    "networkx_small_world",
+    "networkx_regional",
+    "networkx_scale_free",
+]

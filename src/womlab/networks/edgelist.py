@@ -1,0 +1,125 @@
+"""Edge lists: a CSV of ties (``source,target``) and an optional node file (``id,region``).
+
+Organisation ids are mapped to 0..N−1 and kept as labels. The reader is registered with
+the scenario layer (:func:`womlab.scenario.registry.register_edgelist_reader`) so that a
+scenario takes its market size and mean degree from the file.
+"""
+
+from __future__ import annotations
+
+import warnings
+from functools import lru_cache
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from womlab.errors import NetworkError
+from womlab.networks.network import ReferralNetwork, from_edges
+
+__all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts"]
+
+
+def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.DataFrame:
+    try:
+        table = pd.read_csv(path, dtype=str, skipinitialspace=True)
+    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
+        raise NetworkError(f"network.{what}: cannot read {str(path)!r}: {exc}") from None
+    table.columns = [c.strip() for c in table.columns]
+    missing = [c for c in columns if c not in table.columns]
+    if missing:
+        raise NetworkError(
+            f"network.{what}: {str(path)!r} must have columns {', '.join(columns)}; "
+            f"missing {', '.join(missing)} (found {', '.join(table.columns)})"
+        )
+    if table[list(columns)].isna().any().any():
+        raise NetworkError(f"network.{what}: {str(path)!r} has empty cells in {', '.join(columns)}")
+    return table
+
+
+def _sorted_ids(values: np.ndarray) -> np.ndarray:
+    """Unique ids, in numeric order when every id is a whole number, else text order."""
+    unique = pd.unique(values)
+    try:
+        as_int = np.array([int(v) for v in unique])
+        return unique[np.argsort(as_int, kind="stable")]
+    except ValueError:
+        return np.sort(unique)
+
+
+def read_edgelist(path: str | Path, nodes_path: str | Path | None = None) -> ReferralNetwork:
+    """Read a CSV edge list (``source,target``) and an optional node file (``id,region``).
+
+    Organisation ids are mapped to 0..N−1 (node-file order when a node file is given,
+    else ascending id); the original ids are kept in ``labels``. Self-loops and duplicate
+    ties are dropped with a warning that counts them. Regions are coded 0..R−1 in
+    ascending order of the region values; without a node file everyone is in region 0.
+
+    Raises
+    ------
+    NetworkError
+        If a file cannot be read, lacks a column, or a tie names an id the node file lacks.
+    """
+    ties = _read_table(path, ("source", "target"), "path")
+    src = ties["source"].str.strip().to_numpy()
+    dst = ties["target"].str.strip().to_numpy()
+    if nodes_path is not None:
+        nodes = _read_table(nodes_path, ("id", "region"), "nodes_path")
+        ids = nodes["id"].str.strip().to_numpy()
+        if len(pd.unique(ids)) != len(ids):
+            raise NetworkError(f"network.nodes_path: {str(nodes_path)!r} lists some id more than once")
+        region_values = nodes["region"].str.strip().to_numpy()
+    else:
+        ids = _sorted_ids(np.concatenate([src, dst]))
+        region_values = None
+    position = pd.Index(ids)
+    s = position.get_indexer(src)
+    t = position.get_indexer(dst)
+    if (s < 0).any() or (t < 0).any():
+        bad = np.concatenate([src[s < 0], dst[t < 0]])[:5]
+        raise NetworkError(
+            f"network.path: ties name ids missing from network.nodes_path, e.g. {', '.join(map(str, bad))}"
+        )
+    loops = s == t
+    lo, hi = np.minimum(s, t)[~loops], np.maximum(s, t)[~loops]
+    pairs = np.unique(np.stack([lo, hi], axis=1), axis=0) if lo.size else np.zeros((0, 2), dtype=np.int64)
+    duplicates = int(lo.size - pairs.shape[0])
+    if loops.any() or duplicates:
+        warnings.warn(
+            f"{path}: dropped {int(loops.sum())} self-loop(s) and {duplicates} duplicate tie(s)",
+            stacklevel=2,
+        )
+    n = len(ids)
+    if region_values is None:
+        region = np.zeros(n, dtype=np.int32)
+    else:
+        region = pd.Index(_sorted_ids(region_values)).get_indexer(region_values).astype(np.int32)
+    return from_edges(n, pairs[:, 0], pairs[:, 1], region, "edgelist", labels=np.asarray(ids))
+
+
+def count_edgelist_organisations(path: str | Path, nodes_path: str | Path | None = None) -> int:
+    """Number of organisations an edge list (and node file) defines."""
+    if nodes_path is not None:
+        return len(_read_table(nodes_path, ("id", "region"), "nodes_path"))
+    ties = _read_table(path, ("source", "target"), "path")
+    return len(pd.unique(np.concatenate([ties["source"].str.strip().to_numpy(), ties["target"].str.strip().to_numpy()])))
+
+
+
+def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float]:
+    """Organisations and mean degree (2·ties / organisations) of an edge list, as :func:`read_edgelist` reads it.
+
+    Remembered per file path, size and modification time, so that a scenario changed many
+    times (a sweep's points) reads its edge list once.
+    """
+    stamp = tuple((p, Path(p).stat().st_size, Path(p).stat().st_mtime_ns) if p is not None else None
+                  for p in (path, nodes_path))
+    return _facts(*stamp)
+
+
+@lru_cache(maxsize=32)
+def _facts(edges: tuple, nodes: tuple | None) -> tuple[int, float]:
+    with warnings.catch_warnings():  # dropped loops and duplicates are reported when the network is built
+        warnings.simplefilter("ignore")
+        network = read_edgelist(edges[0], None if nodes is None else nodes[0])
+    return network.n, (2.0 * network.ties / network.n if network.n else 0.0)

@@ -1,0 +1,50 @@
+"""The results layer: what studies return, written to files and drawn.
+
+Knows the studies and everything below them, and runs nothing: it turns a batch, a
+comparison, a seeding or programme study, or a sweep's folder into CSV tables, figures
+(matplotlib ``Figure`` objects, never pyplot state), manifests and the report page.
+``figures`` draws, ``save`` writes each study's results folder, ``report`` summarises a
+sweep's folder into ``report.html``.
+
+Importing this package registers, with :mod:`womlab.studies.presenting`, how a study's
+result draws and saves itself (``Comparison.figure()``, ``Comparison.save()``, the report
+a sweep writes at its end), so those methods work without the studies importing this
+layer.
+"""
+
+from __future__ import annotations
+
+from womlab.results.figures import (
+    adoption_figure,
+    comparison_figure,
+    network_snapshot_figure,
+    programme_figure,
+    referral_tree_figure,
+    seeding_figure,
+)
+from womlab.results.report import sensitivity_table, sweep_figures, sweep_summary, write_report
+from womlab.results.save import save_batch, save_comparison, save_programme, save_seeding_study
+from womlab.studies.compare import Comparison
+from womlab.studies.presenting import register
+from womlab.studies.sweep import SweepSummary
+
+register(Comparison, "figure", comparison_figure)
+register(Comparison, "save", save_comparison)
+register(SweepSummary, "report", lambda summary: write_report(summary.out))
+
+__all__ = [
+    "adoption_figure",
+    "comparison_figure",
+    "network_snapshot_figure",
+    "programme_figure",
+    "referral_tree_figure",
+    "seeding_figure",
+    "save_batch",
+    "save_comparison",
+    "save_programme",
+    "save_seeding_study",
+    "sweep_summary",
+    "sensitivity_table",
+    "sweep_figures",
+    "write_report",
+]

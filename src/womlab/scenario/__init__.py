@@ -1,0 +1,65 @@
+"""The scenario layer: every parameter of a study, as frozen, validated dataclasses.
+
+The lowest layer of womlab: it imports nothing of womlab but :mod:`womlab.errors`.
+``sections`` holds the sections, ``sweep_spec`` the ``[sweep]`` section, ``tree`` the
+:class:`Scenario` itself (loading, ``replace``), ``checks`` the shared validation wording,
+and ``registry`` what the layers above hand down (strategy names, the edge-list reader).
+See :mod:`womlab.scenario.tree` for the file format.
+"""
+
+from __future__ import annotations
+
+from womlab.scenario.sections import (
+    CLOCKS,
+    CONTINUOUS_RULES,
+    ENGINES,
+    ENROLMENTS,
+    NETWORK_KINDS,
+    REWARD_SCHEMES,
+    RULES,
+    STEP_FORMS,
+    STUDY_OUTCOMES,
+    TALKER_DISTRIBUTIONS,
+    THRESHOLD_DISTRIBUTIONS,
+    Adoption,
+    Market,
+    NetworkSpec,
+    Referral,
+    RunSpec,
+    Seeding,
+    Study,
+    Talkers,
+    Thresholds,
+)
+from womlab.scenario.sweep_spec import SWEEP_DESIGNS, Axis, SweepSpec
+from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario
+
+__all__ = [
+    "Market",
+    "NetworkSpec",
+    "Talkers",
+    "Thresholds",
+    "Adoption",
+    "RunSpec",
+    "Seeding",
+    "Study",
+    "Axis",
+    "SweepSpec",
+    "Referral",
+    "Scenario",
+    "SECTIONS",
+    "field_type",
+    "load_scenario",
+    "NETWORK_KINDS",
+    "RULES",
+    "STEP_FORMS",
+    "ENGINES",
+    "CLOCKS",
+    "CONTINUOUS_RULES",
+    "STUDY_OUTCOMES",
+    "TALKER_DISTRIBUTIONS",
+    "THRESHOLD_DISTRIBUTIONS",
+    "ENROLMENTS",
+    "REWARD_SCHEMES",
+    "SWEEP_DESIGNS",
+]

@@ -1,0 +1,579 @@
+"""The sections of a scenario: market, network, adoption, run, seeding, study, referral.
+
+Each section is a frozen, keyword-only dataclass with a ``section`` class variable and a
+``check(self, scenario)`` method that raises :class:`~womlab.errors.ScenarioError` naming
+the dotted field. Names of things registered by the layers above (seeding strategies)
+are validated against :mod:`womlab.scenario.registry`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import ClassVar, Protocol
+
+from womlab.errors import ScenarioError
+from womlab.scenario.checks import fail, in_unit, non_negative, one_of, positive_int
+from womlab.scenario.registry import strategy_names
+
+__all__ = [
+    "Market",
+    "NetworkSpec",
+    "Talkers",
+    "Thresholds",
+    "Adoption",
+    "RunSpec",
+    "Seeding",
+    "Study",
+    "Referral",
+    "ScenarioParts",
+    "NETWORK_KINDS",
+    "RULES",
+    "STEP_FORMS",
+    "ENGINES",
+    "CLOCKS",
+    "CONTINUOUS_RULES",
+    "STUDY_OUTCOMES",
+    "TALKER_DISTRIBUTIONS",
+    "THRESHOLD_DISTRIBUTIONS",
+    "ENROLMENTS",
+    "REWARD_SCHEMES",
+]
+
+NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "scale_free", "edgelist")
+RULES = ("share", "count", "capped", "threshold", "cascade")
+STEP_FORMS = ("exponential", "linear")
+ENGINES = ("array", "mesa")
+CLOCKS = ("discrete", "continuous")
+# Rules whose word-of-mouth influence is a constant rate per satisfied-customer neighbour,
+# the ones the continuous clock runs exactly (womlab.dynamics.event_engine). A new rule joins this list
+# only if it is of that form.
+CONTINUOUS_RULES = ("share", "count")
+STUDY_OUTCOMES = ("customers", "customer_periods")
+TALKER_DISTRIBUTIONS = ("fixed", "poisson")
+THRESHOLD_DISTRIBUTIONS = ("uniform", "fixed", "normal")
+ENROLMENTS = ("none", "all", "share", "strategy")
+REWARD_SCHEMES = ("linear", "bonus", "both")
+
+
+@dataclass(frozen=True, kw_only=True)
+class Market:
+    """Who can buy: the organisations of the market and who already are customers.
+
+    Parameters
+    ----------
+    organisations : int
+        Market size N. For ``network.kind = "edgelist"`` it may be left out and is then
+        the number of organisations in the file.
+    initial_customers : int
+        Customers at period 0, chosen at random (or by a seeding strategy). 0 is valid:
+        adoption then starts from external influence alone, as in the Bass model.
+    initial_share : float, optional
+        Alternative to ``initial_customers``: a share of N, rounded to the nearest whole.
+    regions : int
+        Number of regions organisations are split into.
+    """
+
+    section: ClassVar[str] = "market"
+    organisations: int = 1000
+    initial_customers: int | None = None
+    initial_share: float | None = None
+    regions: int = 1
+
+    def check(self, scenario: ScenarioParts) -> None:
+        positive_int("market.organisations", self.organisations)
+        positive_int("market.regions", self.regions)
+        if self.regions > self.organisations:
+            fail("market.regions", self.regions, f"at most market.organisations = {self.organisations}")
+        if self.initial_customers is not None and self.initial_share is not None:
+            raise ScenarioError(
+                "market.initial_customers and market.initial_share are alternatives; give one, "
+                f"got {self.initial_customers!r} and {self.initial_share!r}"
+            )
+        if self.initial_share is not None:
+            in_unit("market.initial_share", self.initial_share)
+        if self.initial_customers is not None and not (0 <= self.initial_customers <= self.organisations):
+            fail(
+                "market.initial_customers",
+                self.initial_customers,
+                f"between 0 and market.organisations = {self.organisations}",
+            )
+
+    @property
+    def n_initial(self) -> int:
+        """Number of customers at period 0."""
+        if self.initial_customers is not None:
+            return self.initial_customers
+        if self.initial_share is not None:
+            return int(round(self.initial_share * self.organisations))
+        return 0
+
+
+@dataclass(frozen=True, kw_only=True)
+class NetworkSpec:
+    """The referral network: who knows whom.
+
+    Parameters
+    ----------
+    kind : str
+        One of ``complete, ring, regular, random, small_world, regional, scale_free,
+        edgelist``.
+    mean_degree : float
+        Mean number of ties per organisation (ignored for ``complete`` and ``edgelist``).
+        Must be even for ``ring``, ``small_world`` and ``scale_free`` and whole for
+        ``regular``.
+    rewiring : float
+        Watts–Strogatz rewiring probability (``small_world``).
+    within_region_share : float
+        Share of each organisation's expected ties inside its own region (``regional``).
+    path : str, optional
+        CSV file with columns ``source,target`` (``edgelist``); relative to the scenario file.
+    nodes_path : str, optional
+        CSV file with columns ``id,region`` giving each organisation's region (``edgelist``).
+    """
+
+    section: ClassVar[str] = "network"
+    kind: str = "random"
+    mean_degree: float = 8.0
+    rewiring: float = 0.1
+    within_region_share: float = 0.85
+    path: str | None = None
+    nodes_path: str | None = None
+
+    def check(self, scenario: ScenarioParts) -> None:
+        one_of("network.kind", self.kind, NETWORK_KINDS)
+        in_unit("network.rewiring", self.rewiring)
+        in_unit("network.within_region_share", self.within_region_share)
+        n = scenario.market.organisations
+        if self.kind == "edgelist":
+            if self.path is None:
+                raise ScenarioError('network.path is required when network.kind = "edgelist", got None')
+            for name in ("path", "nodes_path"):
+                value = getattr(self, name)
+                if value is not None and not Path(value).is_file():
+                    fail(f"network.{name}", value, "an existing CSV file")
+            return
+        if self.kind == "complete":
+            return
+        k = self.mean_degree
+        if not (math.isfinite(k) and 0 < k < n):
+            fail("network.mean_degree", k, f"> 0 and < market.organisations = {n}")
+        if self.kind in ("ring", "small_world", "scale_free") and (k != int(k) or int(k) % 2):
+            fail("network.mean_degree", k, f'an even whole number for kind = "{self.kind}"')
+        if self.kind == "regular":
+            if k != int(k):
+                fail("network.mean_degree", k, 'a whole number for kind = "regular"')
+            if (int(k) * n) % 2:
+                fail("network.mean_degree", k, f"such that mean_degree x organisations is even (organisations = {n})")
+        if self.kind == "regional" and scenario.market.regions < 2:
+            fail("market.regions", scenario.market.regions, 'at least 2 for network.kind = "regional"')
+
+
+@dataclass(frozen=True, kw_only=True)
+class Talkers:
+    """How many people at a satisfied customer talk about the product.
+
+    ``distribution = "fixed"`` gives every organisation ``mean`` talkers; ``"poisson"``
+    draws each organisation's count once per run from Poisson(``mean``).
+    """
+
+    distribution: str = "fixed"
+    mean: float = 1.0
+
+
+@dataclass(frozen=True, kw_only=True)
+class Thresholds:
+    """The distribution of the organisations' own thresholds θᵢ (``threshold`` rule).
+
+    θᵢ is drawn once per run: ``uniform`` on (``low``, ``high``] (the default, (0, 1]),
+    ``fixed`` at ``mean`` for everyone, or ``normal`` (``mean``, ``sd``) clipped to
+    (0, 1]. See :func:`womlab.rules.draw_thresholds`.
+    """
+
+    distribution: str = "uniform"
+    low: float = 0.0
+    high: float = 1.0
+    mean: float = 0.5
+    sd: float = 0.1
+
+
+@dataclass(frozen=True, kw_only=True)
+class Adoption:
+    """The adoption rule: the rate at which a potential customer becomes a customer.
+
+    Parameters
+    ----------
+    rule : str
+        ``share``: λ = p + q·T/D; ``count``: λ = p + q·T; ``capped``: λ = min(p + q·T, cap);
+        ``threshold``: adopts once T/D reaches its own θᵢ (plus p); ``cascade``: independent
+        cascade, each newly satisfied customer persuades each neighbour with probability q
+        during the next period (plus p). T is the sum of talkers over the organisation's
+        satisfied-customer neighbours, D the sum of talkers over all its neighbours. See
+        :mod:`womlab.rules`.
+    external : float
+        External influence p (Bass coefficient of innovation), per period.
+    word_of_mouth : float
+        Word-of-mouth influence q, per period (per talker for ``count`` and ``capped``).
+    satisfied_share : float
+        Probability that a new customer is satisfied; only satisfied customers talk.
+    talkers_per_customer : float or Talkers
+        A number (every organisation has that many talkers) or a table
+        ``{distribution = "poisson", mean = 2}``.
+    cap : float
+        Ceiling on the adoption rate per period (``capped``).
+    threshold : Thresholds
+        Distribution of the organisations' thresholds (``threshold``), e.g.
+        ``{distribution = "uniform", low = 0, high = 1}``.
+    """
+
+    section: ClassVar[str] = "adoption"
+    rule: str = "share"
+    external: float = 0.01
+    word_of_mouth: float = 0.3
+    satisfied_share: float = 1.0
+    talkers_per_customer: Talkers = field(default_factory=Talkers)
+    cap: float = 0.05
+    threshold: Thresholds = field(default_factory=Thresholds)
+
+    def check(self, scenario: ScenarioParts) -> None:
+        one_of("adoption.rule", self.rule, RULES)
+        if self.rule == "cascade":
+            in_unit("adoption.word_of_mouth", self.word_of_mouth)  # a probability per tie under cascade
+        th = self.threshold
+        one_of("adoption.threshold.distribution", th.distribution, THRESHOLD_DISTRIBUTIONS)
+        for name in ("low", "high", "mean"):
+            in_unit(f"adoption.threshold.{name}", getattr(th, name))
+        non_negative("adoption.threshold.sd", th.sd)
+        if th.low >= th.high:
+            fail("adoption.threshold.high", th.high, f"> adoption.threshold.low = {th.low}")
+        non_negative("adoption.external", self.external)
+        non_negative("adoption.word_of_mouth", self.word_of_mouth)
+        in_unit("adoption.satisfied_share", self.satisfied_share)
+        in_unit("adoption.cap", self.cap)
+        t = self.talkers_per_customer
+        one_of("adoption.talkers_per_customer.distribution", t.distribution, TALKER_DISTRIBUTIONS)
+        non_negative("adoption.talkers_per_customer.mean", t.mean)
+
+
+@dataclass(frozen=True, kw_only=True)
+class RunSpec:
+    """How runs are executed.
+
+    Parameters
+    ----------
+    periods : int
+        Horizon in periods; results have one row per period, 0..periods (period 0 is
+        the seeded state).
+    time_step : float
+        Length of one step of the discrete engines, 1/n of a period for a whole n.
+    step_probability : str
+        How a rate λ becomes a step probability: ``exponential`` 1 − exp(−λ·dt) or
+        ``linear`` min(1, λ·dt).
+    replicates : int
+        Number of seeded replicate runs.
+    engine : str
+        ``array`` (fast, numpy) or ``mesa`` (one Mesa agent per organisation).
+    jobs : int
+        Parallel worker processes (joblib); −1 uses every core.
+    clock : str
+        ``discrete`` (steps of ``time_step``; the array or Mesa engine) or ``continuous``
+        (the event engine, :mod:`womlab.dynamics.event_engine`: exact adoption times, no time step; for
+        the rules in ``CONTINUOUS_RULES``, with ``engine = "array"``).
+    report_every : float
+        Spacing of the rows of :meth:`RunResult.curve` on a finer grid (1/n of a period;
+        1 gives the period grid). Per-period tables are always on the period grid.
+    """
+
+    section: ClassVar[str] = "run"
+    periods: int = 40
+    time_step: float = 1.0
+    step_probability: str = "exponential"
+    replicates: int = 100
+    engine: str = "array"
+    jobs: int = 1
+    clock: str = "discrete"
+    report_every: float = 1.0
+
+    def check(self, scenario: ScenarioParts) -> None:
+        positive_int("run.periods", self.periods)
+        positive_int("run.replicates", self.replicates)
+        one_of("run.step_probability", self.step_probability, STEP_FORMS)
+        one_of("run.engine", self.engine, ENGINES)
+        if self.jobs == 0 or self.jobs < -1:
+            fail("run.jobs", self.jobs, "a whole number >= 1, or -1 for every core")
+        dt = self.time_step
+        if not (0 < dt <= 1) or abs(1 / dt - round(1 / dt)) > 1e-9:
+            fail("run.time_step", dt, "1/n of a period for a whole n >= 1 (1, 0.5, 0.25, 0.1, ...)")
+        r = self.report_every
+        if not (0 < r <= 1) or abs(1 / r - round(1 / r)) > 1e-9:
+            fail("run.report_every", r, "1/n of a period for a whole n >= 1 (1, 0.5, 0.25, 0.1, ...)")
+        one_of("run.clock", self.clock, CLOCKS)
+        if r < 1 and self.engine == "mesa" and self.clock == "discrete":
+            fail("run.report_every", r, 'a whole period (1) with run.engine = "mesa", which keeps adoption periods only')
+        if self.clock == "continuous":
+            rule = scenario.adoption.rule
+            if rule not in CONTINUOUS_RULES:
+                raise ScenarioError(
+                    f'adoption.rule = "{rule}" cannot run on run.clock = "continuous": the continuous clock needs '
+                    f"word-of-mouth influence at a constant rate per satisfied customer neighbour "
+                    f'(rules {", ".join(CONTINUOUS_RULES)}); use run.clock = "discrete"'
+                )
+            if scenario.referral.active:
+                raise ScenarioError(
+                    f'referral.enrol = "{scenario.referral.enrol}": a referral programme runs on run.clock = "discrete" '
+                    f"only (its boost and payments are per period); use run.clock = \"discrete\""
+                )
+            if self.engine != "array":
+                raise ScenarioError(
+                    f'run.engine = "{self.engine}" runs on run.clock = "discrete" only; '
+                    f'run.clock = "continuous" uses the event engine (leave run.engine = "array")'
+                )
+    @property
+    def steps_per_period(self) -> int:
+        return int(round(1 / self.time_step))
+
+    @property
+    def reports_per_period(self) -> int:
+        return int(round(1 / self.report_every))
+
+
+@dataclass(frozen=True, kw_only=True)
+class Seeding:
+    """Who the initial customers are: a seeding strategy and its budget.
+
+    The number of initial customers is ``budget`` when given, else
+    ``market.initial_customers`` (or ``market.initial_share``); giving both with
+    different values is an error, so a scenario never says two things at once. The
+    strategy then chooses *which* organisations they are (``random`` by default: the
+    initial customers drawn uniformly, as without this section).
+
+    Parameters
+    ----------
+    strategy : str
+        A name registered in :data:`womlab.seeding.STRATEGIES`: ``random, hubs, bridges,
+        pagerank, coreness, fringe, by_region, spread, greedy``.
+    budget : int, optional
+        Number of initial customers (seeds).
+    betweenness_exact_up_to : int
+        ``bridges`` computes exact betweenness up to this many organisations and
+        sampled betweenness above it.
+    betweenness_sample : int
+        Number of source organisations sampled for betweenness on larger networks.
+    greedy_runs : int
+        Monte Carlo runs of the scenario's rule per evaluation of a seed set (``greedy``).
+    greedy_candidates : int
+        ``greedy`` considers only this many highest-degree organisations as candidates
+        (0: every organisation).
+    """
+
+    section: ClassVar[str] = "seeding"
+    strategy: str = "random"
+    budget: int | None = None
+    betweenness_exact_up_to: int = 3000
+    betweenness_sample: int = 500
+    greedy_runs: int = 20
+    greedy_candidates: int = 100
+
+    def check(self, scenario: ScenarioParts) -> None:
+        one_of("seeding.strategy", self.strategy, strategy_names())
+        m = scenario.market
+        if self.budget is not None:
+            if not (0 <= self.budget <= m.organisations):
+                fail("seeding.budget", self.budget, f"between 0 and market.organisations = {m.organisations}")
+            given = m.initial_customers is not None or m.initial_share is not None
+            if given and m.n_initial != self.budget:
+                raise ScenarioError(
+                    f"seeding.budget = {self.budget} disagrees with market initial customers = {m.n_initial}; "
+                    "give the number of initial customers in one place (or the same number in both)"
+                )
+        positive_int("seeding.betweenness_sample", self.betweenness_sample)
+        non_negative("seeding.betweenness_exact_up_to", self.betweenness_exact_up_to)
+        positive_int("seeding.greedy_runs", self.greedy_runs)
+        non_negative("seeding.greedy_candidates", self.greedy_candidates)
+
+
+@dataclass(frozen=True, kw_only=True)
+class Study:
+    """The paired comparison of seeding strategies (:func:`womlab.compare_strategies`).
+
+    Parameters
+    ----------
+    strategies : list of str
+        Strategies to compare; ``random`` (the baseline of every lift) is added first
+        when missing.
+    replicates : int, optional
+        Paired replicates; defaults to ``run.replicates``.
+    discount_rate : float
+        Discount rate per period r of the discounted customer-periods
+        Σₜ customersₜ / (1 + r)ᵗ, t = 1..T.
+    outcome : str
+        The outcome lifts are computed on: ``customers`` (at the horizon) or
+        ``customer_periods`` (discounted).
+    bootstrap : int
+        Paired bootstrap resamples for the lift intervals.
+    """
+
+    section: ClassVar[str] = "study"
+    strategies: tuple[str, ...] = ("random", "hubs", "bridges", "pagerank", "coreness", "fringe", "by_region", "spread")
+    replicates: int | None = None
+    discount_rate: float = 0.0
+    outcome: str = "customers"
+    bootstrap: int = 2000
+
+    def check(self, scenario: ScenarioParts) -> None:
+        if not self.strategies:
+            fail("study.strategies", list(self.strategies), "a non-empty list of strategy names")
+        known = strategy_names()
+        for i, name in enumerate(self.strategies):
+            one_of(f"study.strategies[{i}]", name, known)
+        if len(set(self.strategies)) != len(self.strategies):
+            fail("study.strategies", list(self.strategies), "a list without repeated names")
+        if self.replicates is not None:
+            positive_int("study.replicates", self.replicates)
+        non_negative("study.discount_rate", self.discount_rate)
+        one_of("study.outcome", self.outcome, STUDY_OUTCOMES)
+        positive_int("study.bootstrap", self.bootstrap)
+
+    @property
+    def compared(self) -> tuple[str, ...]:
+        """The strategies as run: ``random`` first, then the others in the order given."""
+        return ("random", *(s for s in self.strategies if s != "random"))
+
+
+@dataclass(frozen=True, kw_only=True)
+class Referral:
+    """A referral programme, and the economics it is judged by.
+
+    An organisation is *enrolled* by ``enrol``; while the programme runs (periods
+    ``start`` .. ``end``, and until the budget is spent) an enrolled satisfied customer's
+    talkers count ``talk_multiplier`` times, plus ``extra_talkers``, in its neighbours'
+    word-of-mouth rate (the denominator Dᵢ of the ``share`` rule is left as it is: the
+    programme adds word of mouth, it does not change whom a neighbour listens to). Every
+    adoption in the window attributed to an enrolled referrer is a successful referral
+    and is paid for, in order, while the budget lasts. See :mod:`womlab.dynamics.programme`.
+
+    Parameters
+    ----------
+    enrol : str
+        ``none`` (no programme: the baseline), ``all`` (every customer), ``share`` (each
+        organisation independently with probability ``enrol_share``) or ``strategy``
+        (the ``enrol_count`` organisations a seeding strategy chooses).
+    enrol_share : float
+        Probability of enrolment for ``enrol = "share"``.
+    strategy : str
+        Seeding strategy name (:data:`womlab.seeding.STRATEGIES`) for ``enrol = "strategy"``.
+    enrol_count : int
+        Number of organisations the strategy enrols.
+    start, end : int
+        First and last period (inclusive) in which the programme runs; ``end`` defaults
+        to the horizon ``run.periods``.
+    talk_multiplier : float
+        Multiplier on an enrolled satisfied customer's talkers (1: no boost).
+    extra_talkers : float
+        Talkers added to an enrolled satisfied customer (0: none).
+    scheme : str
+        ``linear`` (``reward`` per successful referral), ``bonus`` (``bonus`` once, when a
+        referrer's paid referrals reach ``bonus_threshold``) or ``both``.
+    reward, bonus : float
+        Payments to the referrer.
+    bonus_threshold : int
+        Number of paid referrals at which the bonus is paid.
+    referred_reward : float
+        Payment to the referred organisation for each successful referral (any scheme).
+    budget : float, optional
+        Cap on total payments (undiscounted). A payment that does not fit is not made;
+        from then on nothing is paid and the boost stops. Default: no cap.
+    value_per_period : float, optional
+        Value of a customer in each period it is a customer, from its adoption period to
+        the horizon. Default 1 when ``lifetime_value`` is not given.
+    lifetime_value : float, optional
+        Alternative to ``value_per_period``: a customer's whole value, counted at its
+        adoption period.
+    discount_rate : float
+        Discount rate per period r: a value or payment in period t counts (1 + r)^−t.
+    """
+
+    section: ClassVar[str] = "referral"
+    enrol: str = "none"
+    enrol_share: float = 1.0
+    strategy: str = "hubs"
+    enrol_count: int = 0
+    start: int = 1
+    end: int | None = None
+    talk_multiplier: float = 1.0
+    extra_talkers: float = 0.0
+    scheme: str = "linear"
+    reward: float = 0.0
+    bonus: float = 0.0
+    bonus_threshold: int = 3
+    referred_reward: float = 0.0
+    budget: float | None = None
+    value_per_period: float | None = None
+    lifetime_value: float | None = None
+    discount_rate: float = 0.0
+
+    def check(self, scenario: ScenarioParts) -> None:
+        one_of("referral.enrol", self.enrol, ENROLMENTS)
+        in_unit("referral.enrol_share", self.enrol_share)
+        n = scenario.market.organisations
+        if self.enrol == "strategy":
+            one_of("referral.strategy", self.strategy, strategy_names())
+            if not 1 <= self.enrol_count <= n:
+                fail("referral.enrol_count", self.enrol_count,
+                      f'between 1 and market.organisations = {n} for enrol = "strategy"')
+        T = scenario.run.periods
+        if not 1 <= self.start <= T:
+            fail("referral.start", self.start, f"a period between 1 and run.periods = {T}")
+        if self.end is not None and not self.start <= self.end <= T:
+            fail("referral.end", self.end, f"a period between referral.start = {self.start} and run.periods = {T}")
+        for name in ("talk_multiplier", "extra_talkers", "reward", "bonus", "referred_reward", "discount_rate"):
+            non_negative(f"referral.{name}", getattr(self, name))
+        one_of("referral.scheme", self.scheme, REWARD_SCHEMES)
+        positive_int("referral.bonus_threshold", self.bonus_threshold)
+        if self.budget is not None and not (math.isfinite(self.budget) and self.budget > 0):
+            fail("referral.budget", self.budget, "a finite number > 0 (leave it out for no cap)")
+        if self.value_per_period is not None and self.lifetime_value is not None:
+            raise ScenarioError(
+                "referral.value_per_period and referral.lifetime_value are alternatives; give one, "
+                f"got {self.value_per_period!r} and {self.lifetime_value!r}"
+            )
+        for name in ("value_per_period", "lifetime_value"):
+            if getattr(self, name) is not None:
+                non_negative(f"referral.{name}", getattr(self, name))
+
+    @property
+    def active(self) -> bool:
+        """Whether there is a programme at all (``enrol`` is not ``none``)."""
+        return self.enrol != "none"
+
+    def last_period(self, periods: int) -> int:
+        """The programme's last period on a horizon of ``periods``."""
+        return periods if self.end is None else self.end
+
+
+class ScenarioParts(Protocol):
+    """The whole scenario as a section's ``check`` reads it (:class:`womlab.scenario.Scenario` is one).
+
+    Sections check fields against each other (a referral window within ``run.periods``,
+    a budget within ``market.organisations``); typing the argument by what they read
+    keeps this module from importing the scenario class built from these sections.
+    """
+
+    @property
+    def market(self) -> Market: ...
+
+    @property
+    def network(self) -> NetworkSpec: ...
+
+    @property
+    def adoption(self) -> Adoption: ...
+
+    @property
+    def run(self) -> RunSpec: ...
+
+    @property
+    def seeding(self) -> Seeding: ...
+
+    @property
+    def referral(self) -> Referral: ...

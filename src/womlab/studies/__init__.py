@@ -1,0 +1,102 @@
+"""The studies layer: many runs, and what they say.
+
+Knows every layer below (dynamics, aggregate, store, seeding, networks, scenario);
+nothing of files' contents, figures or the command line (above). ``runner`` holds
+replicate batches and paired runs (common random numbers, joblib); ``compare`` the
+network set beside the aggregate models; ``seeding_study`` the paired seeding study;
+``programme`` a referral programme's economics; ``sweep`` designs and the resumable
+sweep runner; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics and
+intervals; ``referrals`` referral-tree analytics; ``presenting`` the registry through
+which a study's result asks :mod:`womlab.results` to draw or write it.
+"""
+
+from __future__ import annotations
+
+from womlab.studies.compare import Comparison, aggregate_curves, compare
+from womlab.studies.metrics import (
+    GAP_NAMES,
+    METRIC_NAMES,
+    bootstrap_mean_curve,
+    curve_gap,
+    curve_metrics,
+    discount_factors,
+    mean_interval,
+    metrics_table,
+    pooled_gaps,
+    pooled_metrics,
+    replicate_gaps,
+    replicate_metrics,
+    time_to_share,
+)
+from womlab.studies.programme import (
+    ProgrammeStudy,
+    customer_values,
+    evaluate_programme,
+    programme_economics,
+    roi,
+    value_flow,
+)
+from womlab.studies.referrals import (
+    generation,
+    generations,
+    referral_counts,
+    referral_tree_summary,
+    referrals_per_customer,
+    reproduction_by_period,
+    top_degree_referral_share,
+    word_of_mouth_by_period,
+)
+from womlab.studies.runner import Batch, run_one, run_paired, run_replicates
+from womlab.studies.seeding_study import SeedingStudy, compare_strategies, lift_statistics, run_outcomes
+from womlab.studies.sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
+from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, run_point, run_sweep
+
+__all__ = [
+    "Batch",
+    "run_one",
+    "run_replicates",
+    "run_paired",
+    "Comparison",
+    "compare",
+    "aggregate_curves",
+    "SeedingStudy",
+    "compare_strategies",
+    "lift_statistics",
+    "run_outcomes",
+    "ProgrammeStudy",
+    "evaluate_programme",
+    "programme_economics",
+    "customer_values",
+    "value_flow",
+    "roi",
+    "referral_counts",
+    "generation",
+    "word_of_mouth_by_period",
+    "referrals_per_customer",
+    "generations",
+    "top_degree_referral_share",
+    "reproduction_by_period",
+    "referral_tree_summary",
+    "discount_factors",
+    "mean_interval",
+    "time_to_share",
+    "curve_metrics",
+    "curve_gap",
+    "metrics_table",
+    "replicate_metrics",
+    "replicate_gaps",
+    "pooled_metrics",
+    "pooled_gaps",
+    "bootstrap_mean_curve",
+    "METRIC_NAMES",
+    "GAP_NAMES",
+    "SweepSummary",
+    "design_points",
+    "point_scenarios",
+    "run_point",
+    "run_sweep",
+    "saltelli_design",
+    "sobol_indices",
+    "morris_design",
+    "morris_effects",
+]

@@ -1,0 +1,304 @@
+"""Where the network departs from the aggregate model.
+
+:func:`compare` runs a scenario's replicates and sets the network curve beside every
+aggregate curve womlab computes from the same scenario, on the same grid:
+
+``bass_mapped``
+    The Bass ODE (closed form :func:`womlab.aggregate.bass_share`) with the mapped p and
+    Q of :func:`womlab.aggregate.mapped_parameters`: the continuous-time model.
+``bass_difference``
+    The Bass difference equation in the run's own step and step form.
+``stock_and_flow``
+    The stock-and-flow difference model with the mapped slope (and cap, ``capped``).
+``degree_mean_field``
+    The degree-based mean-field model (:func:`womlab.aggregate.degree_mean_field`) on the
+    degree sequence of replicate 0's network, in the run's step form: how much of the
+    gap degree heterogeneity explains; what is left is clustering and local saturation.
+``bass_fitted``
+    The Bass curve fitted to the mean network curve (:func:`womlab.aggregate.fitting.fit_bass`).
+
+It measures the gaps (:mod:`womlab.studies.metrics`), fits effective parameters
+(:mod:`womlab.aggregate.fitting`) and returns a :class:`Comparison` that holds the tables, draws
+the figure and writes a results folder.
+
+The discrete engine is compared with the step-form aggregate curves; a continuous-time
+engine would be compared with the ``ode`` forms (``bass_mapped`` and
+``degree_mean_field_curve(..., form="ode")``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from womlab.aggregate import (
+    AGGREGATE_LABELS,
+    BassFit,
+    StockFlowFit,
+    bass_difference,
+    bass_fit_table,
+    bass_share,
+    degree_mean_field_curve,
+    fit_bass,
+    fit_replicates,
+    fit_stock_and_flow,
+    mapped_parameters,
+    stock_and_flow,
+)
+from womlab.dynamics import streams
+from womlab.networks import build_network
+from womlab.scenario import Scenario
+from womlab.studies.metrics import pooled_gaps, pooled_metrics, replicate_gaps, replicate_metrics
+from womlab.studies.presenting import present
+from womlab.studies.runner import Batch, run_replicates
+
+__all__ = ["Comparison", "compare", "aggregate_curves"]
+
+
+def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[str, np.ndarray]:
+    """Every mapped aggregate curve of ``scenario`` on periods 0..T (not the fitted one).
+
+    ``network`` (a :class:`~womlab.networks.ReferralNetwork` or a degree sequence) feeds
+    the degree mean-field model; by default replicate 0's network is built from its
+    network stream, exactly as the batch builds it.
+    """
+    run, market, a = scenario.run, scenario.market, scenario.adoption
+    par = mapped_parameters(scenario)
+    t = np.arange(run.periods + 1, dtype=float)
+    if network is None:
+        network = build_network(scenario, np.random.default_rng(streams(scenario.seed, (0,)).network))
+    n = market.organisations
+    curves = {
+        "bass_mapped": bass_share(t, par.p, par.Q, par.initial_share),
+        "bass_difference": bass_difference(run.periods, par.p, par.Q, par.initial_share,
+                                           time_step=run.time_step, form=run.step_probability),
+        "stock_and_flow": stock_and_flow(run.periods, n, scenario.n_initial, slope=par.slope,
+                                         satisfied_share=a.satisfied_share, talkers_per_customer=par.mean_talkers,
+                                         external=par.p, cap=par.cap, time_step=run.time_step,
+                                         form=run.step_probability) / n,
+        "degree_mean_field": degree_mean_field_curve(scenario, network),
+    }
+    return curves
+
+
+@dataclass(eq=False)
+class Comparison:
+    """A network batch beside its aggregate models: tables, fits and the figure.
+
+    Attributes
+    ----------
+    batch : womlab.studies.Batch
+        The replicate runs.
+    curves : dict
+        Aggregate curve name → share on periods 0..T (including ``bass_fitted``).
+    metrics : pandas.DataFrame
+        Curve metrics side by side (:func:`womlab.studies.metrics.pooled_metrics`).
+    gaps : pandas.DataFrame
+        Gap of the mean network curve to each aggregate curve (:func:`womlab.studies.metrics.pooled_gaps`).
+    fits : pandas.DataFrame
+        Fitted Bass parameters with intervals (:func:`womlab.aggregate.fitting.bass_fit_table`).
+    replicate_metrics, replicate_gaps, replicate_fits : pandas.DataFrame
+        The same, per replicate.
+    bass_fit : womlab.aggregate.fitting.BassFit
+        The Bass fit of the mean network curve.
+    stock_flow_fit : womlab.aggregate.fitting.StockFlowFit
+        The stock-and-flow fit (slope and cap) of the mean network curve.
+    """
+
+    batch: Batch
+    curves: dict[str, np.ndarray]
+    metrics: pd.DataFrame
+    gaps: pd.DataFrame
+    fits: pd.DataFrame
+    replicate_metrics: pd.DataFrame
+    replicate_gaps: pd.DataFrame
+    replicate_fits: pd.DataFrame
+    bass_fit: BassFit
+    stock_flow_fit: StockFlowFit
+    settings: dict = field(default_factory=dict)
+
+    @property
+    def scenario(self) -> Scenario:
+        return self.batch.scenario
+
+    @property
+    def reference(self) -> str:
+        """The mapped aggregate curve the headline is measured against: ``bass_difference``
+        (same grid and step form as the runs), ``bass_mapped`` (the Bass ODE) on the
+        continuous clock, or ``stock_and_flow`` for the ``capped`` rule, whose ceiling the
+        Bass curves do not have."""
+        if self.scenario.adoption.rule == "capped":
+            return "stock_and_flow"
+        return "bass_mapped" if self.scenario.run.clock == "continuous" else "bass_difference"
+
+    def curve_table(self) -> pd.DataFrame:
+        """Per period: the network's mean, sd, q05, q50, q95 and every aggregate curve."""
+        summary = self.batch.summary().drop(columns=["aggregate"])
+        for name, curve in self.curves.items():
+            summary[name] = curve
+        return summary
+
+    def headline(self) -> dict[str, float]:
+        """The numbers a summary leads with.
+
+        ``Q_ratio`` (Q_eff / Q_mapped) and its interval, the t50 delay of the network
+        behind the :attr:`reference` model (the same grid and step), the ratio of peak
+        new-customer shares, and the largest gap to that model and when it occurs.
+        """
+        m = self.metrics.set_index("metric")
+        g = self.gaps.set_index("aggregate")
+        f = self.fits.set_index("parameter")
+        ref = self.reference
+        out = {
+            "Q_mapped": float(f.loc["Q", "mapped"]),
+            "Q_eff": float(f.loc["Q", "estimate"]),
+            "Q_ratio": float(f.loc["Q_ratio", "estimate"]) if "Q_ratio" in f.index else float("nan"),
+            "Q_ratio_low": float(f.loc["Q_ratio", "low"]) if "Q_ratio" in f.index else float("nan"),
+            "Q_ratio_high": float(f.loc["Q_ratio", "high"]) if "Q_ratio" in f.index else float("nan"),
+            "p_eff": float(f.loc["p", "estimate"]),
+            "m_eff": float(f.loc["m", "estimate"]),
+            "t50_network": float(m.loc["t50", "network"]),
+            "t50_delay": float(m.loc["t50", "network"] - m.loc["t50", ref]),
+            "t50_delay_low": float(m.loc["t50", "network_low"] - m.loc["t50", ref]),
+            "t50_delay_high": float(m.loc["t50", "network_high"] - m.loc["t50", ref]),
+            "t50_degree_mean_field": float(m.loc["t50", "degree_mean_field"]),
+            "peak_ratio": float(m.loc["peak_new_share", "network"] / m.loc["peak_new_share", ref]),
+            "peak_ratio_low": float(m.loc["peak_new_share", "network_low"] / m.loc["peak_new_share", ref]),
+            "peak_ratio_high": float(m.loc["peak_new_share", "network_high"] / m.loc["peak_new_share", ref]),
+            "max_gap": float(g.loc[ref, "gap_at_max"]),
+            "time_of_max_gap": float(g.loc[ref, "time_of_max_gap"]),
+            "rmse_reference": float(g.loc[ref, "rmse"]),
+            "rmse_degree_mean_field": float(g.loc["degree_mean_field", "rmse"]),
+        }
+        return out
+
+    def figure(self, *, title: str | None = None):  # noqa: ANN201 - matplotlib Figure
+        """The comparison figure (:func:`womlab.results.comparison_figure`)."""
+        return present(self, "figure", title=title)
+
+    def save(self, out: str | Path, *, figure: bool = True) -> list[Path]:
+        """Write the comparison's tables, figure and manifest into the results folder ``out``.
+
+        Files: ``compare_curves.csv``, ``compare_metrics.csv``, ``compare_gaps.csv``,
+        ``compare_fits.csv``, ``compare_replicates.csv`` (per-replicate metrics, fits and
+        gaps to the :attr:`reference` model), ``comparison.png``, ``compare_manifest.json``
+        (:func:`womlab.results.save_comparison`).
+
+        Raises
+        ------
+        StoreError
+            If ``out`` exists and is not a folder, or cannot be created.
+        """
+        return present(self, "save", out, figure=figure)
+
+    def replicate_table(self) -> pd.DataFrame:
+        """One row per replicate: its curve metrics, its Bass fit (``fit_*``) and its gaps to the :attr:`reference` model."""
+        fits = self.replicate_fits.rename(columns={c: f"fit_{c}" for c in self.replicate_fits.columns if c != "replicate"})
+        ref = self.reference
+        gaps = self.replicate_gaps[self.replicate_gaps["aggregate"] == ref].drop(columns=["aggregate"])
+        gaps = gaps.rename(columns={c: f"{c}_{ref}" for c in gaps.columns if c != "replicate"})
+        return self.replicate_metrics.merge(fits, on="replicate").merge(gaps, on="replicate")
+
+    def summary_text(self) -> str:
+        """A few lines with the headline numbers, for the terminal."""
+        h = self.headline()
+        s = self.scenario
+        sf = self.stock_flow_fit
+        lines = [
+            f"{s.name}: {self.batch.replicates} runs of {s.market.organisations} organisations on a "
+            f"{s.network.kind} network ({s.adoption.rule} rule), {self.batch.wall_time:.1f} s",
+            f"  word of mouth kept   Q_eff / Q_mapped = {h['Q_ratio']:.3f}  (95 % {h['Q_ratio_low']:.3f} to "
+            f"{h['Q_ratio_high']:.3f}; Q_eff = {h['Q_eff']:.4g}, Q_mapped = {h['Q_mapped']:.4g}, "
+            f"p_eff = {h['p_eff']:.3g}, m_eff = {h['m_eff']:.3g})",
+            f"  time to 50 %         network {h['t50_network']:.2f}, {h['t50_delay']:+.2f} periods vs the "
+            f"{AGGREGATE_LABELS[self.reference]} (95 % {h['t50_delay_low']:+.2f} to {h['t50_delay_high']:+.2f}); degree mean-field "
+            f"{h['t50_degree_mean_field']:.2f}",
+            f"  peak new customers   network / model = {h['peak_ratio']:.3f}  (95 % {h['peak_ratio_low']:.3f} to "
+            f"{h['peak_ratio_high']:.3f})",
+            f"  largest gap          {h['max_gap']:+.3f} of the market at period {h['time_of_max_gap']:g}; RMSE "
+            f"{h['rmse_reference']:.3f} to that model, {h['rmse_degree_mean_field']:.3f} to the degree mean-field",
+            f"  stock-and-flow fit   slope {sf.slope:.4g}, cap {sf.cap:.3g} "
+            f"({'converged' if sf.success else 'did not converge'})",
+        ]
+        return "\n".join(lines)
+
+
+def compare(
+    scenario: Scenario,
+    replicates: int | None = None,
+    *,
+    jobs: int | None = None,
+    bootstrap: int = 1000,
+    fit_bootstrap: int = 200,
+    seed: int | None = None,
+    level: float = 0.95,
+    progress: bool = False,
+    batch: Batch | None = None,
+) -> Comparison:
+    """Run a scenario's replicates and compare the network with every aggregate model.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    replicates : int, optional
+        Defaults to ``scenario.run.replicates``.
+    jobs : int, optional
+        Worker processes; defaults to ``scenario.run.jobs``.
+    bootstrap : int
+        Resamples for the metric and gap intervals.
+    fit_bootstrap : int
+        Resamples for the fitted-parameter intervals (each one a least-squares fit).
+    seed : int, optional
+        Seed of the bootstrap; defaults to the scenario's seed.
+    level : float
+        Interval level (0.95 for 95 % intervals).
+    progress : bool
+        Progress bar while running.
+    batch : Batch, optional
+        Runs already made of this scenario (then nothing is run).
+
+    Returns
+    -------
+    Comparison
+
+    Examples
+    --------
+    >>> from womlab import Scenario, compare
+    >>> s = Scenario.from_dict({"market": {"organisations": 400, "initial_customers": 4},
+    ...                         "network": {"kind": "ring", "mean_degree": 4}, "run": {"periods": 30}})
+    >>> c = compare(s, 4, bootstrap=50, fit_bootstrap=10)
+    >>> sorted(c.curves)
+    ['bass_difference', 'bass_fitted', 'bass_mapped', 'degree_mean_field', 'stock_and_flow']
+    """
+    if batch is None:
+        batch = run_replicates(scenario, replicates, jobs=jobs, progress=progress)
+    seed = scenario.seed if seed is None else seed
+    shares = batch.shares()
+    par = mapped_parameters(scenario)
+    curves = aggregate_curves(scenario)
+    fit = fit_bass(shares.mean(axis=0))
+    curves["bass_fitted"] = fit.share(np.arange(shares.shape[1], dtype=float))
+    per_rep_fits = fit_replicates(shares, market=None if fit.market_fitted else 1.0, start=(fit.p, fit.Q, fit.m))
+    fits = bass_fit_table(shares, Q_mapped=par.Q, p_mapped=par.p, bootstrap=fit_bootstrap, seed=seed, level=level,
+                          per_replicate=per_rep_fits)
+    a, run = scenario.adoption, scenario.run
+    sf = fit_stock_and_flow(shares.mean(axis=0), organisations=scenario.market.organisations,
+                            satisfied_share=a.satisfied_share, talkers_per_customer=par.mean_talkers,
+                            external=par.p, time_step=run.time_step, form=run.step_probability)
+    return Comparison(
+        batch=batch,
+        curves=curves,
+        metrics=pooled_metrics(shares, curves, bootstrap=bootstrap, seed=seed, level=level),
+        gaps=pooled_gaps(shares, curves, bootstrap=bootstrap, seed=seed, level=level),
+        fits=fits,
+        replicate_metrics=replicate_metrics(shares),
+        replicate_gaps=replicate_gaps(shares, curves),
+        replicate_fits=per_rep_fits,
+        bass_fit=fit,
+        stock_flow_fit=sf,
+        settings={"bootstrap": bootstrap, "fit_bootstrap": fit_bootstrap, "bootstrap_seed": seed, "level": level,
+                  "degree_mean_field_network": "replicate 0"},
+    )
