@@ -97,14 +97,14 @@ def test_flat_parameters_map_onto_the_scenario() -> None:
                      "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
         "run": {"periods": 12},
     })
-    assert model.scenario == nested
+    assert model.womlab_scenario == nested
     assert FLAT_PARAMETERS["word_of_mouth"] == FLAT_PARAMETERS["adoption_word_of_mouth"] == "adoption.word_of_mouth"
     assert "replicates" not in FLAT_PARAMETERS and "engine" not in FLAT_PARAMETERS
     assert FLAT_PARAMETERS["referral_budget"] == "referral.budget" and "budget" not in FLAT_PARAMETERS
     nested_threshold = ReferralModel(**FLAT, rule="threshold", threshold={"distribution": "fixed", "mean": 0.3})
-    assert nested_threshold.scenario.adoption.threshold.mean == 0.3
+    assert nested_threshold.womlab_scenario.adoption.threshold.mean == 0.3
     based = ReferralModel(nested, periods=5, external=0.02)  # with a scenario: Scenario.replace
-    assert based.scenario == nested.replace({"run.periods": 5, "adoption.external": 0.02})
+    assert based.womlab_scenario == nested.replace({"run.periods": 5, "adoption.external": 0.02})
 
 
 def test_bad_flat_parameters_name_the_field() -> None:
@@ -123,7 +123,7 @@ def test_seeded_model_is_deterministic_and_matches_run_one() -> None:
     for field in ("adoption_period", "referrer", "satisfied"):
         np.testing.assert_array_equal(getattr(a, field), getattr(b, field))
     # replicate r of the model is replicate r of a womlab batch on the mesa engine
-    scenario = ReferralModel(**FLAT).scenario.replace("run.engine", "mesa")
+    scenario = ReferralModel(**FLAT).womlab_scenario.replace("run.engine", "mesa")
     via_batch = run_one(scenario, (3,))
     np.testing.assert_array_equal(via_batch.adoption_period, a.adoption_period)
     np.testing.assert_array_equal(via_batch.referrer, a.referrer)
@@ -145,9 +145,10 @@ def test_callers_graph_and_network_are_not_changed() -> None:
     assert list(graph.edges(data=True)) == list(before.edges(data=True))
     assert model.result().customers[-1] > 2
 
-    network = build_network(scenario.replace("market.organisations", 200), np.random.default_rng(5))
+    larger = scenario.replace("market.organisations", 200)
+    network = build_network(larger, np.random.default_rng(5))
     indptr, indices, region = network.indptr.copy(), network.indices.copy(), network.region.copy()
-    run_mesa(scenario, network, np.array([1, 2, 3]), np.random.default_rng(6))
+    run_mesa(larger, network, np.array([1, 2, 3]), np.random.default_rng(6))
     np.testing.assert_array_equal(network.indptr, indptr)
     np.testing.assert_array_equal(network.indices, indices)
     np.testing.assert_array_equal(network.region, region)
@@ -203,14 +204,14 @@ def test_importing_the_model_leaves_the_multiprocessing_start_method_alone() -> 
 
 
 def _with_programme(**referral) -> Scenario:
-    base = ReferralModel(**FLAT).scenario
+    base = ReferralModel(**FLAT).womlab_scenario
     return base.replace({f"referral.{k}": v for k, v in referral.items()})
 
 
 def test_programme_without_boost_or_payments_reproduces_the_baseline() -> None:
     # womlab.dynamics.programme: enrolment has its own stream, so a programme that changes nothing
     # sees the baseline's dynamics draws and gives the baseline run, organisation by organisation
-    base = _run(scenario=ReferralModel(**FLAT).scenario).result()
+    base = _run(scenario=ReferralModel(**FLAT).womlab_scenario).result()
     same = _run(scenario=_with_programme(enrol="all")).result()
     np.testing.assert_array_equal(same.adoption_period, base.adoption_period)
     np.testing.assert_array_equal(same.referrer, base.referrer)
@@ -230,7 +231,7 @@ def test_programme_pays_enrolled_referrers_in_its_window_within_budget() -> None
     assert ((result.adoption_period[rewarded] >= 3) & (result.adoption_period[rewarded] <= 8)).all()
     assert extra["programme_cost"].sum() == 2.0 * rewarded.size <= 40.0
     boosted = _run(scenario=scenario.replace("referral.reward", 0.0)).result()
-    plain = _run(scenario=ReferralModel(**FLAT).scenario).result()
+    plain = _run(scenario=ReferralModel(**FLAT).womlab_scenario).result()
     assert boosted.customers[8] > plain.customers[8]  # tripled word of mouth in periods 3-8 shows
 
 
@@ -243,7 +244,7 @@ def test_a_batch_run_does_not_keep_its_models_alive() -> None:
         return sum(isinstance(o, ReferralModel) for o in gc.get_objects())
 
     before = alive()
-    scenario = ReferralModel(**FLAT).scenario.replace("run.engine", "mesa")
+    scenario = ReferralModel(**FLAT).womlab_scenario.replace("run.engine", "mesa")
     for r in range(3):
         run_one(scenario, (r,))
     assert alive() <= before + 1  # at most the model built by hand above
