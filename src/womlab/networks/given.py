@@ -17,8 +17,9 @@ import pandas as pd
 
 from womlab.errors import NetworkError
 from womlab.networks.network import ReferralNetwork
+from womlab.scenario import Scenario
 
-__all__ = ["GivenNetwork", "as_network", "node_attributes", "organisation_ids"]
+__all__ = ["GivenNetwork", "as_network", "node_attributes", "organisation_ids", "mapped_with"]
 
 #: What ``network=`` accepts.
 GivenNetwork = Union[ReferralNetwork, nx.Graph, pd.DataFrame]
@@ -122,3 +123,23 @@ def node_attributes(given: Any, network: ReferralNetwork) -> pd.DataFrame | None
     if not any(rows):
         return None
     return pd.DataFrame(rows)
+
+
+def mapped_with(scenario: Scenario, network: ReferralNetwork | None) -> Scenario:
+    """The scenario the aggregate models are mapped from when the runs are on ``network``.
+
+    The mapping (:func:`womlab.aggregate.mapped_parameters`) reads the mean degree from
+    ``[network]``; with a network of your own that section does not describe it, so the
+    mean degree is measured on the network (kind ``random``: any mean degree is valid
+    there). ``scenario`` itself when ``network`` is None or has no ties.
+
+    Examples
+    --------
+    >>> import networkx as nx
+    >>> s = Scenario.from_dict({"market": {"organisations": 34}, "network": {"kind": "ring", "mean_degree": 4}})
+    >>> round(mapped_with(s, as_network(nx.karate_club_graph(), 34)).network.mean_degree, 3)
+    4.588
+    """
+    if network is None or network.complete or network.ties == 0:
+        return scenario
+    return scenario.replace({"network.kind": "random", "network.mean_degree": 2.0 * network.ties / network.n})
