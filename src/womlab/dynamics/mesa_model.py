@@ -106,7 +106,7 @@ from womlab.networks.given import GivenNetwork, as_network  # noqa: E402
 from womlab.scenario import SECTIONS, Scenario  # noqa: E402
 from womlab.seeding import initial_customers  # noqa: E402
 
-__all__ = ["ReferralModel", "Organisation", "run_mesa", "FLAT_PARAMETERS", "MESA_VERSION"]
+__all__ = ["ReferralModel", "Organisation", "run_mesa", "FLAT_PARAMETERS", "MESA_VERSION", "flat_parameters"]
 
 # these describe batches, studies and sweeps, not one model run
 _NOT_FLAT_SECTIONS = {"study", "sweep"}
@@ -137,6 +137,32 @@ def _flat_parameters() -> tuple[dict[str, str], dict[str, list[str]]]:
 #: Every field is ``<section>_<field>`` (``adoption_word_of_mouth``); a field whose name
 #: is used by no other section is also its bare name (``word_of_mouth``).
 FLAT_PARAMETERS, _AMBIGUOUS = _flat_parameters()
+
+
+def flat_parameters(scenario: Scenario) -> dict[str, Any]:
+    """The flat keyword parameters of :class:`ReferralModel` that rebuild ``scenario``.
+
+    Every field that describes one run, as ``<section>_<field>`` (plus ``name`` and
+    ``seed``), in its file form: what Mesa's batch runner and browser view pass back to
+    the model.
+
+    Examples
+    --------
+    >>> s = Scenario.from_dict({"market": {"organisations": 120, "regions": 3}, "network": {"kind": "regional"},
+    ...                         "adoption": {"talkers_per_customer": {"distribution": "poisson", "mean": 2}}})
+    >>> flat = flat_parameters(s)
+    >>> flat["adoption_talkers_per_customer"], "run_replicates" in flat
+    ({'distribution': 'poisson', 'mean': 2.0}, False)
+    >>> ReferralModel(**flat).womlab_scenario == s
+    True
+    """
+    out: dict[str, Any] = {}
+    for key, value in scenario.to_dict().items():
+        if isinstance(value, dict) and key in SECTIONS:
+            out.update({f"{key}_{k}": v for k, v in value.items() if f"{key}_{k}" in FLAT_PARAMETERS})
+        elif key in FLAT_PARAMETERS:
+            out[key] = value
+    return out
 
 
 def _scenario_from_flat(scenario: Scenario | None, parameters: Mapping[str, Any]) -> Scenario:
