@@ -43,13 +43,16 @@ FLORENTINE = nx.florentine_families_graph()
 
 
 def _scenario(n: int, **adoption) -> Scenario:
-    return Scenario.from_dict({
-        "name": "own-network test (invented market)", "seed": 11,
-        "market": {"organisations": n, "initial_customers": 2},
-        "network": {"kind": "random", "mean_degree": 4},
-        "adoption": {"word_of_mouth": 0.6, "satisfied_share": 0.8, **adoption},
-        "run": {"periods": 12},
-    })
+    return Scenario.from_dict(
+        {
+            "name": "own-network test (invented market)",
+            "seed": 11,
+            "market": {"organisations": n, "initial_customers": 2},
+            "network": {"kind": "random", "mean_degree": 4},
+            "adoption": {"word_of_mouth": 0.6, "satisfied_share": 0.8, **adoption},
+            "run": {"periods": 12},
+        }
+    )
 
 
 def test_every_referral_runs_along_a_tie_of_the_graph_given() -> None:
@@ -99,8 +102,10 @@ def test_a_network_of_another_size_is_refused_in_one_line(study: str) -> None:
         call()
     message = str(caught.value)
     assert "\n" not in message
-    assert message == ("the network has 34 organisations but market.organisations is 200; they must agree "
-                       "(set market.organisations = 34, or give a network of 200)")
+    assert message == (
+        "the network has 34 organisations but market.organisations is 200; they must agree "
+        "(set market.organisations = 34, or give a network of 200)"
+    )
 
 
 def test_anything_else_is_refused_naming_what_is_allowed() -> None:
@@ -130,8 +135,11 @@ def test_seeding_study_and_programme_run_on_the_network_given() -> None:
     # hubs seeds the two best-connected members, Zachary's instructor (0) and administrator (33)
     hubs = study.snapshot[1]["hubs"]
     assert set(np.flatnonzero(hubs.adoption_period == 0).tolist()) == {0, 33}
-    programme = evaluate_programme(s.replace({"referral.enrol": "all", "referral.talk_multiplier": 2.0,
-                                              "referral.lifetime_value": 10.0}), 3, network=KARATE)
+    programme = evaluate_programme(
+        s.replace({"referral.enrol": "all", "referral.talk_multiplier": 2.0, "referral.lifetime_value": 10.0}),
+        3,
+        network=KARATE,
+    )
     assert all(np.array_equal(d, np.array([KARATE.degree(i) for i in range(34)])) for d in programme.degrees)
 
 

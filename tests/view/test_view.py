@@ -68,8 +68,15 @@ def test_a_large_market_is_scaled_down_for_the_view() -> None:
 
 
 def test_the_network_panel_colours_each_organisation_by_its_state() -> None:
-    model = ReferralModel(organisations=120, initial_customers=4, kind="random", mean_degree=4, periods=10,
-                          word_of_mouth=0.8, satisfied_share=0.5)
+    model = ReferralModel(
+        organisations=120,
+        initial_customers=4,
+        kind="random",
+        mean_degree=4,
+        periods=10,
+        word_of_mouth=0.8,
+        satisfied_share=0.5,
+    )
     for _ in range(5):
         model.step()
     fig = network_figure(model)
@@ -115,8 +122,9 @@ def _share_of_pixels(image: np.ndarray, colour: str, tolerance: float = 0.06) ->
     return float((np.abs(image[:, :, :3] - np.array(to_rgb(colour))).max(axis=2) < tolerance).mean())
 
 
-@pytest.mark.skipif(CHROMIUM is None or DRIVER is None,
-                    reason="chromium and chromium-driver are not installed (CI installs Debian's)")
+@pytest.mark.skipif(
+    CHROMIUM is None or DRIVER is None, reason="chromium and chromium-driver are not installed (CI installs Debian's)"
+)
 def test_the_page_loads_a_step_advances_the_curve_and_the_network_shows(tmp_path) -> None:
     webdriver = pytest.importorskip("selenium.webdriver")
     from matplotlib.image import imread
@@ -128,12 +136,26 @@ def test_the_page_loads_a_step_advances_the_curve_and_the_network_shows(tmp_path
     config.write_text(CONFIG, encoding="utf-8")
     port = _free_port()
     env = {**os.environ, "SOLARA_ASSETS_CDN": "http://127.0.0.1:9/", "SOLARA_TELEMETRY_MIXPANEL_ENABLE": "false"}
-    server = subprocess.Popen([sys.executable, "-m", "womlab", "view", str(config), "--port", str(port)],
-                              env=env, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, start_new_session=True)
+    server = subprocess.Popen(
+        [sys.executable, "-m", "womlab", "view", str(config), "--port", str(port)],
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.STDOUT,
+        start_new_session=True,
+    )
     options = webdriver.ChromeOptions()
-    for flag in ("--headless=new", "--no-sandbox", "--disable-gpu", "--disable-dev-shm-usage",
-                 "--window-size=1500,1100", "--disable-background-networking", "--disable-component-update",
-                 "--disable-sync", "--no-first-run", f"--user-data-dir={tmp_path / 'profile'}"):
+    for flag in (
+        "--headless=new",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-dev-shm-usage",
+        "--window-size=1500,1100",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        "--no-first-run",
+        f"--user-data-dir={tmp_path / 'profile'}",
+    ):
         options.add_argument(flag)
     options.binary_location = CHROMIUM
     driver = None

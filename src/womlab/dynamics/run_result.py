@@ -226,7 +226,8 @@ class RunResult:
             referrer: Any = pd.array(referrer_ids, dtype="Int64")
             referrer[~referred] = pd.NA
         else:
-            referrer = np.where(referred, referrer_ids.astype(object), None)
+            referrer = referrer_ids.astype(object)
+            referrer[~referred] = None
         adoption_period = pd.array(np.where(adopted, self.adoption_period, 0), dtype="Int64")
         adoption_period[~adopted] = pd.NA
         columns: dict[str, Any] = {"id": ids, "region": self.region.astype(np.int64)}
@@ -290,13 +291,13 @@ def to_networkx(result: RunResult, network: ReferralNetwork | None = None,
     graph = nx.DiGraph()
     records = table.to_dict("records")
     for row in records:
-        data = {k: _plain(v) for k, v in row.items() if k != "id" and not _missing(v)}
+        data = {str(k): _plain(v) for k, v in row.items() if k != "id" and not _missing(v)}
         if row["customer"] and not _missing(row["adoption_time"]):
             data["start"] = float(row["adoption_time"])
         graph.add_node(_plain(row["id"]), **data)
     for row in records:
         if not _missing(row["referrer"]):
-            edge = {"period": int(row["adoption_period"])}
+            edge: dict[str, float] = {"period": int(row["adoption_period"])}
             if not _missing(row["adoption_time"]):
                 edge["start"] = float(row["adoption_time"])
             graph.add_edge(_plain(row["referrer"]), _plain(row["id"]), **edge)

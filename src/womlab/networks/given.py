@@ -9,7 +9,7 @@ says about each organisation, for per-organisation results.
 from __future__ import annotations
 
 import dataclasses
-from typing import Any, Union
+from typing import Any
 
 import networkx as nx
 import numpy as np
@@ -22,7 +22,7 @@ from womlab.scenario import Scenario
 __all__ = ["GivenNetwork", "as_network", "node_attributes", "organisation_ids", "mapped_with"]
 
 #: What ``network=`` accepts.
-GivenNetwork = Union[ReferralNetwork, nx.Graph, pd.DataFrame]
+GivenNetwork = ReferralNetwork | nx.Graph | pd.DataFrame
 
 
 def as_network(network: Any, organisations: int | None = None) -> ReferralNetwork:

@@ -84,7 +84,6 @@ from typing import Any
 from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field
 from womlab.scenario.registry import edgelist_facts
-from womlab.scenario.shipped import demo_names, demo_path
 from womlab.scenario.sections import (
     Adoption,
     Market,
@@ -96,6 +95,7 @@ from womlab.scenario.sections import (
     Talkers,
     Thresholds,
 )
+from womlab.scenario.shipped import demo_names, demo_path
 from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, parse_axes
 
 __all__ = ["Scenario", "load_scenario", "field_type", "SECTIONS"]

@@ -14,5 +14,7 @@ from womlab.scenario import load_scenario
 from womlab.view.page import view_page
 from womlab.view.serve import CONFIG_VARIABLE, DEFAULT_MAX_ORGANISATIONS, MAX_VARIABLE
 
-page = view_page(load_scenario(os.environ.get(CONFIG_VARIABLE, "demo")),
-                 max_organisations=int(os.environ.get(MAX_VARIABLE, DEFAULT_MAX_ORGANISATIONS)))
+page = view_page(
+    load_scenario(os.environ.get(CONFIG_VARIABLE, "demo")),
+    max_organisations=int(os.environ.get(MAX_VARIABLE, DEFAULT_MAX_ORGANISATIONS)),
+)

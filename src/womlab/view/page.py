@@ -83,24 +83,28 @@ def network_figure(model: ReferralModel) -> Figure:
     agents = [model.organisation(i) for i in range(network.n)]
     customer = np.array([a.customer for a in agents])
     satisfied = np.array([a.customer and a.satisfied for a in agents])
-    colours = np.where(satisfied, STATE_COLOURS["satisfied customer"],
-                       np.where(customer, STATE_COLOURS["customer, not satisfied"],
-                                STATE_COLOURS["potential customer"]))
+    colours = np.where(
+        satisfied,
+        STATE_COLOURS["satisfied customer"],
+        np.where(customer, STATE_COLOURS["customer, not satisfied"], STATE_COLOURS["potential customer"]),
+    )
     fig = Figure(figsize=(5.6, 5.2), dpi=100)
     ax = fig.add_subplot()
     if not network.complete and network.ties:
         rows = np.repeat(np.arange(network.n), np.diff(network.indptr))
         upper = rows < network.indices
         segments = np.stack([xy[rows[upper]], xy[network.indices[upper]]], axis=1)
-        ax.add_collection(LineCollection(segments, colors="#9aa0a6", linewidths=0.4, alpha=0.5, zorder=1))
+        ax.add_collection(LineCollection(list(segments), colors="#9aa0a6", linewidths=0.4, alpha=0.5, zorder=1))
     size = float(np.clip(9000 / max(network.n, 1), 12, 80))
     ax.scatter(xy[:, 0], xy[:, 1], s=size, c=colours, edgecolors="none", zorder=2)
     first = model.initial
-    ax.scatter(xy[first, 0], xy[first, 1], s=size * 2.2, facecolors="none", edgecolors="black", linewidths=1.0,
-               zorder=3)
+    ax.scatter(
+        xy[first, 0], xy[first, 1], s=size * 2.2, facecolors="none", edgecolors="black", linewidths=1.0, zorder=3
+    )
     handles = [Line2D([], [], marker="o", linestyle="", color=c, label=label) for label, c in STATE_COLOURS.items()]
-    handles.append(Line2D([], [], marker="o", linestyle="", markerfacecolor="none", color="black",
-                          label="initial customer"))
+    handles.append(
+        Line2D([], [], marker="o", linestyle="", markerfacecolor="none", color="black", label="initial customer")
+    )
     ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.01), ncol=2, frameon=False, fontsize=8)
     kind = "complete (every organisation knows every other; ties not drawn)" if network.complete else network.kind
     ax.set_title(f"{network.n} organisations, {kind} network — period {model.period}", fontsize=9)
@@ -128,15 +132,30 @@ def curve_figure(model: ReferralModel) -> Figure:
     periods = scenario.run.periods
     fig = Figure(figsize=(5.6, 4.0), dpi=100)
     ax = fig.add_subplot()
-    ax.plot(table["time"], table["customers"] / n, color=STATE_COLOURS["satisfied customer"], lw=2.2,
-            label="network (this run)")
+    ax.plot(
+        table["time"],
+        table["customers"] / n,
+        color=STATE_COLOURS["satisfied customer"],
+        lw=2.2,
+        label="network (this run)",
+    )
     if np.isfinite(aggregate).any():
-        label = "aggregate model (stock and flow)" if scenario.adoption.rule == "capped" else \
-            "aggregate model (Bass, same step)"
+        label = (
+            "aggregate model (stock and flow)"
+            if scenario.adoption.rule == "capped"
+            else "aggregate model (Bass, same step)"
+        )
         ax.plot(np.arange(periods + 1), aggregate, color="#555555", lw=1.4, ls="--", label=label)
     else:
-        ax.text(0.5, 0.92, f"the {scenario.adoption.rule} rule has no aggregate counterpart",
-                transform=ax.transAxes, ha="center", fontsize=8, color="#555555")
+        ax.text(
+            0.5,
+            0.92,
+            f"the {scenario.adoption.rule} rule has no aggregate counterpart",
+            transform=ax.transAxes,
+            ha="center",
+            fontsize=8,
+            color="#555555",
+        )
     ax.set_xlim(0, periods)
     ax.set_ylim(0, 1)
     ax.set_xlabel("period")
@@ -151,8 +170,10 @@ def _status(model: ReferralModel) -> str:
     scenario = model.womlab_scenario
     n = model.network.n
     aggregate = aggregate_curve(mapped_with(scenario, model.network))
-    line = (f"<b>Period {model.period} of {scenario.run.periods}</b> · {model.customers} customers of {n} "
-            f"({model.customers / n:.1%}), {model.satisfied_customers} satisfied")
+    line = (
+        f"<b>Period {model.period} of {scenario.run.periods}</b> · {model.customers} customers of {n} "
+        f"({model.customers / n:.1%}), {model.satisfied_customers} satisfied"
+    )
     if np.isfinite(aggregate[model.period]):
         line += f" · aggregate model {aggregate[model.period]:.1%}"
     return line
@@ -215,5 +236,9 @@ def view_page(scenario: Scenario, *, max_organisations: int = DEFAULT_MAX_ORGANI
         shown = shown.replace("run.clock", "discrete")
     fixed = {k: v for k, v in flat_parameters(shown).items() if k not in INPUTS}
     model = ReferralModel(shown)
-    return SolaraViz(model, components=[NetworkPanel, CurvePanel], model_params={**fixed, **_inputs(shown)},
-                     name=f"womlab · {shown.name}")
+    return SolaraViz(
+        model,
+        components=[NetworkPanel, CurvePanel],
+        model_params={**fixed, **_inputs(shown)},
+        name=f"womlab · {shown.name}",
+    )

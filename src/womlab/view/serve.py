@@ -49,13 +49,20 @@ def view_scenario(scenario: Scenario, max_organisations: int = DEFAULT_MAX_ORGAN
         return scenario
     changes: dict[str, object] = {"market.organisations": max_organisations}
     if market.initial_customers is not None:
-        changes["market.initial_customers"] = max(1, round(market.initial_customers * max_organisations
-                                                           / market.organisations))
+        changes["market.initial_customers"] = max(
+            1, round(market.initial_customers * max_organisations / market.organisations)
+        )
     return scenario.replace(changes)
 
 
-def serve_view(config: str | Path, *, port: int = 8765, host: str = "127.0.0.1",
-               max_organisations: int = DEFAULT_MAX_ORGANISATIONS, open_browser: bool = False) -> int:
+def serve_view(
+    config: str | Path,
+    *,
+    port: int = 8765,
+    host: str = "127.0.0.1",
+    max_organisations: int = DEFAULT_MAX_ORGANISATIONS,
+    open_browser: bool = False,
+) -> int:
     """Serve the browser view of a scenario until interrupted; returns the server's exit status.
 
     Runs ``solara run womlab.view.app`` in production mode on ``host:port`` with the
@@ -87,17 +94,34 @@ def serve_view(config: str | Path, *, port: int = 8765, host: str = "127.0.0.1",
     view_scenario(load_scenario(config), max_organisations)  # every mistake now, in one line
     missing = [name for name in ("solara", "altair") if importlib.util.find_spec(name) is None]
     if missing:
-        raise ViewError(f"the browser view needs the viz extra (missing {', '.join(missing)}): pip install 'womlab[viz]'")
+        raise ViewError(
+            f"the browser view needs the viz extra (missing {', '.join(missing)}): pip install 'womlab[viz]'"
+        )
     path = Path(config)
-    env = {**os.environ, CONFIG_VARIABLE: str(path.resolve()) if path.is_file() else str(config),
-           MAX_VARIABLE: str(max_organisations)}
+    env = {
+        **os.environ,
+        CONFIG_VARIABLE: str(path.resolve()) if path.is_file() else str(config),
+        MAX_VARIABLE: str(max_organisations),
+    }
     env.setdefault("SOLARA_TELEMETRY_MIXPANEL_ENABLE", "false")  # solara reports usage unless told not to
     if importlib.util.find_spec("solara_assets") is not None:
         # the page's scripts come from solara-assets through solara's own proxy; a file it lacked
         # would be fetched from this machine's discard port, never from a CDN elsewhere
         env.setdefault("SOLARA_ASSETS_CDN", OFFLINE_CDN)
-    command = [sys.executable, "-m", "solara", "run", "womlab.view.app", "--production", "--no-check-version",
-               "--host", host, "--port", str(port), "--open" if open_browser else "--no-open"]
+    command = [
+        sys.executable,
+        "-m",
+        "solara",
+        "run",
+        "womlab.view.app",
+        "--production",
+        "--no-check-version",
+        "--host",
+        host,
+        "--port",
+        str(port),
+        "--open" if open_browser else "--no-open",
+    ]
     try:
         return subprocess.run(command, env=env, check=False).returncode
     except KeyboardInterrupt:
