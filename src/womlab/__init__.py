@@ -189,6 +189,7 @@ __all__ = [
     "write_report",
     # the Mesa model, imported on first use so that `import womlab` does not import mesa
     "ReferralModel",
+    "Organisation",
     "run_mesa",
     # engines and their dispatch
     "engine_for",

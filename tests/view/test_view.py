@@ -172,11 +172,9 @@ def test_the_page_loads_a_step_advances_the_curve_and_the_network_shows(tmp_path
             assert label in body, f"no input labelled {label!r} on the page"
 
         def figures() -> list[str]:
-            found = [img.get_attribute("src") or "" for img in d_images()]
+            """The sources of the page's figure images: the network, then the curve."""
+            found = [img.get_attribute("src") or "" for img in driver.find_elements(By.TAG_NAME, "img")]
             return [src for src in found if src.startswith(("data:image/png", "blob:"))]
-
-        def d_images():  # noqa: ANN202
-            return driver.find_elements(By.TAG_NAME, "img")
 
         wait.until(lambda d: len(figures()) >= 2)
         before = figures()
