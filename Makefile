@@ -50,7 +50,8 @@ lint: $(STAMP)
 typecheck: $(STAMP)
 	$(BIN)/mypy
 
-# Build the wheel, install it (not editable) into a clean environment, run a shipped scenario.
+# Build the wheel, install it (not editable, no extras) into a clean environment, run shipped
+# demos: a batch and a sweep (the base install writes Parquet).
 package-check: $(STAMP)
 	rm -rf dist $(WHEEL_VENV) out/package-check
 	$(BIN)/pip wheel --quiet --no-deps --wheel-dir dist .
@@ -61,7 +62,9 @@ package-check: $(STAMP)
 	mkdir -p out/package-check && cd out/package-check && ../../$(WHEEL_VENV)/bin/womlab init demo \
 		&& ../../$(WHEEL_VENV)/bin/womlab run demo --replicates 2 --jobs 1 --quiet --out run-demo \
 		&& ../../$(WHEEL_VENV)/bin/womlab check demo.toml \
-		&& test -f run-demo/curves.csv && test -f run-demo/adoption.png
+		&& test -f run-demo/curves.csv && test -f run-demo/adoption.png \
+		&& ../../$(WHEEL_VENV)/bin/womlab sweep sweep-demo --out sweep-demo --jobs 2 --quiet \
+		&& test -f sweep-demo/runs.parquet && test -f sweep-demo/report.html
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/engines.py
