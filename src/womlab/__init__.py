@@ -8,13 +8,15 @@ curves against the aggregate Bass and stock-and-flow models.
 Quick start::
 
     import womlab
-    s = womlab.load_scenario("configs/demo.toml")
+    s = womlab.load_scenario("demo")  # a shipped demo by name, or any scenario file
     batch = womlab.run_replicates(s, 20, jobs=2)
     batch.metrics()                    # t10/t50/t90, peak, final share: network vs aggregate
     womlab.adoption_figure(batch).savefig("adoption.png")
 """
 
 from __future__ import annotations
+
+from importlib import metadata as _metadata
 
 from womlab.aggregate import (
     AggregateParameters,
@@ -37,7 +39,7 @@ from womlab.aggregate import (
     mapped_parameters,
     stock_and_flow,
 )
-from womlab.dynamics import RunResult, engine_for, run_events, streams
+from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
 from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
 from womlab.networks import ReferralNetwork, build_network, read_edgelist
 from womlab.results import (
@@ -55,7 +57,7 @@ from womlab.results import (
     sweep_summary,
     write_report,
 )
-from womlab.scenario import Scenario, load_scenario
+from womlab.scenario import Scenario, demo_names, load_scenario, write_demo
 from womlab.seeding import STRATEGIES, choose_seeds
 from womlab.store import ResultsStore
 from womlab.studies import (
@@ -95,7 +97,10 @@ from womlab.studies import (
     word_of_mouth_by_period,
 )
 
-__version__ = "0.1.0"
+try:  # the one source of the version is pyproject.toml, read from the installed metadata
+    __version__ = _metadata.version("womlab")
+except _metadata.PackageNotFoundError:  # pragma: no cover - imported from a source tree that was never installed
+    __version__ = "0+unknown"
 
 __all__ = [
     "AggregateParameters",
@@ -129,6 +134,7 @@ __all__ = [
     "comparison_figure",
     "curve_gap",
     "curve_metrics",
+    "demo_names",
     "degree_classes",
     "degree_mean_field",
     "degree_mean_field_curve",
@@ -163,8 +169,10 @@ __all__ = [
     "stock_and_flow",
     "streams",
     "time_to_share",
+    "to_networkx",
     "top_degree_referral_share",
     "word_of_mouth_by_period",
+    "write_demo",
     # sweeps, results store, sensitivity, report
     "ResultsStore",
     "SweepSummary",
@@ -181,6 +189,7 @@ __all__ = [
     "write_report",
     # the Mesa model, imported on first use so that `import womlab` does not import mesa
     "ReferralModel",
+    "Organisation",
     "run_mesa",
     # engines and their dispatch
     "engine_for",

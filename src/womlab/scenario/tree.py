@@ -95,6 +95,7 @@ from womlab.scenario.sections import (
     Talkers,
     Thresholds,
 )
+from womlab.scenario.shipped import demo_names, demo_path
 from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, parse_axes
 
 __all__ = ["Scenario", "load_scenario", "field_type", "SECTIONS"]
@@ -295,7 +296,7 @@ def field_type(dotted: str) -> type:
 
 
 def load_scenario(path: str | Path) -> Scenario:
-    """Read and validate a scenario TOML file.
+    """Read and validate a scenario TOML file, or a shipped demo by name (``"demo"``).
 
     Raises
     ------
@@ -303,8 +304,12 @@ def load_scenario(path: str | Path) -> Scenario:
         If the file is missing, is not valid TOML, or any field is invalid.
     """
     p = Path(path)
+    if not p.is_file() and str(path) in demo_names():  # a demo that ships with womlab
+        p = demo_path(str(path))
     if not p.is_file():
-        raise ScenarioError(f"scenario file {str(path)!r} does not exist")
+        raise ScenarioError(
+            f"scenario file {str(path)!r} does not exist (the shipped demos are {', '.join(demo_names())})"
+        )
     try:
         data = tomllib.loads(p.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:

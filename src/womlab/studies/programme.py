@@ -29,6 +29,7 @@ import pandas as pd
 from womlab.dynamics import ENROLMENT_STREAM, PROGRAMME_ENGINES, RunResult, streams
 from womlab.errors import ScenarioError
 from womlab.networks import build_network
+from womlab.networks.given import GivenNetwork, as_network
 from womlab.scenario import Referral, Scenario
 from womlab.studies.metrics import discount_factors, mean_interval
 from womlab.studies.referrals import referral_tree_summary
@@ -275,6 +276,7 @@ def evaluate_programme(
     jobs: int | None = None,
     progress: bool = False,
     degrees: bool = True,
+    network: GivenNetwork | None = None,
 ) -> ProgrammeStudy:
     """Evaluate the scenario's referral programme against no programme, on paired replicates.
 
@@ -294,6 +296,9 @@ def evaluate_programme(
     degrees : bool
         Rebuild each replicate's network (from its network stream) to record degrees for
         the top-decile statistic.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate and both arms (see
+        :func:`womlab.run_replicates`); it must have ``market.organisations`` organisations.
 
     Raises
     ------
@@ -323,11 +328,14 @@ def evaluate_programme(
     jobs = scenario.run.jobs if jobs is None else jobs
     if replicates < 1:
         raise ScenarioError(f"replicates must be a whole number >= 1, got {replicates}")
+    given = None if network is None else as_network(network, scenario.market.organisations)
     baseline = scenario.replace("referral.enrol", "none")
-    runs = run_paired({"baseline": baseline, "programme": scenario}, replicates, jobs=jobs, progress=progress)
+    runs = run_paired({"baseline": baseline, "programme": scenario}, replicates, jobs=jobs, progress=progress,
+                      network=given)
     degs = []
     if degrees:
         for r in range(replicates):
-            net = build_network(scenario, np.random.default_rng(streams(scenario.seed, (r,)).network))
+            net = given if given is not None else build_network(
+                scenario, np.random.default_rng(streams(scenario.seed, (r,)).network))
             degs.append(net.degree())
     return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs)
