@@ -35,6 +35,7 @@ __all__ = [
     "run_one",
     "run_replicates",
     "run_paired",
+    "as_network",
     "Batch",
 ]
 
@@ -77,12 +78,46 @@ def _run_variants(
     return out
 
 
+def as_network(network: Any, scenario: Scenario) -> ReferralNetwork:
+    """A network given by the caller, as a :class:`ReferralNetwork` checked against the scenario.
+
+    ``network`` is a ReferralNetwork, a networkx graph (nodes 0..N−1 or any ids, in sorted
+    order; an integer ``region`` attribute is kept) or a pandas table with columns
+    ``source`` and ``target`` (one row per tie).
+
+    Raises
+    ------
+    ScenarioError
+        If it is none of these, or its size differs from ``market.organisations``.
+    """
+    import networkx as nx
+
+    if isinstance(network, ReferralNetwork):
+        net = network
+    elif isinstance(network, nx.Graph):
+        net = ReferralNetwork.from_networkx(network, kind="given")
+    elif isinstance(network, pd.DataFrame):
+        missing = [c for c in ("source", "target") if c not in network.columns]
+        if missing:
+            raise ScenarioError(f"network= table must have columns source, target; missing {', '.join(missing)} "
+                                f"(found {', '.join(map(str, network.columns))})")
+        net = ReferralNetwork.from_networkx(nx.from_pandas_edgelist(network, "source", "target"), kind="given")
+    else:
+        raise ScenarioError("network= must be a ReferralNetwork, a networkx graph or a pandas table with columns "
+                            f"source, target; got {type(network).__name__}")
+    if net.n != scenario.market.organisations:
+        raise ScenarioError(f"network= has {net.n} organisations but market.organisations = "
+                            f"{scenario.market.organisations}; they must match")
+    return net
+
+
 def _chunk(
-    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None
+    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None,
+    network: ReferralNetwork | None = None,
 ) -> list[tuple[tuple, dict[str, Any]]]:
     out = []
     for key in keys:
-        runs = _run_variants(variants, key)
+        runs = _run_variants(variants, key, network)
         out.append((key, runs if reduce is None else {name: reduce(r) for name, r in runs.items()}))
     return out
 
@@ -107,6 +142,7 @@ def _execute(
     jobs: int,
     progress: bool,
     reduce: Callable[[RunResult], Any] | None = None,
+    network: ReferralNetwork | None = None,
 ) -> dict[tuple, dict[str, Any]]:
     """Run every key, chunked across ``jobs`` workers; results keyed by spawn key.
 
@@ -117,11 +153,11 @@ def _execute(
     workers = effective_n_jobs(jobs)
     if workers == 1 or len(keys) == 1:
         chunks = [[k] for k in keys]
-        results = (_chunk(variants, c, reduce) for c in chunks)
+        results = (_chunk(variants, c, reduce, network) for c in chunks)
     else:
         size = max(1, min(32, len(keys) // (workers * 4)))
         chunks = [keys[i : i + size] for i in range(0, len(keys), size)]
-        results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c, reduce) for c in chunks)
+        results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c, reduce, network) for c in chunks)
     done: dict[tuple, dict[str, RunResult]] = {}
     bar = None
     if progress:
@@ -252,6 +288,7 @@ def run_paired(
     progress: bool = False,
     keys: Iterable[tuple[int, ...]] | None = None,
     reduce: Callable[[RunResult], Any] | None = None,
+    network: ReferralNetwork | None = None,
 ) -> dict[str, list[Any]]:
     """Run every variant on the same replicates with common random numbers.
 
@@ -274,6 +311,9 @@ def run_paired(
     reduce : callable, optional
         A picklable function applied to each RunResult inside the worker; its return
         value replaces the run (keeps large studies small in memory).
+    network : ReferralNetwork, optional
+        Run every replicate on this network instead of building one from its network
+        stream (:func:`as_network` makes one from a graph or an edge table).
 
     Returns
     -------
@@ -282,5 +322,5 @@ def run_paired(
     """
     _check_pairable(variants)
     keys = [(r,) for r in range(replicates)] if keys is None else [tuple(k) for k in keys]
-    done = _execute(dict(variants), keys, jobs, progress, reduce)
+    done = _execute(dict(variants), keys, jobs, progress, reduce, network)
     return {name: [done[k][name] for k in keys] for name in variants}
