@@ -134,6 +134,7 @@ def test_a_folder_with_other_files_is_refused(tmp_path):
     with pytest.raises(StoreError, match="not empty and holds no sweep manifest"):
         run_sweep(small(), tmp_path / "d", 1, progress=False, report=False)
     assert (tmp_path / "d" / "notes.txt").read_text() == "mine"
+    assert [f.name for f in (tmp_path / "d").iterdir()] == ["notes.txt"]  # not even a lock file left there
 
 
 def test_a_failing_run_is_recorded_and_the_rest_completes_then_retried_on_resume(tmp_path, monkeypatch):

@@ -412,3 +412,40 @@ def test_an_unreachable_or_malformed_scheduler_is_one_line_and_creates_no_folder
     assert code == 2 and err.count("\n") == 1
     assert err.startswith(f"womlab: error: cannot reach the scheduler at {address} within 10 s")
     assert time.monotonic() - start < 40 and not (tmp_path / "never").exists()
+
+
+def test_morris_screening_works_on_a_study_statistic(tmp_path):
+    # Morris (1991): with one input, every elementary effect is the change of the point estimate per unit
+    # of the axis's range; μ* of ROI over the reward is the mean |ΔROI| / Δ of the trajectories' steps.
+    from womlab.results.report import sensitivity_table
+    from womlab.studies.sweep import unit_coordinates
+
+    s = Scenario.from_dict({**PROGRAMME, "sweep": {"study": "programme", "design": "morris", "samples": 2,
+                                                   "replicates": 2,
+                                                   "axes": {"referral.reward": {"from": 1.0, "to": 9.0}}}})
+    run_sweep(s, tmp_path / "m", 1, progress=False, report=True)
+    table = sensitivity_table(tmp_path / "m").set_index("outcome")
+    summary = sweep_summary(tmp_path / "m")
+    roi = summary[summary["outcome"] == "roi"].sort_values("point")["estimate"].to_numpy()
+    u = unit_coordinates(s, ResultsStore(tmp_path / "m").points())[:, 0]
+    effects = [abs(roi[j + 1] - roi[j]) / abs(u[j + 1] - u[j]) for j in (0, 2)]
+    assert table.loc["roi", "mu_star"] == pytest.approx(np.mean(effects), rel=1e-9)
+    assert "Morris screening" in (tmp_path / "m" / "report.html").read_text()
+
+
+def test_a_folder_written_before_studies_is_still_reported(tmp_path):
+    import json
+
+    s = scenario({"replicates": 2, "axes": {"adoption.word_of_mouth": [0.2, 0.4]}})
+    run_sweep(s, tmp_path / "old", 1, progress=False, report=False)
+    manifest_path = tmp_path / "old" / "manifest.json"
+    data = json.loads(manifest_path.read_text())
+    for key in ("study", "columns", "inputs", "history"):
+        data.pop(key)
+    data["format"] = data["identity"]["format"] = 1
+    data["scenario"]["sweep"].pop("study")
+    manifest_path.write_text(json.dumps(data))
+    assert main(["report", str(tmp_path / "old")]) == 0
+    assert set(sweep_summary(tmp_path / "old")["outcome"]) >= {"final_share", "t50"}
+    with pytest.raises(StoreError, match="store format 1, this womlab writes format 2"):
+        run_sweep(s, tmp_path / "old", 1, progress=False, report=False)

@@ -241,6 +241,14 @@ class ResultsStore:
             lock.release()
 
     # ------------------------------------------------------------------ opening
+    def check_usable(self) -> None:
+        """Refuse, touching nothing, a path that is a file or a folder of other files (before any lock file is made)."""
+        p = self.path
+        if p.exists() and not p.is_dir():
+            raise StoreError(f"--out {str(p)!r} exists and is not a folder")
+        if p.is_dir() and not self.exists() and any(f.name != LOCK_NAME for f in p.iterdir()):
+            raise StoreError(f"--out {str(p)!r} is not empty and holds no sweep manifest; use a new or empty folder")
+
     def create(self, manifest: dict[str, Any], points: pd.DataFrame) -> None:
         """Start a new sweep in the (empty, locked) folder: ``points.parquet``, then the manifest.
 

@@ -56,7 +56,7 @@ import pandas as pd
 from womlab.errors import ClusterError, ScenarioError, StoreError
 from womlab.networks import ReferralNetwork
 from womlab.scenario import Axis, Scenario, field_type
-from womlab.scenario.sweep_spec import is_path_field
+from womlab.scenario.sweep_spec import FIXED_FIELDS, is_path_field
 from womlab.store import STORE_FORMAT, ResultsStore, differences, file_sha256, runs_schema, versions
 from womlab.studies.presenting import present
 from womlab.studies.runner import as_network
@@ -380,11 +380,14 @@ def _network_identity(network: ReferralNetwork | None) -> dict[str, Any] | None:
 
 
 def _identity(scenario: Scenario, curves: bool, network: ReferralNetwork | None) -> dict[str, Any]:
-    """What must match for a folder to be resumed or grown: everything but run.jobs, the replicates
-    and (grid) the axes' values, which may grow."""
+    """What must match for a folder to be resumed or grown: everything but the fields that change no
+    result (``sweep_spec.FIXED_FIELDS``: run.jobs, the scenario's name, ...), the replicates and (grid)
+    the axes' values, which may grow."""
     base = scenario.to_dict()
     base.pop("sweep", None)
-    base["run"].pop("jobs", None)
+    for dotted in FIXED_FIELDS:  # fields that change no result of a sweep
+        section, _, name = dotted.rpartition(".")
+        (base.get(section, {}) if section else base).pop(name, None)
     spec = scenario.sweep
     sweep: dict[str, Any] = {"design": spec.design, "study": spec.study,
                              "axes": {a.name: ({"follows": a.follows} if a.follows else "") for a in spec.axes}}
@@ -691,13 +694,14 @@ def run_sweep(
         "identity": _identity(scenario, curves, given),
     }
 
+    store = ResultsStore(out, notify=notify)
+    store.check_usable()  # a file, or a folder of other files: refused before anything starts
     client = local = None
     if scheduler is not None or cluster is not None:  # reached (or refused) before any folder is created
         client, local, backend, workers = _connect(scheduler, cluster, cluster_processes, security, connect_timeout)
     else:
         workers = effective_n_jobs(scenario.run.jobs if jobs is None else jobs)
         backend = f"loky, {workers} workers" if workers > 1 else "in-process"
-    store = ResultsStore(out, notify=notify)
     try:
         with store.locked(wait):
             points, added_points, added_replicates = _open(store, scenario, design, manifest)
