@@ -40,8 +40,9 @@ from womlab.aggregate import (
     stock_and_flow,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
-from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.errors import ClusterError, NetworkError, ScenarioError, StoreError, WomlabError
 from womlab.networks import ReferralNetwork, build_network, read_edgelist
+from womlab.networks.given import as_network
 from womlab.results import (
     adoption_figure,
     comparison_figure,
@@ -65,6 +66,7 @@ from womlab.studies import (
     Comparison,
     ProgrammeStudy,
     SeedingStudy,
+    SweepStudy,
     SweepSummary,
     aggregate_curves,
     compare,
@@ -81,7 +83,9 @@ from womlab.studies import (
     pooled_gaps,
     pooled_metrics,
     programme_economics,
+    programme_ratios,
     referral_tree_summary,
+    register_sweep_study,
     referrals_per_customer,
     replicate_gaps,
     replicate_metrics,
@@ -92,6 +96,7 @@ from womlab.studies import (
     run_sweep,
     saltelli_design,
     sobol_indices,
+    sweep_studies,
     time_to_share,
     top_degree_referral_share,
     word_of_mouth_by_period,
@@ -106,6 +111,7 @@ __all__ = [
     "AggregateParameters",
     "BassFit",
     "Batch",
+    "ClusterError",
     "Comparison",
     "NetworkError",
     "ProgrammeStudy",
@@ -121,6 +127,7 @@ __all__ = [
     "adoption_figure",
     "aggregate_curve",
     "aggregate_curves",
+    "as_network",
     "bass_density",
     "bass_difference",
     "bass_fit_table",
@@ -152,6 +159,7 @@ __all__ = [
     "pooled_metrics",
     "programme_economics",
     "programme_figure",
+    "programme_ratios",
     "read_edgelist",
     "referral_tree_figure",
     "referral_tree_summary",
@@ -175,7 +183,10 @@ __all__ = [
     "write_demo",
     # sweeps, results store, sensitivity, report
     "ResultsStore",
+    "SweepStudy",
     "SweepSummary",
+    "register_sweep_study",
+    "sweep_studies",
     "design_points",
     "morris_design",
     "morris_effects",

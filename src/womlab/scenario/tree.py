@@ -96,7 +96,7 @@ from womlab.scenario.sections import (
     Thresholds,
 )
 from womlab.scenario.shipped import demo_names, demo_path
-from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, parse_axes
+from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, is_path_field, parse_axes, resolve_path
 
 __all__ = ["Scenario", "load_scenario", "field_type", "SECTIONS"]
 
@@ -236,14 +236,13 @@ def _build_section(cls: type, dotted: str, value: Any, base_dir: str | Path | No
         if nested is Talkers:
             kwargs[key] = _talkers(item, name)
         elif nested is Axis:
-            kwargs[key] = parse_axes(item, name)
+            kwargs[key] = parse_axes(item, name, base_dir)
         elif nested is not None:
             kwargs[key] = _build_section(nested, name, item, base_dir)
         else:
             kwargs[key] = coerce(item, types_of[key], name)
-        if cls is NetworkSpec and key in ("path", "nodes_path") and kwargs[key] is not None and base_dir is not None:
-            p = Path(kwargs[key])
-            kwargs[key] = str(p if p.is_absolute() else (Path(base_dir) / p).resolve())
+        if is_path_field(name) and isinstance(kwargs[key], str) and base_dir is not None:
+            kwargs[key] = resolve_path(kwargs[key], base_dir)
     return cls(**kwargs)
 
 
