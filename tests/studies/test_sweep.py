@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from womlab import ScenarioError, StoreError, run_one
+from womlab import NetworkError, ScenarioError, StoreError, run_one
 from womlab.cli import main
 from womlab.studies.metrics import curve_metrics
 from womlab.scenario import Scenario
@@ -314,7 +314,7 @@ def test_a_given_network_runs_every_point_and_must_fit_the_market(tmp_path):
     net = ReferralNetwork.from_networkx(graph)
     row = outcomes(tmp_path / "g").set_index(["point", "replicate"]).loc[(1, 1)]
     assert row["customers"] == run_one(point_scenarios(s)[1], key=(1, 1), network=net).customers[-1]
-    with pytest.raises(ScenarioError, match="network= has 250 organisations but market.organisations = 300"):
+    with pytest.raises(NetworkError, match="the network has 250 organisations but market.organisations is 300"):
         run_sweep(s, tmp_path / "x", 1, network=nx.path_graph(250), progress=False)
     with pytest.raises(ScenarioError, match=r"the network is given \(network=\), so network.kind cannot vary"):
         run_sweep(scenario({"axes": {"network.kind": ["random", "ring"]}}), tmp_path / "x", 1, network=graph,
