@@ -12,20 +12,24 @@ from womlab.networks.build import BUILDERS, build_network
 from womlab.networks.builders import (
     complete,
     networkx_random,
-    networkx_regional,
+    networkx_regional_blocks,
     networkx_regular,
     networkx_ring,
     networkx_scale_free,
     networkx_small_world,
     random,
+    expected_clustering,
     regional,
+    regional_blocks,
     regular,
+    rewired_lattice_clustering,
     ring,
     scale_free,
     small_world,
 )
 from womlab.networks.edgelist import count_edgelist_organisations, edgelist_facts, read_edgelist
 from womlab.networks.network import ReferralNetwork, balanced_regions, from_edges
+from womlab.networks.tables import from_edge_table
 from womlab.scenario.registry import register_edgelist_reader
 
 register_edgelist_reader(edgelist_facts)
@@ -41,6 +45,10 @@ __all__ = [
     "random",
     "small_world",
     "regional",
+    "regional_blocks",
+    "expected_clustering",
+    "rewired_lattice_clustering",
+    "from_edge_table",
     "scale_free",
     "read_edgelist",
     "count_edgelist_organisations",
@@ -50,6 +58,6 @@ __all__ = [
     "networkx_regular",
     "networkx_random",
     "networkx_small_world",
-    "networkx_regional",
+    "networkx_regional_blocks",
     "networkx_scale_free",
 ]

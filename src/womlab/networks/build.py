@@ -26,7 +26,10 @@ BUILDERS: dict[str, Builder] = {
     "regular": lambda s, m, rng: builders.regular(m.organisations, int(s.mean_degree), rng, regions=m.regions),
     "random": lambda s, m, rng: builders.random(m.organisations, s.mean_degree, rng, regions=m.regions),
     "small_world": lambda s, m, rng: builders.small_world(m.organisations, int(s.mean_degree), s.rewiring, rng, regions=m.regions),
-    "regional": lambda s, m, rng: builders.regional(m.organisations, s.mean_degree, m.regions, s.within_region_share, rng),
+    "regional": lambda s, m, rng: builders.regional(m.organisations, int(s.mean_degree), m.regions, s.within_region_share, rng,
+                                                    rewiring=s.rewiring),
+    "regional_blocks": lambda s, m, rng: builders.regional_blocks(m.organisations, s.mean_degree, m.regions,
+                                                                  s.within_region_share, rng),
     "scale_free": lambda s, m, rng: builders.scale_free(m.organisations, int(s.mean_degree), rng, regions=m.regions),
     "edgelist": lambda s, m, rng: read_edgelist(s.path, s.nodes_path),
 }

@@ -41,7 +41,8 @@ __all__ = [
     "REWARD_SCHEMES",
 ]
 
-NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "scale_free", "edgelist")
+NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "regional_blocks", "scale_free",
+                 "edgelist")
 RULES = ("share", "count", "capped", "threshold", "cascade")
 STEP_FORMS = ("exponential", "linear")
 ENGINES = ("array", "mesa")
