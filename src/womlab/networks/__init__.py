@@ -30,9 +30,12 @@ from womlab.networks.builders import (
 from womlab.networks.edgelist import count_edgelist_organisations, edgelist_facts, read_edgelist
 from womlab.networks.network import ReferralNetwork, balanced_regions, from_edges
 from womlab.networks.tables import from_edge_table
-from womlab.scenario.registry import register_edgelist_reader
+from womlab.networks.graphfile import GRAPH_FORMATS, graph_file_facts, read_graph_file
+from womlab.scenario.registry import register_edgelist_reader, register_network_file_reader
 
 register_edgelist_reader(edgelist_facts)
+for _kind in GRAPH_FORMATS:
+    register_network_file_reader(_kind, lambda path, nodes_path, kind=_kind: graph_file_facts(kind, path))
 
 __all__ = [
     "ReferralNetwork",
@@ -53,6 +56,8 @@ __all__ = [
     "read_edgelist",
     "count_edgelist_organisations",
     "edgelist_facts",
+    "read_graph_file",
+    "graph_file_facts",
     "balanced_regions",
     "networkx_ring",
     "networkx_regular",

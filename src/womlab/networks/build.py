@@ -10,6 +10,7 @@ import numpy as np
 from womlab.errors import NetworkError
 from womlab.networks import builders
 from womlab.networks.edgelist import read_edgelist
+from womlab.networks.graphfile import read_graph_file
 from womlab.networks.network import ReferralNetwork
 from womlab.scenario import Market, NetworkSpec, Scenario
 
@@ -32,6 +33,8 @@ BUILDERS: dict[str, Builder] = {
                                                                   s.within_region_share, rng),
     "scale_free": lambda s, m, rng: builders.scale_free(m.organisations, int(s.mean_degree), rng, regions=m.regions),
     "edgelist": lambda s, m, rng: read_edgelist(s.path, s.nodes_path),
+    "graphml": lambda s, m, rng: read_graph_file(s.path, "graphml", region=s.region_attribute),
+    "gexf": lambda s, m, rng: read_graph_file(s.path, "gexf", region=s.region_attribute),
 }
 
 
