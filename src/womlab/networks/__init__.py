@@ -8,7 +8,7 @@ function per kind (built straight into arrays, each with its networkx reference 
 
 from __future__ import annotations
 
-from womlab.networks.build import BUILDERS, build_network
+from womlab.networks.build import BUILDERS, build_network, network_clustering_line
 from womlab.networks.builders import (
     complete,
     networkx_random,
@@ -41,6 +41,7 @@ __all__ = [
     "ReferralNetwork",
     "BUILDERS",
     "build_network",
+    "network_clustering_line",
     "from_edges",
     "complete",
     "ring",

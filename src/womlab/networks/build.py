@@ -17,7 +17,7 @@ from womlab.scenario import Market, NetworkSpec, Scenario
 if TYPE_CHECKING:
     import networkx as nx
 
-__all__ = ["build_network", "BUILDERS"]
+__all__ = ["build_network", "BUILDERS", "network_clustering_line"]
 
 Builder = Callable[[NetworkSpec, Market, np.random.Generator], "nx.Graph | ReferralNetwork"]
 
@@ -58,3 +58,27 @@ def build_network(scenario: Scenario, rng: np.random.Generator) -> ReferralNetwo
     if isinstance(built, ReferralNetwork):
         return built
     return ReferralNetwork.from_networkx(built, kind)
+
+
+
+def network_clustering_line(scenario: Scenario, rng: np.random.Generator) -> str:
+    """The mean local clustering of the network built from ``rng``, beside the builder's expected
+    value where it has one (:func:`womlab.networks.builders.expected_clustering`), as one line.
+
+    ``womlab check`` passes replicate 0's network stream, so the figure is that of the
+    network the first run sees; the expected value is what the kind gives on average.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from womlab import Scenario
+    >>> s = Scenario.from_dict({"market": {"organisations": 400}, "network": {"kind": "ring", "mean_degree": 6}})
+    >>> network_clustering_line(s, np.random.default_rng(0))
+    '0.6 (one network built from the seed; expected 0.6 for ring)'
+    """
+    net = build_network(scenario, rng)
+    spec = scenario.network
+    expected = builders.expected_clustering(spec.kind, scenario.market.organisations, spec.mean_degree,
+                                            rewiring=spec.rewiring, within_region_share=spec.within_region_share)
+    known = f"expected {expected:.4g} for {spec.kind}" if expected is not None else f"no closed form for {spec.kind}"
+    return f"{net.clustering():.4g} (one network built from the seed; {known})"

@@ -94,7 +94,7 @@ def from_edge_table(
     s = position.get_indexer([str(v) for v in src])
     t = position.get_indexer([str(v) for v in dst])
     if (s < 0).any() or (t < 0).any():
-        bad = np.concatenate([src[s < 0], dst[t < 0]])[:5]
+        bad = pd.unique(np.concatenate([src[s < 0], dst[t < 0]]))[:5]
         raise NetworkError(
             f"{where[0]}: ties name ids missing from {where[1]}, e.g. {', '.join(map(str, bad))}; "
             f"allowed: ids listed in its {id!r} column"
