@@ -21,6 +21,8 @@ test: $(STAMP)
 bench: $(STAMP)
 	$(BIN)/python benchmarks/engines.py
 	$(BIN)/python benchmarks/sweeps.py
+	$(BIN)/python benchmarks/networks.py
+	$(BIN)/python benchmarks/seeding.py
 
 clean:
 	rm -rf $(VENV) out

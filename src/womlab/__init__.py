@@ -39,7 +39,7 @@ from womlab.aggregate import (
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams
 from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
-from womlab.networks import ReferralNetwork, build_network, read_edgelist
+from womlab.networks import ReferralNetwork, build_network, from_edge_table, read_edgelist, read_graph_file
 from womlab.results import (
     adoption_figure,
     comparison_figure,
@@ -147,6 +147,8 @@ __all__ = [
     "programme_economics",
     "programme_figure",
     "read_edgelist",
+    "read_graph_file",
+    "from_edge_table",
     "referral_tree_figure",
     "referral_tree_summary",
     "referrals_per_customer",
