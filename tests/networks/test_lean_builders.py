@@ -69,6 +69,14 @@ def test_first_in_rows_marks_later_repeats_in_either_direction():
     a = np.array([0, 1, 2, 1, 0, 3, 3])
     b = np.array([1, 0, 2, 2, 1, 2, 2])
     assert first_in_rows(4, a, b).tolist() == [True, False, True, True, False, True, False]
+    # few pairs among many organisations take the hashing path; it must mark exactly what the rows path marks
+    from womlab.networks.kernels import _first_by_rows
+
+    rng = np.random.default_rng(2)
+    a = rng.integers(0, 50, 4000)
+    b = rng.integers(0, 50, 4000) + 100_000 * rng.integers(0, 2, 4000)
+    hashed = first_in_rows(1_000_000, a, b)
+    assert np.array_equal(hashed, _first_by_rows(1_000_000, a, b)) and (~hashed).sum() > 1000
 
 
 @pytest.mark.parametrize("graph", ["karate", "florentine", "random"])

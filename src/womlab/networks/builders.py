@@ -448,10 +448,13 @@ def regional(
     cross_share = 1.0 - within_region_share
     moved, u = _uniform_below(rng, lattice.src.size, cross_share + within_region_share * rewiring)
     if moved.size:
-        region_of_tie = lattice.block[lattice.src[moved]]
         cross = u < cross_share
-        start, size = lattice.starts[region_of_tie], sizes[region_of_tie]
-        high = np.where(cross, n - size, size)
+        del u
+        region_of_tie = lattice.block[lattice.src[moved]]
+        start = lattice.starts.astype(np.int32)[region_of_tie]  # int32 throughout: these live while far ends are drawn
+        size = sizes.astype(np.int32)[region_of_tie]
+        del region_of_tie
+        high = np.where(cross, np.int32(n) - size, size)
 
         def draw(todo: np.ndarray) -> np.ndarray:
             x = rng.integers(0, high[todo])

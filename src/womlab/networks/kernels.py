@@ -142,13 +142,45 @@ def lattice_tie_index(a: np.ndarray, b: np.ndarray, block: np.ndarray, starts: n
 
 
 @njit(cache=True)
+def _first_by_hashing(n: int, a: np.ndarray, b: np.ndarray, slots: int) -> np.ndarray:
+    """First occurrences by an open-addressing table of pairs seen (``slots`` a power of two)."""
+    m = a.size
+    table = np.full(slots, -1, dtype=np.int64)
+    mask = slots - 1
+    first = np.ones(m, dtype=np.bool_)
+    for k in range(m):
+        lo, hi = min(a[k], b[k]), max(a[k], b[k])
+        key = np.int64(lo) * n + hi
+        h = (key * np.int64(-7046029254386353131)) >> 20 & mask  # multiplicative hashing
+        while True:
+            if table[h] == -1:
+                table[h] = key
+                break
+            if table[h] == key:
+                first[k] = False
+                break
+            h = (h + 1) & mask
+    return first
+
+
 def first_in_rows(n: int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """True where the undirected pair (aₖ, bₖ) appears for the first time, in array order.
 
-    Each pair is filed under its smaller end in arrival order, then each row is sorted
-    stably by the larger end, so the first of equal pairs is the earliest. O(pairs)
-    memory, no int64 keys and no global sort.
+    Few pairs among many organisations (the moved ties of a rewiring): a table of the
+    pairs seen, one probe per pair. Otherwise each pair is filed under its smaller end
+    in arrival order and each row sorted stably by the larger end, so the first of equal
+    pairs is the earliest. Either way memory is O(pairs + organisations) and there is no
+    global sort.
     """
+    m = int(a.size)
+    if 4 * m < n:
+        slots = 1 << max(4, int(2 * m).bit_length())
+        return _first_by_hashing(int(n), a, b, slots)
+    return _first_by_rows(int(n), a, b)
+
+
+@njit(cache=True)
+def _first_by_rows(n: int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     m = a.size
     counts = np.zeros(n + 1, dtype=np.int64)
     for k in range(m):
