@@ -28,7 +28,7 @@ import womlab
 from womlab.store import atomic_write
 
 HERE = Path(__file__).resolve().parent
-KINDS = ("random", "small_world", "regional", "scale_free")
+KINDS = ("random", "small_world", "regional_blocks", "scale_free")  # regions as measured: the block model
 REWARDS = (2.5, 5.0, 10.0, 20.0, 40.0, 80.0)
 
 

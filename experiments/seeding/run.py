@@ -26,13 +26,13 @@ import womlab
 from womlab.store import atomic_write, versions
 
 HERE = Path(__file__).resolve().parent
-KINDS = ("random", "small_world", "regional", "scale_free")
+KINDS = ("random", "small_world", "regional_blocks", "scale_free")  # regions as measured: the block model
 # word of mouth per rule: share q = 0.4 of the satisfied share; count q = 0.07 per talker,
 # about 0.4 / mean degree, so that both rules spread at a similar pace on the random network
 RULES = {"share": 0.4, "count": 0.07}
 EXTERNAL = (0.0, 0.01)
 TICKS = (0.25, 0.5, 0.75, 1, 1.5, 2, 3, 4)
-COLOURS = {"random": "#555555", "small_world": "#1f5f8b", "regional": "#2e8b57", "scale_free": "#c0392b"}
+COLOURS = {"random": "#555555", "small_world": "#1f5f8b", "regional_blocks": "#2e8b57", "scale_free": "#c0392b"}
 
 
 def run(replicates: int | None, jobs: int | None) -> pd.DataFrame:
