@@ -14,6 +14,11 @@ and N with
   its peak resident set (``getrusage`` ``ru_maxrss``). The network is kept while measured,
   so the multiple is at least 1.
 
+With ``--previous`` (on by default up to N = 10⁶), each kind that existed before the compiled
+build is also built by the previous builders (kept as the test oracle in
+``tests/networks/previous_builders.py``) in the same way, in its own subprocess, and the table
+gives the ratio of the two.
+
 And, with ``--whole N``, the whole command ``womlab run`` at that N (small world, mean
 degree 10, 100 periods, one replicate, build + run + write) as a subprocess: wall time and
 peak resident memory.
@@ -52,8 +57,22 @@ KINDS = {
 CHILD = r"""
 import json, resource, sys, time
 sys.path.insert(0, {src!r})
+sys.path.insert(0, {tests!r})
 import numpy as np
 from womlab import Scenario, build_network
+if {previous!r}:
+    import previous_builders as old
+    spec = {network!r}
+    kind = {{"regional_blocks": "regional"}}.get(spec["kind"], spec["kind"])
+    def build_network(s, rng):
+        n, k = s.market.organisations, s.network.mean_degree
+        if kind == "regional":
+            return old.regional(n, k, s.market.regions, s.network.within_region_share, rng)
+        if kind == "small_world":
+            return old.small_world(n, int(k), s.network.rewiring, rng, regions=s.market.regions)
+        if kind in ("ring", "regular", "scale_free"):
+            return getattr(old, kind)(n, int(k), rng, regions=s.market.regions)
+        return getattr(old, kind)(n, k, rng, regions=s.market.regions)
 
 def scenario(n):
     return Scenario.from_dict({{"seed": 1, "market": {{"organisations": n, "regions": 8}}, "network": {network!r}}})
@@ -101,8 +120,13 @@ def machine() -> str:
     return f"{cpu}, {os.cpu_count()} logical cores, {platform.system()} {platform.release()}"
 
 
-def measure(kind: str, n: int, repeats: int) -> dict:
-    code = CHILD.format(src=str(ROOT / "src"), network=KINDS[kind], n=n, repeats=repeats)
+#: kinds the previous builders had (their regional was today's regional_blocks)
+PREVIOUS = ("ring", "small_world", "random", "regular", "regional_blocks", "scale_free")
+
+
+def measure(kind: str, n: int, repeats: int, previous: bool = False) -> dict:
+    code = CHILD.format(src=str(ROOT / "src"), tests=str(ROOT / "tests" / "networks"), network=KINDS[kind], n=n,
+                        repeats=repeats, previous=previous)
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     if done.returncode != 0:
         return {"error": done.stderr.strip().splitlines()[-1] if done.stderr.strip() else f"exit {done.returncode}"}
@@ -154,16 +178,23 @@ def report(rows: list[dict], whole: dict | None, command: str, whole_n: int, per
         "the network is held while measured, so the multiple of its own size is at least 1.",
         "- the machine was shared with other work while this ran: seconds are noisy.",
         "",
-        "| kind | N | ties | builds | build s | network MB | peak above MB | peak / network |",
-        "| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: |",
+        "Before: the previous builders (int64 keys, global sorts, choice without replacement), measured the "
+        "same way in their own subprocess right after; their `regional` is today's `regional_blocks`.",
+        "",
+        "| kind | N | ties | builds | build s | network MB | peak above MB | peak / network | before: build s | "
+        "before: peak / network | before / now, time |",
+        "| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |",
     ]
     for r in rows:
         if "error" in r:
-            lines.append(f"| {r['kind']} | {r['n']:,} | — | — | failed: {r['error']} | | | |")
+            lines.append(f"| {r['kind']} | {r['n']:,} | — | — | failed: {r['error']} | | | | | | |")
             continue
+        b = r.get("before")
+        before = ("| — | — | — |" if not b or "error" in b else
+                  f"| {b['seconds']:.4g} | {b['peak_above'] / b['own']:.2f}× | {b['seconds'] / r['seconds']:.1f}× |")
         lines.append(
             f"| {r['kind']} | {r['n']:,} | {r['ties']:,} | {r['repeats']} | {r['seconds']:.4g} | {_mb(r['own'])} | "
-            f"{_mb(r['peak_above'])} | {r['peak_above'] / r['own']:.2f}× |"
+            f"{_mb(r['peak_above'])} | {r['peak_above'] / r['own']:.2f}× " + before
         )
     if whole is not None:
         lines += ["", f"## Whole command at N = {whole_n:,}", "",
@@ -184,6 +215,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--large", type=int, default=10_000_000, help="N also built for --large-kinds; 0 skips it")
     ap.add_argument("--large-kinds", nargs="+", default=["small_world", "random", "regional"], choices=list(KINDS))
     ap.add_argument("--repeats", type=int, default=5, help="builds per (kind, N) up to N = 100,000")
+    ap.add_argument("--previous-up-to", type=int, default=1_000_000,
+                    help="largest N at which the previous builders are measured too (0: never)")
     ap.add_argument("--whole", type=int, default=10_000_000, help="N of the whole-command run; 0 skips it")
     ap.add_argument("--whole-periods", type=int, default=100)
     ap.add_argument("--out", type=Path, default=ROOT / "benchmarks" / "results" / "networks.md")
@@ -196,6 +229,8 @@ def main(argv: list[str] | None = None) -> int:
     for kind, n in plan:
         repeats = args.repeats if n <= 100_000 else 1
         row = {"kind": kind, "n": n, "repeats": repeats, **measure(kind, n, repeats)}
+        if kind in PREVIOUS and n <= args.previous_up_to:
+            row["before"] = measure(kind, n, repeats, previous=True)
         print(json.dumps(row), flush=True)
         rows.append(row)
     whole = whole_command(args.whole, args.whole_periods) if args.whole else None
