@@ -32,8 +32,6 @@ from __future__ import annotations
 import argparse
 import datetime as dt
 import json
-import os
-import platform
 import resource
 import subprocess
 import sys
@@ -42,6 +40,9 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+from about import machine, versions  # noqa: E402
 
 #: the kinds and their structure: mean degree 10 everywhere, 8 regions where a kind uses them
 KINDS = {
@@ -98,28 +99,6 @@ print(json.dumps({{"seconds": sorted(times)[len(times) // 2], "ties": net.ties, 
 """
 
 
-def versions() -> dict[str, str]:
-    out = {"python": platform.python_version()}
-    for name in ("numpy", "scipy", "networkx", "numba", "womlab"):
-        try:
-            out[name] = __import__(name).__version__
-        except Exception:  # noqa: BLE001 - a missing library is reported, not fatal
-            out[name] = "not installed"
-    return out
-
-
-def machine() -> str:
-    cpu = platform.processor() or platform.machine()
-    try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                cpu = line.split(":", 1)[1].strip()
-                break
-    except OSError:
-        pass
-    return f"{cpu}, {os.cpu_count()} logical cores, {platform.system()} {platform.release()}"
-
-
 #: kinds the previous builders had (their regional was today's regional_blocks)
 PREVIOUS = ("ring", "small_world", "random", "regular", "regional_blocks", "scale_free")
 
@@ -163,7 +142,7 @@ def _mb(b: float) -> str:
 
 
 def report(rows: list[dict], whole: dict | None, command: str, whole_n: int, periods: int) -> str:
-    v = versions()
+    v = versions(("numpy", "scipy", "networkx", "numba", "womlab"))
     lines = [
         "# Network build benchmark",
         "",

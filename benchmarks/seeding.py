@@ -20,8 +20,6 @@ from __future__ import annotations
 
 import argparse
 import datetime as dt
-import os
-import platform
 import sys
 import time
 from pathlib import Path
@@ -30,9 +28,11 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "src"))
+sys.path.insert(0, str(ROOT / "benchmarks"))
 
 import networkx as nx  # noqa: E402
 
+from about import machine, versions  # noqa: E402
 from womlab import Scenario, build_network, choose_seeds  # noqa: E402
 from womlab.seeding import STRATEGIES, betweenness, core_numbers, pagerank_values  # noqa: E402
 
@@ -59,28 +59,6 @@ def _median_time(fn, repeats: int) -> float:
         fn()
         times.append(time.perf_counter() - t0)
     return float(np.median(times))
-
-
-def versions() -> dict[str, str]:
-    out = {"python": platform.python_version()}
-    for name in ("numpy", "scipy", "networkx", "numba", "igraph", "womlab"):
-        try:
-            out[name] = __import__(name).__version__
-        except Exception:  # noqa: BLE001 - a missing library is reported, not fatal
-            out[name] = "not installed"
-    return out
-
-
-def machine() -> str:
-    cpu = platform.processor() or platform.machine()
-    try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                cpu = line.split(":", 1)[1].strip()
-                break
-    except OSError:
-        pass
-    return f"{cpu}, {os.cpu_count()} logical cores, {platform.system()} {platform.release()}"
 
 
 def strategies(sizes: list[int], repeats: int, greedy_sizes: list[int]) -> list[dict]:
@@ -144,7 +122,7 @@ def report(strategy_rows: list[dict], central_rows: list[dict], command: str) ->
         "",
         f"- date: {dt.datetime.now(dt.timezone.utc).strftime('%Y-%m-%d %H:%M UTC')}",
         f"- machine: {machine()}",
-        "- versions: " + ", ".join(f"{k} {v}" for k, v in versions().items()),
+        "- versions: " + ", ".join(f"{k} {v}" for k, v in versions(("numpy", "scipy", "networkx", "numba", "igraph", "womlab")).items()),
         f"- command: `{command}`",
         "- scenario (invented): clustered regional network, mean degree 10, 8 regions, within-region share 0.85, "
         "rewiring 0.1; share rule, p = 0.002, q = 0.4, satisfied share 0.7, 2 talkers, 30 periods; budget 10.",
