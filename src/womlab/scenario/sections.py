@@ -70,8 +70,9 @@ class Market:
     Parameters
     ----------
     organisations : int
-        Market size N. For ``network.kind = "edgelist"`` it may be left out and is then
-        the number of organisations in the file.
+        Market size N. For the kinds read from a file (``edgelist``, ``graphml``, ``gexf``) it
+        may be left out and is then the number of organisations in the file; if given, it
+        must match the file.
     initial_customers : int
         Customers at period 0, chosen at random (or by a seeding strategy). 0 is valid:
         adoption then starts from external influence alone, as in the Bass model.
