@@ -133,8 +133,9 @@ def report(strategy_rows: list[dict], central_rows: list[dict], command: str) ->
         "",
         "## Each strategy (`choose_seeds`)",
         "",
-        "Median seconds of the calls after one that is not counted; greedy once, with its default settings "
-        "(20 Monte Carlo runs per evaluation, 100 candidates) through the registered engine.",
+        "Median seconds of the calls after one that is not counted; greedy, at the sizes --greedy-sizes "
+        "names, once with its default settings (20 Monte Carlo runs per evaluation, 100 candidates) through the "
+        "registered engine.",
         "",
         "| strategy | " + " | ".join(f"N = {n:,} s" for n in sorted({r['n'] for r in strategy_rows})) + " |",
         "| --- |" + " ---: |" * len({r["n"] for r in strategy_rows}),
