@@ -69,6 +69,8 @@ package-check: $(STAMP)
 bench: $(STAMP)
 	$(BIN)/python benchmarks/engines.py
 	$(BIN)/python benchmarks/sweeps.py
+	$(BIN)/python benchmarks/networks.py
+	$(BIN)/python benchmarks/seeding.py
 
 clean:
 	rm -rf $(VENV) $(NEWEST) $(WHEEL_VENV) dist out

@@ -31,9 +31,9 @@ import womlab
 from womlab.store import atomic_write
 
 HERE = Path(__file__).resolve().parent
-KINDS = ("random", "small_world", "regional", "scale_free")
+KINDS = ("random", "small_world", "regional_blocks", "scale_free")
 TICKS = (0.25, 0.5, 0.75, 1, 1.5, 2, 3, 4)
-COLOURS = {"random": "#555555", "small_world": "#1f5f8b", "regional": "#2e8b57", "scale_free": "#c0392b"}
+COLOURS = {"random": "#555555", "small_world": "#1f5f8b", "regional_blocks": "#2e8b57", "scale_free": "#c0392b"}
 PER_STRATEGY = ("customers", "t50", "peak_period", "customer_periods")
 LIFT = ("lift_ratio", "lift_diff", "wilcoxon_p", "paired_halfwidth", "unpaired_halfwidth")
 

@@ -41,7 +41,7 @@ from womlab.aggregate import (
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
 from womlab.errors import ClusterError, NetworkError, ScenarioError, StoreError, WomlabError
-from womlab.networks import ReferralNetwork, build_network, read_edgelist
+from womlab.networks import ReferralNetwork, build_network, from_edge_table, read_edgelist, read_graph_file
 from womlab.networks.given import as_network
 from womlab.results import (
     adoption_figure,
@@ -161,6 +161,8 @@ __all__ = [
     "programme_figure",
     "programme_ratios",
     "read_edgelist",
+    "read_graph_file",
+    "from_edge_table",
     "referral_tree_figure",
     "referral_tree_summary",
     "referrals_per_customer",

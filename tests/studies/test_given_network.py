@@ -111,7 +111,7 @@ def test_a_network_of_another_size_is_refused_in_one_line(study: str) -> None:
 def test_anything_else_is_refused_naming_what_is_allowed() -> None:
     with pytest.raises(NetworkError, match="a womlab ReferralNetwork, a networkx graph or a pandas edge table"):
         run_replicates(_scenario(34), 1, network=[(0, 1)])
-    with pytest.raises(NetworkError, match="needs columns source and target; missing target"):
+    with pytest.raises(NetworkError, match="edge table must have a column 'target'; found source, to"):
         run_replicates(_scenario(34), 1, network=pd.DataFrame({"source": [0, 1], "to": [1, 2]}))
 
 

@@ -11,6 +11,10 @@ __all__ = ["add"]
 
 def cmd_check(args: argparse.Namespace) -> int:
     from womlab.aggregate import bass_peak_time, mapped_parameters
+    from numpy.random import default_rng
+
+    from womlab.dynamics.streams import streams
+    from womlab.networks import network_clustering_line
     from womlab.scenario import load_scenario
 
     scenario = load_scenario(args.config)
@@ -24,6 +28,7 @@ def cmd_check(args: argparse.Namespace) -> int:
         ("regions", scenario.market.regions),
         ("network", scenario.network.kind),
         ("mean degree", f"{par.mean_degree:.4g}"),
+        ("clustering coefficient", network_clustering_line(scenario, default_rng(streams(scenario.seed, (0,)).network))),
         ("rule", a.rule),
         ("mean talkers per customer", f"{par.mean_talkers:.4g}"),
         ("mapped Bass p", f"{par.p:.4g}"),

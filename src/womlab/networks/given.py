@@ -8,7 +8,6 @@ says about each organisation, for per-organisation results.
 
 from __future__ import annotations
 
-import dataclasses
 from typing import Any
 
 import networkx as nx
@@ -17,6 +16,7 @@ import pandas as pd
 
 from womlab.errors import NetworkError
 from womlab.networks.network import ReferralNetwork
+from womlab.networks.tables import from_edge_table
 from womlab.scenario import Scenario
 
 __all__ = ["GivenNetwork", "as_network", "node_attributes", "organisation_ids", "mapped_with"]
@@ -64,17 +64,9 @@ def as_network(network: Any, organisations: int | None = None) -> ReferralNetwor
     if isinstance(network, ReferralNetwork):
         net = network
     elif isinstance(network, nx.Graph):
-        net = _from_graph(network)
+        net = ReferralNetwork.from_networkx(network, kind="given")
     elif isinstance(network, pd.DataFrame):
-        missing = [c for c in ("source", "target") if c not in network.columns]
-        if missing:
-            raise NetworkError(
-                f"an edge table needs columns source and target; missing {', '.join(missing)} "
-                f"(found {', '.join(map(str, network.columns))})"
-            )
-        if network[["source", "target"]].isna().any().any():
-            raise NetworkError("an edge table has empty cells in source or target")
-        net = _from_graph(nx.from_pandas_edgelist(network, "source", "target"))
+        net = from_edge_table(network, kind="given")
     else:
         raise NetworkError(
             f"network must be a womlab ReferralNetwork, a networkx graph or a pandas edge table "
@@ -85,16 +77,6 @@ def as_network(network: Any, organisations: int | None = None) -> ReferralNetwor
             f"the network has {net.n} organisations but market.organisations is {organisations}; they must agree "
             f"(set market.organisations = {net.n}, or give a network of {organisations})"
         )
-    return net
-
-
-def _from_graph(graph: nx.Graph) -> ReferralNetwork:
-    if graph.is_directed():
-        graph = graph.to_undirected(as_view=True)
-    net = ReferralNetwork.from_networkx(graph)
-    if net.labels is None and set(graph.nodes) != set(range(graph.number_of_nodes())):
-        # the ids as given, in the order from_networkx numbers them (ascending)
-        net = dataclasses.replace(net, labels=np.asarray(sorted(graph.nodes), dtype=object))
     return net
 
 

@@ -7,9 +7,10 @@ hand it down when they are imported (``import womlab`` imports them all):
 * the names of the seeding strategies (:mod:`womlab.seeding` registers each one with
   :func:`register_strategy_name`), against which ``seeding.strategy``,
   ``study.strategies`` and ``referral.strategy`` are checked;
-* how to read an edge list's size and mean degree (:mod:`womlab.networks` registers its
-  reader with :func:`register_edgelist_reader`), which the scenario uses to take
-  ``market.organisations`` and ``network.mean_degree`` from the file;
+* how to read a network file's size and mean degree (:mod:`womlab.networks` registers a
+  reader per file kind — edge list, GraphML, GEXF — with :func:`register_network_file_reader`),
+  which the scenario uses to take ``market.organisations`` and ``network.mean_degree``
+  from the file.
 * the names of the studies a sweep point can run (:mod:`womlab.studies.sweep_studies`
   registers each with :func:`register_sweep_study_name`, with the fields that study sets
   itself), against which ``sweep.study`` and the sweep's axes are checked.
@@ -20,12 +21,13 @@ from __future__ import annotations
 from collections.abc import Callable
 from pathlib import Path
 
-__all__ = ["register_strategy_name", "strategy_names", "register_edgelist_reader", "edgelist_facts",
+__all__ = ["register_strategy_name", "strategy_names", "register_network_file_reader", "network_file_facts",
+           "network_file_kinds", "register_edgelist_reader", "edgelist_facts",
            "register_sweep_study_name", "sweep_study_names", "sweep_study_fixed_fields"]
 
 _STRATEGY_NAMES: set[str] = set()
 _SWEEP_STUDIES: dict[str, dict[str, str]] = {}
-_EDGELIST_READER: list[Callable[[str, str | None], tuple[int, float]]] = []
+_FILE_READERS: dict[str, Callable[[str, str | None], tuple[int, float]]] = {}
 
 
 def register_strategy_name(name: str) -> None:
@@ -38,16 +40,31 @@ def strategy_names() -> tuple[str, ...]:
     return tuple(sorted(_STRATEGY_NAMES))
 
 
+def register_network_file_reader(kind: str, reader: Callable[[str, str | None], tuple[int, float]]) -> None:
+    """Set the function ``(path, nodes_path) -> (organisations, mean degree)`` of network files of ``kind``."""
+    _FILE_READERS[kind] = reader
+
+
+def network_file_kinds() -> tuple[str, ...]:
+    """The network kinds read from a file (those with a registered reader)."""
+    return tuple(sorted(_FILE_READERS))
+
+
+def network_file_facts(kind: str, path: str | Path, nodes_path: str | Path | None = None) -> tuple[int, float]:
+    """Organisations and mean degree of a network file, by the reader :mod:`womlab.networks` registered."""
+    if kind not in _FILE_READERS:  # pragma: no cover - `import womlab` registers them
+        raise RuntimeError(f"no reader is registered for network files of kind {kind!r}; import womlab")
+    return _FILE_READERS[kind](str(path), None if nodes_path is None else str(nodes_path))
+
+
 def register_edgelist_reader(reader: Callable[[str, str | None], tuple[int, float]]) -> None:
     """Set the function ``(path, nodes_path) -> (organisations, mean degree)`` of edge lists."""
-    _EDGELIST_READER[:] = [reader]
+    register_network_file_reader("edgelist", reader)
 
 
 def edgelist_facts(path: str | Path, nodes_path: str | Path | None) -> tuple[int, float]:
     """Organisations and mean degree of an edge list, by the reader :mod:`womlab.networks` registered."""
-    if not _EDGELIST_READER:  # pragma: no cover - `import womlab` registers it
-        raise RuntimeError("no edge-list reader is registered; import womlab (womlab.networks registers it)")
-    return _EDGELIST_READER[0](str(path), None if nodes_path is None else str(nodes_path))
+    return network_file_facts("edgelist", path, nodes_path)
 
 
 def register_sweep_study_name(name: str, fixed_fields: dict[str, str] | None = None) -> None:

@@ -83,7 +83,7 @@ from typing import Any
 
 from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field
-from womlab.scenario.registry import edgelist_facts
+from womlab.scenario.registry import network_file_facts, network_file_kinds
 from womlab.scenario.sections import (
     Adoption,
     Market,
@@ -212,8 +212,12 @@ class Scenario:
 
     @property
     def n_initial(self) -> int:
-        """Number of initial customers: ``seeding.budget`` when given, else ``market.n_initial``."""
-        return self.seeding.budget if self.seeding.budget is not None else self.market.n_initial
+        """Number of initial customers: ``seeding.budget`` when given, else the ids a ``listed``
+        strategy names, else ``market.n_initial``."""
+        if self.seeding.budget is not None:
+            return self.seeding.budget
+        listed = self.seeding.listed_count
+        return listed if listed is not None else self.market.n_initial
 
 
 def _section_type(parts: list[str]) -> type:
@@ -258,6 +262,9 @@ def _talkers(value: Any, dotted: str) -> Talkers:
     return Talkers(distribution="fixed", mean=float(value))
 
 
+_FILE_NAMES = {"edgelist": "edge list", "graphml": "GraphML file", "gexf": "GEXF file"}
+
+
 def _fill_edgelist_facts(kwargs: dict[str, Any], size_given: bool) -> None:
     """For an edge-list network, the market size and the mean degree come from the file (in place on ``kwargs``).
 
@@ -265,16 +272,17 @@ def _fill_edgelist_facts(kwargs: dict[str, Any], size_given: bool) -> None:
     derived quantity (the mapped Bass Q, the manifest) uses the network actually read.
     """
     network = kwargs.get("network")
-    if network is None or network.kind != "edgelist" or network.path is None or not Path(network.path).is_file():
+    if network is None or network.kind not in network_file_kinds() or network.path is None or not Path(network.path).is_file():
         return
     if network.nodes_path is not None and not Path(network.nodes_path).is_file():
         return  # NetworkSpec.check names the missing file
-    n, mean_degree = edgelist_facts(network.path, network.nodes_path)
+    n, mean_degree = network_file_facts(network.kind, network.path, network.nodes_path)
     kwargs["network"] = dataclasses.replace(network, mean_degree=mean_degree)
     market = kwargs["market"]
     if size_given and market.organisations != n:
         raise ScenarioError(
-            f"market.organisations must match the edge list ({n} organisations in {network.path}), "
+            f"market.organisations must match the {_FILE_NAMES.get(network.kind, 'network file')} "
+            f"({n} organisations in {network.path}), "
             f"got {market.organisations}"
         )
     kwargs["market"] = dataclasses.replace(market, organisations=n)
