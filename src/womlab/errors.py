@@ -6,7 +6,7 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 
 from __future__ import annotations
 
-__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError"]
+__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "CompilerError"]
 
 
 class WomlabError(Exception):
@@ -27,3 +27,8 @@ class NetworkError(WomlabError, ValueError):
 
 class StoreError(WomlabError):
     """A results folder cannot be written, read or resumed."""
+
+
+class CompilerError(WomlabError):
+    """numba, which compiles womlab's formulas and engines, is missing, unsupported or cannot
+    compile on this machine; the message names the version found and how to get a supported one."""
