@@ -38,7 +38,7 @@ from womlab.aggregate import (
     stock_and_flow,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams
-from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.errors import CompilerError, NetworkError, ScenarioError, StoreError, WomlabError
 from womlab.networks import ReferralNetwork, build_network, read_edgelist
 from womlab.results import (
     adoption_figure,
@@ -77,6 +77,7 @@ from womlab.studies import (
     morris_effects,
     point_scenarios,
     pooled_gaps,
+    parallel_choice,
     pooled_metrics,
     programme_economics,
     referral_tree_summary,
@@ -102,6 +103,7 @@ __all__ = [
     "BassFit",
     "Batch",
     "Comparison",
+    "CompilerError",
     "NetworkError",
     "ProgrammeStudy",
     "ReferralNetwork",
@@ -138,6 +140,7 @@ __all__ = [
     "fit_replicates",
     "fit_stock_and_flow",
     "generations",
+    "parallel_choice",
     "lift_statistics",
     "load_scenario",
     "mapped_parameters",

@@ -65,14 +65,30 @@ def check_numba(version: str | None = None) -> str:
     return found
 
 
+class _Unavailable:
+    """Stands for a compiled function when numba is missing or unsupported: calling it raises."""
+
+    def __init__(self, func: Callable[..., Any], message: str) -> None:
+        functools.update_wrapper(self, func)
+        self._message = message
+
+    def __call__(self, *args: Any, **kwargs: Any) -> Any:
+        raise CompilerError(self._message)
+
+
 def compiled(func: Callable[..., Any]) -> Callable[..., Any]:
     """``numba.njit(cache=True)`` of ``func``; a failure to compile becomes a one-line CompilerError.
 
     The returned object is numba's dispatcher (callable from Python and from other compiled
     functions). Its first call from Python in a process compiles it or loads it from the
-    cache; if that fails, the error names numba's version and the function.
+    cache; if that fails, the error names numba's version and the function. Where numba is
+    missing or outside :data:`NUMBA_SUPPORTED`, womlab still imports, and every compiled
+    function raises that CompilerError when called; nothing falls back to other code.
     """
-    check_numba()
+    try:
+        check_numba()
+    except CompilerError as exc:  # womlab still imports (``womlab check`` works); the first run says why not
+        return _Unavailable(func, str(exc))
     import numba
 
     dispatcher = numba.njit(cache=True)(func)

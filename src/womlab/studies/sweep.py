@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import math
 import time
+from functools import partial
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -46,7 +47,7 @@ from womlab.scenario import Axis, Scenario, field_type
 from womlab.store import ResultsStore, versions
 from womlab.studies.metrics import curve_metrics
 from womlab.studies.presenting import present
-from womlab.studies.runner import run_one
+from womlab.studies.runner import run_chunks, run_one
 from womlab.studies.sensitivity import morris_design, saltelli_design
 
 __all__ = [
@@ -326,9 +327,12 @@ def _parse_cluster(cluster: str) -> int:
     return int(n)
 
 
+def _chunk_size(pending: int, workers: int, chunk_size: int | None) -> int:
+    return max(1, min(64, math.ceil(pending / (workers * 8)))) if chunk_size is None else chunk_size
+
+
 def _chunks(pending: list[tuple[int, int]], workers: int, chunk_size: int | None) -> list[list[tuple[int, int]]]:
-    if chunk_size is None:
-        chunk_size = max(1, min(64, math.ceil(len(pending) / (workers * 8))))
+    chunk_size = _chunk_size(len(pending), workers, chunk_size)
     return [pending[i : i + chunk_size] for i in range(0, len(pending), chunk_size)]
 
 
@@ -443,12 +447,11 @@ def run_sweep(
             backend = f"dask scheduler {scheduler}"
         workers = max(1, sum(client.nthreads().values()))
     else:
-        workers = effective_n_jobs(scenario.run.jobs if jobs is None else jobs)
-        backend = f"loky, {workers} workers" if workers > 1 else "in-process"
+        workers = min(effective_n_jobs(scenario.run.jobs if jobs is None else jobs), max(1, len(pending)))
+        backend = f"loky, {workers} workers, in-process below the crossover" if workers > 1 else "in-process"
     session = store.begin_session({"backend": backend, "pending": len(pending), "womlab": library_versions["womlab"]})
 
-    chunks = _chunks(pending, workers, chunk_size)
-    tasks = ([(i, r, scenarios[i]) for i, r in chunk] for chunk in chunks)
+    tasks = ([(i, r, scenarios[i]) for i, r in chunk] for chunk in _chunks(pending, workers, chunk_size))
     bar = None
     if progress:
         from tqdm.auto import tqdm
@@ -463,12 +466,10 @@ def run_sweep(
                 results = Parallel(n_jobs=-1, return_as="generator_unordered")(
                     delayed(_run_chunk)(t, curves) for t in tasks)
                 ran, failed_now = _collect(results, store, session, bar)
-        elif workers == 1 or len(chunks) <= 1:
-            ran, failed_now = _collect((_run_chunk(t, curves) for t in tasks), store, session, bar)
-        else:
-            results = Parallel(n_jobs=workers, return_as="generator_unordered")(
-                delayed(_run_chunk)(t, curves) for t in tasks)
-            ran, failed_now = _collect(results, store, session, bar)
+        else:  # in-process, or the reusable loky pool when the work pays for it (studies.runner.run_chunks)
+            results = run_chunks(partial(_run_chunk, curves=curves), [(i, r, scenarios[i]) for i, r in pending],
+                                 workers, chunk_size=_chunk_size(len(pending), workers, chunk_size))
+            ran, failed_now = _collect((result for _, result in results), store, session, bar)
     finally:
         if bar is not None:
             bar.close()
