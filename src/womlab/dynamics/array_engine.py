@@ -210,15 +210,22 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
         # 2. hazards of the potential customers; adopters leave the list, which stays ascending
         nad = 0
         keep = 0
+        # with no talking neighbour the rate is p whatever Dᵢ and θᵢ, so where p is everyone's
+        # its step hazard is computed once (the same value, bit for bit)
+        same_p = uniform_groups and not p_weights
+        h0 = hazard(rate(rule, 0.0, 1.0, 0.0, external[period, 0], q, cap), dt, form)
         for c in range(npot):
             i = potential[c]
-            p = external[period, 0 if uniform_groups else group[i]]
-            if p_weights:
-                p *= external_weight[i]
-            qi = q * wom_weight[i] if q_weights else q
             t = market if complete else exposure[i]
-            r = rate(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap)
-            accumulated[i] += hazard(r, dt, form)
+            if t == 0.0 and same_p:
+                accumulated[i] += h0
+            else:
+                p = external[period, 0 if uniform_groups else group[i]]
+                if p_weights:
+                    p *= external_weight[i]
+                qi = q * wom_weight[i] if q_weights else q
+                r = rate(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap)
+                accumulated[i] += hazard(r, dt, form)
             if accumulated[i] >= resistance[i]:
                 adopters[nad] = i
                 nad += 1
