@@ -62,32 +62,38 @@ import json, sys, time
 sys.path.insert(0, {src!r})
 from functools import partial
 from womlab.scenario import Scenario
-from womlab.studies import runner
 from womlab.studies.runner import _chunk, parallel_choice, run_chunks
+
+
+def first_task(variants, keys):
+    # on a worker: its CPU seconds since it started (Python, imports, compiled kernels, this run), and this run's
+    start = time.process_time()
+    _chunk(variants, keys)
+    end = time.process_time()
+    return end, end - start
+
+
 s = Scenario.from_dict({{"market": {{"organisations": 100, "initial_customers": 1}}, "run": {{"periods": 10}}}})
 variants = {{"": s}}
-t = time.perf_counter(); _chunk(variants, [(0,)]); here = time.perf_counter() - t   # warm here, then time one run
-t = time.perf_counter(); _chunk(variants, [(1,)]); here = time.perf_counter() - t
 out = {{}}
 with parallel_choice("pool"):
     for label in ("cold", "warm"):
         t = time.perf_counter()
-        list(run_chunks(partial(_chunk, variants), [(2,), (3,)], 2, chunk_size=1))
-        out[label] = time.perf_counter() - t - here
+        got = [r for _, r in run_chunks(partial(first_task, variants), [(2,), (3,)], 2, chunk_size=1)]
+        out[label + "_wall"] = time.perf_counter() - t
+        out[label + "_cpu"] = max(total - own for total, own in got)
 print(json.dumps(out))
 """
 
 
 def pool_start(times: int) -> dict[str, float]:
-    cold, warm = [], []
+    got = []
     for _ in range(times):
         done = subprocess.run([sys.executable, "-c", START_CHILD.format(src=str(ROOT / "src"))],
                               capture_output=True, text=True, check=True)
-        got = json.loads(done.stdout.strip().splitlines()[-1])
-        cold.append(got["cold"])
-        warm.append(got["warm"])
-        print("pool start", got, flush=True)
-    return {"cold": statistics.median(cold), "warm": statistics.median(warm), "cold_all": cold, "warm_all": warm}
+        got.append(json.loads(done.stdout.strip().splitlines()[-1]))
+        print("pool start", got[-1], flush=True)
+    return {k: statistics.median(g[k] for g in got) for k in got[0]} | {"all": got}
 
 
 def _stop_pool() -> None:
@@ -173,19 +179,22 @@ def main() -> None:
         "",
         "## A pool's start-up and the crossover",
         "",
-        "Seconds from handing two one-run chunks to a pool of 2 loky workers until both results are back, less "
-        f"the runs' own time; each in a fresh process (median of {REPEATS}; all: "
-        f"{', '.join(f'{x:.2f}' for x in start['cold_all'])} s cold, "
-        f"{', '.join(f'{x:.3f}' for x in start['warm_all'])} s warm).",
+        "Two one-run chunks handed to a new pool of 2 loky workers, in a fresh process with womlab imported "
+        f"(median of {REPEATS} processes). CPU s: a worker's CPU seconds from its start to the end of its first "
+        "run, less that run's own (starting Python, importing womlab, loading the compiled kernels); on a pool "
+        "already running the same figure is its CPU since the first task. Wall s: until both results were back.",
         "",
-        "| pool | start-up s |",
-        "| --- | ---: |",
-        f"| started by the call (cold) | {start['cold']:.2f} |",
-        f"| already running (warm) | {start['warm']:.3f} |",
+        "| pool | worker CPU s before its first run | wall s, both results |",
+        "| --- | ---: | ---: |",
+        f"| started by the call (cold) | {start['cold_cpu']:.2f} | {start['cold_wall']:.2f} |",
+        f"| already running (warm) | — | {start['warm_wall']:.3f} |",
         "",
-        f"Rule (`studies.runner.crossover_seconds`): the first runs are timed in-process, and the pool takes the "
-        f"rest only if their estimated in-process time exceeds S · w / (w − 1): with S = "
-        f"`POOL_START_SECONDS` = {runner.POOL_START_SECONDS} s (set from the cold figure above) that is "
+        f"All processes: " + "; ".join(f"cold {g['cold_cpu']:.2f} s CPU / {g['cold_wall']:.2f} s wall, warm "
+                                       f"{g['warm_wall']:.3f} s wall" for g in start["all"]) + ".",
+        "",
+        f"Rule (`studies.runner.crossover_seconds`): the first runs are timed in-process (CPU time), and the pool "
+        f"takes the rest only if their estimated in-process time exceeds S · w / (w − 1): with S = "
+        f"`POOL_START_SECONDS` = {runner.POOL_START_SECONDS} s (set from the cold CPU figure above) that is "
         f"{runner.crossover_seconds(2):.1f} s for 2 workers, and {runner.crossover_seconds(2, warm=True):.2f} s "
         "once a pool is running in the process.",
         "",

@@ -110,7 +110,8 @@ def _check_pairable(variants: Mapping[str, Scenario]) -> None:
 
 #: Seconds a fresh pool of worker processes takes before its first result: each worker starts
 #: Python, imports womlab and loads the compiled engine. Measured by ``benchmarks/sweeps.py``
-#: (median on the shared 2-core machine); see :func:`crossover_seconds`.
+#: (median on the shared 2-core machine, in CPU seconds of one worker, which a busy machine
+#: does not swell); see :func:`crossover_seconds`.
 POOL_START_SECONDS = 3.0
 #: The same for a pool that is already running in this process (handing a chunk over and back).
 POOL_WARM_SECONDS = 0.05
@@ -179,8 +180,8 @@ def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int
 
     The one place womlab starts workers (batches, paired studies and sweeps all come here).
     With ``jobs`` > 1 and the default ``"auto"`` choice (:func:`parallel_choice`), the first
-    items run in-process, one at a time, and are timed; if the rest, at the last item's time
-    each, would take longer than :func:`crossover_seconds`, a joblib loky pool takes the rest
+    items run in-process, one at a time, and their CPU time is taken; if the rest, at the last
+    item's time each, would take longer than :func:`crossover_seconds`, a joblib loky pool takes the rest
     (a line on standard error says so when the pool has to start), otherwise they run
     in-process too. The pool is joblib's reusable one: started once per process and reused
     by later batches while it is busy enough not to idle out. Chunks hold about a quarter of
@@ -202,9 +203,9 @@ def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int
         warm = _pool_warm(workers)
         need = crossover_seconds(workers, warm)
         while done < len(items):
-            started = time.perf_counter()
+            started = time.process_time()  # CPU seconds: the estimate does not swell when the machine is busy
             result = func([items[done]])
-            each = time.perf_counter() - started
+            each = time.process_time() - started
             done += 1
             yield 1, result
             ahead = each * (len(items) - done)
