@@ -166,7 +166,7 @@ def overhead(n: int, replicates: int) -> tuple[list[tuple[float, float]], list[t
 
 def main() -> None:
     start = pool_start(REPEATS)
-    results = {1_000: throughput(1_000, 250), 10_000: throughput(10_000, 25)}
+    results = {1_000: throughput(1_000, 100), 10_000: throughput(10_000, 10)}
     bare, swept = overhead(1_000, 25)
     over = 100 * (statistics.median(b[1] / a[1] for a, b in zip(bare, swept)) - 1)
     lines = [

@@ -175,7 +175,8 @@ def _pool_warm(workers: int) -> bool:
 
 
 def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int, *,
-               chunk_size: int | None = None, what: str = "runs") -> Iterator[tuple[int, Any]]:
+               chunk_size: int | None = None, what: str = "runs",
+               chosen: dict[str, str] | None = None) -> Iterator[tuple[int, Any]]:
     """Run ``func`` over chunks of ``items``, in-process or on a pool of worker processes.
 
     The one place womlab starts workers (batches, paired studies and sweeps all come here).
@@ -186,6 +187,8 @@ def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int
     in-process too. The pool is joblib's reusable one: started once per process and reused
     by later batches while it is busy enough not to idle out. Chunks hold about a quarter of
     each worker's share, at most about :data:`CHUNK_SECONDS` of work (or ``chunk_size`` items).
+
+    ``chosen``, if given, receives ``chosen["backend"]``: ``"in-process"`` or ``"loky, N workers"``.
 
     Yields
     ------
@@ -214,6 +217,8 @@ def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int
                 break
             if done >= 2 or each > 4 * need:  # a second, warm timing, unless one run alone is that long
                 break
+    if chosen is not None:
+        chosen["backend"] = "in-process" if workers <= 1 or mode == "in-process" else f"loky, {workers} workers"
     if workers <= 1 or mode == "in-process":
         size = chunk_size or 1
         for i in range(done, len(items), size):

@@ -448,7 +448,7 @@ def run_sweep(
         workers = max(1, sum(client.nthreads().values()))
     else:
         workers = min(effective_n_jobs(scenario.run.jobs if jobs is None else jobs), max(1, len(pending)))
-        backend = f"loky, {workers} workers, in-process below the crossover" if workers > 1 else "in-process"
+        backend = f"up to {workers} loky workers, in-process below the crossover" if workers > 1 else "in-process"
     session = store.begin_session({"backend": backend, "pending": len(pending), "womlab": library_versions["womlab"]})
 
     tasks = ([(i, r, scenarios[i]) for i, r in chunk] for chunk in _chunks(pending, workers, chunk_size))
@@ -467,9 +467,11 @@ def run_sweep(
                     delayed(_run_chunk)(t, curves) for t in tasks)
                 ran, failed_now = _collect(results, store, session, bar)
         else:  # in-process, or the reusable loky pool when the work pays for it (studies.runner.run_chunks)
+            chosen = {"backend": backend}
             results = run_chunks(partial(_run_chunk, curves=curves), [(i, r, scenarios[i]) for i, r in pending],
-                                 workers, chunk_size=_chunk_size(len(pending), workers, chunk_size))
+                                 workers, chunk_size=_chunk_size(len(pending), workers, chunk_size), chosen=chosen)
             ran, failed_now = _collect((result for _, result in results), store, session, bar)
+            backend = chosen["backend"]
     finally:
         if bar is not None:
             bar.close()
@@ -480,7 +482,7 @@ def run_sweep(
     store.consolidate()
     runs = store.runs()
     failed = runs[runs["status"] != "ok"]
-    store.end_session(session, {"ran": ran, "failed": failed_now, "wall_time_s": round(time.perf_counter() - start, 3)})
+    store.end_session(session, {"ran": ran, "failed": failed_now, "backend": backend, "wall_time_s": round(time.perf_counter() - start, 3)})
     summary = SweepSummary(out=store.path, points=len(points), runs=len(keys), skipped=skipped, ran=ran,
                            failures=len(failed), wall_time=time.perf_counter() - start, backend=backend,
                            failed=failed.reset_index(drop=True))
