@@ -14,8 +14,8 @@ exactly the law of first-passage times
 since satisfaction and talkers do not depend on timing and can be drawn up front. That
 is a shortest-path problem from a virtual source tied to every organisation i by an arc
 of length Eᵢ (0 to the initial customers) and to nothing else: Dijkstra's algorithm,
-compiled (numba) over the CSR with an indexed binary heap, O(E log N), stopped at the
-horizon; each tie's rate is :func:`womlab.rules.wom_part` of the tie's two ends, computed
+compiled (numba) over the CSR — an indexed binary heap for arrivals by word of mouth, the
+external arrivals merged in from one sort — O(E log N), stopped at the horizon; each tie's rate is :func:`womlab.rules.wom_part` of the tie's two ends, computed
 as the tie is reached. It gives the same arrival times and predecessors as
 :func:`scipy.sparse.csgraph.dijkstra` on the same graph (a test holds it to that). The
 predecessor of each organisation on its path is who persuaded it: the virtual source
@@ -182,9 +182,14 @@ def _sift_down(heap, position, key, h, size):  # noqa: ANN001, ANN202
 
 
 @compiled
-def _first_passage_kernel(indptr, indices, rule, q, tau, talking, external, p, start, delay, horizon):  # noqa: ANN001, ANN202
-    """Dijkstra's algorithm from the virtual source over the CSR (an indexed binary heap),
-    stopped at the horizon. Returns arrival times (inf beyond the horizon) and predecessors (−1: source)."""
+def _first_passage_kernel(indptr, indices, rule, q, tau, talking, external_time, external_order, start, delay,  # noqa: ANN001, ANN202
+                          horizon):
+    """Dijkstra's algorithm from the virtual source over the CSR, stopped at the horizon.
+
+    The source's arcs (external influence: ``external_time``, visited in ``external_order``)
+    are merged in as a sorted list rather than pushed onto the heap; the indexed binary heap
+    holds only the arrivals by word of mouth (and the initial customers at 0). Returns arrival
+    times (inf beyond the horizon) and predecessors (−1: the source)."""
     n = tau.size
     total = np.zeros(n)  # Dᵢ (share only)
     if rule == SHARE:
@@ -196,31 +201,44 @@ def _first_passage_kernel(indptr, indices, rule, q, tau, talking, external, p, s
     dist = np.full(n, np.inf)
     pred = np.full(n, -1, dtype=np.int64)
     heap = np.empty(n, dtype=np.int64)
-    position = np.full(n, -1, dtype=np.int64)  # −1: not in the heap
+    position = np.full(n, -1, dtype=np.int64)  # −1: not in the heap, −2: settled
     size = 0
+    if external_time.size:
+        for i in range(n):
+            dist[i] = external_time[i]
     for i in range(n):
         if start[i]:
             dist[i] = 0.0
-        elif p > 0:
-            dist[i] = external[i] / p
+            heap[size] = i
+            position[i] = size
+            size += 1
+    e = 0
+    m = external_order.size
+    while True:
+        # the next external arrival still standing: not settled, not beaten by word of mouth
+        while e < m:
+            j = external_order[e]
+            if position[j] == -1 and dist[j] == external_time[j]:
+                break
+            e += 1
+        from_heap = size > 0 and (e >= m or dist[heap[0]] <= external_time[external_order[e]])
+        if from_heap:
+            i = heap[0]
+        elif e < m:
+            i = external_order[e]
+            e += 1
         else:
-            continue
-        heap[size] = i
-        position[i] = size
-        size += 1
-    for h in range(size // 2 - 1, -1, -1):
-        _sift_down(heap, position, dist, h, size)
-    while size > 0:
-        i = heap[0]
+            break
         d = dist[i]
         if d > horizon:
             break
-        size -= 1
+        if from_heap:
+            size -= 1
+            if size > 0:
+                heap[0] = heap[size]
+                position[heap[0]] = 0
+                _sift_down(heap, position, dist, 0, size)
         position[i] = -2  # settled
-        if size > 0:
-            heap[0] = heap[size]
-            position[heap[0]] = 0
-            _sift_down(heap, position, dist, 0, size)
         if talking[i] <= 0:
             continue
         for k in range(indptr[i], indptr[i + 1]):
@@ -240,8 +258,9 @@ def _first_passage_kernel(indptr, indices, rule, q, tau, talking, external, p, s
                     size += 1
                 _sift_up(heap, position, dist, position[j])
     for i in range(n):
-        if dist[i] > horizon:
+        if position[i] != -2:
             dist[i] = np.inf
+            pred[i] = -1
     return dist, pred
 
 
@@ -260,10 +279,17 @@ def _first_passage(
     delay = rng.standard_exponential(network.indices.size)
     start = np.zeros(n, dtype=bool)
     start[initial] = True
+    p = float(adoption.external)
+    if p > 0:
+        external_time = external / p  # Eᵢ: the source's arc to each organisation
+        external_order = np.flatnonzero(~start)
+        external_order = external_order[np.argsort(external_time[external_order], kind="stable")]
+    else:
+        external_time, external_order = np.zeros(0), np.zeros(0, dtype=np.int64)
     dist, pred = _first_passage_kernel(
         network.indptr, network.indices, rules.rule_code(adoption.rule), float(adoption.word_of_mouth),
-        np.ascontiguousarray(tau, dtype=np.float32), np.ascontiguousarray(talking, dtype=np.float32), external,
-        float(adoption.external), start, delay, float(scenario.run.periods),
+        np.ascontiguousarray(tau, dtype=np.float32), np.ascontiguousarray(talking, dtype=np.float32), external_time,
+        external_order.astype(np.int64), start, delay, float(scenario.run.periods),
     )
     return dist, pred
 
