@@ -260,17 +260,18 @@ from womlab.dynamics import engine_for, streams
 from womlab.seeding import initial_customers
 from womlab.studies import Batch
 s = load_scenario({config!r})
-t1 = time.perf_counter()
+t1 = time.perf_counter(); c1 = time.process_time()
 st = streams(s.seed, (0,))
 net = build_network(s, np.random.default_rng(st.network))
-t2 = time.perf_counter()
+t2 = time.perf_counter(); c2 = time.process_time()
 peak_build = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 init = initial_customers(s, net, np.random.default_rng(st.seeding))
 r = engine_for(s)(s, net, init, np.random.default_rng(st.dynamics))
-t3 = time.perf_counter()
+t3 = time.perf_counter(); c3 = time.process_time()
 save_batch(Batch(scenario=s, runs=[r]), {out!r})
-t4 = time.perf_counter()
+t4 = time.perf_counter(); c4 = time.process_time()
 print(json.dumps({{"import_s": t1 - t0, "build_s": t2 - t1, "run_s": t3 - t2, "write_s": t4 - t3,
+                  "import_cpu_s": c1, "build_cpu_s": c2 - c1, "run_cpu_s": c3 - c2, "write_cpu_s": c4 - c3,
                   "peak_after_build_mb": peak_build,
                   "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, "final_share": float(r.share[-1])}}))
 """
@@ -382,9 +383,14 @@ def report(rows: list[dict], cold: dict, whole: list[dict], command: str) -> str
         ]
         for w in whole:
             sp_ = w["split"]
+
+            def both(key: str, sp_: dict = sp_) -> str:  # wall, and CPU in brackets where recorded
+                cpu = sp_.get(key.replace("_s", "_cpu_s"))
+                return _fmt(sp_[key]) + (f" ({_fmt(cpu)} CPU)" if cpu is not None else "")
+
             lines.append(f"| {w['n']:,} | {w['periods']} | {_fmt(w['wall_s'])} | {_fmt(w['cpu_s'])} | "
-                         f"{w['peak_mb']:,.0f} | {_fmt(sp_['import_s'])} | {_fmt(sp_['build_s'])} | "
-                         f"{_fmt(sp_['run_s'])} | {_fmt(sp_['write_s'])} | {sp_['peak_after_build_mb']:,.0f} |")
+                         f"{w['peak_mb']:,.0f} | {both('import_s')} | {both('build_s')} | "
+                         f"{both('run_s')} | {both('write_s')} | {sp_['peak_after_build_mb']:,.0f} |")
     lines += ["", "## Targets", ""] + targets(rows, whole)
     return "\n".join(lines) + "\n"
 
@@ -421,7 +427,7 @@ def targets(rows: list[dict], whole: list[dict]) -> list[str]:
 
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--sizes", type=int, nargs="+", default=[1_000, 10_000, 100_000, 1_000_000])
+    ap.add_argument("--sizes", type=int, nargs="*", default=[1_000, 10_000, 100_000, 1_000_000])
     ap.add_argument("--periods", type=int, default=50)
     ap.add_argument("--repeats", type=int, default=5)
     ap.add_argument("--mesa-up-to", type=int, default=10_000, help="largest N the project's Mesa model runs at")

@@ -112,7 +112,7 @@ def _check_pairable(variants: Mapping[str, Scenario]) -> None:
 #: Python, imports womlab and loads the compiled engine. Measured by ``benchmarks/sweeps.py``
 #: (median on the shared 2-core machine, in CPU seconds of one worker, which a busy machine
 #: does not swell); see :func:`crossover_seconds`.
-POOL_START_SECONDS = 3.0
+POOL_START_SECONDS = 4.8
 #: The same for a pool that is already running in this process (handing a chunk over and back).
 POOL_WARM_SECONDS = 0.05
 #: joblib keeps an idle pool this long (seconds) before its workers exit.
