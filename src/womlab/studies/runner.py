@@ -110,9 +110,9 @@ def _check_pairable(variants: Mapping[str, Scenario]) -> None:
 
 #: Seconds a fresh pool of worker processes takes before its first result: each worker starts
 #: Python, imports womlab and loads the compiled engine. Measured by ``benchmarks/sweeps.py``
-#: (median on the shared 2-core machine, in CPU seconds of one worker, which a busy machine
-#: does not swell); see :func:`crossover_seconds`.
-POOL_START_SECONDS = 4.8
+#: (median on the shared 2-core machine, 3.43 and 3.49 s, in CPU seconds of one worker, which
+#: a busy machine swells less than wall time); see :func:`crossover_seconds`.
+POOL_START_SECONDS = 3.5
 #: The same for a pool that is already running in this process (handing a chunk over and back).
 POOL_WARM_SECONDS = 0.05
 #: joblib keeps an idle pool this long (seconds) before its workers exit.
