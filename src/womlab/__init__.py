@@ -40,7 +40,7 @@ from womlab.aggregate import (
     stock_and_flow,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
-from womlab.errors import ClusterError, NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.errors import ClusterError, CompilerError, NetworkError, ScenarioError, StoreError, WomlabError
 from womlab.networks import ReferralNetwork, build_network, from_edge_table, read_edgelist, read_graph_file
 from womlab.networks.given import as_network
 from womlab.results import (
@@ -81,6 +81,7 @@ from womlab.studies import (
     morris_effects,
     point_scenarios,
     pooled_gaps,
+    parallel_choice,
     pooled_metrics,
     programme_economics,
     programme_ratios,
@@ -113,6 +114,7 @@ __all__ = [
     "Batch",
     "ClusterError",
     "Comparison",
+    "CompilerError",
     "NetworkError",
     "ProgrammeStudy",
     "ReferralNetwork",
@@ -151,6 +153,7 @@ __all__ = [
     "fit_replicates",
     "fit_stock_and_flow",
     "generations",
+    "parallel_choice",
     "lift_statistics",
     "load_scenario",
     "mapped_parameters",

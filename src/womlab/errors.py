@@ -6,7 +6,7 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 
 from __future__ import annotations
 
-__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError"]
+__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError", "CompilerError"]
 
 
 class WomlabError(Exception):
@@ -35,3 +35,8 @@ class ClusterError(WomlabError):
 
 class ViewError(WomlabError):
     """The browser view cannot start (its extra is not installed, or the server did not come up)."""
+
+
+class CompilerError(WomlabError):
+    """numba, which compiles womlab's formulas and engines, is missing, unsupported or cannot
+    compile on this machine; the message names the version found and how to get a supported one."""

@@ -22,6 +22,7 @@ from womlab.studies.metrics import curve_metrics
 from womlab.scenario import Scenario
 from womlab.store import ResultsStore
 from womlab.studies.sweep import design_points, point_scenarios, run_sweep
+from womlab.studies.runner import parallel_choice
 
 BASE = {
     "seed": 7,
@@ -47,7 +48,8 @@ def test_grid_2x3_with_4_replicates_is_identical_for_jobs_1_jobs_2_and_dask(tmp_
     # SeedSequence(seed, spawn_key=(point, replicate)) per run: the backend cannot matter.
     s = scenario(GRID)
     one = run_sweep(s, tmp_path / "j1", 1, progress=False, report=False)
-    two = run_sweep(s, tmp_path / "j2", 2, chunk_size=3, progress=False, report=False)
+    with parallel_choice("pool"):  # two worker processes, although the work is small
+        two = run_sweep(s, tmp_path / "j2", 2, chunk_size=3, progress=False, report=False)
     # Dask LocalCluster with 2 thread workers (processes=False keeps the test fast; the
     # process-worker path is the same joblib Dask backend and is timed in benchmarks/sweeps.py).
     dask = run_sweep(s, tmp_path / "dask", cluster="local:2", cluster_processes=False, chunk_size=5,

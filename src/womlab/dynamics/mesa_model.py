@@ -6,15 +6,15 @@ both call the formulas of :mod:`womlab.rules` — but decides one organisation a
 the way the rules are usually written down:
 
 1. At the start of each step every potential customer sums what its neighbours put
-   into its Tᵢ (:func:`~womlab.rules.talk_weights`: the talkers of satisfied customers;
+   into its Tᵢ (:func:`~womlab.rules.talk_weight`: the talkers of satisfied customers;
    under ``cascade`` 1 for each neighbour satisfied within the last period) — read from
    its neighbours on Mesa's network space — and, with the summed talkers of all its
    neighbours (Dᵢ) and, under ``threshold``, its own threshold θᵢ
    (:func:`~womlab.rules.draw_thresholds`, drawn at creation), gets its rate from
-   :func:`~womlab.rules.adoption_rate` and its step probability from
-   :func:`~womlab.rules.step_probability`.
+   :func:`~womlab.rules.rate` and its step probability from
+   :func:`~womlab.rules.probability` — the compiled formulas the array engine's step calls.
 2. It draws its own uniform against that probability. An organisation that adopts
-   draws its cause: external with probability :func:`~womlab.rules.external_share`,
+   draws its cause: external with probability :func:`~womlab.rules.external_part`,
    otherwise one satisfied-customer neighbour, chosen with probability proportional
    to its talkers (a roulette wheel walked over its neighbours).
 3. Only when every potential customer has decided are the adoptions applied
@@ -212,7 +212,7 @@ class Organisation(FixedAgent):
         Its own threshold θᵢ (``threshold`` rule only), drawn at creation by
         :func:`womlab.rules.draw_thresholds`.
     talk : float
-        What it puts into its neighbours' Tᵢ now (:func:`womlab.rules.talk_weights`):
+        What it puts into its neighbours' Tᵢ now (:func:`womlab.rules.talk_weight`):
         ``talkers`` if a satisfied customer, else 0; under ``cascade`` 1 during the
         period after it became a satisfied customer, else 0.
     counted : float
@@ -490,6 +490,10 @@ class ReferralModel(mesa.Model):
         self.step_count = 0
         self.period = 0
         self._chances: dict[tuple[float, float], tuple[float, float]] = {}
+        adoption = scenario.adoption  # the rule as the compiled formulas of womlab.rules take it
+        self._rule = (rules.rule_code(adoption.rule), float(adoption.external), float(adoption.word_of_mouth),
+                      float(adoption.cap))
+        self._form = rules.form_code(run.step_probability)
 
         graph = nx.empty_graph(network.n) if network.complete else _graph_of(network)
         self.space = Network(graph, random=self.random, **_SPACE_OPTIONS)
@@ -538,26 +542,20 @@ class ReferralModel(mesa.Model):
         key = (talking, total)
         found = self._chances.get(key) if threshold is None else None
         if found is None:
-            adoption, run = self.womlab_scenario.adoption, self.womlab_scenario.run
-            t, d = np.array([talking]), np.array([total])
-            theta = None if threshold is None else np.array([threshold])
-            rate = rules.adoption_rate(adoption.rule, t, d, adoption, theta)
-            probability = float(rules.step_probability(rate, run.time_step, run.step_probability)[0])
-            external = float(rules.external_share(adoption.rule, t, d, adoption, theta)[0])
-            found = (probability, external)
+            rule, p, q, cap = self._rule
+            theta = 0.0 if threshold is None else float(threshold)
+            t, d = float(talking), float(total)
+            rate = rules.rate(rule, t, d, theta, p, q, cap)
+            found = (rules.probability(rate, self.time_step, self._form), rules.external_part(rule, t, d, theta, p, q))
             if threshold is None:
                 self._chances[key] = found
         return found
 
     def talk_weight(self, agent: Organisation) -> float:
-        """What ``agent`` puts into its neighbours' Tᵢ in the coming step (:func:`womlab.rules.talk_weights`)."""
-        weight = rules.talk_weights(
-            self.womlab_scenario.adoption.rule,
-            np.array([agent.talkers], dtype=np.float32),
-            np.array([agent.customer and agent.satisfied]),
-            np.array([agent.fresh_until >= self.step_count + 1]),
-        )
-        return float(weight[0])
+        """What ``agent`` puts into its neighbours' Tᵢ in the coming step (:func:`womlab.rules.talk_weight`)."""
+        weight = rules.talk_weight(self._rule[0], np.float32(agent.talkers), agent.customer and agent.satisfied,
+                                   agent.fresh_until >= self.step_count + 1)
+        return float(weight)
 
     def _refresh_cascade_talk(self) -> None:
         """``cascade``: a customer counts in its neighbours' Tᵢ only for the period after it became satisfied."""

@@ -20,7 +20,7 @@ from womlab.errors import StoreError
 
 __all__ = ["results_folder", "versions", "atomic_write", "manifest"]
 
-_LIBRARIES = ("womlab", "numpy", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib",
+_LIBRARIES = ("womlab", "numpy", "numba", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib",
               "pyarrow", "dask", "distributed", "tqdm")
 
 

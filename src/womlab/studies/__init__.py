@@ -47,13 +47,15 @@ from womlab.studies.referrals import (
     top_degree_referral_share,
     word_of_mouth_by_period,
 )
-from womlab.studies.runner import Batch, run_one, run_paired, run_replicates
+from womlab.studies.runner import Batch, crossover_seconds, parallel_choice, run_one, run_paired, run_replicates
 from womlab.studies.seeding_study import SeedingStudy, compare_strategies, lift_statistics, run_outcomes
 from womlab.studies.sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
 from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, run_point, run_sweep
 from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_study, sweep_studies, sweep_study
 
 __all__ = [
+    "parallel_choice",
+    "crossover_seconds",
     "Batch",
     "run_one",
     "run_replicates",

@@ -15,9 +15,13 @@ case of the same mechanism.
 
 from __future__ import annotations
 
+import math
+import sys
 import time
-from collections.abc import Callable, Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
+from functools import partial
 from typing import Any
 
 import numpy as np
@@ -36,6 +40,9 @@ __all__ = [
     "run_one",
     "run_replicates",
     "run_paired",
+    "run_chunks",
+    "parallel_choice",
+    "crossover_seconds",
     "Batch",
 ]
 
@@ -106,6 +113,143 @@ def _check_pairable(variants: Mapping[str, Scenario]) -> None:
             raise ScenarioError(f"variant {name!r} has run.periods = {s.run.periods}, the first {first.run.periods}")
 
 
+#: Seconds a fresh pool of worker processes takes before its first result: each worker starts
+#: Python, imports womlab and loads the compiled engine. Measured by ``benchmarks/sweeps.py``
+#: (median on the shared 2-core machine, 3.43 and 3.49 s, in CPU seconds of one worker, which
+#: a busy machine swells less than wall time); see :func:`crossover_seconds`.
+POOL_START_SECONDS = 3.5
+#: The same for a pool that is already running in this process (handing a chunk over and back).
+POOL_WARM_SECONDS = 0.05
+#: joblib keeps an idle pool this long (seconds) before its workers exit.
+POOL_IDLE_SECONDS = 300.0
+#: Chunks handed to a worker take about this long at most (seconds), so progress keeps moving.
+CHUNK_SECONDS = 1.0
+
+_MODES = ("auto", "pool", "in-process")
+_choice = {"mode": "auto"}
+_pool: dict[str, float] = {"workers": 0.0, "last_used": -np.inf}
+
+
+@contextmanager
+def parallel_choice(mode: str) -> Iterator[None]:
+    """Within the block, run batches ``"auto"`` (the default: in-process below the crossover),
+    always on the ``"pool"`` when ``jobs`` > 1, or always ``"in-process"``.
+
+    Results are the same whichever runs them (every run is seeded by its own key); this
+    only changes where they run, e.g. to time both or to test that they agree.
+
+    Examples
+    --------
+    >>> with parallel_choice("in-process"):
+    ...     pass
+    """
+    if mode not in _MODES:
+        raise ScenarioError(f"parallel choice must be one of {', '.join(_MODES)}, got {mode!r}")
+    before = _choice["mode"]
+    _choice["mode"] = mode
+    try:
+        yield
+    finally:
+        _choice["mode"] = before
+
+
+def crossover_seconds(workers: int, warm: bool = False) -> float:
+    """Estimated in-process seconds above which ``workers`` worker processes finish sooner.
+
+    In-process, W seconds of runs take W; on a pool they take S + W / workers, S the pool's
+    start-up (:data:`POOL_START_SECONDS`, or :data:`POOL_WARM_SECONDS` for a pool already
+    running in this process). The pool pays when W > S · workers / (workers − 1).
+
+    Examples
+    --------
+    >>> crossover_seconds(2) == 2 * POOL_START_SECONDS
+    True
+    """
+    if workers <= 1:
+        return np.inf
+    start = POOL_WARM_SECONDS if warm else POOL_START_SECONDS
+    return start * workers / (workers - 1)
+
+
+def _sized(func: Callable[[list[Any]], Any], chunk: list[Any]) -> tuple[int, Any]:
+    return len(chunk), func(chunk)
+
+
+def _pool_warm(workers: int) -> bool:
+    return _pool["workers"] == workers and time.monotonic() - _pool["last_used"] < POOL_IDLE_SECONDS * 0.9
+
+
+def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int, *,
+               chunk_size: int | None = None, what: str = "runs",
+               chosen: dict[str, str] | None = None) -> Iterator[tuple[int, Any]]:
+    """Run ``func`` over chunks of ``items``, in-process or on a pool of worker processes.
+
+    The one place womlab starts workers (batches, paired studies and sweeps all come here).
+    With ``jobs`` > 1 and the default ``"auto"`` choice (:func:`parallel_choice`), the first
+    items run in-process, one at a time, and their CPU time is taken; if the rest, at the last
+    item's time each, would take longer than :func:`crossover_seconds`, a joblib loky pool takes the rest
+    (a line on standard error says so when the pool has to start), otherwise they run
+    in-process too. The pool is joblib's reusable one: started once per process and reused
+    by later batches while it is busy enough not to idle out. Chunks hold about a quarter of
+    each worker's share, at most about :data:`CHUNK_SECONDS` of work (or ``chunk_size`` items).
+
+    ``chosen``, if given, receives ``chosen["backend"]``: ``"in-process"`` or ``"loky, N workers"``.
+
+    Yields
+    ------
+    (count, result)
+        How many items the chunk held and ``func(chunk)``, as chunks finish (in any order).
+    """
+    from joblib import Parallel, delayed, effective_n_jobs
+
+    items = list(items)
+    workers = min(effective_n_jobs(jobs), len(items))
+    mode = _choice["mode"]
+    done = 0
+    each = np.inf
+    if workers > 1 and mode == "auto":
+        warm = _pool_warm(workers)
+        need = crossover_seconds(workers, warm)
+        while done < len(items):
+            started = time.process_time()  # CPU seconds: the estimate does not swell when the machine is busy
+            result = func([items[done]])
+            each = time.process_time() - started
+            done += 1
+            yield 1, result
+            ahead = each * (len(items) - done)
+            if ahead < need:  # the rest is cheaper here; the first run's warm-up only overstates it
+                workers = 1
+                break
+            if done >= 2 or each > 4 * need:  # a second, warm timing, unless one run alone is that long
+                break
+    if chosen is not None:
+        chosen["backend"] = "in-process" if workers <= 1 or mode == "in-process" else f"loky, {workers} workers"
+    if workers <= 1 or mode == "in-process":
+        size = chunk_size or 1
+        for i in range(done, len(items), size):
+            chunk = items[i : i + size]
+            yield len(chunk), func(chunk)
+        return
+    rest = items[done:]
+    if not rest:
+        return
+    if chunk_size is None:
+        longest = max(1, int(CHUNK_SECONDS / each)) if np.isfinite(each) and each > 0 else len(rest)
+        chunk_size = max(1, min(math.ceil(len(rest) / (workers * 4)), longest))
+    chunks = [rest[i : i + chunk_size] for i in range(0, len(rest), chunk_size)]
+    if not _pool_warm(workers):
+        guess = f" for about {each * len(rest):.0f} s of {what}" if np.isfinite(each) else ""
+        print(f"womlab: starting {workers} worker processes{guess}", file=sys.stderr, flush=True)
+    try:
+        results = Parallel(n_jobs=workers, backend="loky", return_as="generator_unordered")(
+            delayed(_sized)(func, chunk) for chunk in chunks)
+        for count, chunk_result in results:
+            yield count, chunk_result
+            _pool.update(workers=float(workers), last_used=time.monotonic())
+    finally:
+        _pool.update(workers=float(workers), last_used=time.monotonic())
+
+
 def _execute(
     variants: Mapping[str, Scenario],
     keys: list[tuple[int, ...]],
@@ -114,28 +258,18 @@ def _execute(
     reduce: Callable[[RunResult], Any] | None = None,
     network: ReferralNetwork | None = None,
 ) -> dict[tuple, dict[str, Any]]:
-    """Run every key, chunked across ``jobs`` workers; results keyed by spawn key.
+    """Run every key, in-process or across ``jobs`` workers (:func:`run_chunks`); results keyed by spawn key.
 
     ``reduce``, if given, is applied to each run inside the worker (a picklable function),
     so that only its small return value travels back. ``network``, if given, is the one
     network every run is on (else each key builds its own)."""
-    from joblib import Parallel, delayed, effective_n_jobs
-
-    workers = effective_n_jobs(jobs)
-    if workers == 1 or len(keys) == 1:
-        chunks = [[k] for k in keys]
-        results = (_chunk(variants, c, reduce, network) for c in chunks)
-    else:
-        size = max(1, min(32, len(keys) // (workers * 4)))
-        chunks = [keys[i : i + size] for i in range(0, len(keys), size)]
-        results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c, reduce, network) for c in chunks)
     done: dict[tuple, dict[str, RunResult]] = {}
     bar = None
     if progress:
         from tqdm.auto import tqdm
 
         bar = tqdm(total=len(keys), unit="run", desc="runs", leave=False)
-    for chunk in results:
+    for _, chunk in run_chunks(partial(_chunk, variants, reduce=reduce, network=network), keys, jobs):
         for key, result in chunk:
             done[key] = result
         if bar is not None:

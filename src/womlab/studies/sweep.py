@@ -46,6 +46,7 @@ import hashlib
 import math
 import time
 from collections.abc import Callable, Sequence
+from functools import partial
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -60,6 +61,7 @@ from womlab.scenario.sweep_spec import FIXED_FIELDS, is_path_field
 from womlab.store import STORE_FORMAT, ResultsStore, differences, file_sha256, runs_schema, versions
 from womlab.studies.presenting import present
 from womlab.networks.given import as_network
+from womlab.studies.runner import run_chunks
 from womlab.studies.sensitivity import morris_design, saltelli_design
 from womlab.studies.sweep_studies import RUN_OUTCOMES, SweepStudy, sweep_study
 
@@ -362,9 +364,12 @@ def _parse_cluster(cluster: str) -> int:
     return int(n)
 
 
+def _chunk_size(pending: int, workers: int, chunk_size: int | None) -> int:
+    return max(1, min(64, math.ceil(pending / (workers * 8)))) if chunk_size is None else chunk_size
+
+
 def _chunks(pending: list[tuple[int, int]], workers: int, chunk_size: int | None) -> list[list[tuple[int, int]]]:
-    if chunk_size is None:
-        chunk_size = max(1, min(64, math.ceil(len(pending) / (workers * 8))))
+    chunk_size = _chunk_size(len(pending), workers, chunk_size)
     return [pending[i : i + chunk_size] for i in range(0, len(pending), chunk_size)]
 
 
@@ -551,17 +556,21 @@ def _connect(scheduler: str | None, cluster: str | None, processes: bool, securi
     return client, None, f"dask scheduler {scheduler}", max(1, sum(client.nthreads().values()))
 
 
-def _results(run: Callable, tasks: list, workers: int, client: Any) -> Any:
-    """Chunk results, in any order: in-process, on loky workers, or on the Dask client's cluster."""
-    from joblib import Parallel, delayed, parallel_config
-
+def _results(study: str, tasks: list, curves: bool, columns: list, network: ReferralNetwork | None, workers: int,
+             client: Any, chosen: dict[str, str]) -> Any:
+    """Chunk results, in any order: on the Dask client's cluster, or in-process / on the reusable
+    loky pool as :func:`womlab.studies.runner.run_chunks` chooses (it records its choice in ``chosen``)."""
     if client is not None:
+        from joblib import Parallel, delayed, parallel_config
+
         with parallel_config(backend="dask"):
-            yield from Parallel(n_jobs=-1, return_as="generator_unordered")(delayed(run)(*t) for t in tasks)
-    elif workers == 1 or len(tasks) <= 1:
-        yield from (run(*t) for t in tasks)
-    else:
-        yield from Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(run)(*t) for t in tasks)
+            yield from Parallel(n_jobs=-1, return_as="generator_unordered")(
+                delayed(_run_chunk)(study, chunk, curves, columns, network) for chunk in tasks)
+        return
+    items = [task for chunk in tasks for task in chunk]
+    size = len(tasks[0]) if tasks else None
+    run = partial(_run_chunk, study, curves=curves, columns=columns, network=network)
+    yield from (result for _, result in run_chunks(run, items, workers, chunk_size=size, chosen=chosen))
 
 
 def run_sweep(
@@ -701,7 +710,7 @@ def run_sweep(
         client, local, backend, workers = _connect(scheduler, cluster, cluster_processes, security, connect_timeout)
     else:
         workers = effective_n_jobs(scenario.run.jobs if jobs is None else jobs)
-        backend = f"loky, {workers} workers" if workers > 1 else "in-process"
+        backend = "in-process" if workers <= 1 else f"up to {workers} loky workers, in-process below the crossover"
     try:
         with store.locked(wait):
             points, added_points, added_replicates = _open(store, scenario, design, manifest)
@@ -715,22 +724,24 @@ def run_sweep(
                                            "womlab": library_versions["womlab"], "added_points": added_points,
                                            "added_replicates": added_replicates})
             at = dict(zip(numbers, scenarios))
-            tasks = [(spec.study, [(i, r, at[i]) for i, r in chunk], curves, columns, given)
-                     for chunk in _chunks(pending, workers, chunk_size)]
+            tasks = [[(i, r, at[i]) for i, r in chunk] for chunk in _chunks(pending, workers, chunk_size)]
             bar = None
             if progress:
                 from tqdm.auto import tqdm
 
                 bar = tqdm(total=len(keys), initial=skipped, unit="run", desc=f"sweep ({spec.study})", smoothing=0.1)
             try:
-                ran, failed_now = _collect(_results(_run_chunk, tasks, workers, client), store, session, bar)
+                chosen = {"backend": backend}
+                ran, failed_now = _collect(_results(spec.study, tasks, curves, columns, given, workers, client, chosen),
+                                           store, session, bar)
+                backend = chosen["backend"]
             finally:
                 if bar is not None:
                     bar.close()
             store.consolidate()
             runs = store.runs()
             failed = runs[runs["status"] != "ok"]
-            store.end_session(session, {"ran": ran, "failed": failed_now,
+            store.end_session(session, {"ran": ran, "failed": failed_now, "backend": backend,
                                         "wall_time_s": round(time.perf_counter() - start, 3)})
             summary = SweepSummary(out=store.path, points=len(points), runs=len(keys), skipped=skipped, ran=ran,
                                    failures=len(failed), wall_time=time.perf_counter() - start, backend=backend,
