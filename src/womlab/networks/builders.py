@@ -36,7 +36,7 @@ from collections.abc import Callable
 
 import networkx as nx
 import numpy as np
-from numba import njit
+from womlab.rules.compiled import compiled
 from scipy import stats
 
 from womlab.errors import NetworkError
@@ -106,7 +106,7 @@ def _skipped_positions(pairs: int, p: float, rng: np.random.Generator) -> np.nda
     return parts[0] if len(parts) == 1 else np.concatenate(parts)
 
 
-@njit(cache=True)
+@compiled
 def _triangle_pairs(k: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Ascending positions k = j(j − 1)/2 + i (0 ≤ i < j) back to the pairs (i, j), by walking j up."""
     i_out = np.empty(k.size, dtype=np.int32)
@@ -663,7 +663,7 @@ def _draw_positions(rng: np.random.Generator, lengths: np.ndarray, width: int) -
     return out
 
 
-@njit(cache=True)
+@compiled
 def _resolve(base: np.ndarray, draws: np.ndarray, targets: np.ndarray, first: int, m: int, start: int) -> int:
     """Each newcomer, in order from row ``start``, takes the first m distinct organisations
     its draws name; returns the first row whose draws name fewer than m, or −1."""

@@ -18,12 +18,12 @@ loads them from the cache instead of compiling again.
 from __future__ import annotations
 
 import numpy as np
-from numba import njit
+from womlab.rules.compiled import compiled
 
 __all__ = ["csr_from_ties", "lattice_ties", "lattice_tie_index", "first_in_rows", "local_clustering"]
 
 
-@njit(cache=True)
+@compiled
 def _sort_rows(indptr: np.ndarray, indices: np.ndarray) -> None:
     """Sort each row of a CSR in place (insertion sort for short rows: stable and allocation-free)."""
     n = indptr.size - 1
@@ -41,7 +41,7 @@ def _sort_rows(indptr: np.ndarray, indices: np.ndarray) -> None:
             indices[q + 1] = x
 
 
-@njit(cache=True)
+@compiled
 def _fill(n: int, source: np.ndarray, target: np.ndarray, indptr: np.ndarray, indices: np.ndarray) -> None:
     pos = np.empty(n, dtype=np.int64)
     for i in range(n):
@@ -54,7 +54,7 @@ def _fill(n: int, source: np.ndarray, target: np.ndarray, indptr: np.ndarray, in
         pos[t] += 1
 
 
-@njit(cache=True)
+@compiled
 def _counts(n: int, source: np.ndarray, target: np.ndarray) -> np.ndarray:
     counts = np.zeros(n + 1, dtype=np.int64)
     for e in range(source.size):
@@ -89,7 +89,7 @@ def csr_from_ties(n: int, source: np.ndarray, target: np.ndarray) -> tuple[np.nd
     return indptr, indices
 
 
-@njit(cache=True)
+@compiled
 def lattice_ties(starts: np.ndarray, sizes: np.ndarray, half: int) -> tuple[np.ndarray, np.ndarray]:
     """Ties of a ring lattice on each block: i – start + (i − start + d) mod size, d = 1..half.
 
@@ -116,7 +116,7 @@ def lattice_ties(starts: np.ndarray, sizes: np.ndarray, half: int) -> tuple[np.n
     return src, dst
 
 
-@njit(cache=True)
+@compiled
 def lattice_tie_index(a: np.ndarray, b: np.ndarray, block: np.ndarray, starts: np.ndarray, sizes: np.ndarray,
                       offsets: np.ndarray, half: int) -> np.ndarray:
     """Index into :func:`lattice_ties`'s arrays of the lattice tie joining aₖ and bₖ, −1 if none.
@@ -141,7 +141,7 @@ def lattice_tie_index(a: np.ndarray, b: np.ndarray, block: np.ndarray, starts: n
     return out
 
 
-@njit(cache=True)
+@compiled
 def _first_by_hashing(n: int, a: np.ndarray, b: np.ndarray, slots: int) -> np.ndarray:
     """First occurrences by an open-addressing table of pairs seen (``slots`` a power of two)."""
     m = a.size
@@ -179,7 +179,7 @@ def first_in_rows(n: int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return _first_by_rows(int(n), a, b)
 
 
-@njit(cache=True)
+@compiled
 def _first_by_rows(n: int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     m = a.size
     counts = np.zeros(n + 1, dtype=np.int64)
@@ -212,7 +212,7 @@ def _first_by_rows(n: int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return first
 
 
-@njit(cache=True)
+@compiled
 def local_clustering(indptr: np.ndarray, indices: np.ndarray) -> np.ndarray:
     """Each organisation's local clustering coefficient: triangles through it over the
     pairs of its neighbours (0 below degree 2), on a simple graph with sorted rows.

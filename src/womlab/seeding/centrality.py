@@ -16,14 +16,14 @@ graphs. Compiled once per machine (``cache=True``).
 from __future__ import annotations
 
 import numpy as np
-from numba import njit
+from womlab.rules.compiled import compiled
 
 from womlab.networks import ReferralNetwork
 
 __all__ = ["pagerank", "betweenness", "core_numbers"]
 
 
-@njit(cache=True)
+@compiled
 def _pagerank(indptr: np.ndarray, indices: np.ndarray, alpha: float, tol: float, max_iter: int) -> np.ndarray:
     n = indptr.size - 1
     x = np.full(n, 1.0 / n)
@@ -78,7 +78,7 @@ def pagerank(network: ReferralNetwork, alpha: float = 0.85, tol: float = 1e-10, 
     return _pagerank(network.indptr, network.indices, float(alpha), float(tol), int(max_iter))
 
 
-@njit(cache=True)
+@compiled
 def _brandes(indptr: np.ndarray, indices: np.ndarray, sources: np.ndarray) -> np.ndarray:
     n = indptr.size - 1
     bc = np.zeros(n)
@@ -155,7 +155,7 @@ def betweenness(network: ReferralNetwork, sources: np.ndarray | None = None) -> 
     return bc * scale
 
 
-@njit(cache=True)
+@compiled
 def _cores(indptr: np.ndarray, indices: np.ndarray) -> np.ndarray:
     n = indptr.size - 1
     deg = np.empty(n, dtype=np.int64)
