@@ -86,9 +86,8 @@ def test_an_unsupported_numba_stops_the_command_with_one_line(tmp_path):
     # the engines at all: womlab still imports, and the command fails with one line and exit 2.
     import subprocess
     import sys
-    from pathlib import Path
 
-    config = Path(__file__).resolve().parents[2] / "configs" / "sweep-demo.toml"
+    config = "sweep-demo"  # a scenario shipped in the package
     code = ("import sys, types; fake = types.ModuleType('numba'); fake.__version__ = '0.50.0'; "
             "sys.modules['numba'] = fake\nfrom womlab.cli import main\n"
             f"sys.exit(main(['run', {str(config)!r}, '--replicates', '1', '--jobs', '1', '--quiet', "
