@@ -77,12 +77,26 @@ def _run_variants(
     return out
 
 
+@dataclass(frozen=True)
+class _Varied:
+    """The variants of one key with that key's changes applied: ``vary(key)`` (a picklable
+    callable) gives dotted field changes that every variant of the key receives alike."""
+
+    variants: Mapping[str, Scenario]
+    vary: Callable[[tuple[int, ...]], Mapping[str, Any]]
+
+    def __call__(self, key: tuple[int, ...]) -> dict[str, Scenario]:
+        changes = self.vary(tuple(key))
+        return {name: s.replace(changes) if changes else s for name, s in self.variants.items()}
+
+
 def _chunk(
-    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None
+    variants: Mapping[str, Scenario] | _Varied, keys: Sequence[tuple[int, ...]],
+    reduce: Callable[[RunResult], Any] | None = None
 ) -> list[tuple[tuple, dict[str, Any]]]:
     out = []
     for key in keys:
-        runs = _run_variants(variants, key)
+        runs = _run_variants(variants(key) if isinstance(variants, _Varied) else variants, key)
         out.append((key, runs if reduce is None else {name: reduce(r) for name, r in runs.items()}))
     return out
 
@@ -252,6 +266,7 @@ def run_paired(
     progress: bool = False,
     keys: Iterable[tuple[int, ...]] | None = None,
     reduce: Callable[[RunResult], Any] | None = None,
+    vary: Callable[[tuple[int, ...]], Mapping[str, Any]] | None = None,
 ) -> dict[str, list[Any]]:
     """Run every variant on the same replicates with common random numbers.
 
@@ -274,6 +289,12 @@ def run_paired(
     reduce : callable, optional
         A picklable function applied to each RunResult inside the worker; its return
         value replaces the run (keeps large studies small in memory).
+    vary : callable, optional
+        A picklable function of the spawn key returning dotted field changes
+        (``{"adoption.word_of_mouth": 0.31}``) that every variant of that key receives
+        alike, inside the worker, before the key's network is built: parameters drawn per
+        replicate (a fit's posterior, :func:`womlab.fit_observed`), still paired across
+        variants.
 
     Returns
     -------
@@ -282,5 +303,6 @@ def run_paired(
     """
     _check_pairable(variants)
     keys = [(r,) for r in range(replicates)] if keys is None else [tuple(k) for k in keys]
-    done = _execute(dict(variants), keys, jobs, progress, reduce)
+    todo = dict(variants) if vary is None else _Varied(dict(variants), vary)
+    done = _execute(todo, keys, jobs, progress, reduce)
     return {name: [done[k][name] for k in keys] for name in variants}
