@@ -6,7 +6,7 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 
 from __future__ import annotations
 
-__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError"]
+__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ObservedDataError"]
 
 
 class WomlabError(Exception):
@@ -27,3 +27,12 @@ class NetworkError(WomlabError, ValueError):
 
 class StoreError(WomlabError):
     """A results folder cannot be written, read or resumed."""
+
+
+class ObservedDataError(WomlabError, ValueError):
+    """An observed adoption series cannot be used as given.
+
+    The message names the file, the column, the row (the header is row 1) and what is
+    allowed, e.g. ``sales.csv: column 'customers', row 6 (period 4): customers must not
+    fall (the column is cumulative), got 130 after 142``.
+    """
