@@ -12,6 +12,7 @@ Quick start::
     batch = womlab.run_replicates(s, 20, jobs=2)
     batch.metrics()                    # t10/t50/t90, peak, final share: network vs aggregate
     womlab.adoption_figure(batch).savefig("adoption.png")
+    fit = womlab.fit_observed(s, "observed.csv")   # your own market: ABC-SMC fit, forecast, stage
 """
 
 from __future__ import annotations
@@ -38,15 +39,17 @@ from womlab.aggregate import (
     stock_and_flow,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams
-from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.errors import NetworkError, ObservedDataError, ScenarioError, StoreError, WomlabError
 from womlab.networks import ReferralNetwork, build_network, read_edgelist
 from womlab.results import (
     adoption_figure,
     comparison_figure,
+    fit_figure,
     network_snapshot_figure,
     programme_figure,
     referral_tree_figure,
     save_batch,
+    save_fit,
     save_programme,
     save_seeding_study,
     seeding_figure,
@@ -61,6 +64,8 @@ from womlab.store import ResultsStore
 from womlab.studies import (
     Batch,
     Comparison,
+    Fit,
+    ObservedSeries,
     ProgrammeStudy,
     SeedingStudy,
     SweepSummary,
@@ -71,6 +76,7 @@ from womlab.studies import (
     curve_metrics,
     design_points,
     evaluate_programme,
+    fit_observed,
     generations,
     lift_statistics,
     morris_design,
@@ -79,6 +85,7 @@ from womlab.studies import (
     pooled_gaps,
     pooled_metrics,
     programme_economics,
+    read_observed,
     referral_tree_summary,
     referrals_per_customer,
     replicate_gaps,
@@ -89,6 +96,8 @@ from womlab.studies import (
     run_replicates,
     run_sweep,
     saltelli_design,
+    simulated_series,
+    simulation_based_calibration,
     sobol_indices,
     time_to_share,
     top_degree_referral_share,
@@ -182,6 +191,16 @@ __all__ = [
     # the Mesa model, imported on first use so that `import womlab` does not import mesa
     "ReferralModel",
     "run_mesa",
+    # fitting an observed series
+    "Fit",
+    "ObservedDataError",
+    "ObservedSeries",
+    "fit_figure",
+    "fit_observed",
+    "read_observed",
+    "save_fit",
+    "simulated_series",
+    "simulation_based_calibration",
     # engines and their dispatch
     "engine_for",
     "run_events",
