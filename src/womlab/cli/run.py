@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import Any
 
 from womlab.cli.common import batch_command, load, print_table
+from womlab.cli.fit import add_data, observed_points
 
 __all__ = ["add"]
 
@@ -16,9 +17,10 @@ def cmd_run(args: argparse.Namespace) -> int:
     from womlab.studies import run_replicates
 
     scenario = load(args)
+    observed = observed_points(args, scenario)
     out = Path(args.out) if args.out else Path("out") / Path(args.config).stem
     batch = run_replicates(scenario, progress=not args.quiet)
-    written = save_batch(batch, out)
+    written = save_batch(batch, out, observed=observed)
     metrics = batch.metrics()[["metric", "network_median", "network_q05", "network_q95", "aggregate"]]
     print(f"{scenario.name}: {batch.replicates} runs of {scenario.market.organisations} organisations "
           f"on a {scenario.network.kind} network, {batch.wall_time:.1f} s")
@@ -28,6 +30,7 @@ def cmd_run(args: argparse.Namespace) -> int:
 
 
 def add(sub: Any) -> None:
-    batch_command(sub, "run", cmd_run, "run replicates of a scenario and write its results folder",
-                  "scenario TOML file", "number of replicate runs (overrides run.replicates)",
-                  "out/<config name>", engine=True)
+    cmd = batch_command(sub, "run", cmd_run, "run replicates of a scenario and write its results folder",
+                        "scenario TOML file", "number of replicate runs (overrides run.replicates)",
+                        "out/<config name>", engine=True)
+    add_data(cmd)

@@ -40,8 +40,10 @@ def _write_table(path: Path, table: Any, float_format: str | None = "%.6g") -> P
     return atomic_write(path, lambda p: table.to_csv(p, index=False, float_format=float_format))
 
 
-def save_batch(batch: Batch, out: str | Path, *, figure: bool = True) -> list[Path]:
+def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, observed: Any = None) -> list[Path]:
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
+
+    ``observed`` (a :class:`womlab.ObservedSeries`) is overlaid on the figure.
 
     Returns the paths written.
 
@@ -57,7 +59,7 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True) -> list[Pa
         _write_table(out / "metrics.csv", batch.metrics()),
     ]
     if figure:
-        written.append(_write_figure(out / "adoption.png", adoption_figure(batch)))
+        written.append(_write_figure(out / "adoption.png", adoption_figure(batch, observed=observed)))
     written.append(_write_json(out / "manifest.json", manifest(batch)))
     return written
 
@@ -122,8 +124,9 @@ def save_seeding_study(study: SeedingStudy, out: str | Path, *, figures: bool = 
     return written
 
 
-def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = True) -> list[Path]:
-    """Write a comparison's tables, figure and manifest into the results folder ``out``.
+def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = True, observed: Any = None) -> list[Path]:
+    """Write a comparison's tables, figure and manifest into the results folder ``out``
+    (``observed``, a :class:`womlab.ObservedSeries`, overlaid on the figure).
 
     Files: ``compare_curves.csv``, ``compare_metrics.csv``, ``compare_gaps.csv``,
     ``compare_fits.csv``, ``compare_replicates.csv`` (per-replicate metrics, fits and
@@ -144,7 +147,7 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
     }
     written = [_write_table(out / name, table) for name, table in tables.items()]
     if figure:
-        written.append(_write_figure(out / "comparison.png", comparison_figure(comparison)))
+        written.append(_write_figure(out / "comparison.png", comparison_figure(comparison, observed=observed)))
     sf = comparison.stock_flow_fit
     extra = {
         "comparison": comparison.settings,
