@@ -22,6 +22,7 @@ Schmitt, P., Skiera, B. & Van den Bulte, C. (2011). Referral programs and custom
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -178,6 +179,7 @@ class ProgrammeStudy:
     programme: list[RunResult]
     degrees: list[np.ndarray] = field(default_factory=list)
     bootstrap: int = 2000
+    parameters: str = "fixed (the scenario's own)"
 
     @property
     def replicates(self) -> int:
@@ -223,7 +225,9 @@ class ProgrammeStudy:
         be = self.break_even_period()
         rows.append({"outcome": "break_even_period", "estimate": be, "low": np.nan, "high": np.nan,
                      "interval": "of the mean cumulative curves"})
-        return pd.DataFrame(rows)
+        table = pd.DataFrame(rows)
+        table["parameters"] = self.parameters  # fixed, or drawn from a fit's posterior (intervals include it)
+        return table
 
     def curves(self) -> pd.DataFrame:
         """Per period: mean and 5–95 % band of the customer share, baseline and programme."""
@@ -269,7 +273,7 @@ class ProgrammeStudy:
 
 
 def evaluate_programme(
-    scenario: Scenario,
+    scenario: Scenario | Any,
     replicates: int | None = None,
     *,
     jobs: int | None = None,
@@ -283,8 +287,11 @@ def evaluate_programme(
 
     Parameters
     ----------
-    scenario : Scenario
-        Must have a programme (``referral.enrol`` other than ``none``).
+    scenario : Scenario or Fit
+        Must have a programme (``referral.enrol`` other than ``none``). A fit
+        (:func:`womlab.fit_observed`; ``fit.replace({...})`` adds a programme) stands for its
+        scenario at the posterior, and each replicate draws its parameters from the
+        posterior, the same draw for the baseline and the programme.
     replicates : int, optional
         Defaults to ``scenario.run.replicates``.
     jobs : int, optional
@@ -310,6 +317,9 @@ def evaluate_programme(
     >>> list(study.per_replicate().columns[:3])
     ['replicate', 'customers_baseline', 'customers_programme']
     """
+    draws = None
+    if not isinstance(scenario, Scenario):  # a fit: parameters drawn from its posterior per replicate
+        draws, scenario = scenario.posterior_draws(), scenario.scenario()
     if not scenario.referral.active:
         raise ScenarioError(
             'referral.enrol must be one of all, share, strategy to evaluate a programme, got "none"'
@@ -324,10 +334,14 @@ def evaluate_programme(
     if replicates < 1:
         raise ScenarioError(f"replicates must be a whole number >= 1, got {replicates}")
     baseline = scenario.replace("referral.enrol", "none")
-    runs = run_paired({"baseline": baseline, "programme": scenario}, replicates, jobs=jobs, progress=progress)
+    runs = run_paired({"baseline": baseline, "programme": scenario}, replicates, jobs=jobs, progress=progress,
+                      vary=draws)
     degs = []
     if degrees:
         for r in range(replicates):
-            net = build_network(scenario, np.random.default_rng(streams(scenario.seed, (r,)).network))
+            at = scenario if draws is None else scenario.replace(draws((r,)))
+            net = build_network(at, np.random.default_rng(streams(scenario.seed, (r,)).network))
             degs.append(net.degree())
-    return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs)
+    return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs,
+                          parameters="fixed (the scenario's own)" if draws is None else
+                          "drawn from the fit's posterior per replicate, the same for baseline and programme")

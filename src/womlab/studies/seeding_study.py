@@ -174,6 +174,9 @@ class SeedingStudy:
         Seconds the study took.
     snapshot : tuple, optional
         ``(network, {strategy: RunResult})`` of replicate 0, kept for small networks.
+    parameters : str
+        Whether the parameters were fixed or drawn from a fit's posterior per replicate
+        (then every interval includes parameter uncertainty); a column of the table.
     """
 
     scenario: Scenario
@@ -182,6 +185,7 @@ class SeedingStudy:
     shares: dict[str, np.ndarray]
     wall_time: float = 0.0
     snapshot: tuple[ReferralNetwork, dict[str, RunResult]] | None = None
+    parameters: str = "fixed (the scenario's own)"
     _table: pd.DataFrame | None = field(default=None, repr=False)
 
     @property
@@ -208,6 +212,7 @@ class SeedingStudy:
             row["t50_reached"] = int(np.isfinite(g["t50"].to_numpy(dtype=float)).sum())
             row["lift_outcome"] = study.outcome
             row.update(lift_statistics(g[study.outcome].to_numpy(dtype=float), base, index=index))
+            row["parameters"] = self.parameters
             rows.append(row)
         self._table = pd.DataFrame(rows)
         return self._table
@@ -227,7 +232,7 @@ class SeedingStudy:
 
 
 def compare_strategies(
-    scenario: Scenario,
+    scenario: Scenario | Any,
     strategies: list[str] | tuple[str, ...] | None = None,
     replicates: int | None = None,
     jobs: int | None = None,
@@ -239,10 +244,12 @@ def compare_strategies(
 
     Parameters
     ----------
-    scenario : Scenario
+    scenario : Scenario or Fit
         The market, network, rule and run; ``[study]`` gives the defaults below and the
         discount rate, lift outcome and bootstrap resamples; ``[seeding]`` the budget and
-        strategy options.
+        strategy options. A fit (:func:`womlab.fit_observed`) stands for its scenario at the
+        posterior, and each replicate draws its parameters from the posterior
+        (``Fit.posterior_draws``), the same draw for every strategy.
     strategies : list of str, optional
         Defaults to ``study.strategies``; ``random`` is added first when missing.
     replicates : int, optional
@@ -269,6 +276,9 @@ def compare_strategies(
     >>> study.strategies_table()["strategy"].tolist()
     ['random', 'hubs']
     """
+    draws = None
+    if not isinstance(scenario, Scenario):  # a fit: parameters drawn from its posterior per replicate
+        draws, scenario = scenario.posterior_draws(), scenario.scenario()
     if strategies is not None:
         scenario = scenario.replace("study.strategies", list(strategies))
     if replicates is not None:
@@ -281,7 +291,7 @@ def compare_strategies(
     if snapshot is None:
         snapshot = scenario.market.organisations <= SNAPSHOT_MAX_ORGANISATIONS and scenario.network.kind != "complete"
     start = time.perf_counter()
-    reduced = run_paired(variants, replicates, jobs=jobs, progress=progress,
+    reduced = run_paired(variants, replicates, jobs=jobs, progress=progress, vary=draws,
                          reduce=partial(run_outcomes, discount_rate=study.discount_rate, keep_first=snapshot))
     rows = []
     shares = {}
@@ -293,7 +303,10 @@ def compare_strategies(
     kept = None
     if snapshot:
         # replicate 0's network, rebuilt from its own network stream: the one its runs were on
-        network = build_network(scenario, np.random.default_rng(streams(scenario.seed, (0,)).network))
+        first = scenario if draws is None else scenario.replace(draws((0,)))
+        network = build_network(first, np.random.default_rng(streams(scenario.seed, (0,)).network))
         kept = (network, {name: reduced[name][0]["run"] for name in names})
     return SeedingStudy(scenario=scenario, strategies=names, runs=pd.DataFrame(rows), shares=shares,
-                        wall_time=time.perf_counter() - start, snapshot=kept)
+                        wall_time=time.perf_counter() - start, snapshot=kept,
+                        parameters="fixed (the scenario's own)" if draws is None else
+                        "drawn from the fit's posterior per replicate, the same for every strategy")
