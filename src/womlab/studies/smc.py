@@ -175,7 +175,8 @@ class SMCResult:
         Generation 0 first; the last is the result.
     generations : list of dict
         Per generation: generation, tolerance, proposals, accepted, acceptance_rate,
-        ess, seconds, and the model probabilities.
+        ess, simulations (so far), seconds, simulating_seconds (inside ``simulate``: the
+        rest is the SMC's own work), and the model probabilities.
     simulations : int
         Simulations run in all (including proposals not accepted and any generation cut
         short by the budget).
@@ -365,6 +366,7 @@ def abc_smc(
         proposer = None if prev is None else _Proposer(prev, priors, models, settings.stay, floor, tolerance)
         thetas, mods, dists, keys = [], [], [], []
         proposals = 0
+        sim_seconds = 0.0
         while len(dists) < n and proposals < remaining:
             need = n - len(dists)
             if prev is None:
@@ -379,7 +381,9 @@ def abc_smc(
             else:
                 m, th = proposer.propose(rng, batch)
             batch_keys = [(FIT_KEY, g, proposals + i) for i in range(batch)]
+            s0 = time.perf_counter()
             dist = np.asarray(simulate(m, th, batch_keys), dtype=float)
+            sim_seconds += time.perf_counter() - s0
             proposals += batch
             ok = np.flatnonzero(np.isfinite(dist) & (dist <= tolerance))[:need]
             thetas.append(th[ok])
@@ -409,7 +413,7 @@ def abc_smc(
         acceptance = accepted / proposals
         row = {"generation": g, "tolerance": tolerance, "proposals": proposals, "accepted": accepted,
                "acceptance_rate": acceptance, "ess": effective_sample_size(weights), "simulations": used,
-               "seconds": time.perf_counter() - t0}
+               "seconds": time.perf_counter() - t0, "simulating_seconds": sim_seconds}
         probs = pop.model_probabilities(models)
         for k in range(models):
             row[f"model_{k}"] = float(probs[k])
