@@ -21,6 +21,7 @@ test: $(STAMP)
 bench: $(STAMP)
 	$(BIN)/python benchmarks/engines.py
 	$(BIN)/python benchmarks/sweeps.py
+	$(BIN)/python benchmarks/calibration.py
 
 clean:
 	rm -rf $(VENV) out
