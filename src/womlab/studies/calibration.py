@@ -837,7 +837,7 @@ def fit_observed(
             raise ObservedDataError(f"{series.source}: holdout = {holdout} leaves {len(fitted)} points to fit and "
                                     f"{len(held_out)} to score; a fit needs at least 4 and the score at least 1")
     base = _facts(scenario, series)
-    names, prior_list = _settle(base, series, spec, notes)
+    names, prior_list = _settle(base, fitted, spec, notes)  # the fitted points only: nothing held out leaks in
     check_observed(series, base, market_free=_MARKET in names)
     if series.market is not None:
         notes.append(f"market.organisations = {series.market} from the data's market column")
