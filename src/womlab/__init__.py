@@ -12,6 +12,7 @@ Quick start::
     batch = womlab.run_replicates(s, 20, jobs=2)
     batch.metrics()                    # t10/t50/t90, peak, final share: network vs aggregate
     womlab.adoption_figure(batch).savefig("adoption.png")
+    fit = womlab.fit_observed(s, "observed.csv")   # your own market: ABC-SMC fit, forecast, stage
 """
 
 from __future__ import annotations
@@ -40,16 +41,26 @@ from womlab.aggregate import (
     stock_and_flow,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
-from womlab.errors import ClusterError, CompilerError, NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.errors import (
+    ClusterError,
+    CompilerError,
+    NetworkError,
+    ObservedDataError,
+    ScenarioError,
+    StoreError,
+    WomlabError,
+)
 from womlab.networks import ReferralNetwork, build_network, from_edge_table, read_edgelist, read_graph_file
 from womlab.networks.given import as_network
 from womlab.results import (
     adoption_figure,
     comparison_figure,
+    fit_figure,
     network_snapshot_figure,
     programme_figure,
     referral_tree_figure,
     save_batch,
+    save_fit,
     save_programme,
     save_seeding_study,
     seeding_figure,
@@ -64,6 +75,8 @@ from womlab.store import ResultsStore
 from womlab.studies import (
     Batch,
     Comparison,
+    Fit,
+    ObservedSeries,
     ProgrammeStudy,
     SeedingStudy,
     SweepStudy,
@@ -75,6 +88,7 @@ from womlab.studies import (
     curve_metrics,
     design_points,
     evaluate_programme,
+    fit_observed,
     generations,
     lift_statistics,
     morris_design,
@@ -85,6 +99,7 @@ from womlab.studies import (
     pooled_metrics,
     programme_economics,
     programme_ratios,
+    read_observed,
     referral_tree_summary,
     register_sweep_study,
     referrals_per_customer,
@@ -96,6 +111,8 @@ from womlab.studies import (
     run_replicates,
     run_sweep,
     saltelli_design,
+    simulated_series,
+    simulation_based_calibration,
     sobol_indices,
     sweep_studies,
     time_to_share,
@@ -207,6 +224,16 @@ __all__ = [
     "ReferralModel",
     "Organisation",
     "run_mesa",
+    # fitting an observed series
+    "Fit",
+    "ObservedDataError",
+    "ObservedSeries",
+    "fit_figure",
+    "fit_observed",
+    "read_observed",
+    "save_fit",
+    "simulated_series",
+    "simulation_based_calibration",
     # engines and their dispatch
     "engine_for",
     "run_events",

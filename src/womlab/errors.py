@@ -6,7 +6,8 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 
 from __future__ import annotations
 
-__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError", "CompilerError"]
+__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError", "CompilerError",
+           "ObservedDataError"]
 
 
 class WomlabError(Exception):
@@ -40,3 +41,12 @@ class ViewError(WomlabError):
 class CompilerError(WomlabError):
     """numba, which compiles womlab's formulas and engines, is missing, unsupported or cannot
     compile on this machine; the message names the version found and how to get a supported one."""
+
+
+class ObservedDataError(WomlabError, ValueError):
+    """An observed adoption series cannot be used as given.
+
+    The message names the file, the column, the row (the header is row 1) and what is
+    allowed, e.g. ``sales.csv: column 'customers', row 6 (period 4): customers must not
+    fall (the column is cumulative), got 130 after 142``.
+    """

@@ -240,6 +240,7 @@ def fit_bass_sales(
     times: np.ndarray | None = None,
     *,
     form: str = "density",
+    start: tuple[float, float, float] | None = None,
 ) -> BassFit:
     """Fit p, Q and the market size m to sales per period.
 
@@ -252,6 +253,9 @@ def fit_bass_sales(
     form : str
         ``density``: sales(t) = m·f(t), f = dF/dt (:func:`womlab.aggregate.bass_density`);
         ``difference``: sales(t) = m·(F(t) − F(t − 1)).
+    start : (p, Q, m), optional
+        Start from this point only (e.g. a previous fit, for bootstrap refits); by default
+        a small grid of starts is tried and the best kept.
 
     Returns
     -------
@@ -285,7 +289,8 @@ def fit_bass_sales(
     scale = max(float(y.max()), 1e-300)
     lower = np.array([_P_BOUNDS[0], _Q_BOUNDS[0], 1.0 - 1e-9])
     upper = np.array([_P_BOUNDS[1], _Q_BOUNDS[1], 1e3])
-    starts = [np.array([p, q, f]) for p in _STARTS_P for q in _STARTS_Q for f in (1.2, 2.0, 5.0)]
+    starts = ([np.array([start[0], start[1], start[2] / total])] if start else
+              [np.array([p, q, f]) for p in _STARTS_P for q in _STARTS_Q for f in (1.2, 2.0, 5.0)])
     res = _best_fit(lambda x: (model(x) - y) / scale, starts, lower, upper)
     rmse = float(np.sqrt(np.mean((model(res.x) - y) ** 2)))
     se = _stderr(res, ("p", "Q", "m"), y.size)

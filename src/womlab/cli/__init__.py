@@ -1,7 +1,7 @@
 """The ``womlab`` command. It only parses, calls the public functions and writes files.
 
 One module per command (``run``, ``compare``, ``seeding``, ``referral``, ``check``,
-``sweep``, ``init``, ``view``); each has an ``add(subparsers)`` that declares its options and the function it
+``sweep``, ``fit``, ``init``, ``view``); each has an ``add(subparsers)`` that declares its options and the function it
 calls. A new command is a new module here and one entry in :data:`COMMANDS`. A user
 mistake (a :class:`~womlab.errors.WomlabError`) is printed as one line on standard error
 with exit status 2, never as a traceback.
@@ -12,13 +12,13 @@ from __future__ import annotations
 import argparse
 import sys
 
-from womlab.cli import check, compare, init, referral, run, seeding, sweep, view
+from womlab.cli import check, compare, fit, init, referral, run, seeding, sweep, view
 from womlab.errors import WomlabError
 
 __all__ = ["main", "build_parser", "COMMANDS"]
 
 #: The command modules, in the order ``womlab --help`` lists them.
-COMMANDS = (run, seeding, referral, compare, check, sweep, init, view)
+COMMANDS = (run, seeding, referral, compare, check, sweep, fit, init, view)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import Any
 
 from womlab.cli.common import batch_command, load, print_table
+from womlab.cli.fit import add_data, observed_points
 
 __all__ = ["add"]
 
@@ -16,9 +17,10 @@ def cmd_run(args: argparse.Namespace) -> int:
     from womlab.studies import run_replicates
 
     scenario = load(args)
+    observed = observed_points(args, scenario)
     out = Path(args.out) if args.out else Path("out") / Path(args.config).stem
     batch = run_replicates(scenario, progress=not args.quiet)
-    written = save_batch(batch, out, organisations=args.organisations)
+    written = save_batch(batch, out, organisations=args.organisations, observed=observed)
     metrics = batch.metrics()[["metric", "network_median", "network_q05", "network_q95", "aggregate"]]
     print(f"{scenario.name}: {batch.replicates} runs of {scenario.market.organisations} organisations "
           f"on a {scenario.network.kind} network, {batch.wall_time:.1f} s")
@@ -33,3 +35,4 @@ def add(sub: Any) -> None:
                         "out/<config name>", engine=True)
     cmd.add_argument("--organisations", choices=["parquet", "csv"],
                      help="also write organisations.parquet (or .csv): one row per replicate and organisation")
+    add_data(cmd)

@@ -22,8 +22,10 @@ from womlab.results.figures import (
     referral_tree_figure,
     seeding_figure,
 )
+from womlab.results.fit import fit_figure, overlay_observed, save_fit
 from womlab.results.report import sensitivity_table, sweep_figures, sweep_summary, write_report
 from womlab.results.save import save_batch, save_comparison, save_programme, save_seeding_study
+from womlab.studies.calibration import Fit
 from womlab.studies.compare import Comparison
 from womlab.studies.presenting import register
 from womlab.studies.sweep import SweepSummary
@@ -31,6 +33,8 @@ from womlab.studies.sweep import SweepSummary
 register(Comparison, "figure", comparison_figure)
 register(Comparison, "save", save_comparison)
 register(SweepSummary, "report", lambda summary: write_report(summary.out, lock=False))  # the sweep holds the lock
+register(Fit, "figure", fit_figure)
+register(Fit, "save", save_fit)
 
 __all__ = [
     "adoption_figure",
@@ -47,4 +51,7 @@ __all__ = [
     "sensitivity_table",
     "sweep_figures",
     "write_report",
+    "fit_figure",
+    "save_fit",
+    "overlay_observed",
 ]

@@ -10,6 +10,7 @@ import numpy as np
 from matplotlib.figure import Figure
 
 from womlab.aggregate import AGGREGATE_LABELS, bass_share, mapped_parameters
+from womlab.results.fit import overlay_observed
 from womlab.studies.referrals import referrals_per_customer, reproduction_by_period, word_of_mouth_by_period
 
 __all__ = [
@@ -26,7 +27,7 @@ AGGREGATE_COLOUR = "#c0392b"
 BASS_COLOUR = "#555555"
 
 
-def adoption_figure(batch, *, title: str | None = None) -> Figure:  # noqa: ANN001 - Batch (avoid import cycle)
+def adoption_figure(batch, *, title: str | None = None, observed=None) -> Figure:  # noqa: ANN001 - Batch
     """Customer share over time (median, 5–95 % band, aggregate and Bass curves) and new customers per period.
 
     Parameters
@@ -34,6 +35,8 @@ def adoption_figure(batch, *, title: str | None = None) -> Figure:  # noqa: ANN0
     batch : womlab.studies.Batch
     title : str, optional
         Defaults to the scenario's name.
+    observed : womlab.ObservedSeries, optional
+        Observed points to overlay (:func:`womlab.results.fit.overlay_observed`).
     """
     s = batch.scenario
     summary = batch.summary()
@@ -71,6 +74,8 @@ def adoption_figure(batch, *, title: str | None = None) -> Figure:  # noqa: ANN0
     bottom.grid(alpha=0.3)
     bottom.legend(loc="upper right", fontsize=8, frameon=False)
     bottom.set_xlim(0, t[-1])
+    if observed is not None:
+        overlay_observed(top, bottom, observed, s.market.organisations)
     return fig
 
 
@@ -170,7 +175,7 @@ CURVE_STYLES = {
 }
 
 
-def comparison_figure(comparison, *, title: str | None = None) -> Figure:  # noqa: ANN001 - Comparison
+def comparison_figure(comparison, *, title: str | None = None, observed=None) -> Figure:  # noqa: ANN001
     """The network band with every aggregate curve, new customers per period, and the gap over time.
 
     Parameters
@@ -178,6 +183,8 @@ def comparison_figure(comparison, *, title: str | None = None) -> Figure:  # noq
     comparison : womlab.studies.compare.Comparison
     title : str, optional
         Defaults to the scenario's name.
+    observed : womlab.ObservedSeries, optional
+        Observed points to overlay (:func:`womlab.results.fit.overlay_observed`).
     """
     batch = comparison.batch
     summary = batch.summary()
@@ -225,6 +232,8 @@ def comparison_figure(comparison, *, title: str | None = None) -> Figure:  # noq
     bottom.grid(alpha=0.3)
     bottom.legend(handles=[band], loc="lower right", fontsize=7, frameon=False)
     bottom.set_xlim(0, t[-1])
+    if observed is not None:
+        overlay_observed(top, mid, observed, batch.scenario.market.organisations)
     return fig
 
 

@@ -45,13 +45,15 @@ def _write_table(path: Path, table: Any, float_format: str | None = "%.6g") -> P
 ORGANISATION_FORMATS = ("parquet", "csv")
 
 
-def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisations: str | None = None) -> list[Path]:
+def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisations: str | None = None,
+               observed: Any = None) -> list[Path]:
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
 
     With ``organisations = "parquet"`` (or ``"csv"``) also ``organisations.parquet``
     (``.csv``): one row per replicate and organisation, :meth:`womlab.Batch.organisations`
     (ids as given, region and node attributes, adoption period and time, referrer,
-    satisfied). Returns the paths written.
+    satisfied). ``observed`` (a :class:`womlab.ObservedSeries`) is overlaid on the figure.
+    Returns the paths written.
 
     Raises
     ------
@@ -68,7 +70,7 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisati
         _write_table(out / "metrics.csv", batch.metrics()),
     ]
     if figure:
-        written.append(_write_figure(out / "adoption.png", adoption_figure(batch)))
+        written.append(_write_figure(out / "adoption.png", adoption_figure(batch, observed=observed)))
     if organisations is not None:
         written.append(_write_organisations(out, batch.organisations(), organisations))
     written.append(_write_json(out / "manifest.json", manifest(batch)))
@@ -141,8 +143,9 @@ def save_seeding_study(study: SeedingStudy, out: str | Path, *, figures: bool = 
     return written
 
 
-def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = True) -> list[Path]:
-    """Write a comparison's tables, figure and manifest into the results folder ``out``.
+def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = True, observed: Any = None) -> list[Path]:
+    """Write a comparison's tables, figure and manifest into the results folder ``out``
+    (``observed``, a :class:`womlab.ObservedSeries`, overlaid on the figure).
 
     Files: ``compare_curves.csv``, ``compare_metrics.csv``, ``compare_gaps.csv``,
     ``compare_fits.csv``, ``compare_replicates.csv`` (per-replicate metrics, fits and
@@ -163,7 +166,7 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
     }
     written = [_write_table(out / name, table) for name, table in tables.items()]
     if figure:
-        written.append(_write_figure(out / "comparison.png", comparison_figure(comparison)))
+        written.append(_write_figure(out / "comparison.png", comparison_figure(comparison, observed=observed)))
     sf = comparison.stock_flow_fit
     extra = {
         "comparison": comparison.settings,

@@ -32,6 +32,7 @@ from womlab.scenario.sections import (
     Talkers,
     Thresholds,
 )
+from womlab.scenario.fit_spec import PRIOR_DISTRIBUTIONS, FitSpec, Prior
 from womlab.scenario.shipped import demo_names, demo_path, write_demo
 from womlab.scenario.sweep_spec import SWEEP_DESIGNS, Axis, SweepSpec
 from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario
@@ -48,6 +49,8 @@ __all__ = [
     "Axis",
     "SweepSpec",
     "Referral",
+    "FitSpec",
+    "Prior",
     "Scenario",
     "SECTIONS",
     "field_type",
@@ -67,4 +70,5 @@ __all__ = [
     "ENROLMENTS",
     "REWARD_SCHEMES",
     "SWEEP_DESIGNS",
+    "PRIOR_DISTRIBUTIONS",
 ]

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import dataclasses
 import difflib
+import functools
 import math
 import types
 import typing
@@ -50,6 +51,7 @@ def field_names(cls: type) -> list[str]:
     return [f.name for f in dataclasses.fields(cls)]
 
 
+@functools.cache  # typing.get_type_hints is most of the cost of Scenario.replace; a class's hints never change
 def hints(cls: type) -> dict[str, Any]:
     return typing.get_type_hints(cls)
 

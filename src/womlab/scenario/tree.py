@@ -67,6 +67,10 @@ scenario field::
     "adoption.word_of_mouth" = { from = 0.05, to = 0.5, steps = 10 }   # log = true for a log scale
     "network.kind" = ["random", "small_world", "regional"]
 
+A fit to an observed series (:func:`womlab.fit_observed`) reads a ``[fit]`` table: the free
+fields, their priors in ``[fit.priors]`` keyed by dotted field, and the budget of the
+sequential Monte Carlo (:mod:`womlab.scenario.fit_spec`).
+
 Adding a section: write a frozen dataclass with a ``section`` class variable and a
 ``check(self, scenario)`` method, add it as a field of :class:`Scenario` and to
 ``SECTIONS``. Loading, type checks, unknown-key messages and ``replace`` are generic.
@@ -83,6 +87,7 @@ from typing import Any
 
 from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field
+from womlab.scenario.fit_spec import FitSpec, Prior, parse_priors
 from womlab.scenario.registry import network_file_facts, network_file_kinds
 from womlab.scenario.sections import (
     Adoption,
@@ -110,11 +115,13 @@ SECTIONS: dict[str, type] = {
     "study": Study,
     "referral": Referral,
     "sweep": SweepSpec,
+    "fit": FitSpec,
 }
 _NESTED: dict[tuple[str, str], type] = {
     ("adoption", "talkers_per_customer"): Talkers,
     ("adoption", "threshold"): Thresholds,
     ("sweep", "axes"): Axis,
+    ("fit", "priors"): Prior,
 }
 
 
@@ -140,6 +147,7 @@ class Scenario:
     study: Study = field(default_factory=Study)
     referral: Referral = field(default_factory=Referral)
     sweep: SweepSpec = field(default_factory=SweepSpec)
+    fit: FitSpec = field(default_factory=FitSpec)
 
     def __post_init__(self) -> None:
         if not isinstance(self.seed, int) or self.seed < 0:
@@ -241,6 +249,8 @@ def _build_section(cls: type, dotted: str, value: Any, base_dir: str | Path | No
             kwargs[key] = _talkers(item, name)
         elif nested is Axis:
             kwargs[key] = parse_axes(item, name, base_dir)
+        elif nested is Prior:
+            kwargs[key] = parse_priors(item, name)
         elif nested is not None:
             kwargs[key] = _build_section(nested, name, item, base_dir)
         else:

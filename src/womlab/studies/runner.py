@@ -88,13 +88,26 @@ def _run_variants(
     return out
 
 
+@dataclass(frozen=True)
+class _Varied:
+    """The variants of one key with that key's changes applied: ``vary(key)`` (a picklable
+    callable) gives dotted field changes that every variant of the key receives alike."""
+
+    variants: Mapping[str, Scenario]
+    vary: Callable[[tuple[int, ...]], Mapping[str, Any]]
+
+    def __call__(self, key: tuple[int, ...]) -> dict[str, Scenario]:
+        changes = self.vary(tuple(key))
+        return {name: s.replace(changes) if changes else s for name, s in self.variants.items()}
+
+
 def _chunk(
-    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None,
-    network: ReferralNetwork | None = None,
+    variants: Mapping[str, Scenario] | _Varied, keys: Sequence[tuple[int, ...]],
+    reduce: Callable[[RunResult], Any] | None = None, network: ReferralNetwork | None = None,
 ) -> list[tuple[tuple, dict[str, Any]]]:
     out = []
     for key in keys:
-        runs = _run_variants(variants, key, network)
+        runs = _run_variants(variants(key) if isinstance(variants, _Varied) else variants, key, network)
         out.append((key, runs if reduce is None else {name: reduce(r) for name, r in runs.items()}))
     return out
 
@@ -448,6 +461,7 @@ def run_paired(
     keys: Iterable[tuple[int, ...]] | None = None,
     reduce: Callable[[RunResult], Any] | None = None,
     network: GivenNetwork | None = None,
+    vary: Callable[[tuple[int, ...]], Mapping[str, Any]] | None = None,
 ) -> dict[str, list[Any]]:
     """Run every variant on the same replicates with common random numbers.
 
@@ -473,6 +487,12 @@ def run_paired(
     network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
         Your own network, for every replicate and variant (see :func:`run_replicates`);
         by default each replicate builds its own from the first variant's ``[network]``.
+    vary : callable, optional
+        A picklable function of the spawn key returning dotted field changes
+        (``{"adoption.word_of_mouth": 0.31}``) that every variant of that key receives
+        alike, inside the worker, before the key's network is built: parameters drawn per
+        replicate (a fit's posterior, :func:`womlab.fit_observed`), still paired across
+        variants.
 
     Returns
     -------
@@ -483,5 +503,6 @@ def run_paired(
     first = next(iter(variants.values()))
     given = None if network is None else as_network(network, first.market.organisations)
     keys = [(r,) for r in range(replicates)] if keys is None else [tuple(k) for k in keys]
-    done = _execute(dict(variants), keys, jobs, progress, reduce, network=given)
+    todo = dict(variants) if vary is None else _Varied(dict(variants), vary)
+    done = _execute(todo, keys, jobs, progress, reduce, network=given)
     return {name: [done[k][name] for k in keys] for name in variants}
