@@ -2,11 +2,18 @@
 
 Organisation ids are mapped to 0..N−1 and kept as labels. The reader is registered with
 the scenario layer (:func:`womlab.scenario.registry.register_edgelist_reader`) so that a
-scenario takes its market size and mean degree from the file.
+scenario takes its market size, mean degree and number of regions from the files.
+
+A file that is not what it should be gets one line naming the field and the file, and
+never a line of its contents: a binary or UTF-16 file, invalid UTF-8, a file that is not
+a CSV, missing columns (the columns found are named only when they read as column
+names), no ties, only self-loops, or one id written two ways (``1`` and ``01``).
 """
 
 from __future__ import annotations
 
+import io
+import re
 import warnings
 from functools import lru_cache
 from pathlib import Path
@@ -20,21 +27,63 @@ from womlab.networks.network import ReferralNetwork, from_edges
 __all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts"]
 
 
-def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.DataFrame:
+_COLUMN_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_ .-]{0,39}")
+
+
+def _text(path: str | Path, what: str) -> str:
+    """The file's text, or one line saying why it is not UTF-8 text (never its contents)."""
+    name = Path(path).name
     try:
-        table = pd.read_csv(path, dtype=str, skipinitialspace=True)
-    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
-        raise NetworkError(f"network.{what}: cannot read {str(path)!r}: {exc}") from None
-    table.columns = [c.strip() for c in table.columns]
+        raw = Path(path).read_bytes()
+    except OSError as exc:
+        raise NetworkError(f"network.{what}: cannot read {name!r}: {exc.strerror}") from None
+    if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        raise NetworkError(f"network.{what}: {name!r} is UTF-16 text; save it as UTF-8 CSV")
+    if b"\x00" in raw:
+        raise NetworkError(f"network.{what}: {name!r} is not a text file (it holds binary data); expected a UTF-8 CSV")
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        raise NetworkError(f"network.{what}: {name!r} is not UTF-8 text (an invalid byte on line {line}); "
+                           "save it as UTF-8 CSV") from None
+
+
+def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.DataFrame:
+    name = Path(path).name
+    expected = f"a CSV with columns {','.join(columns)}"
+    try:
+        table = pd.read_csv(io.StringIO(_text(path, what)), dtype=str, skipinitialspace=True)
+    except pd.errors.EmptyDataError:
+        raise NetworkError(f"network.{what}: {name!r} is empty; expected {expected}") from None
+    except (pd.errors.ParserError, ValueError):
+        raise NetworkError(f"network.{what}: {name!r} is not {expected} (its rows do not parse as CSV)") from None
+    table.columns = [str(c).strip() for c in table.columns]
     missing = [c for c in columns if c not in table.columns]
     if missing:
-        raise NetworkError(
-            f"network.{what}: {str(path)!r} must have columns {', '.join(columns)}; "
-            f"missing {', '.join(missing)} (found {', '.join(table.columns)})"
-        )
+        # name what was found only when it reads as column names: a header row of a CSV, not
+        # the first line of some other file
+        header = len(table.columns) >= 2 and all(_COLUMN_NAME.fullmatch(c) for c in table.columns)
+        found = f" (found {', '.join(table.columns)})" if header else " (its first line is not such a header)"
+        raise NetworkError(f"network.{what}: {name!r} must be {expected}; missing {', '.join(missing)}{found}")
     if table[list(columns)].isna().any().any():
-        raise NetworkError(f"network.{what}: {str(path)!r} has empty cells in {', '.join(columns)}")
+        raise NetworkError(f"network.{what}: {name!r} has empty cells in {', '.join(columns)}")
     return table
+
+
+def _one_spelling(ids: np.ndarray, what: str, path: str | Path) -> None:
+    """Refuse ids that are the same whole number written two ways (``1`` and ``01``)."""
+    unique = pd.unique(ids)
+    try:
+        numbers = np.array([int(v) for v in unique])
+    except (ValueError, OverflowError):
+        return
+    order = np.argsort(numbers, kind="stable")
+    same = np.flatnonzero(numbers[order][1:] == numbers[order][:-1])
+    if same.size:
+        a, b = unique[order[same[0]]], unique[order[same[0] + 1]]
+        raise NetworkError(f"network.{what}: {Path(path).name!r} writes one id two ways ({a!r} and {b!r}); "
+                           "write each organisation's id one way")
 
 
 def _sorted_ids(values: np.ndarray) -> np.ndarray:
@@ -63,11 +112,18 @@ def read_edgelist(path: str | Path, nodes_path: str | Path | None = None) -> Ref
     ties = _read_table(path, ("source", "target"), "path")
     src = ties["source"].str.strip().to_numpy()
     dst = ties["target"].str.strip().to_numpy()
+    if src.size == 0:
+        raise NetworkError(f"network.path: {Path(path).name!r} holds no ties (a header and no rows)")
+    if (src == dst).all():
+        raise NetworkError(f"network.path: {Path(path).name!r} holds only self-loops (ties of an organisation to "
+                           "itself); a referral network needs ties between two organisations")
+    _one_spelling(np.concatenate([src, dst]), "path", path)
     if nodes_path is not None:
         nodes = _read_table(nodes_path, ("id", "region"), "nodes_path")
         ids = nodes["id"].str.strip().to_numpy()
         if len(pd.unique(ids)) != len(ids):
-            raise NetworkError(f"network.nodes_path: {str(nodes_path)!r} lists some id more than once")
+            raise NetworkError(f"network.nodes_path: {Path(nodes_path).name!r} lists some id more than once")
+        _one_spelling(ids, "nodes_path", nodes_path)
         region_values = nodes["region"].str.strip().to_numpy()
     else:
         ids = _sorted_ids(np.concatenate([src, dst]))
@@ -86,7 +142,7 @@ def read_edgelist(path: str | Path, nodes_path: str | Path | None = None) -> Ref
     duplicates = int(lo.size - pairs.shape[0])
     if loops.any() or duplicates:
         warnings.warn(
-            f"{path}: dropped {int(loops.sum())} self-loop(s) and {duplicates} duplicate tie(s)",
+            f"network.path: {Path(path).name}: dropped {int(loops.sum())} self-loop(s) and {duplicates} duplicate tie(s)",
             stacklevel=2,
         )
     n = len(ids)
@@ -106,8 +162,9 @@ def count_edgelist_organisations(path: str | Path, nodes_path: str | Path | None
 
 
 
-def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float]:
-    """Organisations and mean degree (2·ties / organisations) of an edge list, as :func:`read_edgelist` reads it.
+def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float, int]:
+    """Organisations, mean degree (2·ties / organisations) and regions of an edge list, as
+    :func:`read_edgelist` reads it.
 
     Remembered per file path, size and modification time, so that a scenario changed many
     times (a sweep's points) reads its edge list once.
@@ -118,8 +175,8 @@ def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float
 
 
 @lru_cache(maxsize=32)
-def _facts(edges: tuple, nodes: tuple | None) -> tuple[int, float]:
+def _facts(edges: tuple, nodes: tuple | None) -> tuple[int, float, int]:
     with warnings.catch_warnings():  # dropped loops and duplicates are reported when the network is built
         warnings.simplefilter("ignore")
         network = read_edgelist(edges[0], None if nodes is None else nodes[0])
-    return network.n, (2.0 * network.ties / network.n if network.n else 0.0)
+    return network.n, (2.0 * network.ties / network.n if network.n else 0.0), network.regions

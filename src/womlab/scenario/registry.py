@@ -7,9 +7,10 @@ hand it down when they are imported (``import womlab`` imports them all):
 * the names of the seeding strategies (:mod:`womlab.seeding` registers each one with
   :func:`register_strategy_name`), against which ``seeding.strategy``,
   ``study.strategies`` and ``referral.strategy`` are checked;
-* how to read an edge list's size and mean degree (:mod:`womlab.networks` registers its
-  reader with :func:`register_edgelist_reader`), which the scenario uses to take
-  ``market.organisations`` and ``network.mean_degree`` from the file.
+* how to read an edge list's size, mean degree and regions (:mod:`womlab.networks`
+  registers its reader with :func:`register_edgelist_reader`), which the scenario uses to
+  take ``market.organisations``, ``network.mean_degree`` and, with a node file,
+  ``market.regions`` from the files.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ from pathlib import Path
 __all__ = ["register_strategy_name", "strategy_names", "register_edgelist_reader", "edgelist_facts"]
 
 _STRATEGY_NAMES: set[str] = set()
-_EDGELIST_READER: list[Callable[[str, str | None], tuple[int, float]]] = []
+_EDGELIST_READER: list[Callable[[str, str | None], tuple]] = []
 
 
 def register_strategy_name(name: str) -> None:
@@ -33,13 +34,15 @@ def strategy_names() -> tuple[str, ...]:
     return tuple(sorted(_STRATEGY_NAMES))
 
 
-def register_edgelist_reader(reader: Callable[[str, str | None], tuple[int, float]]) -> None:
-    """Set the function ``(path, nodes_path) -> (organisations, mean degree)`` of edge lists."""
+def register_edgelist_reader(reader: Callable[[str, str | None], tuple]) -> None:
+    """Set the function ``(path, nodes_path) -> (organisations, mean degree, regions)`` of edge lists
+    (a reader that returns only the first two is taken to mean one region)."""
     _EDGELIST_READER[:] = [reader]
 
 
-def edgelist_facts(path: str | Path, nodes_path: str | Path | None) -> tuple[int, float]:
-    """Organisations and mean degree of an edge list, by the reader :mod:`womlab.networks` registered."""
+def edgelist_facts(path: str | Path, nodes_path: str | Path | None) -> tuple[int, float, int]:
+    """Organisations, mean degree and regions of an edge list, by the reader :mod:`womlab.networks` registered."""
     if not _EDGELIST_READER:  # pragma: no cover - `import womlab` registers it
         raise RuntimeError("no edge-list reader is registered; import womlab (womlab.networks registers it)")
-    return _EDGELIST_READER[0](str(path), None if nodes_path is None else str(nodes_path))
+    facts = tuple(_EDGELIST_READER[0](str(path), None if nodes_path is None else str(nodes_path)))
+    return (int(facts[0]), float(facts[1]), int(facts[2]) if len(facts) > 2 else 1)
