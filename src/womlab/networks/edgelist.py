@@ -52,8 +52,9 @@ def _text(path: str | Path, what: str) -> str:
 def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.DataFrame:
     name = Path(path).name
     expected = f"a CSV with columns {','.join(columns)}"
+    text = _text(path, what)
     try:
-        table = pd.read_csv(io.StringIO(_text(path, what)), dtype=str, skipinitialspace=True)
+        table = pd.read_csv(io.StringIO(text), dtype=str, skipinitialspace=True)
     except pd.errors.EmptyDataError:
         raise NetworkError(f"network.{what}: {name!r} is empty; expected {expected}") from None
     except (pd.errors.ParserError, ValueError):
@@ -81,7 +82,7 @@ def _one_spelling(ids: np.ndarray, what: str, path: str | Path) -> None:
     order = np.argsort(numbers, kind="stable")
     same = np.flatnonzero(numbers[order][1:] == numbers[order][:-1])
     if same.size:
-        a, b = unique[order[same[0]]], unique[order[same[0] + 1]]
+        a, b = sorted((str(unique[order[same[0]]]), str(unique[order[same[0] + 1]])))
         raise NetworkError(f"network.{what}: {Path(path).name!r} writes one id two ways ({a!r} and {b!r}); "
                            "write each organisation's id one way")
 

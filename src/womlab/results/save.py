@@ -1,83 +1,188 @@
-"""A study's results folder: its tables as CSV, its figures, and a manifest.
+"""A study's results folder: its tables as CSV, its figures, and ``manifest.json``.
 
-One function per study, each writing through :func:`womlab.store.atomic_write` into a
-folder checked by :func:`womlab.store.results_folder`; each returns the paths written.
+One function per study. Each checks the folder first (:func:`check_output_folder`, which a
+command calls before it runs anything), writes every file through
+:class:`womlab.store.FolderWriter` (all files staged, then moved in, the manifest last, so a
+folder is never a mix of two results) and returns the paths written. Every folder has the
+same manifest name, ``manifest.json``, recording the command, its command line, the
+scenario as run (only the sections the command uses), the hashes of the scenario file and
+every input file, versions, git commit, OS and CPU.
 """
 
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
 from womlab.results.figures import (
+    FIGURE_FORMATS,
     adoption_figure,
     comparison_figure,
     network_snapshot_figure,
     programme_figure,
     referral_tree_figure,
+    save_figure,
     seeding_figure,
 )
-from womlab.store import atomic_write, manifest, results_folder
+from womlab.scenario import Scenario
+from womlab.store import FolderWriter, check_results_folder, manifest
+from womlab.store.folders import file_sha256
 from womlab.studies.compare import Comparison
 from womlab.studies.programme import ProgrammeStudy
 from womlab.studies.runner import Batch
 from womlab.studies.seeding_study import BOOTSTRAP_KEY, SeedingStudy
 
-__all__ = ["save_batch", "save_programme", "save_seeding_study", "save_comparison"]
+__all__ = ["save_batch", "save_programme", "save_seeding_study", "save_comparison", "check_output_folder",
+           "OUTPUTS", "sections_in_use"]
+
+#: The files each command writes (``{fmt}``: the figure format), so that a folder can be
+#: checked before anything runs.
+OUTPUTS: dict[str, tuple[str, ...]] = {
+    "run": ("curves.csv", "summary.csv", "metrics.csv", "adoption.{fmt}"),
+    "compare": ("compare_curves.csv", "compare_metrics.csv", "compare_gaps.csv", "compare_fits.csv",
+                "compare_replicates.csv", "comparison.{fmt}"),
+    "seeding": ("strategies.csv", "runs.csv", "seeding.{fmt}", "network.{fmt}"),
+    "referral": ("programme_summary.csv", "programme_runs.csv", "programme_curves.csv", "programme_cumulative.csv",
+                 "referral_tree.csv", "programme.{fmt}", "referral_tree.{fmt}"),
+}
+_NOT_RESULTS = (("run", "jobs"), ("run", "replicates"), ("study", "replicates"))
 
 
-def _write_json(path: Path, info: dict[str, Any]) -> Path:
-    text = json.dumps(info, indent=2, default=float)
-    return atomic_write(path, lambda p: p.write_text(text + "\n", encoding="utf-8"))
+def sections_in_use(scenario: Scenario, command: str) -> tuple[str, ...]:
+    """The scenario sections ``command`` reads: what its manifest records.
+
+    Examples
+    --------
+    >>> sections_in_use(Scenario(), "seeding")
+    ('market', 'network', 'adoption', 'run', 'seeding', 'study')
+    """
+    used = ["market", "network", "adoption", "run", "seeding"]
+    if command == "seeding":
+        used.append("study")
+    if command == "referral" or scenario.referral.active:
+        used.append("referral")
+    return tuple(used)
 
 
-def _write_figure(path: Path, fig: Any) -> Path:
-    return atomic_write(path, lambda p: fig.savefig(p, dpi=130, format="png"))
+def _identity(scenario: Scenario, command: str) -> dict[str, Any]:
+    """What must match for a folder's results to be replaced without ``force``: the scenario as it
+    bears on results (not jobs or replicate counts) and the content of its input files."""
+    data = json.loads(json.dumps(scenario.to_dict(given_paths=True, sections=sections_in_use(scenario, command))))
+    for section, leaf in _NOT_RESULTS:
+        data.get(section, {}).pop(leaf, None)
+    inputs = {}
+    for item in scenario.inputs():
+        try:
+            inputs[item["field"]] = file_sha256(item["resolved"])
+        except OSError:
+            inputs[item["field"]] = None
+    return {"scenario": data, "inputs": inputs}
 
 
-def _write_table(path: Path, table: Any, float_format: str | None = "%.6g") -> Path:
-    return atomic_write(path, lambda p: table.to_csv(p, index=False, float_format=float_format))
+def _names(command: str, figure_format: str) -> list[str]:
+    return [n.format(fmt=figure_format) for n in OUTPUTS[command]]
 
 
-def save_batch(batch: Batch, out: str | Path, *, figure: bool = True) -> list[Path]:
+def _format(figure_format: str) -> str:
+    if figure_format not in FIGURE_FORMATS:
+        from womlab.errors import WomlabError
+
+        raise WomlabError(f"figure format must be one of {', '.join(FIGURE_FORMATS)}, got {figure_format!r}")
+    return figure_format
+
+
+def check_output_folder(out: str | Path, command: str, scenario: Scenario, *, force: bool = False,
+                        figure_format: str = "png") -> Path:
+    """Check, before anything runs, that ``command`` may write its results for ``scenario`` into ``out``.
+
+    Refused with one line: a file, a folder that cannot be created or written, a sweep's
+    folder, another command's or another scenario's results (unless ``force``), and any
+    file of the command's own names that womlab did not write (always).
+
+    Raises
+    ------
+    StoreError
+    """
+    fmt = _format(figure_format)
+    return check_results_folder(out, command, _identity(scenario, command), _names(command, fmt), force=force)
+
+
+def _table_writer(table: Any, float_format: str | None = "%.6g") -> Callable[[Path], Any]:
+    return lambda p: table.to_csv(p, index=False, float_format=float_format)
+
+
+def _figure_writer(fig: Any, fmt: str) -> Callable[[Path], Any]:
+    return lambda p: save_figure(fig, p, fmt)
+
+
+def _save(command: str, study: Any, out: str | Path, tables: dict[str, Any], figures: dict[str, Callable[[], Any]],
+          extra: dict[str, Any], *, force: bool, figure_format: str, command_line: list[str] | None,
+          wall_time: float | None = None, float_formats: dict[str, str | None] | None = None) -> list[Path]:
+    fmt = _format(figure_format)
+    scenario = study.scenario
+    float_formats = float_formats or {}
+    with FolderWriter(out, command, _identity(scenario, command), _names(command, fmt), force=force) as folder:
+        for name, table in tables.items():
+            folder.write(name, _table_writer(table, float_formats.get(name, "%.6g")))
+        for stem, draw in figures.items():
+            folder.write(f"{stem}.{fmt}", _figure_writer(draw(), fmt))
+        info = manifest(study, extra, wall_time=wall_time, command=command, command_line=command_line,
+                        sections=sections_in_use(scenario, command))
+        return folder.commit(info)
+
+
+def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, force: bool = False, figure_format: str = "png",
+               figure_size: tuple[float, float] | None = None, command_line: list[str] | None = None) -> list[Path]:
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
+
+    Parameters
+    ----------
+    batch : Batch
+    out : str or Path
+        The results folder (created if needed).
+    figure : bool
+        Draw the figure.
+    force : bool
+        Replace another command's or another scenario's results in ``out``.
+    figure_format : str
+        ``png``, ``pdf`` or ``svg``.
+    figure_size : (width, height), optional
+        In inches.
+    command_line : list of str, optional
+        Recorded in the manifest.
 
     Returns the paths written.
 
     Raises
     ------
     StoreError
-        If ``out`` exists and is not a folder, or cannot be written.
+        If ``out`` is refused (:func:`check_output_folder`) or cannot be written.
     """
-    out = results_folder(out)
-    written = [
-        _write_table(out / "curves.csv", batch.curves(), float_format=None),
-        _write_table(out / "summary.csv", batch.summary()),
-        _write_table(out / "metrics.csv", batch.metrics()),
-    ]
-    if figure:
-        written.append(_write_figure(out / "adoption.png", adoption_figure(batch)))
-    written.append(_write_json(out / "manifest.json", manifest(batch)))
-    return written
+    tables = {"curves.csv": batch.curves(), "summary.csv": batch.summary(), "metrics.csv": batch.metrics()}
+    figures = {"adoption": lambda: adoption_figure(batch, size=figure_size)} if figure else {}
+    return _save("run", batch, out, tables, figures, {}, force=force, figure_format=figure_format,
+                 command_line=command_line, float_formats={"curves.csv": None})
 
 
-def save_programme(study: ProgrammeStudy, out: str | Path, *, figure: bool = True,
-                   wall_time: float = 0.0) -> list[Path]:
+def save_programme(study: ProgrammeStudy, out: str | Path, *, figure: bool = True, wall_time: float = 0.0,
+                   force: bool = False, figure_format: str = "png", figure_size: tuple[float, float] | None = None,
+                   command_line: list[str] | None = None) -> list[Path]:
     """Write a referral programme study's results folder.
 
     Files: ``programme_summary.csv`` (outcome, estimate, 95 % interval),
     ``programme_runs.csv`` (one row per replicate), ``programme_curves.csv`` (baseline and
     programme share per period), ``programme_cumulative.csv`` (cumulative cost and
     incremental value per period), ``referral_tree.csv`` (tree statistics, baseline beside
-    programme), ``programme.png``, ``referral_tree.png`` and ``manifest.json``.
+    programme), ``programme.png``, ``referral_tree.png`` and ``manifest.json``. Options as
+    :func:`save_batch`.
 
     Raises
     ------
     StoreError
-        If ``out`` exists and is not a folder, or cannot be created.
+        If ``out`` is refused (:func:`check_output_folder`) or cannot be written.
     """
-    out = results_folder(out)
     tables = {
         "programme_summary.csv": study.summary(),
         "programme_runs.csv": study.per_replicate(),
@@ -85,56 +190,55 @@ def save_programme(study: ProgrammeStudy, out: str | Path, *, figure: bool = Tru
         "programme_cumulative.csv": study.cumulative(),
         "referral_tree.csv": study.tree(),
     }
-    written = [_write_table(out / name, table) for name, table in tables.items()]
-    if figure:
-        written.append(_write_figure(out / "programme.png", programme_figure(study)))
-        written.append(_write_figure(out / "referral_tree.png", referral_tree_figure(study)))
-    info = manifest(study, {"spawn_keys": "SeedSequence(root_seed, spawn_key=(replicate,)); baseline and programme paired"},
-                    wall_time=wall_time)
-    written.append(_write_json(out / "manifest.json", info))
-    return written
+    figures = {"programme": lambda: programme_figure(study, size=figure_size),
+               "referral_tree": lambda: referral_tree_figure(study, size=figure_size)} if figure else {}
+    extra = {"spawn_keys": "SeedSequence(root_seed, spawn_key=(replicate,)); baseline and programme paired"}
+    return _save("referral", study, out, tables, figures, extra, force=force, figure_format=figure_format,
+                 command_line=command_line, wall_time=wall_time)
 
 
-def save_seeding_study(study: SeedingStudy, out: str | Path, *, figures: bool = True) -> list[Path]:
-    """Write ``strategies.csv``, ``runs.csv``, ``seeding.png``, ``network.png`` (small networks)
-    and ``manifest.json`` into ``out``; returns the paths written.
+def save_seeding_study(study: SeedingStudy, out: str | Path, *, figures: bool = True, force: bool = False,
+                       figure_format: str = "png", figure_size: tuple[float, float] | None = None,
+                       command_line: list[str] | None = None) -> list[Path]:
+    """Write ``strategies.csv``, ``runs.csv``, ``seeding.png``, ``network.png`` (when the study
+    kept a network snapshot) and ``manifest.json`` into ``out``; returns the paths written.
+    Options as :func:`save_batch`.
 
     Raises
     ------
     StoreError
-        If ``out`` exists and is not a folder, or cannot be created.
+        If ``out`` is refused (:func:`check_output_folder`) or cannot be written.
     """
-    out = results_folder(out)
-    written = [
-        _write_table(out / "strategies.csv", study.strategies_table()),
-        _write_table(out / "runs.csv", study.runs),
-    ]
+    tables = {"strategies.csv": study.strategies_table(), "runs.csv": study.runs}
+    drawn: dict[str, Callable[[], Any]] = {}
     if figures:
-        written.append(_write_figure(out / "seeding.png", seeding_figure(study)))
+        drawn["seeding"] = lambda: seeding_figure(study, size=figure_size)
         if study.snapshot is not None:
             network, results = study.snapshot
-            written.append(_write_figure(out / "network.png",
-                                         network_snapshot_figure(network, results, seed=study.scenario.seed)))
-    info = manifest(study, {"study": "seeding strategies, paired replicates (common random numbers)",
-                            "strategies": list(study.strategies),
-                            "bootstrap_stream": f"SeedSequence(root_seed, spawn_key={BOOTSTRAP_KEY})"})
-    written.append(_write_json(out / "manifest.json", info))
-    return written
+            drawn["network"] = lambda: network_snapshot_figure(network, results, seed=study.scenario.seed,
+                                                               size=figure_size)
+    extra = {"study": "seeding strategies, paired replicates (common random numbers)",
+             "strategies": list(study.strategies),
+             "bootstrap_stream": f"SeedSequence(root_seed, spawn_key={BOOTSTRAP_KEY})"}
+    return _save("seeding", study, out, tables, drawn, extra, force=force, figure_format=figure_format,
+                 command_line=command_line)
 
 
-def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = True) -> list[Path]:
+def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = True, force: bool = False,
+                    figure_format: str = "png", figure_size: tuple[float, float] | None = None,
+                    command_line: list[str] | None = None) -> list[Path]:
     """Write a comparison's tables, figure and manifest into the results folder ``out``.
 
     Files: ``compare_curves.csv``, ``compare_metrics.csv``, ``compare_gaps.csv``,
     ``compare_fits.csv``, ``compare_replicates.csv`` (per-replicate metrics, fits and
-    gaps to the reference model), ``comparison.png``, ``compare_manifest.json``.
+    gaps to the reference model), ``comparison.png``, ``manifest.json``. Options as
+    :func:`save_batch`.
 
     Raises
     ------
     StoreError
-        If ``out`` exists and is not a folder, or cannot be created.
+        If ``out`` is refused (:func:`check_output_folder`) or cannot be written.
     """
-    out = results_folder(out)
     tables = {
         "compare_curves.csv": comparison.curve_table(),
         "compare_metrics.csv": comparison.metrics,
@@ -142,14 +246,12 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
         "compare_fits.csv": comparison.fits,
         "compare_replicates.csv": comparison.replicate_table(),
     }
-    written = [_write_table(out / name, table) for name, table in tables.items()]
-    if figure:
-        written.append(_write_figure(out / "comparison.png", comparison_figure(comparison)))
+    figures = {"comparison": lambda: comparison_figure(comparison, size=figure_size)} if figure else {}
     sf = comparison.stock_flow_fit
     extra = {
         "comparison": comparison.settings,
         "headline": comparison.headline(),
-        "stock_and_flow_fit": {"slope": sf.slope, "cap": sf.cap, "success": sf.success, "rmse": sf.rmse},
+        "capped_bass_difference_fit": {"slope": sf.slope, "cap": sf.cap, "success": sf.success, "rmse": sf.rmse},
     }
-    written.append(_write_json(out / "compare_manifest.json", manifest(comparison.batch, extra)))
-    return written
+    return _save("compare", comparison.batch, out, tables, figures, extra, force=force, figure_format=figure_format,
+                 command_line=command_line)

@@ -7,7 +7,8 @@ knows where the output goes (the ``womlab`` command) decides how it is shown:
   ``tqdm`` bar; when standard error is a file or a pipe it prints a handful of plain lines
   (at most one every :data:`LINE_EVERY` seconds, plus the last), never carriage returns.
 * :func:`stage` — one expensive step inside a unit (sampled betweenness, greedy seed
-  selection): a line when it starts and one with its duration when it ends.
+  selection): a line when it starts and one with its duration when it ends. It shows
+  when reporting is enabled, or while a shown bar is open in this process.
 * :func:`doing` — what the current unit is (a strategy's name), shown beside the bar.
 
 Reporting is off unless switched on with :func:`enable` (the command does, unless
@@ -187,7 +188,7 @@ def stage(what: str, *, show: bool | None = None) -> Iterator[None]:
     >>> with stage("sampled betweenness", show=False):
     ...     pass
     """
-    show = enabled() if show is None else show
+    show = (enabled() or bool(_ACTIVE)) if show is None else show
     if not show:
         yield
         return

@@ -56,6 +56,7 @@ COSTS: dict[str, float] = {
     "seconds_per_networkx_tie": 2e-6,     # converting to networkx, and core numbers / PageRank
     "seconds_per_betweenness_visit": 4e-6,  # Brandes, per source per (N + 2 ties)
     "seconds_pool_start": 3.0,            # a worker process importing the stack
+    "bytes_per_process": 200 * 2**20,     # Python, numpy, scipy, pandas, networkx loaded
 }
 
 _NETWORKX_STRATEGIES = ("bridges", "pagerank", "coreness")
@@ -334,8 +335,11 @@ def estimate(scenario: Any, command: str = "run", *, replicates: int | None = No
         parts.append(Part(f"enrolment strategy {s.referral.strategy}", ("referral.strategy", *fields), mem,
                           secs * keys * 2))
 
+    parts.append(Part("Python and its libraries", (), c["bytes_per_process"]))
     per_worker = sum(p.bytes for p in parts if p.per_worker)
     memory = workers * per_worker + sum(p.bytes for p in parts if not p.per_worker)
+    if workers > 1:
+        memory += c["bytes_per_process"]  # the main process beside its workers
     work = sum(p.seconds for p in parts)
     seconds = work / workers + (c["seconds_pool_start"] if workers > 1 else 0.0)
     values: dict[str, Any] = {}
@@ -356,9 +360,11 @@ def _growth(s: Any, dotted: str) -> float:
         default = getattr(type(getattr(s, section))(), leaf)
     except (TypeError, AttributeError):
         return 1.0
+    if default is None and isinstance(value, (int, float)):
+        default = 100  # a count left to another field's default (study.replicates: run.replicates)
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not isinstance(default, (int, float)):
         return 1.0
-    if default is None or value <= 0 or default <= 0:
+    if value <= 0 or default <= 0:
         return 1.0
     return float(default / value if leaf in ("report_every", "time_step") else value / default)
 

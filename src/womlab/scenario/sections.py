@@ -665,7 +665,7 @@ for _name in ("network.path", "network.nodes_path"):
               lambda s: f'network.kind = "{s.network.kind}" (files are read for kind = "edgelist" only)')
 no_effect("market.regions", lambda s: s.network.kind == "edgelist" and s.network.nodes_path is None,
           lambda s: "an edge list without network.nodes_path puts every organisation in one region")
-for _name in ("referral.enrol_share", "referral.strategy", "referral.enrol_count", "referral.start", "referral.end",
+for _name in ("referral.strategy", "referral.enrol_count", "referral.start", "referral.end",
               "referral.talk_multiplier", "referral.extra_talkers", "referral.scheme", "referral.reward",
               "referral.bonus", "referral.bonus_threshold", "referral.referred_reward", "referral.budget"):
     no_effect(_name, _no_one_enrolled, _enrolment)

@@ -11,11 +11,19 @@ from __future__ import annotations
 
 from typing import Any
 
-from womlab.store.folders import atomic_write, manifest, results_folder, versions
+from womlab.store.folders import (
+    MANIFEST,
+    FolderWriter,
+    atomic_write,
+    check_results_folder,
+    manifest,
+    results_folder,
+    versions,
+)
 from womlab.store.sweep_store import STORE_FORMAT, ResultsStore
 
-__all__ = ["atomic_write", "manifest", "results_folder", "versions", "ResultsStore", "STORE_FORMAT", "RUNS_SCHEMA",
-           "CURVES_SCHEMA"]
+__all__ = ["atomic_write", "manifest", "results_folder", "versions", "check_results_folder", "FolderWriter", "MANIFEST",
+           "ResultsStore", "STORE_FORMAT", "RUNS_SCHEMA", "CURVES_SCHEMA"]
 
 
 def __getattr__(name: str) -> Any:  # RUNS_SCHEMA / CURVES_SCHEMA without importing pyarrow at import

@@ -5,7 +5,8 @@ nothing of files' contents, figures or the command line (above). ``runner`` hold
 replicate batches and paired runs (common random numbers, joblib); ``compare`` the
 network set beside the aggregate models; ``seeding_study`` the paired seeding study;
 ``programme`` a referral programme's economics; ``sweep`` designs and the resumable
-sweep runner; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics and
+sweep runner; ``plan`` what each command will run on a scenario; ``sensitivity`` Sobol
+and Morris; ``metrics`` curve statistics and
 intervals; ``referrals`` referral-tree analytics; ``presenting`` the registry through
 which a study's result asks :mod:`womlab.results` to draw or write it.
 """
@@ -13,6 +14,7 @@ which a study's result asks :mod:`womlab.results` to draw or write it.
 from __future__ import annotations
 
 from womlab.studies.compare import Comparison, aggregate_curves, compare
+from womlab.studies.plan import plan, programme_summary, slow_steps
 from womlab.studies.metrics import (
     GAP_NAMES,
     METRIC_NAMES,
@@ -42,6 +44,7 @@ from womlab.studies.referrals import (
     referral_counts,
     referral_tree_summary,
     referrals_per_customer,
+    referrals_by_adoption_period,
     reproduction_by_period,
     top_degree_referral_share,
     word_of_mouth_by_period,
@@ -52,6 +55,9 @@ from womlab.studies.sensitivity import morris_design, morris_effects, saltelli_d
 from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, run_point, run_sweep
 
 __all__ = [
+    "plan",
+    "programme_summary",
+    "slow_steps",
     "Batch",
     "run_one",
     "run_replicates",
@@ -75,6 +81,7 @@ __all__ = [
     "referrals_per_customer",
     "generations",
     "top_degree_referral_share",
+    "referrals_by_adoption_period",
     "reproduction_by_period",
     "referral_tree_summary",
     "discount_factors",

@@ -28,6 +28,8 @@ from womlab.dynamics import CURVE_COLUMNS, RunResult, engine_for, streams
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
 from womlab.scenario import Scenario
+from womlab.scenario.progress import bar, doing
+from womlab.scenario.resources import usable_jobs
 from womlab.seeding import initial_customers
 from womlab.studies.metrics import metrics_table
 
@@ -70,6 +72,8 @@ def _run_variants(
         network = build_network(first, np.random.default_rng(st.network))
     out = {}
     for name, scenario in variants.items():
+        if name:
+            doing(name)
         initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
         result = engine_for(scenario)(scenario, network, initial, np.random.default_rng(st.dynamics))
         result.seed, result.spawn_key = scenario.seed, tuple(key)
@@ -112,9 +116,9 @@ def _execute(
 
     ``reduce``, if given, is applied to each run inside the worker (a picklable function),
     so that only its small return value travels back."""
-    from joblib import Parallel, delayed, effective_n_jobs
+    from joblib import Parallel, delayed
 
-    workers = effective_n_jobs(jobs)
+    workers = usable_jobs(jobs)  # never more processes than cores
     if workers == 1 or len(keys) == 1:
         chunks = [[k] for k in keys]
         results = (_chunk(variants, c, reduce) for c in chunks)
@@ -123,18 +127,11 @@ def _execute(
         chunks = [keys[i : i + size] for i in range(0, len(keys), size)]
         results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c, reduce) for c in chunks)
     done: dict[tuple, dict[str, RunResult]] = {}
-    bar = None
-    if progress:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(total=len(keys), unit="run", desc="runs", leave=False)
-    for chunk in results:
-        for key, result in chunk:
-            done[key] = result
-        if bar is not None:
-            bar.update(len(chunk))
-    if bar is not None:
-        bar.close()
+    with bar(len(keys), "replicates", unit="replicate", show=progress) as count:
+        for chunk in results:
+            for key, result in chunk:
+                done[key] = result
+            count.update(len(chunk))
     return done
 
 
