@@ -7,15 +7,17 @@ an enrolled satisfied customer's word of mouth count 1.75 times. Each (network k
 reward) point is evaluated with womlab.evaluate_programme on paired replicates (the
 programme run and the no-programme run share network and random draws).
 
-Writes results/roi.csv (one row per network kind and reward: ROI with its 95 % interval
-and the other outcomes) and results/roi.png. Run from the repository root:
+Writes roi.csv (one row per network kind and reward: ROI with its 95 % interval and the
+other outcomes), break_even.csv and roi.png into out/referral/ unless --out says otherwise
+(the README's figure is the tracked experiments/referral/results/roi.png). Run from the
+repository root:
 
-    PYTHONPATH=src python experiments/referral/run.py
+    python experiments/referral/run.py [--replicates 20] [--jobs 2] [--out DIR]
 """
 
 from __future__ import annotations
 
-import sys
+import argparse
 import time
 from pathlib import Path
 
@@ -37,7 +39,7 @@ def multiplier(reward: float) -> float:
     return 1.0 + 1.5 * reward / (reward + 20.0)
 
 
-def main(replicates: int | None = None, jobs: int | None = None) -> pd.DataFrame:
+def main(replicates: int | None = None, jobs: int | None = None, out: str | Path = Path("out") / "referral") -> pd.DataFrame:
     base = womlab.load_scenario(HERE / "programme.toml")
     rows = []
     start = time.perf_counter()
@@ -59,15 +61,15 @@ def main(replicates: int | None = None, jobs: int | None = None) -> pd.DataFrame
             print(f"{kind:12s} reward {reward:5.1f}: ROI {row['roi']:6.2f} "
                   f"[{row['roi_low']:.2f}, {row['roi_high']:.2f}]", flush=True)
     table = pd.DataFrame(rows)
-    out = HERE / "results"
+    out = Path(out)
     atomic_write(out / "roi.csv", lambda p: table.to_csv(p, index=False, float_format="%.6g"))
     even = break_even_rewards(table)
     atomic_write(out / "break_even.csv", lambda p: even.to_csv(p, index=False, float_format="%.4g"))
     print(even.to_string(index=False))
     fig = roi_figure(table, base)
     atomic_write(out / "roi.png", lambda p: fig.savefig(p, dpi=130, format="png"))
-    print(f"{len(rows)} points in {time.perf_counter() - start:.0f} s; wrote results/roi.csv, "
-          "results/break_even.csv and results/roi.png")
+    print(f"{len(rows)} points in {time.perf_counter() - start:.0f} s; wrote {out}/roi.csv, "
+          f"{out}/break_even.csv and {out}/roi.png")
     return table
 
 
@@ -118,5 +120,11 @@ def roi_figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
 
 
 if __name__ == "__main__":
-    reps = int(sys.argv[1]) if len(sys.argv) > 1 else None
-    main(reps)
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--replicates", type=int, default=None, help="overrides run.replicates of programme.toml")
+    parser.add_argument("--jobs", type=int, default=None, help="overrides run.jobs")
+    parser.add_argument("--out", default=str(Path("out") / "referral"),
+                        help="results folder (default out/referral; the tracked results the README shows are in "
+                             "experiments/referral/results)")
+    args = parser.parse_args()
+    main(args.replicates, args.jobs, args.out)

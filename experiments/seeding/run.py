@@ -4,10 +4,11 @@ Every strategy of base.toml's [study] is compared with random seeding on paired 
 (womlab.compare_strategies: one network per replicate, common random numbers) for each of
 random, small_world, regional and scale_free networks at the same mean degree, under the
 ``share`` and ``count`` rules, with external influence 0 and 0.01 per period. The scenario is
-invented (see base.toml). Writes results/seeding_experiment.csv (one row per network kind x
-rule x external x strategy), results/seeding_experiment.png and results/manifest.json.
+invented (see base.toml). Writes seeding_experiment.csv (one row per network kind x rule x
+external x strategy), seeding_experiment.png and manifest.json into out/seeding/ unless --out
+says otherwise (the README's figure is the tracked experiments/seeding/results/).
 
-    python experiments/seeding/run.py [--replicates 30] [--jobs 2]
+    python experiments/seeding/run.py [--replicates 30] [--jobs 2] [--out DIR]
 """
 
 from __future__ import annotations
@@ -96,9 +97,12 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--replicates", type=int, default=None, help="overrides study.replicates")
     parser.add_argument("--jobs", type=int, default=None, help="overrides run.jobs")
-    parser.add_argument("--plot-only", action="store_true", help="redraw the figure from results/seeding_experiment.csv")
+    parser.add_argument("--plot-only", action="store_true", help="redraw the figure from OUT/seeding_experiment.csv")
+    parser.add_argument("--out", default=str(Path("out") / "seeding"),
+                        help="results folder (default out/seeding; the tracked results the README shows are in "
+                             "experiments/seeding/results)")
     args = parser.parse_args()
-    out = HERE / "results"
+    out = Path(args.out)
     start = time.perf_counter()
     base = womlab.load_scenario(HERE / "base.toml")
     if args.replicates is not None:

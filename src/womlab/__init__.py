@@ -3,7 +3,8 @@
 Organisations sit on a referral network; satisfied customers talk to their neighbours.
 womlab simulates each organisation (a fast numpy array engine, and a Mesa model as the
 per-agent reference), runs seeded replicates in parallel, and sets the emergent adoption
-curves against the aggregate Bass and stock-and-flow models.
+curves against the aggregate Bass models (closed form, ODE, difference form, and the Bass
+difference model with a ceiling on the adoption rate).
 
 Quick start::
 
@@ -27,20 +28,26 @@ from womlab.aggregate import (
     bass_ode,
     bass_peak_time,
     bass_share,
+    capped_bass_difference,
     degree_classes,
     degree_mean_field,
     degree_mean_field_curve,
     fit_bass,
     fit_bass_sales,
+    fit_capped_bass_difference,
     fit_replicates,
     fit_stock_and_flow,
     mapped_parameters,
     stock_and_flow,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams
-from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.errors import NetworkError, ScenarioError, ScenarioWarning, StoreError, WomlabError
 from womlab.networks import ReferralNetwork, build_network, read_edgelist
 from womlab.results import (
+    check_output_folder,
+    save_comparison,
+    save_figure,
+    strategy_colour,
     adoption_figure,
     comparison_figure,
     network_snapshot_figure,
@@ -55,7 +62,7 @@ from womlab.results import (
     sweep_summary,
     write_report,
 )
-from womlab.scenario import Scenario, load_scenario
+from womlab.scenario import Scenario, check_resources, estimate_resources, field_label, load_scenario
 from womlab.seeding import STRATEGIES, choose_seeds
 from womlab.store import ResultsStore
 from womlab.studies import (
@@ -79,7 +86,9 @@ from womlab.studies import (
     pooled_gaps,
     pooled_metrics,
     programme_economics,
+    plan,
     referral_tree_summary,
+    referrals_by_adoption_period,
     referrals_per_customer,
     replicate_gaps,
     replicate_metrics,
@@ -109,6 +118,7 @@ __all__ = [
     "STRATEGIES",
     "Scenario",
     "ScenarioError",
+    "ScenarioWarning",
     "SeedingStudy",
     "StockFlowFit",
     "StoreError",
@@ -123,6 +133,17 @@ __all__ = [
     "bass_peak_time",
     "bass_share",
     "build_network",
+    "capped_bass_difference",
+    "check_output_folder",
+    "check_resources",
+    "estimate_resources",
+    "field_label",
+    "fit_capped_bass_difference",
+    "plan",
+    "referrals_by_adoption_period",
+    "save_comparison",
+    "save_figure",
+    "strategy_colour",
     "choose_seeds",
     "compare",
     "compare_strategies",

@@ -14,7 +14,7 @@ from __future__ import annotations
 import pytest
 
 from womlab import Scenario, ScenarioError
-from womlab.scenario.resources import MAX_ORGANISATIONS, check_resources, cores, estimate, usable_jobs
+from womlab.scenario.resources import MAX_ORGANISATIONS, check_resources, cores, estimate_resources, usable_jobs
 
 GIB = 2**30
 
@@ -49,7 +49,7 @@ def test_more_organisations_than_32_bit_ids_is_refused_always(n):
 def test_network_memory_is_at_least_its_csr_arrays():
     # a million organisations, mean degree 100,000: 5e10 ties, 8 bytes each in CSR (int32 both ways)
     s = Scenario.from_dict({"market": {"organisations": 10**6}, "network": {"mean_degree": 100_000}})
-    ties = estimate(s).largest("bytes")
+    ties = estimate_resources(s).largest("bytes")
     assert ties.what == "network ties" and ties.bytes >= 5e10 * 8
 
 
@@ -70,10 +70,10 @@ def test_runs_are_counted_as_each_command_runs_them():
     s = Scenario.from_dict({"run": {"replicates": 100}, "study": {"strategies": ["random", "hubs", "fringe"],
                                                                    "replicates": 40},
                             "referral": {"enrol": "all"}})
-    assert estimate(s, "run").runs == 100
-    assert estimate(s, "seeding").runs == 3 * 40      # the study's replicates, not run.replicates
-    assert estimate(s, "referral").runs == 2 * 100    # programme and baseline
-    assert estimate(s, "sweep", points=15).runs == 15 * s.sweep.replicates
+    assert estimate_resources(s, "run").runs == 100
+    assert estimate_resources(s, "seeding").runs == 3 * 40      # the study's replicates, not run.replicates
+    assert estimate_resources(s, "referral").runs == 2 * 100    # programme and baseline
+    assert estimate_resources(s, "sweep", points=15).runs == 15 * s.sweep.replicates
 
 
 def test_jobs_are_capped_at_the_cores():
@@ -81,4 +81,4 @@ def test_jobs_are_capped_at_the_cores():
     assert usable_jobs(-1) == cores()
     assert usable_jobs(1) == 1
     s = Scenario.from_dict({"run": {"jobs": 100_000, "replicates": 1000}})
-    assert estimate(s).workers == cores()
+    assert estimate_resources(s).workers == cores()

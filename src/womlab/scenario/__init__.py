@@ -35,7 +35,7 @@ from womlab.scenario.sections import (
     Thresholds,
 )
 from womlab.scenario.labels import field_label
-from womlab.scenario.resources import Estimate, check_resources, estimate
+from womlab.scenario.resources import Estimate, check_resources, estimate_resources
 from womlab.scenario.sections import NO_EFFECT, no_effect
 from womlab.scenario.sweep_spec import SWEEP_DESIGNS, Axis, SweepSpec
 from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario, parse_assignment
@@ -43,7 +43,7 @@ from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario, 
 __all__ = [
     "field_label",
     "Estimate",
-    "estimate",
+    "estimate_resources",
     "check_resources",
     "NO_EFFECT",
     "no_effect",

@@ -131,6 +131,10 @@ class _Bar:
     def set_postfix_str(self, text: str) -> None:
         self.inner.set_postfix_str(text)
 
+    def set_postfix(self, **values: Any) -> None:
+        """Show ``name value`` pairs beside the count (e.g. ``failed=2``)."""
+        self.inner.set_postfix_str(", ".join(f"{k} {v}" for k, v in values.items()))
+
     def close(self) -> None:
         self.inner.close()
         if self in _ACTIVE:

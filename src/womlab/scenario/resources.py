@@ -1,6 +1,6 @@
 """What a scenario will cost before anything runs: memory, work, a rough time, and the machine.
 
-:func:`estimate` reads only the scenario (and, for a sweep, its number of points), never
+:func:`estimate_resources` reads only the scenario (and, for a sweep, its number of points), never
 builds a network or allocates an array, and returns an :class:`Estimate`: the peak memory
 of the command, the number of engine runs, a rough wall time, and the parts they are
 made of, each naming the scenario fields it grows with. :func:`check_resources` refuses,
@@ -24,11 +24,11 @@ from typing import Any
 
 from womlab.errors import ScenarioError
 
-__all__ = ["COSTS", "MAX_SECONDS", "MAX_ORGANISATIONS", "Part", "Estimate", "estimate", "check_resources",
+__all__ = ["COSTS", "MAX_SECONDS", "MAX_ORGANISATIONS", "Part", "Estimate", "estimate_resources", "check_resources",
            "usable_jobs", "cores", "machine_memory", "describe_bytes", "describe_seconds", "strategy_seconds",
            "COMMANDS"]
 
-#: The commands whose work :func:`estimate` knows.
+#: The commands whose work :func:`estimate_resources` knows.
 COMMANDS = ("run", "compare", "seeding", "referral", "sweep")
 
 #: Organisation ids are 32-bit (the CSR arrays every engine reads).
@@ -268,7 +268,7 @@ def _replicates(s: Any, command: str, replicates: int | None) -> int:
     return int(s.run.replicates)
 
 
-def estimate(scenario: Any, command: str = "run", *, replicates: int | None = None, jobs: int | None = None,
+def estimate_resources(scenario: Any, command: str = "run", *, replicates: int | None = None, jobs: int | None = None,
              points: int = 1) -> Estimate:
     """Estimate what ``command`` will cost on ``scenario``, from the scenario alone.
 
@@ -289,7 +289,7 @@ def estimate(scenario: Any, command: str = "run", *, replicates: int | None = No
     --------
     >>> from womlab import Scenario
     >>> s = Scenario.from_dict({"market": {"organisations": 10_000}, "run": {"replicates": 20, "jobs": 1}})
-    >>> e = estimate(s)
+    >>> e = estimate_resources(s)
     >>> e.runs, e.workers, e.memory < 2**30
     (20, 1, True)
     """
@@ -404,7 +404,7 @@ def check_resources(scenario: Any, command: str = "run", *, replicates: int | No
     if n > MAX_ORGANISATIONS:
         raise ScenarioError(f"market.organisations must be at most {MAX_ORGANISATIONS:,} (organisation ids are "
                             f"32-bit), got {n:,}")
-    est = estimate(scenario, command, replicates=replicates, jobs=jobs, points=points)
+    est = estimate_resources(scenario, command, replicates=replicates, jobs=jobs, points=points)
     if skip:
         return est
     limit = machine_memory() if memory is None else memory

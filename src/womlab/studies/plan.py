@@ -3,7 +3,7 @@
 :func:`plan` returns one row per command (``run``, ``compare``, ``seeding``, ``referral``,
 ``sweep``): what it runs in words (the replicate count that command really uses, the
 strategies, the programme, the sweep's points), its engine runs, workers, peak memory and
-a rough time from :func:`womlab.scenario.resources.estimate`. :func:`slow_steps` names the
+a rough time from :func:`womlab.scenario.resources.estimate_resources`. :func:`slow_steps` names the
 seeding steps that will be slow at this size (sampled betweenness, greedy) with their
 rough time per replicate. ``womlab check`` prints both.
 """
@@ -17,7 +17,7 @@ from womlab.scenario import Scenario
 from womlab.scenario.resources import (
     describe_bytes,
     describe_seconds,
-    estimate,
+    estimate_resources,
     strategy_seconds,
     usable_jobs,
 )
@@ -92,7 +92,7 @@ def plan(scenario: Scenario, *, jobs: int | None = None) -> pd.DataFrame:
     rows = []
 
     def add(command: str, what: str, points: int = 1) -> None:
-        e = estimate(s, command, jobs=jobs, points=points)
+        e = estimate_resources(s, command, jobs=jobs, points=points)
         rows.append({"command": command, "what": what, "runs": e.runs, "workers": e.workers, "memory": e.memory,
                      "seconds": e.seconds, "estimate": f"{e.runs:,} runs on {e.workers} worker"
                      f"{'s' if e.workers != 1 else ''}, about {describe_seconds(e.seconds)}, peak memory about "

@@ -449,11 +449,9 @@ def run_sweep(
 
     chunks = _chunks(pending, workers, chunk_size)
     tasks = ([(i, r, scenarios[i]) for i, r in chunk] for chunk in chunks)
-    bar = None
-    if progress:
-        from tqdm.auto import tqdm
+    from womlab.scenario.progress import bar as progress_bar  # a bar on a terminal, plain lines when piped
 
-        bar = tqdm(total=len(keys), initial=skipped, unit="run", desc="sweep", smoothing=0.1)
+    bar = progress_bar(len(keys), "sweep", unit="run", initial=skipped, show=progress, leave=True) if progress else None
     ran = failed_now = 0
     try:
         if client is not None:
