@@ -51,6 +51,19 @@ def test_replicates_zero_speaks_of_replicates(config, capsys):
     assert "core" not in line
 
 
+@pytest.mark.parametrize("args, start", [
+    (["--seed", "-3"], "womlab: error: argument --seed: the seed must be a whole number >= 0, got -3"),
+    (["--jobs", "0"], "womlab: error: argument --jobs: the number of worker processes must be >= 1"),
+    (["--figure-size", "big"], "womlab: error: argument --figure-size: the figure size must be WIDTHxHEIGHT"),
+])
+def test_a_bad_option_is_one_line_naming_it(config, capsys, args, start):
+    with pytest.raises(SystemExit) as exit_:
+        main(["run", "s.toml", *args])
+    assert exit_.value.code == 2
+    (line,) = _err_lines(capsys)
+    assert line.startswith(start)
+
+
 def test_out_is_checked_before_any_run(config, capsys, monkeypatch):
     import womlab.studies
 
@@ -130,8 +143,6 @@ def test_figure_format_size_and_the_network_figure_on_request(config, capsys):
     assert {"seeding.svg", "network.svg", "manifest.json"} <= names  # 700 organisations: above the default 600
     assert 'width="432pt" height="288pt"' in (config.parent / "o" / "seeding.svg").read_text()[:2000]
     assert "variance_reduction: 1 - Var(strategy - random)" in capsys.readouterr().out
-    with pytest.raises(SystemExit):
-        main(["run", "s.toml", "--figure-size", "big"])
 
 
 def test_a_binding_budget_says_so(config, capsys):

@@ -278,7 +278,7 @@ def capped_bass_difference(
     --------
     >>> c = capped_bass_difference(3, 1000, 10, slope=0.001, satisfied_share=1.0, talkers_per_customer=1.0,
     ...                            external=0.01, cap=0.02)
-    >>> [round(x, 2) for x in c]
+    >>> [round(float(x), 2) for x in c]
     [10.0, 29.8, 49.2, 68.22]
     """
     spp = int(round(1 / time_step))

@@ -30,11 +30,14 @@ def cmd_seeding(args: argparse.Namespace) -> int:
           f"budget {study.scenario.n_initial} of {scenario.market.organisations:,} organisations "
           f"on a {scenario.network.kind} network, {study.wall_time:.1f} s")
     print_table(table[cols])
-    print(f"{outcome}_mean, _low, _high: mean and 95 % interval over the replicates; lift_ratio: mean {outcome} "
-          "against random's, with its 95 % paired-bootstrap interval; wilcoxon_p: signed-rank test of the paired "
-          "differences; variance_reduction: 1 - Var(strategy - random) / (Var strategy + Var random), the share of "
-          "the variance pairing removed (negative when the two move against each other across replicates, so "
-          "pairing widened the interval)")
+    for line in (f"{outcome}_mean, _low, _high: mean and 95 % interval over the replicates",
+                 f"lift_ratio, _low, _high: mean {outcome} against random's, 95 % paired-bootstrap interval",
+                 "wilcoxon_p: signed-rank test of the paired differences against random",
+                 "variance_reduction: 1 - Var(strategy - random) / (Var strategy + Var random), the share of the "
+                 "variance pairing removed;",
+                 "  negative when the two move against each other across replicates (pairing then widened the "
+                 "interval)"):
+        print(line)
     print(f"wrote {len(written)} files to {out}/")
     return 0
 

@@ -74,8 +74,8 @@ def plain_text(text: str) -> str:
 
     Examples
     --------
-    >>> plain_text("costs $5 and $10")
-    'costs \\$5 and \\$10'
+    >>> print(plain_text("costs $5 and $10"))
+    costs \\$5 and \\$10
     """
     return str(text).replace("$", "\\$")
 
