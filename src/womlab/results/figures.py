@@ -150,11 +150,14 @@ def adoption_figure(batch, *, title: str | None = None, size: tuple[float, float
     aggregate = summary["aggregate"].to_numpy()
     continuous = s.run.clock == "continuous"
     if s.adoption.rule == "capped":
-        agg_label = f"Bass difference model with a rate ceiling (step {s.run.time_step:g})"
+        agg_name = "Bass difference model with a rate ceiling"
+        agg_label = f"{agg_name} (step {s.run.time_step:g})"
     elif continuous:
+        agg_name = "Bass model"
         agg_label = f"Bass model, p = {par.p:.3g}, Q = {par.Q:.3g} (aggregate and Bass ODE coincide)"
     else:
-        agg_label = f"Bass difference model (step {s.run.time_step:g})"
+        agg_name = "Bass difference model"
+        agg_label = f"{agg_name} (step {s.run.time_step:g})"
     top.plot(t, aggregate, color=AGGREGATE_COLOUR, lw=1.6, ls="--", label=agg_label)
     if s.adoption.rule not in ("capped", "threshold", "cascade") and not continuous:
         top.plot(fine, bass_share(fine, par.p, par.Q, par.initial_share), color=BASS_COLOUR, lw=1.2, ls=":",
@@ -170,7 +173,7 @@ def adoption_figure(batch, *, title: str | None = None, size: tuple[float, float
     bottom.fill_between(tn, np.quantile(new, 0.05, axis=0), np.quantile(new, 0.95, axis=0),
                         color=NETWORK_COLOUR, alpha=0.2, lw=0, label="network, 5–95 %")
     bottom.plot(tn, new.mean(axis=0), color=NETWORK_COLOUR, lw=2, label="network, mean")
-    bottom.plot(tn, np.diff(aggregate), color=AGGREGATE_COLOUR, lw=1.6, ls="--", label="aggregate model")
+    bottom.plot(tn, np.diff(aggregate), color=AGGREGATE_COLOUR, lw=1.6, ls="--", label=agg_name)
     bottom.set_xlabel("period")
     bottom.set_ylabel("new customers per period,\nshare of market")
     bottom.grid(alpha=0.3)
