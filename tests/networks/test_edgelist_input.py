@@ -29,7 +29,7 @@ def _scenario(tmp_path, edges: bytes, nodes: bytes | None = None, extra: str = "
 @pytest.mark.parametrize("edges, words", [
     (bytes(range(256)) * 8, "binary data"),
     ("source,target\n1,2\n2,3\n".encode("utf-16"), "UTF-16"),
-    (b"source,target\n1,2\n2,\xff3\n", "not UTF-8 text (an invalid byte on line 3)"),
+    (b"source,target\n1,2\n2,\xff3\n", "not UTF-8 text (byte 0xff at line 3, column 3)"),
     (b"source,target\n", "holds no ties"),
     (b"", "is empty"),
     (b"source,target\n1,1\n2,2\n3,3\n", "holds only self-loops"),

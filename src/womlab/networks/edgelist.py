@@ -23,6 +23,7 @@ import pandas as pd
 
 from womlab.errors import NetworkError
 from womlab.networks.network import ReferralNetwork, from_edges
+from womlab.scenario.checks import utf8_text
 
 __all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts"]
 
@@ -37,16 +38,10 @@ def _text(path: str | Path, what: str) -> str:
         raw = Path(path).read_bytes()
     except OSError as exc:
         raise NetworkError(f"network.{what}: cannot read {name!r}: {exc.strerror}") from None
-    if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
-        raise NetworkError(f"network.{what}: {name!r} is UTF-16 text; save it as UTF-8 CSV")
-    if b"\x00" in raw:
-        raise NetworkError(f"network.{what}: {name!r} is not a text file (it holds binary data); expected a UTF-8 CSV")
     try:
-        return raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        raise NetworkError(f"network.{what}: {name!r} is not UTF-8 text (an invalid byte on line {line}); "
-                           "save it as UTF-8 CSV") from None
+        return utf8_text(raw, "CSV")
+    except ValueError as exc:
+        raise NetworkError(f"network.{what}: {name!r} {exc}") from None
 
 
 def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.DataFrame:

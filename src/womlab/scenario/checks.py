@@ -16,7 +16,7 @@ from typing import Any
 from womlab.errors import ScenarioError
 
 __all__ = ["fail", "in_unit", "non_negative", "positive_int", "one_of", "unknown_field", "coerce", "field_names",
-           "hints", "drop_none"]
+           "hints", "drop_none", "utf8_text"]
 
 
 def fail(dotted: str, value: Any, allowed: str) -> typing.NoReturn:
@@ -107,3 +107,30 @@ def drop_none(value: Any) -> Any:
         return [drop_none(v) for v in value]
     return value
 
+
+
+def utf8_text(raw: bytes, kind: str) -> str:
+    """``raw`` decoded as UTF-8 (a UTF-8 byte-order mark is allowed), or a ValueError saying in one
+    line why it is not UTF-8 text: UTF-16, binary, or an invalid byte (named by position, never by
+    the file's contents). ``kind`` names what the file should be (``TOML``, ``CSV``).
+
+    Examples
+    --------
+    >>> utf8_text(b"\\xef\\xbb\\xbfname = 1", "TOML")
+    'name = 1'
+    >>> utf8_text(b"a\\nb\\xff", "CSV")
+    Traceback (most recent call last):
+    ...
+    ValueError: is not UTF-8 text (byte 0xff at line 2, column 2); save it as UTF-8 CSV
+    """
+    if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        raise ValueError(f"is UTF-16 text; save it as UTF-8 {kind}")
+    if b"\x00" in raw:
+        raise ValueError(f"is not a text file (it holds binary data); expected UTF-8 {kind}")
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        column = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise ValueError(f"is not UTF-8 text (byte 0x{raw[exc.start]:02x} at line {line}, column {column}); "
+                         f"save it as UTF-8 {kind}") from None

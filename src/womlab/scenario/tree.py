@@ -84,7 +84,7 @@ from pathlib import Path
 from typing import Any
 
 from womlab.errors import ScenarioError, ScenarioWarning
-from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field
+from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field, utf8_text
 from womlab.scenario.registry import edgelist_facts
 from womlab.scenario.sections import (
     Adoption,
@@ -450,21 +450,6 @@ def field_type(dotted: str) -> type:
     return field_type_in(Scenario, dotted)
 
 
-def _scenario_text(raw: bytes, path: str | Path) -> str:
-    """The text of a scenario file, or one line saying why it is not UTF-8 text (a UTF-8 BOM is allowed)."""
-    if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
-        raise ScenarioError(f"{path}: is UTF-16 text; a scenario file must be UTF-8 (save it as UTF-8)")
-    if b"\x00" in raw:
-        raise ScenarioError(f"{path}: is not a text file (it holds binary data); a scenario is a UTF-8 TOML file")
-    try:
-        return raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        column = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
-        raise ScenarioError(f"{path}: is not UTF-8 text (byte 0x{raw[exc.start]:02x} at line {line}, column "
-                            f"{column}); save it as UTF-8") from None
-
-
 def load_scenario(path: str | Path, changes: Mapping[str, Any] | None = None) -> Scenario:
     """Read and validate a scenario TOML file, with optional changes to its fields.
 
@@ -493,7 +478,10 @@ def load_scenario(path: str | Path, changes: Mapping[str, Any] | None = None) ->
         raw = p.read_bytes()
     except OSError as exc:
         raise ScenarioError(f"scenario file {str(path)!r} cannot be read: {exc.strerror}") from None
-    text = _scenario_text(raw, path)
+    try:
+        text = utf8_text(raw, "TOML")
+    except ValueError as exc:
+        raise ScenarioError(f"{path}: {exc}") from None
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
