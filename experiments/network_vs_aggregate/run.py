@@ -1,4 +1,4 @@
-"""Network versus aggregate model: one invented market on eight referral networks.
+"""Network versus aggregate model: one invented market on ten referral networks.
 
 Every scenario in this folder has the same market, rule and parameters (mapped Bass
 Q = 0.384) and differs only in its network. For each, womlab.compare runs the replicates
@@ -6,14 +6,16 @@ and sets the network beside the aggregate curves; this script collects the headl
 numbers into one table and draws one combined figure:
 
     results/table.csv    t50 delay vs the Bass difference model, peak-rate ratio,
-                         Q_eff / Q_mapped (each with its 95 % bootstrap interval), and
-                         the degree mean-field model's t50 and RMSE beside Bass's
+                         Q_eff / Q_mapped (each with its 95 % bootstrap interval), the
+                         degree mean-field model's t50 and RMSE beside Bass's, and the
+                         mean clustering of the first replicate's network
     results/figure.png   mean curves beside Bass; gap over time; Q_eff / Q_mapped
     results/manifest.json  versions, settings and wall time
 
 Run from the repository root (about a minute or two on two cores); results go to
-out/network_vs_aggregate/ unless --out says otherwise (the README's figure and table are
-the tracked ones in experiments/network_vs_aggregate/results/, written only when asked):
+out/experiments/network_vs_aggregate/ unless --out says otherwise (the README's figure and
+table are the tracked ones in experiments/network_vs_aggregate/results/, written only when
+asked):
 
     python experiments/network_vs_aggregate/run.py [--replicates 20] [--jobs 2] [--out DIR]
 """
@@ -30,19 +32,22 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 import womlab
+from womlab.dynamics.streams import streams
 from womlab.store import atomic_write, versions
 
 HERE = Path(__file__).resolve().parent
-ORDER = ["complete", "random", "scale_free", "small_world_0.2", "small_world_0.02", "regional_0.7",
-         "regional_0.95", "ring"]
+ORDER = ["complete", "random", "scale_free", "small_world_0.2", "small_world_0.02", "regional_blocks_0.7",
+         "regional_blocks_0.95", "regional_0.7", "regional_0.95", "ring"]
 LABELS = {
     "complete": "complete",
     "random": "random (Erdős–Rényi)",
     "scale_free": "scale-free (Barabási–Albert)",
     "small_world_0.2": "small world, rewiring 0.2",
     "small_world_0.02": "small world, rewiring 0.02",
-    "regional_0.7": "regional, 70 % within region",
-    "regional_0.95": "regional, 95 % within region",
+    "regional_blocks_0.7": "regional blocks, 70 % within region",
+    "regional_blocks_0.95": "regional blocks, 95 % within region",
+    "regional_0.7": "clustered regions, 70 % within region",
+    "regional_0.95": "clustered regions, 95 % within region",
     "ring": "ring lattice",
 }
 
@@ -77,10 +82,12 @@ def run_all(replicates: int | None, jobs: int | None) -> tuple[pd.DataFrame, dic
             "rmse_bass_difference": h["rmse_reference"],
             "rmse_degree_mean_field": h["rmse_degree_mean_field"],
             "final_share": float(m.loc["final_share", "network"]),
+            "clustering": womlab.build_network(
+                scenario, np.random.default_rng(streams(scenario.seed, (0,)).network)).clustering(),
             "seconds": round(time.perf_counter() - start, 2),
         })
         comparisons[stem] = c
-        print(f"{stem:>17}: t50 delay {h['t50_delay']:+.2f}, peak ratio {h['peak_ratio']:.3f}, "
+        print(f"{stem:>20}: t50 delay {h['t50_delay']:+.2f}, peak ratio {h['peak_ratio']:.3f}, "
               f"Q_eff/Q_mapped {h['Q_ratio']:.3f} ({rows[-1]['seconds']:.1f} s)", flush=True)
     return pd.DataFrame(rows), comparisons
 
@@ -110,7 +117,7 @@ def combined_figure(table: pd.DataFrame, comparisons: dict) -> Figure:
     curves.set_xlim(0, t[-1])
     curves.grid(alpha=0.3)
     curves.legend(fontsize=7.5, frameon=False, loc="lower right")
-    curves.set_title("One invented market on eight referral networks (mean degree 8, count rule)", fontsize=10)
+    curves.set_title("One invented market on ten referral networks (mean degree 8, count rule)", fontsize=10)
     gaps.axhline(0, color="black", lw=0.8)
     gaps.set_ylabel("gap: network − Bass difference model")
     gaps.set_xlabel("period")
@@ -139,8 +146,8 @@ def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--replicates", type=int, default=None, help="overrides each file's run.replicates")
     parser.add_argument("--jobs", type=int, default=None, help="overrides each file's run.jobs")
-    parser.add_argument("--out", default=str(Path("out") / "network_vs_aggregate"),
-                        help="results folder (default out/network_vs_aggregate; the tracked results the README shows "
+    parser.add_argument("--out", default="out/experiments/network_vs_aggregate",
+                        help="results folder (default %(default)s; the tracked results the README shows "
                              "are in experiments/network_vs_aggregate/results)")
     args = parser.parse_args()
     out = Path(args.out)
@@ -157,7 +164,7 @@ def main() -> int:
         "versions": versions(),
     }
     atomic_write(out / "manifest.json", lambda p: p.write_text(json.dumps(manifest, indent=2) + "\n", encoding="utf-8"))
-    print(table[["network", "t50_delay", "peak_ratio", "Q_ratio", "Q_ratio_low", "Q_ratio_high",
+    print(table[["network", "clustering", "t50_delay", "peak_ratio", "Q_ratio", "Q_ratio_low", "Q_ratio_high",
                  "t50_degree_mean_field", "rmse_bass_difference", "rmse_degree_mean_field"]].to_string(index=False))
     print(f"wrote {out}/table.csv, figure.png, manifest.json in {time.perf_counter() - start:.0f} s")
     return 0

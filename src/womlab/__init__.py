@@ -9,13 +9,15 @@ difference model with a ceiling on the adoption rate).
 Quick start::
 
     import womlab
-    s = womlab.load_scenario("configs/demo.toml")
+    s = womlab.load_scenario("demo")  # a shipped demo by name, or any scenario file
     batch = womlab.run_replicates(s, 20, jobs=2)
     batch.metrics()                    # t10/t50/t90, peak, final share: network vs aggregate
     womlab.adoption_figure(batch).savefig("adoption.png")
 """
 
 from __future__ import annotations
+
+from importlib import metadata as _metadata
 
 from womlab.aggregate import (
     AggregateParameters,
@@ -40,9 +42,18 @@ from womlab.aggregate import (
     mapped_parameters,
     stock_and_flow,
 )
-from womlab.dynamics import RunResult, engine_for, run_events, streams
-from womlab.errors import NetworkError, ScenarioError, ScenarioWarning, StoreError, WomlabError
-from womlab.networks import ReferralNetwork, build_network, read_edgelist
+from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
+from womlab.errors import (
+    ClusterError,
+    CompilerError,
+    NetworkError,
+    ScenarioError,
+    ScenarioWarning,
+    StoreError,
+    WomlabError,
+)
+from womlab.networks import ReferralNetwork, build_network, from_edge_table, read_edgelist, read_graph_file
+from womlab.networks.given import as_network
 from womlab.results import (
     check_output_folder,
     save_comparison,
@@ -62,7 +73,15 @@ from womlab.results import (
     sweep_summary,
     write_report,
 )
-from womlab.scenario import Scenario, check_resources, estimate_resources, field_label, load_scenario
+from womlab.scenario import (
+    Scenario,
+    check_resources,
+    demo_names,
+    estimate_resources,
+    field_label,
+    load_scenario,
+    write_demo,
+)
 from womlab.seeding import STRATEGIES, choose_seeds
 from womlab.store import ResultsStore
 from womlab.studies import (
@@ -70,6 +89,7 @@ from womlab.studies import (
     Comparison,
     ProgrammeStudy,
     SeedingStudy,
+    SweepStudy,
     SweepSummary,
     aggregate_curves,
     compare,
@@ -84,11 +104,14 @@ from womlab.studies import (
     morris_effects,
     point_scenarios,
     pooled_gaps,
+    parallel_choice,
     pooled_metrics,
     programme_economics,
     plan,
+    programme_ratios,
     referral_tree_summary,
     referrals_by_adoption_period,
+    register_sweep_study,
     referrals_per_customer,
     replicate_gaps,
     replicate_metrics,
@@ -99,18 +122,24 @@ from womlab.studies import (
     run_sweep,
     saltelli_design,
     sobol_indices,
+    sweep_studies,
     time_to_share,
     top_degree_referral_share,
     word_of_mouth_by_period,
 )
 
-__version__ = "0.1.0"
+try:  # the one source of the version is pyproject.toml, read from the installed metadata
+    __version__ = _metadata.version("womlab")
+except _metadata.PackageNotFoundError:  # pragma: no cover - imported from a source tree that was never installed
+    __version__ = "0+unknown"
 
 __all__ = [
     "AggregateParameters",
     "BassFit",
     "Batch",
+    "ClusterError",
     "Comparison",
+    "CompilerError",
     "NetworkError",
     "ProgrammeStudy",
     "ReferralNetwork",
@@ -126,6 +155,7 @@ __all__ = [
     "adoption_figure",
     "aggregate_curve",
     "aggregate_curves",
+    "as_network",
     "bass_density",
     "bass_difference",
     "bass_fit_table",
@@ -150,6 +180,7 @@ __all__ = [
     "comparison_figure",
     "curve_gap",
     "curve_metrics",
+    "demo_names",
     "degree_classes",
     "degree_mean_field",
     "degree_mean_field_curve",
@@ -159,6 +190,7 @@ __all__ = [
     "fit_replicates",
     "fit_stock_and_flow",
     "generations",
+    "parallel_choice",
     "lift_statistics",
     "load_scenario",
     "mapped_parameters",
@@ -167,7 +199,10 @@ __all__ = [
     "pooled_metrics",
     "programme_economics",
     "programme_figure",
+    "programme_ratios",
     "read_edgelist",
+    "read_graph_file",
+    "from_edge_table",
     "referral_tree_figure",
     "referral_tree_summary",
     "referrals_per_customer",
@@ -184,11 +219,16 @@ __all__ = [
     "stock_and_flow",
     "streams",
     "time_to_share",
+    "to_networkx",
     "top_degree_referral_share",
     "word_of_mouth_by_period",
+    "write_demo",
     # sweeps, results store, sensitivity, report
     "ResultsStore",
+    "SweepStudy",
     "SweepSummary",
+    "register_sweep_study",
+    "sweep_studies",
     "design_points",
     "morris_design",
     "morris_effects",
@@ -202,6 +242,7 @@ __all__ = [
     "write_report",
     # the Mesa model, imported on first use so that `import womlab` does not import mesa
     "ReferralModel",
+    "Organisation",
     "run_mesa",
     # engines and their dispatch
     "engine_for",

@@ -6,7 +6,8 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 
 from __future__ import annotations
 
-__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ScenarioWarning"]
+__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError", "CompilerError",
+           "ScenarioWarning"]
 
 
 class WomlabError(Exception):
@@ -33,3 +34,16 @@ class ScenarioWarning(UserWarning):
     """A scenario is valid but says something that will not happen as written, e.g. a field
     that has no effect under the chosen rule (``adoption.cap`` with ``rule = "share"``).
     The ``womlab`` command prints it as ``womlab: warning: ...``; the work goes on."""
+
+
+class ClusterError(WomlabError):
+    """A Dask cluster cannot be started or its scheduler cannot be reached."""
+
+
+class ViewError(WomlabError):
+    """The browser view cannot start (its extra is not installed, or the server did not come up)."""
+
+
+class CompilerError(WomlabError):
+    """numba, which compiles womlab's formulas and engines, is missing, unsupported or cannot
+    compile on this machine; the message names the version found and how to get a supported one."""

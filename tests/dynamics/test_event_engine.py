@@ -210,3 +210,52 @@ def test_attribution_agrees_with_discrete_engine_at_small_step(kind):
     for a, b in zip(discrete, events):
         se = np.sqrt(a.var(axis=0, ddof=1) / reps + b.var(axis=0, ddof=1) / reps)
         assert np.all(np.abs(a.mean(axis=0) - b.mean(axis=0)) <= 4 * se + 1e-12)
+
+
+@pytest.mark.parametrize("kind,rule,p", [("small_world", "share", 0.01), ("scale_free", "count", 0.02),
+                                         ("ring", "share", 0.0), ("regional", "count", 0.005)])
+def test_compiled_first_passage_is_scipy_dijkstra(kind, rule, p):
+    # The engine's compiled Dijkstra against scipy.sparse.csgraph.dijkstra (Dijkstra 1959, as
+    # implemented in scipy) on the graph it stands for: the network's live arcs with lengths
+    # Dⱼᵢ = Exp(1)/wⱼᵢ and a virtual source tied to every organisation by Eᵢ/p (0 to the initial
+    # customers), stopped at the horizon. Same draws, same sums: times and predecessors must be
+    # identical (continuous draws leave no ties).
+    import scipy.sparse as sp
+    from scipy.sparse.csgraph import dijkstra
+
+    from womlab.dynamics.event_engine import _first_passage, tie_rates
+
+    s = Scenario.from_dict({
+        "market": {"organisations": 3000, "initial_customers": 6, "regions": 3},
+        "network": {"kind": kind, "mean_degree": 6},
+        "adoption": {"rule": rule, "external": p, "word_of_mouth": 0.4 if rule == "share" else 0.1,
+                     "satisfied_share": 0.7, "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
+        "run": {"periods": 12, "clock": "continuous"},
+    })
+    net = build_network(s, np.random.default_rng(5))
+    rng = np.random.default_rng(9)
+    tau = rng.poisson(2, net.n).astype(np.float32)
+    talking = np.where(rng.random(net.n) < 0.7, tau, np.float32(0))
+    initial = np.arange(0, net.n, net.n // 6, dtype=np.int32)[:6]
+    dist, pred = _first_passage(s, net, tau, talking, initial, np.random.default_rng(3))
+
+    draws = np.random.default_rng(3)  # the same draws, in the engine's order
+    external, delay = draws.standard_exponential(net.n), draws.standard_exponential(net.indices.size)
+    w = tie_rates(rule, net, tau, talking, s.adoption.word_of_mouth)
+    live = w > 0
+    length = np.divide(delay, w, out=delay.copy(), where=live)[live]
+    start = np.zeros(net.n, dtype=bool)
+    start[initial] = True
+    src_cols = np.arange(net.n) if p > 0 else initial
+    src_len = np.where(start, 0.0, external / p)[src_cols] if p > 0 else np.zeros(initial.size)
+    rows = np.repeat(np.arange(net.n), np.diff(net.indptr))[live]
+    graph = sp.csr_array((np.concatenate([length, src_len]),
+                          (np.concatenate([rows, np.full(src_cols.size, net.n)]),
+                           np.concatenate([net.indices[live], src_cols]))), shape=(net.n + 1, net.n + 1))
+    ref_dist, ref_pred = dijkstra(graph, directed=True, indices=net.n, return_predecessors=True, limit=12.0)
+    ref_dist, ref_pred = ref_dist[: net.n], ref_pred[: net.n]
+    reached = np.isfinite(ref_dist)
+    assert initial.size < reached.sum() < net.n  # some spread, and the horizon cut the run somewhere inside
+    assert np.array_equal(np.isfinite(dist), reached)
+    assert np.array_equal(dist[reached], ref_dist[reached])
+    assert np.array_equal(np.where(pred[reached] >= 0, pred[reached], net.n), ref_pred[reached])

@@ -84,7 +84,7 @@ def test_regional_block_model_expected_ties():
     # sum_r p_in C(n_r, 2) and mean degree k. With w = 0.8 and k = 10 each organisation expects 8
     # ties inside its region. Tolerance: 4 sd of a binomial tie count.
     n, k, w, regions = 6000, 10.0, 0.8, 5
-    net = _net("regional", n=n, mean_degree=k, within_region_share=w, regions=regions, seed=4)
+    net = _net("regional_blocks", n=n, mean_degree=k, within_region_share=w, regions=regions, seed=4)
     _simple(net)
     rows = np.repeat(np.arange(n), np.diff(net.indptr))
     within = int(np.sum(net.region[rows] == net.region[net.indices]) // 2)

@@ -61,3 +61,39 @@ def test_external_influence_alone_gives_the_textbook_waiting_time(form, survival
     expected = 1 - survival(p, t)
     se = np.sqrt(expected * (1 - expected) / n)
     assert np.all(np.abs(share - expected) <= 4 * se + 1e-12)
+
+
+def _cannot_type(x):
+    return x + "a string"  # numba's typing refuses int + str: a compilation failure on any machine
+
+
+def test_a_failed_compilation_is_one_line_naming_numba_and_its_version():
+    from womlab.errors import CompilerError
+    from womlab.rules import compiled
+
+    import numba
+
+    with pytest.raises(CompilerError) as err:
+        compiled(_cannot_type)(1)
+    message = str(err.value)
+    assert "\n" not in message
+    assert message.startswith(f"numba {numba.__version__} could not compile womlab's _cannot_type on this machine")
+    assert message.endswith("install a supported one with: pip install 'numba>=0.68,<0.69'")
+
+
+def test_an_unsupported_numba_stops_the_command_with_one_line(tmp_path):
+    # A numba outside the tested versions (here a stand-in module that says 0.50.0) must not run
+    # the engines at all: womlab still imports, and the command fails with one line and exit 2.
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    config = Path(__file__).resolve().parents[2] / "configs" / "sweep-demo.toml"
+    code = ("import sys, types; fake = types.ModuleType('numba'); fake.__version__ = '0.50.0'; "
+            "sys.modules['numba'] = fake\nfrom womlab.cli import main\n"
+            f"sys.exit(main(['run', {str(config)!r}, '--replicates', '1', '--jobs', '1', '--quiet', "
+            f"'--out', {str(tmp_path / 'o')!r}]))")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300)
+    assert done.returncode == 2, done.stderr
+    assert done.stderr.strip() == ("womlab: error: numba 0.50.0 is outside the versions womlab supports (>= 0.68, < 0.69); "
+                                   "install a supported one with: pip install 'numba>=0.68,<0.69'")

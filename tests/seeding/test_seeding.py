@@ -54,11 +54,12 @@ def small_scenario(**seeding) -> Scenario:
 def test_every_strategy_returns_budget_distinct_valid_ids(name):
     # the contract of a strategy (womlab.seeding module docstring), on Zachary (1977)'s karate club
     network = karate()
-    seeds = choose_seeds(name, network, 4, np.random.default_rng(3), scenario=small_scenario())
+    own = {"strategy": "listed", "ids": [0, 1, 2, 33]} if name == "listed" else {}  # listed: the user's own ids
+    seeds = choose_seeds(name, network, 4, np.random.default_rng(3), scenario=small_scenario(**own))
     assert seeds.dtype == np.int32
     assert seeds.size == 4 and np.unique(seeds).size == 4
     assert seeds.min() >= 0 and seeds.max() < network.n
-    again = choose_seeds(name, network, 4, np.random.default_rng(3), scenario=small_scenario())
+    again = choose_seeds(name, network, 4, np.random.default_rng(3), scenario=small_scenario(**own))
     np.testing.assert_array_equal(seeds, again)  # deterministic given the rng
 
 
@@ -381,3 +382,92 @@ def test_cli_seeding_writes_the_results_folder(tmp_path, capsys):
     assert main(["seeding", str(bad), "--out", str(tmp_path / "o2")]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "study.strategies[0]" in err[0] and "did you mean 'hubs'" in err[0]
+
+
+# ----------------------------------------------------------------------------- compiled centralities
+def _graphs():
+    return {
+        "karate": nx.karate_club_graph(),  # Zachary (1977)
+        "florentine": nx.convert_node_labels_to_integers(nx.florentine_families_graph(), ordering="sorted"),  # Padgett & Ansell (1993)
+        "random": nx.gnm_random_graph(300, 900, seed=np.random.default_rng(4)),
+        "with_isolates": nx.disjoint_union(nx.barbell_graph(5, 2), nx.empty_graph(3)),
+    }
+
+
+@pytest.mark.parametrize("name", ["karate", "florentine", "random", "with_isolates"])
+def test_compiled_centralities_equal_networkx(name):
+    # reference library: networkx (Hagberg, Schult & Swart 2008) — exact betweenness (Brandes 2001),
+    # k-cores (Seidman 1983) to the integer, PageRank (Brin & Page 1998) to the stopping tolerance:
+    # both stop when the L1 change is below N·1e-10, so values differ by at most a few 1e-9
+    from womlab.seeding import betweenness, core_numbers, pagerank_values
+
+    g = _graphs()[name]
+    network = ReferralNetwork.from_networkx(g)
+    n = g.number_of_nodes()
+    ref_bc = nx.betweenness_centrality(g)
+    assert np.allclose(betweenness(network), [ref_bc[i] for i in range(n)], atol=1e-12)
+    ref_core = nx.core_number(g)
+    assert core_numbers(network).tolist() == [ref_core[i] for i in range(n)]
+    ref_pr = nx.pagerank(g, alpha=0.85, tol=1e-10, weight=None)  # ties unweighted, as womlab stores them
+    ours = pagerank_values(network)
+    assert np.allclose(ours, [ref_pr[i] for i in range(n)], atol=1e-8)
+    # and they rank alike: the same order wherever networkx's values differ by more than the tolerance
+    ref = np.array([ref_pr[i] for i in range(n)])
+    i, j = np.triu_indices(n, 1)
+    clear = np.abs(ref[i] - ref[j]) > 1e-7
+    assert np.all(np.sign(ours[i] - ours[j])[clear] == np.sign(ref[i] - ref[j])[clear])
+
+
+def test_sampled_betweenness_estimates_the_exact_value():
+    # Brandes & Pich (2007): with k sources drawn uniformly, (N/k)·Σ over sources is unbiased for the
+    # exact betweenness; and with the sources given, it equals networkx's betweenness_centrality_subset
+    # over those sources to all targets, scaled the same way
+    from womlab.seeding import betweenness
+
+    g = nx.karate_club_graph()
+    network = ReferralNetwork.from_networkx(g)
+    sources = np.array([0, 5, 16, 33])
+    ours = betweenness(network, sources)
+    sub = nx.betweenness_centrality_subset(g, sources.tolist(), list(g), normalized=False)
+    n = g.number_of_nodes()
+    # networkx's subset form halves undirected counts; ours counts each source's paths once per target
+    assert np.allclose(ours, [2 * sub[i] / ((n - 1) * (n - 2)) * n / sources.size for i in range(n)], atol=1e-12)
+
+
+def test_listed_seeds_the_organisations_named(tmp_path):
+    # Padgett & Ansell (1993)'s Florentine families, text ids kept as given: seeding by name
+    g = nx.florentine_families_graph()
+    network = ReferralNetwork.from_networkx(g)
+    s = Scenario.from_dict({"market": {"organisations": 15},
+                            "seeding": {"strategy": "listed", "ids": ["Medici", "Strozzi"]}})
+    assert s.n_initial == 2  # the budget is the number listed
+    seeds = initial_customers(s, network, np.random.default_rng(0))
+    assert network.labels[seeds].tolist() == ["Medici", "Strozzi"]
+    ids = tmp_path / "pilot.csv"
+    ids.write_text("firm,note\nPazzi,first call\nGinori,\n", encoding="utf-8")
+    s2 = Scenario.from_dict({"market": {"organisations": 15},
+                             "seeding": {"strategy": "listed", "ids_path": str(ids), "ids_column": "firm"}})
+    assert network.labels[initial_customers(s2, network, np.random.default_rng(0))].tolist() == ["Pazzi", "Ginori"]
+
+
+def test_listed_refuses_what_it_cannot_seed(tmp_path):
+    from womlab import NetworkError
+
+    network = ReferralNetwork.from_networkx(nx.florentine_families_graph())
+    s = Scenario.from_dict({"market": {"organisations": 15},
+                            "seeding": {"strategy": "listed", "ids": ["Medici", "Borgia"]}})
+    with pytest.raises(NetworkError, match=r"seeding.ids: 1 id\(s\) not in the network: 'Borgia'; allowed: "):
+        initial_customers(s, network, np.random.default_rng(0))
+    with pytest.raises(ScenarioError, match="lists 2 organisations but the number of initial customers is 3"):
+        Scenario.from_dict({"market": {"organisations": 15, "initial_customers": 3},
+                            "seeding": {"strategy": "listed", "ids": ["Medici", "Strozzi"]}})
+    with pytest.raises(ScenarioError, match="needs exactly one of seeding.ids"):
+        Scenario.from_dict({"market": {"organisations": 15}, "seeding": {"strategy": "listed"}})
+    with pytest.raises(ScenarioError, match=r"seeding.ids must be each id once \(repeated: 'Medici'\)"):
+        Scenario.from_dict({"market": {"organisations": 15}, "seeding": {"strategy": "listed", "ids": ["Medici", "Medici"]}})
+    with pytest.raises(ScenarioError, match='used only with seeding.strategy = "listed"'):
+        Scenario.from_dict({"seeding": {"strategy": "hubs", "ids": [1]}})
+    bad = tmp_path / "seeds.csv"
+    bad.write_text("name\nMedici\n", encoding="utf-8")
+    with pytest.raises(ScenarioError, match=r"seeding.ids_path: .*seeds.csv' must have a column 'id'"):
+        Scenario.from_dict({"market": {"organisations": 15}, "seeding": {"strategy": "listed", "ids_path": str(bad)}})

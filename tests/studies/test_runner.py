@@ -11,8 +11,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from womlab import Scenario, run_one, run_paired, run_replicates, save_batch, streams
+from womlab import Scenario, ScenarioError, run_one, run_paired, run_replicates, save_batch, streams
 from womlab.cli import main
+from womlab.studies import runner
+from womlab.studies.runner import parallel_choice
 
 ROOT = Path(__file__).resolve().parents[2]
 
@@ -29,7 +31,8 @@ SMALL = {
 def test_same_seed_same_curves_for_any_jobs():
     s = Scenario.from_dict(SMALL)
     one = run_replicates(s, 6, jobs=1)
-    two = run_replicates(s, 6, jobs=2)
+    with parallel_choice("pool"):  # two worker processes, whatever the work
+        two = run_replicates(s, 6, jobs=2)
     pd.testing.assert_frame_equal(one.curves(), two.curves())
     for a, b in zip(one.runs, two.runs):
         assert np.array_equal(a.adoption_period, b.adoption_period)
@@ -143,3 +146,35 @@ def test_out_that_is_a_file_is_refused_and_kept(tmp_path):
     with pytest.raises(StoreError, match="exists and is not a folder"):
         save_batch(run_replicates(s, 1), target)
     assert target.read_text() == "precious"
+
+
+def test_small_work_stays_in_process_and_large_work_starts_a_pool_with_the_same_results(capfd, monkeypatch):
+    # The crossover rule (studies.runner.crossover_seconds): with a pool start-up of 3 s, six runs
+    # of 400 organisations (milliseconds each) stay in-process, silently; with a start-up of 0 the
+    # same batch is handed to workers after two timed runs, a line on standard error says so, and
+    # every run is identical bit for bit to the in-process one (each run is seeded by its key).
+    s = Scenario.from_dict(SMALL)
+    with parallel_choice("in-process"):
+        here = run_replicates(s, 8, jobs=2)
+    capfd.readouterr()
+    auto = run_replicates(s, 8, jobs=2)
+    assert "worker processes" not in capfd.readouterr().err
+    monkeypatch.setattr(runner, "POOL_START_SECONDS", 0.0)
+    monkeypatch.setattr(runner, "POOL_WARM_SECONDS", 0.0)
+    monkeypatch.setitem(runner._pool, "workers", 0.0)  # as if no pool had run in this process
+    pooled = run_replicates(s, 8, jobs=2)
+    assert "womlab: starting 2 worker processes" in capfd.readouterr().err
+    for a, b, c in zip(here.runs, auto.runs, pooled.runs):
+        for field in ("adoption_period", "referrer", "satisfied", "adoption_time"):
+            assert np.array_equal(getattr(a, field), getattr(b, field), equal_nan=True)
+            assert np.array_equal(getattr(a, field), getattr(c, field), equal_nan=True)
+
+
+def test_crossover_rule():
+    # In-process W seconds against S + W / w on w workers: the pool pays above S·w/(w − 1).
+    assert runner.crossover_seconds(1) == np.inf
+    assert runner.crossover_seconds(2) == pytest.approx(2 * runner.POOL_START_SECONDS)
+    assert runner.crossover_seconds(4, warm=True) == pytest.approx(runner.POOL_WARM_SECONDS * 4 / 3)
+    with pytest.raises(ScenarioError, match="parallel choice must be one of auto, pool, in-process, got 'fast'"):
+        with parallel_choice("fast"):
+            pass

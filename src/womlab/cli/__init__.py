@@ -1,7 +1,7 @@
 """The ``womlab`` command. It only parses, calls the public functions and writes files.
 
 One module per command (``check``, ``run``, ``seeding``, ``referral``, ``compare``,
-``sweep``); each has an ``add(subparsers)`` that declares its options and the function it
+``sweep``, ``init``, ``view``); each has an ``add(subparsers)`` that declares its options and the function it
 calls. A new command is a new module here and one entry in :data:`COMMANDS`. A user
 mistake (a :class:`~womlab.errors.WomlabError`) is printed as one line on standard error
 with exit status 2, never as a traceback; a warning about the scenario as
@@ -17,13 +17,13 @@ import sys
 import typing
 import warnings
 
-from womlab.cli import check, compare, referral, run, seeding, sweep
+from womlab.cli import check, compare, init, referral, run, seeding, sweep, view
 from womlab.errors import WomlabError
 
 __all__ = ["main", "build_parser", "COMMANDS"]
 
 #: The command modules, in the order ``womlab --help`` lists them (check first: try it before a run).
-COMMANDS = (check, run, seeding, referral, compare, sweep)
+COMMANDS = (check, run, seeding, referral, compare, sweep, init, view)
 
 
 class _Parser(argparse.ArgumentParser):
@@ -40,6 +40,7 @@ def build_parser() -> argparse.ArgumentParser:
                     "Start with `womlab check CONFIG`: it validates the scenario and says what each command "
                     "will run, with a rough time.",
     )
+    parser.add_argument("--version", action="version", version=f"womlab {_version()}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     for command in COMMANDS:
         command.add(sub)
@@ -62,6 +63,15 @@ def _quiet_pipe() -> None:
         os.dup2(devnull, sys.stdout.fileno())
     except (OSError, ValueError):
         pass
+
+
+def _version() -> str:
+    from importlib import metadata
+
+    try:
+        return metadata.version("womlab")
+    except metadata.PackageNotFoundError:  # pragma: no cover - a source tree never installed
+        return "0+unknown"
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -28,8 +28,13 @@ def _peak(par: Any) -> str:
 
 
 def cmd_check(args: argparse.Namespace) -> int:
+    from numpy.random import default_rng
+
     from womlab.aggregate import mapped_parameters
+    from womlab.dynamics.streams import streams
     from womlab.errors import ScenarioError
+    from womlab.networks import network_clustering_line
+    from womlab.scenario.registry import network_file_kinds
     from womlab.scenario.resources import check_resources, cores, describe_bytes, machine_memory, usable_jobs
     from womlab.studies import plan, slow_steps
 
@@ -37,18 +42,19 @@ def cmd_check(args: argparse.Namespace) -> int:
     check_resources(scenario, "run", skip=args.skip_resource_check)
     par = mapped_parameters(scenario)
     a, m, run = scenario.adoption, scenario.market, scenario.run
-    edgelist = scenario.network.kind == "edgelist"
+    from_file = scenario.network.kind in network_file_kinds()
     jobs = usable_jobs(run.jobs)
     jobs_text = f"{run.jobs}" if jobs == run.jobs else f"{run.jobs} (capped at the {cores()} cores here: {jobs})"
     peak_formula = "ln((1-F0)Q/(p+Q F0))/(p+Q)" if par.initial_share > 0 else "ln(Q/p)/(p+Q)"
     rows = [
         ("scenario", scenario.name),
-        ("organisations", f"{m.organisations:,}" + (" (from the edge list)" if edgelist else "")),
+        ("organisations", f"{m.organisations:,}" + (" (from the file)" if from_file else "")),
         ("initial customers", f"{scenario.n_initial:,}"),
         ("seeding strategy", scenario.seeding.strategy),
-        ("regions", f"{m.regions}" + (" (from the node file)" if edgelist and scenario.network.nodes_path else "")),
+        ("regions", f"{m.regions}" + (" (from the node file)" if from_file and scenario.network.nodes_path else "")),
         ("network", scenario.network.kind),
-        ("mean degree", f"{par.mean_degree:.4g}" + (" (measured from the edge list)" if edgelist else "")),
+        ("mean degree", f"{par.mean_degree:.4g}" + (" (measured from the file)" if from_file else "")),
+        ("clustering coefficient", network_clustering_line(scenario, default_rng(streams(scenario.seed, (0,)).network))),
         ("rule", a.rule),
         ("mean talkers per customer", f"{par.mean_talkers:.4g}"),
         ("mapped Bass p", f"{par.p:.4g}"),

@@ -110,7 +110,7 @@ def figure_options(args: argparse.Namespace) -> dict[str, Any]:
             "command_line": getattr(args, "command_line", None)}
 
 
-def prepare(args: argparse.Namespace, command: str) -> tuple[Any, Path]:
+def prepare(args: argparse.Namespace, command: str, *, organisations: str | None = None) -> tuple[Any, Path]:
     """Load the scenario, check its resources and the results folder; nothing has run yet.
 
     Progress reporting is switched on here unless ``--quiet`` (and travels to worker processes).
@@ -122,7 +122,8 @@ def prepare(args: argparse.Namespace, command: str) -> tuple[Any, Path]:
     scenario = load(args, command)
     est = check_resources(scenario, command, skip=args.skip_resource_check)
     out = Path(args.out) if args.out else default_out(args.config, command)
-    out = check_output_folder(out, command, scenario, force=args.force, figure_format=args.figure_format)
+    out = check_output_folder(out, command, scenario, force=args.force, figure_format=args.figure_format,
+                              organisations=organisations)
     progress.enable(not args.quiet)
     if not args.quiet:
         print(f"womlab {command}: {est.describe()}", file=sys.stderr)

@@ -1,53 +1,46 @@
-"""The array engine: one run in vectorised numpy over CSR adjacency.
+"""The array engine: one run as a compiled step loop over CSR adjacency.
 
-No per-organisation Python objects. State lives in arrays: who is a customer, each
-organisation's talkers, whether it would be satisfied, its exposure (the talkers of its
-satisfied-customer neighbours, Tᵢ) and its accumulated hazard. Every rate in a step is
-computed from the state at the start of the step, then every adoption is applied at
-once (synchronous update).
+No per-organisation Python objects. State lives in arrays — a state code per
+organisation (:data:`POTENTIAL`, :data:`CUSTOMER`), its talkers, whether it would be
+satisfied, its exposure Tᵢ (what its neighbours put in, :func:`womlab.rules.talk_weight`)
+and its accumulated hazard — and the whole run, every step, is one compiled function
+(:func:`_kernel`, numba, cached on disk). Every rate in a step is computed from the state
+at the start of the step, then every adoption is applied at once (synchronous update).
 
-Random draws, all from the dynamics stream and all up front, in this order:
+Random draws, all from the dynamics stream and all up front (in Python), in this order:
 talkers (Poisson only), satisfaction, one Exp(1) resistance Eᵢ per organisation, one
 uniform per organisation for attribution, and (``threshold`` only) the thresholds θᵢ.
 Organisation i adopts at the first step at which its summed step hazard
-(:func:`womlab.rules.step_hazard`) reaches Eᵢ — the same per-step probabilities as
-drawing a fresh uniform every step, but with a single draw per organisation, so that two
-variants compared on the same streams see the same resistances (common random numbers)
-whatever the state. The ``threshold`` rule's crossing is an infinite hazard, the
-``cascade`` rule's one chance per tie a hazard of −ln(1 − q) per newly satisfied
-neighbour over the period after it became satisfied (both in :mod:`womlab.rules`).
+(:func:`womlab.rules.hazard`) reaches Eᵢ — the same per-step probabilities as drawing a
+fresh uniform every step, but with a single draw per organisation, so that two variants
+compared on the same streams see the same resistances (common random numbers) whatever
+the state. The ``threshold`` rule's crossing is an infinite hazard, the ``cascade``
+rule's one chance per tie a hazard of −ln(1 − q) per newly satisfied neighbour over the
+period after it became satisfied (both in :mod:`womlab.rules`).
 
-Work only where it matters. A step's hazard is h₀ = step_hazard(rate at Tᵢ = 0) for an
-organisation with no talking neighbour, the same for all of them; so organisation i's
-summed hazard after s steps is h₀·s + Xᵢ, where Xᵢ adds up h(λᵢ) − h₀ over the steps it
-was exposed (Tᵢ > 0). Hence:
+One step of the kernel:
 
-* customers need no work at all;
-* an organisation never exposed adopts, by external influence alone, at the first step
-  s with h₀·s ≥ Eᵢ — known up front, so these are bucketed by step once;
-* only exposed potential customers (the *active* set) have rates computed each step;
-* exposure is kept up to date incrementally: when organisations start talking, their
-  CSR rows add their talkers to their neighbours' Tᵢ (O(ties of the new talkers),
-  O(E) over the whole run) instead of one full sparse product ``A @ talking`` per step.
-  Where what a customer puts into Tᵢ can change after it adopted (``cascade``: only in
-  the period after; a referral programme's boost), the step's weights are compared with
-  the last step's, O(N), and only the changed rows are applied (with their difference).
+1. *Weights.* Each customer's weight in its neighbours' Tᵢ is
+   :func:`womlab.rules.talk_weight`, boosted by :func:`womlab.dynamics.programme.boosted`
+   while a referral programme runs. Where it differs from what Tᵢ holds, the difference
+   is added along the customer's CSR row (on the complete network, to one market total).
+   Only the customers whose weight can have changed are looked at: the last step's
+   adopters, or every customer where weights vary after adoption (``cascade``, a programme).
+2. *Hazards.* Every potential customer (a compact list, ascending ids) adds this step's
+   hazard of :func:`womlab.rules.rate` at (Tᵢ, Dᵢ, θᵢ, pᵢ, qᵢ) to its accumulated hazard
+   — exactly the arithmetic of the plain loop — and adopts if it reaches Eᵢ.
+3. *Attribution.* External with probability :func:`womlab.rules.external_part`, else a
+   referrer picked among the neighbours with probability ∝ their weight this step
+   (:func:`pick_referrers`); a programme pays for the step's referrals
+   (:func:`womlab.dynamics.programme.settle_step`, in adopter-id order).
+4. *Apply.* Adopters become customers (state code, adoption step).
 
-What a rule needs from the loop lives in two places: :func:`exposed_hazard` (a step's
-hazard from Tᵢ, Dᵢ and, for ``threshold``, θᵢ — the rate itself is
-:func:`womlab.rules.adoption_rate`, shared with every engine) and :meth:`_State.weights`
-(what each organisation puts into its neighbours' Tᵢ this step,
-:func:`womlab.rules.talk_weights` and the programme's boost). A new rule whose rate with
-no talking neighbour is not the same for everyone would also change the bucketing of
-never-exposed organisations in ``_run_sparse``.
-
-A referral programme (``[referral]``, :mod:`womlab.dynamics.programme`) touches the loop at two
-marked points only: the talkers that count in a step (boosted for enrolled satisfied
-customers while the programme runs) and, after attribution, the payment for the step's
-referrals. Its enrolment draws come from a stream of their own, so the draws above are
-the same with or without a programme. Exposure is recomputed in full (one sparse
-product) in the steps where the programme starts or stops boosting, and kept up to date
-incrementally in between.
+Inputs kept general for what comes next. The external rate is given per period and group
+(``external[period, group]``, a campaign calendar; one column and a constant now), and the
+per-organisation multipliers of p and q (``external_weight``, ``wom_weight``: segments;
+empty = 1 for everyone) are applied inside the kernel; states are codes, not booleans, so
+a mechanism that adds a state (a churned customer, a region not yet open) is one more code
+and one more branch. DEVELOPERS.md says how to add a mechanism here and in the Mesa model.
 """
 
 from __future__ import annotations
@@ -55,70 +48,242 @@ from __future__ import annotations
 import numpy as np
 
 from womlab import rules
-from womlab.dynamics.programme import ProgrammeRun, start_programme
+from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
 from womlab.dynamics.run_result import RunResult
 from womlab.networks import ReferralNetwork
-from womlab.scenario import Adoption, Scenario
+from womlab.rules import compiled, external_part, hazard, rate, talk_weight
+from womlab.scenario import Scenario
 
-__all__ = ["run_array", "pick_referrers", "exposed_hazard"]
+__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER"]
 
-
-def _row_entries(network: ReferralNetwork, ids: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Positions in ``network.indices`` of the rows ``ids``, concatenated, and each row's length."""
-    start = network.indptr[ids].astype(np.int64)
-    lengths = network.indptr[ids + 1].astype(np.int64) - start
-    total = int(lengths.sum())
-    offsets = np.repeat(start - np.cumsum(lengths) + lengths, lengths) + np.arange(total)
-    return offsets, lengths
+#: State code of an organisation that is not (yet) a customer.
+POTENTIAL = 0
+#: State code of a customer.
+CUSTOMER = 1
 
 
-def pick_referrers(
-    network: ReferralNetwork, adopters: np.ndarray, talk: np.ndarray, u: np.ndarray
-) -> np.ndarray:
+@compiled
+def _pick(indptr, indices, weights, i, u):  # noqa: ANN001, ANN202
+    """A neighbour of ``i`` with probability ∝ its weight: the first whose running sum exceeds u × the row's sum."""
+    start, end = indptr[i], indptr[i + 1]
+    if end <= start:
+        return -1
+    total = 0.0
+    for k in range(start, end):
+        total += weights[indices[k]]
+    target = u * total
+    running = 0.0
+    for k in range(start, end):
+        running += weights[indices[k]]
+        if running > target:
+            return indices[k]
+    return indices[end - 1]
+
+
+@compiled
+def _cumulative(weights, out):  # noqa: ANN001, ANN202
+    running = 0.0
+    for k in range(weights.size):
+        running += weights[k]
+        out[k] = running
+
+
+@compiled
+def _pick_any(cumulative, u):  # noqa: ANN001, ANN202
+    """Complete network: the first organisation whose running weight exceeds u × the market's weight."""
+    n = cumulative.size
+    target = u * cumulative[n - 1]
+    lo, hi = 0, n
+    while lo < hi:
+        mid = (lo + hi) // 2
+        if cumulative[mid] > target:
+            hi = mid
+        else:
+            lo = mid + 1
+    return min(lo, n - 1)
+
+
+@compiled
+def _picks(indptr, indices, complete, weights, adopters, u, out):  # noqa: ANN001, ANN202
+    if complete:
+        cumulative = np.empty(weights.size)
+        _cumulative(weights, cumulative)
+        for a in range(adopters.size):
+            out[a] = _pick_any(cumulative, u[a])
+    else:
+        for a in range(adopters.size):
+            out[a] = _pick(indptr, indices, weights, adopters[a], u[a])
+
+
+def pick_referrers(network: ReferralNetwork, adopters: np.ndarray, talk: np.ndarray, u: np.ndarray) -> np.ndarray:
     """For each adopter by word of mouth, a talking neighbour chosen with probability ∝ its talkers.
 
-    ``u`` holds one uniform in [0, 1) per adopter. On the complete network every other
-    organisation is a neighbour.
+    ``u`` holds one uniform in [0, 1) per adopter; on the complete network every other
+    organisation is a neighbour. The same compiled picker the array engine's step uses.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from womlab.networks import from_edges
+    >>> star = from_edges(4, np.array([0, 0, 0]), np.array([1, 2, 3]), np.zeros(4, dtype=np.int32), "star")
+    >>> pick_referrers(star, np.array([0]), np.array([0, 1, 0, 3], dtype=np.float32), np.array([0.5])).tolist()
+    [3]
     """
-    if adopters.size == 0:
-        return np.zeros(0, dtype=np.int32)
-    if network.complete:
-        c = np.cumsum(talk, dtype=np.float64)
-        # adopters are potential customers, so their own talk is 0 and need not be removed
-        pos = np.searchsorted(c, u * c[-1], side="right")
-        return np.minimum(pos, network.n - 1).astype(np.int32)
-    offsets, lengths = _row_entries(network, adopters)
-    nbrs = network.indices[offsets]
-    c = np.cumsum(talk[nbrs], dtype=np.float64)
-    seg_end = np.cumsum(lengths)
-    seg_start = seg_end - lengths
-    base = np.where(seg_start > 0, c[np.maximum(seg_start - 1, 0)], 0.0)
-    total = c[seg_end - 1] - base
-    pos = np.searchsorted(c, base + u * total, side="right")
-    pos = np.clip(pos, seg_start, seg_end - 1)
-    return nbrs[pos].astype(np.int32)
+    adopters = np.ascontiguousarray(adopters, dtype=np.int32)
+    out = np.empty(adopters.size, dtype=np.int32)
+    if adopters.size:
+        _picks(network.indptr, network.indices, network.complete, np.ascontiguousarray(talk, dtype=np.float32),
+               adopters, np.ascontiguousarray(u, dtype=np.float64), out)
+    return out
 
 
-def exposed_hazard(
-    rule: str,
-    talking: np.ndarray,
-    total: np.ndarray,
-    adoption: Adoption,
-    dt: float,
-    form: str,
-    threshold: np.ndarray | None = None,
-) -> np.ndarray:
-    """One step's hazard for organisations with exposure ``talking`` (Tᵢ) and ``total`` (Dᵢ).
+@compiled
+def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, group, external_weight, wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
+            q, cap, tau, satisfied, resistance, u_cause, theta, state, adoption_step, referrer, initial, varying,
+            ledger):
+    """The whole run, step by step (see the module notes); updates ``state``, ``adoption_step``,
+    ``referrer`` and the programme's ``ledger`` in place."""
+    n = tau.size
+    enrolled = ledger[0]
+    start, end, multiplier, extra, exhausted = ledger[1], ledger[2], ledger[7], ledger[8], ledger[10]
+    programme = enrolled.size > 0
 
-    The one place the array engine turns a rule into hazard; the rate itself is
-    :func:`womlab.rules.adoption_rate`, shared with every engine. ``threshold`` holds θᵢ
-    of the same organisations (``threshold`` rule only).
-    """
-    return rules.step_hazard(rules.adoption_rate(rule, talking, total, adoption, threshold), dt, form)
+    # Dᵢ: the talkers of all of i's neighbours, fixed for the run
+    total = np.empty(n)
+    if complete:
+        everyone = 0.0
+        for i in range(n):
+            everyone += tau[i]
+        for i in range(n):
+            total[i] = everyone - tau[i]
+    else:
+        for i in range(n):
+            s = 0.0
+            for k in range(indptr[i], indptr[i + 1]):
+                s += tau[indices[k]]
+            total[i] = s
+
+    exposure = np.zeros(0 if complete else n)  # Tᵢ
+    market = 0.0  # complete network: Tᵢ of every potential customer
+    applied = np.zeros(n, dtype=np.float32)  # what each organisation's weight in Tᵢ is now
+    accumulated = np.zeros(n)  # summed step hazard
+    customers = np.empty(n, dtype=np.int32)
+    ncust = 0
+    for i in initial:
+        customers[ncust] = i
+        ncust += 1
+    potential = np.empty(n, dtype=np.int32)
+    npot = 0
+    for i in range(n):
+        if state[i] == POTENTIAL:
+            potential[npot] = i
+            npot += 1
+    adopters = np.empty(n, dtype=np.int32)
+    wom = np.empty(n, dtype=np.int32)
+    wom_referrer = np.empty(n, dtype=np.int32)
+    cumulative = np.empty(n if complete else 0)
+    uniform_groups = group.size == 0
+    p_weights, q_weights, thresholds = external_weight.size > 0, wom_weight.size > 0, theta.size > 0
+    checked = 0  # customers[checked:] have not had their weight applied yet
+
+    for step in range(1, steps + 1):
+        period = (step + spp - 1) // spp
+        boosting = programme and start <= period <= end and exhausted[0] < 0
+
+        # 1. weights: apply each changed weight along its row, by its difference
+        for c in range(0 if varying else checked, ncust):
+            i = customers[c]
+            talking = satisfied[i] and state[i] == CUSTOMER
+            w = talk_weight(rule, tau[i], talking, adoption_step[i] + spp >= step)
+            if boosting and talking and enrolled[i]:
+                w = boosted(w, multiplier, extra)
+            if w != applied[i]:
+                diff = np.float64(w) - np.float64(applied[i])
+                applied[i] = w
+                if complete:
+                    market += diff
+                else:
+                    for k in range(indptr[i], indptr[i + 1]):
+                        exposure[indices[k]] += diff
+        checked = ncust
+
+        # 2. hazards of the potential customers; adopters leave the list, which stays ascending
+        nad = 0
+        keep = 0
+        # with no talking neighbour the rate is p whatever Dᵢ and θᵢ, so where p is everyone's
+        # its step hazard is computed once (the same value, bit for bit)
+        same_p = uniform_groups and not p_weights
+        h0 = hazard(rate(rule, 0.0, 1.0, 0.0, external[period, 0], q, cap), dt, form)
+        for c in range(npot):
+            i = potential[c]
+            t = market if complete else exposure[i]
+            if t == 0.0 and same_p:
+                accumulated[i] += h0
+            else:
+                p = external[period, 0 if uniform_groups else group[i]]
+                if p_weights:
+                    p *= external_weight[i]
+                qi = q * wom_weight[i] if q_weights else q
+                r = rate(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap)
+                accumulated[i] += hazard(r, dt, form)
+            if accumulated[i] >= resistance[i]:
+                adopters[nad] = i
+                nad += 1
+            else:
+                potential[keep] = i
+                keep += 1
+        npot = keep
+        if nad == 0:
+            continue
+
+        # 3. attribution: external, or a referrer ∝ this step's weights; the programme pays
+        nwom = 0
+        have_cumulative = False
+        for a in range(nad):
+            i = adopters[a]
+            p = external[period, 0 if uniform_groups else group[i]]
+            if p_weights:
+                p *= external_weight[i]
+            qi = q * wom_weight[i] if q_weights else q
+            t = market if complete else exposure[i]
+            ext = external_part(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi)
+            u = u_cause[i]
+            if u < ext:
+                continue
+            u = (u - ext) / (1 - ext)
+            if complete:
+                if not have_cumulative:
+                    _cumulative(applied, cumulative)
+                    have_cumulative = True
+                ref = _pick_any(cumulative, u)
+            else:
+                ref = _pick(indptr, indices, applied, i, u)
+            referrer[i] = ref
+            wom[nwom] = i
+            wom_referrer[nwom] = ref
+            nwom += 1
+        if programme and nwom:
+            settle_step(period, wom, wom_referrer, nwom, ledger)
+
+        # 4. apply
+        for a in range(nad):
+            i = adopters[a]
+            state[i] = CUSTOMER
+            adoption_step[i] = step
+            customers[ncust] = i
+            ncust += 1
 
 
 def run_array(
-    scenario: Scenario, network: ReferralNetwork, initial: np.ndarray, rng: np.random.Generator
+    scenario: Scenario,
+    network: ReferralNetwork,
+    initial: np.ndarray,
+    rng: np.random.Generator,
+    *,
+    external: np.ndarray | None = None,
+    group: np.ndarray | None = None,
+    external_weight: np.ndarray | None = None,
+    wom_weight: np.ndarray | None = None,
 ) -> RunResult:
     """One run of the scenario's rule on ``network`` from the customers ``initial``.
 
@@ -132,37 +297,63 @@ def run_array(
         Ids of the customers at period 0.
     rng : numpy.random.Generator
         The dynamics stream.
+    external : numpy.ndarray, optional
+        External influence p per period (shape ``(periods + 1,)``; entry 0 unused) or per
+        period and group (``(periods + 1, groups)``, with ``group``): a campaign calendar.
+        Default: ``adoption.external`` in every period.
+    group : numpy.ndarray, optional
+        Each organisation's column of ``external`` (int, 0..groups − 1).
+    external_weight, wom_weight : numpy.ndarray, optional
+        Per-organisation multipliers of p and of q (segments). Default 1.
 
     Returns
     -------
     RunResult
         With ``adoption_time`` = the end of the step of adoption (NaN = never).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from womlab import Scenario, build_network
+    >>> s = Scenario.from_dict({"market": {"organisations": 500, "initial_customers": 5},
+    ...                         "network": {"kind": "small_world", "mean_degree": 6}, "run": {"periods": 20}})
+    >>> r = run_array(s, build_network(s, np.random.default_rng(1)), np.arange(5), np.random.default_rng(2))
+    >>> len(r.curve()), int(r.customers[0])
+    (21, 5)
     """
     adoption, run = scenario.adoption, scenario.run
     n, rule = network.n, adoption.rule
     spp = run.steps_per_period
 
-    tau = rules.draw_talkers(adoption.talkers_per_customer, n, rng)
-    would_be_satisfied = rules.draw_satisfied(adoption.satisfied_share, n, rng)
+    tau = np.ascontiguousarray(rules.draw_talkers(adoption.talkers_per_customer, n, rng), dtype=np.float32)
+    would_be_satisfied = np.ascontiguousarray(rules.draw_satisfied(adoption.satisfied_share, n, rng))
     resistance = rng.standard_exponential(n)
     u_cause = rng.random(n)
-    theta = rules.draw_thresholds(adoption.threshold, n, rng) if rule == "threshold" else None
-
-    initial = np.asarray(initial, dtype=np.int32)
-    adoption_step = np.full(n, -1, dtype=np.int32)
-    referrer = np.full(n, -1, dtype=np.int32)
-    customer = np.zeros(n, dtype=bool)
-    customer[initial] = True
-    adoption_step[initial] = 0
-    talk = np.where(customer & would_be_satisfied, tau, np.float32(0))
+    theta = rules.draw_thresholds(adoption.threshold, n, rng) if rule == "threshold" else np.zeros(0)
     programme = start_programme(scenario, network, rng)  # None without a programme; draws nothing from rng
 
-    state = _State(rule, spp, tau, talk, would_be_satisfied, resistance, u_cause, theta, customer, adoption_step,
-                   referrer, programme)
-    if network.complete:
-        _run_complete(network, scenario, state)
-    else:
-        _run_sparse(network, scenario, state)
+    initial = np.ascontiguousarray(initial, dtype=np.int32)
+    state = np.full(n, POTENTIAL, dtype=np.int8)
+    state[initial] = CUSTOMER
+    adoption_step = np.full(n, -1, dtype=np.int32)
+    adoption_step[initial] = 0
+    referrer = np.full(n, -1, dtype=np.int32)
+
+    table = _external_table(adoption.external, run.periods, external)
+    groups = _per_org(group, n, np.int32, "group")
+    if groups.size and (groups.min() < 0 or groups.max() >= table.shape[1]):
+        raise ValueError(f"group must hold column numbers 0..{table.shape[1] - 1} of external, got {groups.min()}..{groups.max()}")
+    _kernel(
+        network.indptr, network.indices, network.complete, rules.rule_code(rule), rules.form_code(run.step_probability),
+        float(run.time_step), int(spp), int(run.periods * spp),
+        table, groups,
+        _per_org(external_weight, n, np.float64, "external_weight"),
+        _per_org(wom_weight, n, np.float64, "wom_weight"),
+        float(adoption.word_of_mouth), float(adoption.cap), tau, would_be_satisfied, resistance, u_cause,
+        np.ascontiguousarray(theta, dtype=np.float64), state, adoption_step, referrer, initial,
+        rule == "cascade" or programme is not None,
+        idle_ledger() if programme is None else programme.ledger,
+    )
 
     adopted = adoption_step >= 0
     adoption_period = np.where(adopted, (adoption_step + spp - 1) // spp, -1).astype(np.int32)
@@ -170,7 +361,7 @@ def run_array(
         periods=run.periods,
         adoption_period=adoption_period,
         referrer=referrer,
-        satisfied=customer & would_be_satisfied,
+        satisfied=adopted & would_be_satisfied,
         region=network.region,
         initial=initial,
         engine="array",
@@ -180,182 +371,22 @@ def run_array(
     )
 
 
-class _State:
-    """One run's per-organisation arrays (no per-organisation objects), shared by the step loops."""
-
-    def __init__(self, rule, spp, tau, talk, would_be_satisfied, resistance, u_cause, theta, customer,  # noqa: ANN001
-                 adoption_step, referrer, programme: ProgrammeRun | None) -> None:
-        self.rule, self.spp = rule, spp
-        self.tau, self.talk, self.would_be_satisfied = tau, talk, would_be_satisfied
-        self.resistance, self.u_cause, self.theta = resistance, u_cause, theta
-        self.customer, self.adoption_step, self.referrer = customer, adoption_step, referrer
-        self.programme = programme
-        # whether a customer's weight in its neighbours' Tᵢ can change after it adopted
-        self.varying = rule == "cascade" or programme is not None
-
-    def boosting(self, period: int) -> bool:
-        return self.programme is not None and self.programme.running(period)
-
-    def weights(self, step: int, period: int) -> np.ndarray:
-        """What each organisation puts into its neighbours' Tᵢ in ``step`` (float32).
-
-        Its talkers if a satisfied customer (``talk``); under ``cascade`` 1 during the
-        period after it became a satisfied customer (:func:`womlab.rules.talk_weights`);
-        programme: boosted for enrolled satisfied customers while the programme runs.
-        """
-        talking_customer = self.customer & self.would_be_satisfied
-        talk = self.talk
-        if self.rule == "cascade":
-            # a customer adopted at step s (0: initial) counts in steps s + 1 .. s + spp, its period after
-            talk = rules.talk_weights(self.rule, self.tau, talking_customer, self.adoption_step + self.spp >= step)
-        if self.boosting(period):
-            talk = self.programme.talk(talk, talking_customer, period)
-        return talk
-
-    def adopt(self, network, scenario, new, talking_new, total_new, counted, step, period) -> None:  # noqa: ANN001
-        """Attribute, pay (programme) and apply the step's adoptions ``new``; ``counted`` = the step's weights."""
-        adoption = scenario.adoption
-        theta = None if self.theta is None else self.theta[new]
-        ext = rules.external_share(adoption.rule, talking_new, total_new, adoption, theta)
-        by_wom = self.u_cause[new] >= ext
-        wom = new[by_wom]
-        if wom.size:
-            u = (self.u_cause[wom] - ext[by_wom]) / (1 - ext[by_wom])
-            self.referrer[wom] = pick_referrers(network, wom, counted, u)
-            if self.programme is not None:  # programme: pay for this step's attributed referrals
-                self.programme.settle(period, wom, self.referrer[wom])
-        self.customer[new] = True
-        self.adoption_step[new] = step
-        self.talk[new] = np.where(self.would_be_satisfied[new], self.tau[new], np.float32(0))
+def _external_table(p: float, periods: int, given: np.ndarray | None) -> np.ndarray:
+    if given is None:
+        return np.full((periods + 1, 1), float(p))
+    table = np.asarray(given, dtype=np.float64)
+    if table.ndim == 1:
+        table = table[:, None]
+    if table.ndim != 2 or table.shape[0] != periods + 1 or np.any(table < 0) or not np.all(np.isfinite(table)):
+        raise ValueError(f"external must be finite rates >= 0 of shape (periods + 1,) or (periods + 1, groups) with "
+                         f"periods = {periods}, got shape {table.shape}")
+    return np.ascontiguousarray(table)
 
 
-def _run_complete(network: ReferralNetwork, scenario: Scenario, st: _State) -> None:
-    """Complete network from totals: every potential customer's exposure is the market's weight."""
-    adoption, run = scenario.adoption, scenario.run
-    dt, form, rule, spp = run.time_step, run.step_probability, adoption.rule, run.steps_per_period
-    potential = np.flatnonzero(~st.customer)
-    total = float(st.tau.sum(dtype=np.float64)) - st.tau[potential].astype(np.float64)
-    res = st.resistance[potential]
-    theta = None if st.theta is None else st.theta[potential]
-    hazard = np.zeros(potential.size)
-    for step in range(1, run.periods * spp + 1):
-        period = (step + spp - 1) // spp
-        counted = st.weights(step, period)
-        # a potential customer puts nothing in, so its exposure is the whole market's
-        talking = np.full(potential.size, counted.sum(dtype=np.float64))
-        hazard += exposed_hazard(rule, talking, total, adoption, dt, form, theta)
-        hit = hazard >= res
-        if not hit.any():
-            continue
-        st.adopt(network, scenario, potential[hit], talking[hit], total[hit], counted, step, period)
-        keep = ~hit
-        potential, total, res, hazard = potential[keep], total[keep], res[keep], hazard[keep]
-        theta = None if theta is None else theta[keep]
-
-
-class _Active:
-    """The exposed potential customers, kept compact: ids, Dᵢ, Eᵢ, θᵢ and Xᵢ (hazard beyond h₀·steps)."""
-
-    def __init__(self, total: np.ndarray, resistance: np.ndarray, theta: np.ndarray | None) -> None:
-        self._total, self._resistance, self._theta = total, resistance, theta
-        self.ids = np.zeros(0, dtype=np.int32)
-        self.total, self.resistance, self.extra = np.zeros(0), np.zeros(0), np.zeros(0)
-        self.theta = None if theta is None else np.zeros(0)
-
-    def add(self, fresh: np.ndarray) -> None:
-        self.ids = np.concatenate([self.ids, fresh])
-        self.total = np.concatenate([self.total, self._total[fresh]])
-        self.resistance = np.concatenate([self.resistance, self._resistance[fresh]])
-        self.extra = np.concatenate([self.extra, np.zeros(fresh.size)])
-        if self.theta is not None:
-            self.theta = np.concatenate([self.theta, self._theta[fresh]])
-
-    def keep(self, mask: np.ndarray) -> None:
-        self.ids, self.total, self.resistance, self.extra = (
-            self.ids[mask], self.total[mask], self.resistance[mask], self.extra[mask])
-        if self.theta is not None:
-            self.theta = self.theta[mask]
-
-
-def _run_sparse(network: ReferralNetwork, scenario: Scenario, st: _State) -> None:
-    """CSR network: work on the exposed potential customers only; exposure updated incrementally."""
-    adoption, run = scenario.adoption, scenario.run
-    n, dt, form, rule, spp = network.n, run.time_step, run.step_probability, adoption.rule, run.steps_per_period
-    steps = run.periods * spp
-    customer, resistance = st.customer, st.resistance
-    matrix = network.matrix(np.float64)
-    total = matrix @ st.tau.astype(np.float64)  # Dᵢ, fixed for the run
-    zero = np.zeros(1)
-    h0 = float(exposed_hazard(rule, zero, zero, adoption, dt, form, zero + 1)[0])  # a step's hazard, no talking neighbour
-    finite = bool(np.isfinite(h0))
-
-    # never-exposed organisations adopt by external influence at the first step s with h0·s >= Eᵢ
-    if h0 > 0:
-        with np.errstate(over="ignore", invalid="ignore"):
-            first = np.ceil(resistance / h0) if finite else np.ones(n)
-        first = np.where(first < 1, 1, first)
-        due = np.flatnonzero(first <= steps)
-        due = due[np.argsort(first[due], kind="stable")].astype(np.int32)
-        bounds = np.searchsorted(first[due], np.arange(1, steps + 2), side="left")
-    else:
-        due, bounds = np.zeros(0, dtype=np.int32), np.zeros(steps + 2, dtype=np.int64)
-
-    talking = np.zeros(n)  # Tᵢ
-    exposed = np.zeros(n, dtype=bool)
-    stamp = np.zeros(n, dtype=np.int64)  # scratch for de-duplicating newly exposed ids
-    active = _Active(total, resistance, st.theta)
-    applied = None  # the weights Tᵢ holds, where they can change after adoption
-    speakers = np.zeros(0, dtype=np.int32)
-
-    def expose(candidates: np.ndarray) -> None:
-        fresh = candidates[~exposed[candidates] & ~customer[candidates]]
-        if fresh.size:
-            stamp[fresh] = np.arange(fresh.size)
-            fresh = fresh[stamp[fresh] == np.arange(fresh.size)]  # one of each
-            exposed[fresh] = True
-            active.add(fresh)
-
-    def apply(rows: np.ndarray, weight: np.ndarray) -> None:
-        """Add ``weight`` of each organisation in ``rows`` to its neighbours' Tᵢ (their CSR rows)."""
-        offsets, lengths = _row_entries(network, rows)
-        nbrs = network.indices[offsets]
-        w = np.repeat(weight, lengths)
-        np.add.at(talking, nbrs, w)
-        expose(nbrs[w > 0])
-
-    for step in range(1, steps + 1):
-        period = (step + spp - 1) // spp
-        if step == 1:  # one sparse product to start from
-            counted = st.weights(step, period)
-            talking = matrix @ counted.astype(np.float64)
-            expose(np.flatnonzero(talking > 0))
-            applied = counted.copy() if st.varying else None
-        elif st.varying:  # apply only the weights that changed, by their difference
-            counted = st.weights(step, period)
-            changed = np.flatnonzero(counted != applied)
-            if changed.size:
-                apply(changed, counted[changed].astype(np.float64) - applied[changed].astype(np.float64))
-                applied[changed] = counted[changed]
-        else:  # only last step's adopters started talking
-            counted = st.talk
-            if speakers.size:
-                apply(speakers, counted[speakers].astype(np.float64))
-        parts = []
-        hit = None
-        if active.ids.size:
-            if finite:
-                active.extra += exposed_hazard(rule, talking[active.ids], active.total, adoption, dt, form, active.theta) - h0
-            hit = h0 * step + active.extra >= active.resistance
-            parts.append(active.ids[hit])
-        outside = due[bounds[step - 1] : bounds[step]]
-        if outside.size:
-            outside = outside[~customer[outside] & (~exposed[outside] | (not finite))]
-            parts.append(outside)
-        new = np.sort(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.int32)
-        if new.size == 0:
-            speakers = new
-            continue
-        st.adopt(network, scenario, new, talking[new], total[new], counted, step, period)
-        speakers = new[st.talk[new] > 0]
-        if hit is not None and hit.any():
-            active.keep(~hit)
+def _per_org(values: np.ndarray | None, n: int, dtype: type, name: str) -> np.ndarray:
+    if values is None:
+        return np.zeros(0, dtype=dtype)
+    out = np.ascontiguousarray(values, dtype=dtype)
+    if out.shape != (n,) or np.any(out < 0):
+        raise ValueError(f"{name} must hold one value >= 0 per organisation ({n}), got shape {out.shape}")
+    return out

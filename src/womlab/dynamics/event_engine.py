@@ -13,8 +13,11 @@ exactly the law of first-passage times
 
 since satisfaction and talkers do not depend on timing and can be drawn up front. That
 is a shortest-path problem from a virtual source tied to every organisation i by an arc
-of length Eᵢ (0 to the initial customers) and to nothing else: Dijkstra's algorithm
-(:func:`scipy.sparse.csgraph.dijkstra`, in C), O(E log N), stopped at the horizon. The
+of length Eᵢ (0 to the initial customers) and to nothing else: Dijkstra's algorithm,
+compiled (numba) over the CSR — an indexed binary heap for arrivals by word of mouth, the
+external arrivals merged in from one sort — O(E log N), stopped at the horizon; each tie's rate is :func:`womlab.rules.wom_part` of the tie's two ends, computed
+as the tie is reached. It gives the same arrival times and predecessors as
+:func:`scipy.sparse.csgraph.dijkstra` on the same graph (a test holds it to that). The
 predecessor of each organisation on its path is who persuaded it: the virtual source
 means external influence (referrer −1), a neighbour means that neighbour.
 
@@ -29,7 +32,7 @@ the same integrated hazard Hᵢ(t) = p·t + cᵢ·Y(t), with Y(t) = ∫₀ᵗ X(
 talkers of all satisfied customers, and cᵢ = q/(Σ τ − τᵢ) (``share``) or q (``count``).
 So organisations with equal cᵢ (one group per distinct talker count) adopt in the order
 of their Exp(1) resistances, and the next adoption is the earliest of each group's
-next: an exact event-driven simulation on totals, O(N·G) for G groups, with attribution
+next: an exact event-driven simulation on totals (compiled), O(N·G) for G groups, with attribution
 drawn afterwards from the running totals (external with probability p/λᵢ, else a
 satisfied customer with probability ∝ its talkers). Its draws: talkers, satisfaction,
 one Exp(1) resistance and one uniform (attribution) per organisation.
@@ -48,10 +51,10 @@ Journal of Physical Chemistry 81, 2340–2361.
 from __future__ import annotations
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.csgraph import dijkstra
 
 from womlab import rules
+from womlab.rules import compiled, wom_part
+from womlab.rules.adoption import SHARE
 from womlab.dynamics.run_result import RunResult
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork
@@ -146,6 +149,121 @@ def run_events(
     )
 
 
+@compiled
+def _sift_up(heap, position, key, h):  # noqa: ANN001, ANN202
+    node = heap[h]
+    while h > 0:
+        parent = (h - 1) // 2
+        if key[heap[parent]] <= key[node]:
+            break
+        heap[h] = heap[parent]
+        position[heap[h]] = h
+        h = parent
+    heap[h] = node
+    position[node] = h
+
+
+@compiled
+def _sift_down(heap, position, key, h, size):  # noqa: ANN001, ANN202
+    node = heap[h]
+    while True:
+        child = 2 * h + 1
+        if child >= size:
+            break
+        if child + 1 < size and key[heap[child + 1]] < key[heap[child]]:
+            child += 1
+        if key[node] <= key[heap[child]]:
+            break
+        heap[h] = heap[child]
+        position[heap[h]] = h
+        h = child
+    heap[h] = node
+    position[node] = h
+
+
+@compiled
+def _first_passage_kernel(indptr, indices, rule, q, tau, talking, external_time, external_order, start, delay,  # noqa: ANN001, ANN202
+                          horizon):
+    """Dijkstra's algorithm from the virtual source over the CSR, stopped at the horizon.
+
+    The source's arcs (external influence: ``external_time``, visited in ``external_order``)
+    are merged in as a sorted list rather than pushed onto the heap; the indexed binary heap
+    holds only the arrivals by word of mouth (and the initial customers at 0). Returns arrival
+    times (inf beyond the horizon) and predecessors (−1: the source)."""
+    n = tau.size
+    total = np.zeros(n)  # Dᵢ (share only)
+    if rule == SHARE:
+        for i in range(n):
+            s = 0.0
+            for k in range(indptr[i], indptr[i + 1]):
+                s += tau[indices[k]]
+            total[i] = s
+    dist = np.full(n, np.inf)
+    pred = np.full(n, -1, dtype=np.int64)
+    heap = np.empty(n, dtype=np.int64)
+    position = np.full(n, -1, dtype=np.int64)  # −1: not in the heap, −2: settled
+    size = 0
+    if external_time.size:
+        for i in range(n):
+            dist[i] = external_time[i]
+    for i in range(n):
+        if start[i]:
+            dist[i] = 0.0
+            heap[size] = i
+            position[i] = size
+            size += 1
+    e = 0
+    m = external_order.size
+    while True:
+        # the next external arrival still standing: not settled, not beaten by word of mouth
+        while e < m:
+            j = external_order[e]
+            if position[j] == -1 and dist[j] == external_time[j]:
+                break
+            e += 1
+        from_heap = size > 0 and (e >= m or dist[heap[0]] <= external_time[external_order[e]])
+        if from_heap:
+            i = heap[0]
+        elif e < m:
+            i = external_order[e]
+            e += 1
+        else:
+            break
+        d = dist[i]
+        if d > horizon:
+            break
+        if from_heap:
+            size -= 1
+            if size > 0:
+                heap[0] = heap[size]
+                position[heap[0]] = 0
+                _sift_down(heap, position, dist, 0, size)
+        position[i] = -2  # settled
+        if talking[i] <= 0:
+            continue
+        for k in range(indptr[i], indptr[i + 1]):
+            j = indices[k]
+            if position[j] == -2:
+                continue
+            w = wom_part(rule, np.float64(talking[i]), total[j], 0.0, q)  # wⱼᵢ: i's part of j's rate
+            if w <= 0:
+                continue
+            arrival = d + delay[k] / w
+            if arrival < dist[j]:
+                dist[j] = arrival
+                pred[j] = i
+                if position[j] == -1:
+                    heap[size] = j
+                    position[j] = size
+                    size += 1
+                _sift_up(heap, position, dist, position[j])
+    for i in range(n):
+        if position[i] != -2:
+            dist[i] = np.inf
+            pred[i] = -1
+    return dist, pred
+
+
 def _first_passage(
     scenario: Scenario,
     network: ReferralNetwork,
@@ -154,42 +272,59 @@ def _first_passage(
     initial: np.ndarray,
     rng: np.random.Generator,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Shortest paths from a virtual source (organisation n): arrival times and predecessors."""
+    """Shortest paths from a virtual source: arrival times and predecessors (compiled Dijkstra)."""
     adoption = scenario.adoption
-    n, p = network.n, adoption.external
+    n = network.n
     external = rng.standard_exponential(n)
     delay = rng.standard_exponential(network.indices.size)
-    w = tie_rates(adoption.rule, network, tau, talking, adoption.word_of_mouth)
-    live = w > 0
-    with np.errstate(divide="ignore"):
-        delay = np.divide(delay, w, out=delay, where=live)
-    # graph on n + 1 nodes: the network's live arcs, then the source's row
-    running = np.concatenate([[0], np.cumsum(live, dtype=np.int64)])
-    counts = running[network.indptr[1:]] - running[network.indptr[:-1]]
     start = np.zeros(n, dtype=bool)
     start[initial] = True
+    p = float(adoption.external)
     if p > 0:
-        src_cols = np.arange(n, dtype=np.int32)
-        src_len = np.where(start, 0.0, external / p)
+        external_time = external / p  # Eᵢ: the source's arc to each organisation
+        external_order = np.flatnonzero(~start)
+        external_order = external_order[np.argsort(external_time[external_order], kind="stable")]
     else:
-        src_cols = initial
-        src_len = np.zeros(initial.size)
-    indptr = np.zeros(n + 2, dtype=np.int64)
-    np.cumsum(counts, out=indptr[1 : n + 1])
-    indptr[n + 1] = indptr[n] + src_cols.size
-    idx_type = np.int32 if indptr[-1] < np.iinfo(np.int32).max else np.int64
-    graph = sp.csr_array(
-        (
-            np.concatenate([delay[live], src_len]),
-            np.concatenate([network.indices[live], src_cols]).astype(idx_type),
-            indptr.astype(idx_type),
-        ),
-        shape=(n + 1, n + 1),
+        external_time, external_order = np.zeros(0), np.zeros(0, dtype=np.int64)
+    dist, pred = _first_passage_kernel(
+        network.indptr, network.indices, rules.rule_code(adoption.rule), float(adoption.word_of_mouth),
+        np.ascontiguousarray(tau, dtype=np.float32), np.ascontiguousarray(talking, dtype=np.float32), external_time,
+        external_order.astype(np.int64), start, delay, float(scenario.run.periods),
     )
-    dist, pred = dijkstra(graph, directed=True, indices=n, return_predecessors=True, limit=float(scenario.run.periods))
-    dist, pred = dist[:n], pred[:n]
-    referrer = np.where((pred >= 0) & (pred < n), pred, -1)
-    return dist, referrer
+    return dist, pred
+
+
+@compiled
+def _complete_kernel(values, bounds, ids, resistance, talking, x, p, horizon, k, order, x_at, time):  # noqa: ANN001, ANN202
+    """The event loop on totals: the next adoption is the earliest of each group's next."""
+    groups = values.size
+    heads = bounds[:groups].copy()
+    t = 0.0
+    y = 0.0
+    while True:
+        best = -1
+        best_dt = np.inf
+        for g in range(groups):
+            h = heads[g]
+            if h < bounds[g + 1]:
+                rate = p + values[g] * x
+                if rate > 0:
+                    dt = max(resistance[ids[h]] - p * t - values[g] * y, 0.0) / rate
+                    if dt < best_dt:
+                        best = g
+                        best_dt = dt
+        if best < 0 or t + best_dt > horizon:
+            break
+        t += best_dt
+        y += x * best_dt
+        i = ids[heads[best]]
+        heads[best] += 1
+        time[i] = t
+        order[k] = i
+        x_at[k] = x
+        k += 1
+        x += talking[i]
+    return k
 
 
 def _complete(
@@ -217,42 +352,16 @@ def _complete(
     else:
         c = np.full(n, float(q))
     values, group = np.unique(c, return_inverse=True)
-    members = []
-    for g in range(values.size):
-        ids = np.flatnonzero(potential & (group == g))
-        members.append(ids[np.argsort(resistance[ids], kind="stable")])
-    heads = [0] * values.size
+    # organisations by group, each group in order of its resistances
+    ids = np.flatnonzero(potential)
+    ids = ids[np.lexsort((resistance[ids], group[ids]))]
+    bounds = np.searchsorted(group[ids], np.arange(values.size + 1), side="left")
     order = np.empty(n, dtype=np.int64)  # adopters in time order (initial first)
     x_at = np.empty(n)  # talkers X just before each adoption
-    k = initial.size
-    order[:k] = initial
-    x_at[:k] = 0.0
-    x = float(talking[initial].sum(dtype=np.float64))
-    t = y = 0.0
-    cs = values.tolist()
-    res = [resistance[m].tolist() for m in members]
-    talk_list = talking.tolist()
-    while True:
-        best, best_dt = -1, np.inf
-        for g, cg in enumerate(cs):
-            h = heads[g]
-            if h < len(res[g]):
-                rate = p + cg * x
-                if rate > 0:
-                    dt = max(res[g][h] - p * t - cg * y, 0.0) / rate
-                    if dt < best_dt:
-                        best, best_dt = g, dt
-        if best < 0 or t + best_dt > horizon:
-            break
-        t += best_dt
-        y += x * best_dt
-        i = int(members[best][heads[best]])
-        heads[best] += 1
-        time[i] = t
-        order[k] = i
-        x_at[k] = x
-        k += 1
-        x += talk_list[i]
+    order[: initial.size] = initial
+    x_at[: initial.size] = 0.0
+    k = _complete_kernel(values, bounds, ids, resistance, np.ascontiguousarray(talking, dtype=np.float32),
+                         float(talking[initial].sum(dtype=np.float64)), float(p), horizon, initial.size, order, x_at, time)
     # attribution: external with probability p / (p + c_i X), else ∝ talkers among earlier adopters
     referrer = np.full(n, -1, dtype=np.int64)
     adopters = order[initial.size : k]

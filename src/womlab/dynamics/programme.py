@@ -24,6 +24,7 @@ from __future__ import annotations
 import numpy as np
 
 from womlab.networks import ReferralNetwork
+from womlab.rules import compiled
 from womlab.scenario import Referral, Scenario
 from womlab.seeding import choose_seeds
 
@@ -31,6 +32,9 @@ __all__ = [
     "ENROLMENT_STREAM",
     "PROGRAMME_ENGINES",
     "ProgrammeRun",
+    "boosted",
+    "settle_step",
+    "idle_ledger",
     "enrolment_rng",
     "enrolled_organisations",
     "start_programme",
@@ -79,6 +83,50 @@ def enrolled_organisations(
     return np.zeros(n, dtype=bool)
 
 
+@compiled
+def boosted(talk: np.float32, multiplier: np.float32, extra: np.float32) -> np.float32:
+    """The talkers an enrolled satisfied customer counts with while the programme runs (float32):
+    ``talk_multiplier`` × talk + ``extra_talkers``."""
+    return multiplier * talk + extra
+
+
+@compiled
+def _boost_all(talk, boost, multiplier, extra, out):  # noqa: ANN001, ANN202
+    for i in range(talk.size):
+        out[i] = boosted(talk[i], multiplier, extra) if boost[i] else talk[i]
+
+
+@compiled
+def settle_step(period, adopters, referrers, count, ledger):  # noqa: ANN001, ANN201
+    """Pay for one step's word-of-mouth adoptions, in the order given (ascending adopter id).
+
+    ``ledger`` is :attr:`ProgrammeRun.ledger`: the programme's arrays and constants, updated
+    in place. The one implementation of the payment rules: :meth:`ProgrammeRun.settle` and the
+    array engine's compiled step both call it.
+    """
+    (enrolled, start, end, budget, per_referral, bonus, bonus_threshold, _multiplier, _extra,
+     spent, exhausted, cost, paid, paid_by, rewarded) = ledger
+    if exhausted[0] >= 0 or period < start or period > end:
+        return
+    for k in range(count):
+        ref = referrers[k]
+        if not enrolled[ref]:
+            continue
+        price = per_referral
+        if bonus != 0.0 and paid_by[ref] + 1 == bonus_threshold:
+            price += bonus
+        if spent[0] + price > budget:  # a payment is made whole or not at all
+            exhausted[0] = period
+            return
+        spent[0] += price
+        cost[period] += price
+        paid[period] += 1
+        paid_by[ref] += 1
+        rewarded[adopters[k]] = True
+    if spent[0] >= budget:
+        exhausted[0] = period
+
+
 class ProgrammeRun:
     """A programme's state during one run: enrolment, window, payments and budget.
 
@@ -99,27 +147,45 @@ class ProgrammeRun:
     is the referrer's ``bonus_threshold``-th paid referral. A payment is made whole or not
     at all: the first one that would take the total past ``budget`` is refused, and from
     then on nothing is paid and the boost stops (from the next step). The boost also
-    stops once the total reaches the budget exactly.
+    stops once the total reaches the budget exactly. The total spent is the running sum
+    of the payments in the order they are made.
+
+    The state lives in :attr:`ledger`, a tuple of arrays and constants that the compiled
+    functions :func:`settle_step` and :func:`boosted` read and update, so the array
+    engine's compiled step runs the same programme as this class's methods.
     """
 
     def __init__(self, referral: Referral, enrolled: np.ndarray, periods: int) -> None:
         self.referral = referral
         self.enrolled = np.asarray(enrolled, dtype=bool)
-        self.start = referral.start
-        self.end = referral.last_period(periods)
+        self.start = int(referral.start)
+        self.end = int(referral.last_period(periods))
         n = self.enrolled.size
         self.budget = np.inf if referral.budget is None else float(referral.budget)
         self.cost = np.zeros(periods + 1)  # undiscounted payments per period
         self.paid = np.zeros(periods + 1, dtype=np.int64)  # paid referrals per period
         self.paid_by = np.zeros(n, dtype=np.int64)  # paid referrals per referrer
         self.rewarded = np.zeros(n, dtype=bool)  # adoption was a paid referral
-        self.spent = 0.0
-        self.exhausted_period = -1  # period in which the budget ran out, −1 if never
+        self._spent = np.zeros(1)
+        self._exhausted = np.full(1, -1, dtype=np.int64)  # period in which the budget ran out, −1 if never
         linear = referral.scheme in ("linear", "both")
-        self._per_referral = referral.referred_reward + (referral.reward if linear else 0.0)
-        self._bonus = referral.bonus if referral.scheme in ("bonus", "both") else 0.0
+        self._per_referral = float(referral.referred_reward + (referral.reward if linear else 0.0))
+        self._bonus = float(referral.bonus if referral.scheme in ("bonus", "both") else 0.0)
         self._m = np.float32(referral.talk_multiplier)
         self._extra = np.float32(referral.extra_talkers)
+        self.ledger = (self.enrolled, self.start, self.end, float(self.budget), self._per_referral, self._bonus,
+                       int(referral.bonus_threshold), self._m, self._extra, self._spent, self._exhausted,
+                       self.cost, self.paid, self.paid_by, self.rewarded)
+
+    @property
+    def spent(self) -> float:
+        """Total paid so far."""
+        return float(self._spent[0])
+
+    @property
+    def exhausted_period(self) -> int:
+        """Period in which the budget ran out, −1 if it has not."""
+        return int(self._exhausted[0])
 
     @property
     def exhausted(self) -> bool:
@@ -139,43 +205,21 @@ class ProgrammeRun:
         """
         if not self.running(period):
             return talk
-        boost = self.enrolled & talking_customer
-        return np.where(boost, self._m * talk + self._extra, talk).astype(talk.dtype, copy=False)
+        talk = np.ascontiguousarray(talk, dtype=np.float32)
+        out = np.empty_like(talk)
+        _boost_all(talk, np.ascontiguousarray(self.enrolled & np.asarray(talking_customer, dtype=bool)),
+                   self._m, self._extra, out)
+        return out
 
     def settle(self, period: int, adopters: np.ndarray, referrers: np.ndarray) -> None:
         """Pay for the step's word-of-mouth adoptions ``adopters`` attributed to ``referrers``."""
-        if self.exhausted or not self.start <= period <= self.end or adopters.size == 0:
-            return
-        adopters = np.asarray(adopters)
-        referrers = np.asarray(referrers)
-        order = np.argsort(adopters, kind="stable")
-        adopters, referrers = adopters[order], referrers[order]
-        keep = self.enrolled[referrers]
-        adopters, referrers = adopters[keep], referrers[keep]
+        adopters = np.asarray(adopters, dtype=np.int64)
+        referrers = np.asarray(referrers, dtype=np.int64)
         if adopters.size == 0:
             return
-        cost = np.full(adopters.size, self._per_referral)
-        if self._bonus:
-            # ordinal of each referral among its referrer's paid referrals (adopter-id order)
-            by_ref = np.argsort(referrers, kind="stable")
-            r_sorted = referrers[by_ref]
-            first = np.r_[0, np.flatnonzero(np.diff(r_sorted)) + 1]
-            runs = np.diff(np.r_[first, r_sorted.size])
-            within = np.arange(r_sorted.size) - np.repeat(first, runs)
-            ordinal = np.empty(adopters.size, dtype=np.int64)
-            ordinal[by_ref] = self.paid_by[r_sorted] + within + 1
-            cost += np.where(ordinal == self.referral.bonus_threshold, self._bonus, 0.0)
-        total = self.spent + np.cumsum(cost)
-        fits = total <= self.budget
-        k = adopters.size if fits.all() else int(np.argmin(fits))  # payments made: a prefix
-        if k:
-            self.spent = float(total[k - 1])
-            self.cost[period] += float(cost[:k].sum())
-            self.paid[period] += k
-            np.add.at(self.paid_by, referrers[:k], 1)
-            self.rewarded[adopters[:k]] = True
-        if k < adopters.size or self.spent >= self.budget:
-            self.exhausted_period = period
+        order = np.argsort(adopters, kind="stable")
+        settle_step(int(period), np.ascontiguousarray(adopters[order]), np.ascontiguousarray(referrers[order]),
+                    adopters.size, self.ledger)
 
     def record(self) -> dict:
         """The run's programme outcome, for :attr:`RunResult.extra`."""
@@ -186,6 +230,14 @@ class ProgrammeRun:
             "rewarded": self.rewarded.copy(),
             "budget_exhausted_period": int(self.exhausted_period),
         }
+
+
+def idle_ledger(n: int = 0) -> tuple:
+    """A ledger of the types :attr:`ProgrammeRun.ledger` has, for a run without a programme
+    (so a compiled step takes one signature with or without one); nothing is ever paid from it."""
+    return (np.zeros(n, dtype=bool), 1, 0, 0.0, 0.0, 0.0, 1, np.float32(1.0), np.float32(0.0), np.zeros(1),
+            np.full(1, -1, dtype=np.int64), np.zeros(1), np.zeros(1, dtype=np.int64), np.zeros(n, dtype=np.int64),
+            np.zeros(n, dtype=bool))
 
 
 def start_programme(scenario: Scenario, network: ReferralNetwork, rng: np.random.Generator) -> ProgrammeRun | None:

@@ -8,32 +8,40 @@ function per kind (built straight into arrays, each with its networkx reference 
 
 from __future__ import annotations
 
-from womlab.networks.build import BUILDERS, build_network
+from womlab.networks.build import BUILDERS, build_network, network_clustering_line
 from womlab.networks.builders import (
     complete,
     networkx_random,
-    networkx_regional,
+    networkx_regional_blocks,
     networkx_regular,
     networkx_ring,
     networkx_scale_free,
     networkx_small_world,
     random,
+    expected_clustering,
     regional,
+    regional_blocks,
     regular,
+    rewired_lattice_clustering,
     ring,
     scale_free,
     small_world,
 )
 from womlab.networks.edgelist import count_edgelist_organisations, edgelist_facts, read_edgelist
 from womlab.networks.network import ReferralNetwork, balanced_regions, from_edges
-from womlab.scenario.registry import register_edgelist_reader
+from womlab.networks.tables import from_edge_table
+from womlab.networks.graphfile import GRAPH_FORMATS, graph_file_facts, read_graph_file
+from womlab.scenario.registry import register_edgelist_reader, register_network_file_reader
 
 register_edgelist_reader(edgelist_facts)
+for _kind in GRAPH_FORMATS:
+    register_network_file_reader(_kind, lambda path, nodes_path, kind=_kind: graph_file_facts(kind, path))
 
 __all__ = [
     "ReferralNetwork",
     "BUILDERS",
     "build_network",
+    "network_clustering_line",
     "from_edges",
     "complete",
     "ring",
@@ -41,15 +49,21 @@ __all__ = [
     "random",
     "small_world",
     "regional",
+    "regional_blocks",
+    "expected_clustering",
+    "rewired_lattice_clustering",
+    "from_edge_table",
     "scale_free",
     "read_edgelist",
     "count_edgelist_organisations",
     "edgelist_facts",
+    "read_graph_file",
+    "graph_file_facts",
     "balanced_regions",
     "networkx_ring",
     "networkx_regular",
     "networkx_random",
     "networkx_small_world",
-    "networkx_regional",
+    "networkx_regional_blocks",
     "networkx_scale_free",
 ]

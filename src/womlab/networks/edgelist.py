@@ -22,11 +22,11 @@ import numpy as np
 import pandas as pd
 
 from womlab.errors import NetworkError
-from womlab.networks.network import ReferralNetwork, from_edges
+from womlab.networks.network import ReferralNetwork
+from womlab.networks.tables import from_edge_table
 from womlab.scenario.checks import utf8_text
 
 __all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts"]
-
 
 _COLUMN_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_ .-]{0,39}")
 
@@ -69,7 +69,7 @@ def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.Dat
 
 def _one_spelling(ids: np.ndarray, what: str, path: str | Path) -> None:
     """Refuse ids that are the same whole number written two ways (``1`` and ``01``)."""
-    unique = pd.unique(ids)
+    unique = pd.unique(np.asarray([str(v).strip() for v in ids], dtype=object))
     try:
         numbers = np.array([int(v) for v in unique])
     except (ValueError, OverflowError):
@@ -82,71 +82,38 @@ def _one_spelling(ids: np.ndarray, what: str, path: str | Path) -> None:
                            "write each organisation's id one way")
 
 
-def _sorted_ids(values: np.ndarray) -> np.ndarray:
-    """Unique ids, in numeric order when every id is a whole number, else text order."""
-    unique = pd.unique(values)
-    try:
-        as_int = np.array([int(v) for v in unique])
-        return unique[np.argsort(as_int, kind="stable")]
-    except ValueError:
-        return np.sort(unique)
-
-
 def read_edgelist(path: str | Path, nodes_path: str | Path | None = None) -> ReferralNetwork:
     """Read a CSV edge list (``source,target``) and an optional node file (``id,region``).
 
     Organisation ids are mapped to 0..N−1 (node-file order when a node file is given,
     else ascending id); the original ids are kept in ``labels``. Self-loops and duplicate
     ties are dropped with a warning that counts them. Regions are coded 0..R−1 in
-    ascending order of the region values; without a node file everyone is in region 0.
+    ascending order of the region values, the values kept in ``region_names``; without a
+    node file everyone is in region 0. The mapping is :func:`womlab.networks.tables.from_edge_table`'s.
 
     Raises
     ------
     NetworkError
-        If a file cannot be read, lacks a column, or a tie names an id the node file lacks.
+        One line naming the field and the file (never its contents): a file that is not
+        UTF-8 CSV text, lacks a column, holds no ties or only self-loops, writes one id two
+        ways, or a tie that names an id the node file lacks.
     """
     ties = _read_table(path, ("source", "target"), "path")
+    name = Path(path).name
     src = ties["source"].str.strip().to_numpy()
     dst = ties["target"].str.strip().to_numpy()
     if src.size == 0:
-        raise NetworkError(f"network.path: {Path(path).name!r} holds no ties (a header and no rows)")
+        raise NetworkError(f"network.path: {name!r} holds no ties (a header and no rows)")
     if (src == dst).all():
-        raise NetworkError(f"network.path: {Path(path).name!r} holds only self-loops (ties of an organisation to "
-                           "itself); a referral network needs ties between two organisations")
+        raise NetworkError(f"network.path: {name!r} holds only self-loops (ties of an organisation to itself); "
+                           "a referral network needs ties between two organisations")
     _one_spelling(np.concatenate([src, dst]), "path", path)
+    nodes = None
     if nodes_path is not None:
         nodes = _read_table(nodes_path, ("id", "region"), "nodes_path")
-        ids = nodes["id"].str.strip().to_numpy()
-        if len(pd.unique(ids)) != len(ids):
-            raise NetworkError(f"network.nodes_path: {Path(nodes_path).name!r} lists some id more than once")
-        _one_spelling(ids, "nodes_path", nodes_path)
-        region_values = nodes["region"].str.strip().to_numpy()
-    else:
-        ids = _sorted_ids(np.concatenate([src, dst]))
-        region_values = None
-    position = pd.Index(ids)
-    s = position.get_indexer(src)
-    t = position.get_indexer(dst)
-    if (s < 0).any() or (t < 0).any():
-        bad = np.concatenate([src[s < 0], dst[t < 0]])[:5]
-        raise NetworkError(
-            f"network.path: ties name ids missing from network.nodes_path, e.g. {', '.join(map(str, bad))}"
-        )
-    loops = s == t
-    lo, hi = np.minimum(s, t)[~loops], np.maximum(s, t)[~loops]
-    pairs = np.unique(np.stack([lo, hi], axis=1), axis=0) if lo.size else np.zeros((0, 2), dtype=np.int64)
-    duplicates = int(lo.size - pairs.shape[0])
-    if loops.any() or duplicates:
-        warnings.warn(
-            f"network.path: {Path(path).name}: dropped {int(loops.sum())} self-loop(s) and {duplicates} duplicate tie(s)",
-            stacklevel=2,
-        )
-    n = len(ids)
-    if region_values is None:
-        region = np.zeros(n, dtype=np.int32)
-    else:
-        region = pd.Index(_sorted_ids(region_values)).get_indexer(region_values).astype(np.int32)
-    return from_edges(n, pairs[:, 0], pairs[:, 1], region, "edgelist", labels=np.asarray(ids))
+        _one_spelling(nodes["id"].to_numpy(), "nodes_path", nodes_path)
+    where = (f"network.path {name!r}", f"network.nodes_path {Path(nodes_path).name!r}" if nodes_path else "")
+    return from_edge_table(ties, nodes, kind="edgelist", where=where)
 
 
 def count_edgelist_organisations(path: str | Path, nodes_path: str | Path | None = None) -> int:
@@ -155,7 +122,6 @@ def count_edgelist_organisations(path: str | Path, nodes_path: str | Path | None
         return len(_read_table(nodes_path, ("id", "region"), "nodes_path"))
     ties = _read_table(path, ("source", "target"), "path")
     return len(pd.unique(np.concatenate([ties["source"].str.strip().to_numpy(), ties["target"].str.strip().to_numpy()])))
-
 
 
 def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float, int]:

@@ -16,6 +16,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
+from womlab.errors import StoreError
 from womlab.results.figures import (
     FIGURE_FORMATS,
     adoption_figure,
@@ -35,7 +36,7 @@ from womlab.studies.runner import Batch
 from womlab.studies.seeding_study import BOOTSTRAP_KEY, SeedingStudy
 
 __all__ = ["save_batch", "save_programme", "save_seeding_study", "save_comparison", "check_output_folder",
-           "OUTPUTS", "sections_in_use"]
+           "OUTPUTS", "sections_in_use", "ORGANISATION_FORMATS"]
 
 #: The files each command writes (``{fmt}``: the figure format), so that a folder can be
 #: checked before anything runs.
@@ -48,6 +49,8 @@ OUTPUTS: dict[str, tuple[str, ...]] = {
                  "referral_tree.csv", "programme.{fmt}", "referral_tree.{fmt}"),
 }
 _NOT_RESULTS = (("run", "jobs"), ("run", "replicates"), ("study", "replicates"))
+#: Forms of the optional per-organisation file of a results folder.
+ORGANISATION_FORMATS = ("parquet", "csv")
 
 
 def sections_in_use(scenario: Scenario, command: str) -> tuple[str, ...]:
@@ -81,20 +84,21 @@ def _identity(scenario: Scenario, command: str) -> dict[str, Any]:
     return {"scenario": data, "inputs": inputs}
 
 
-def _names(command: str, figure_format: str) -> list[str]:
-    return [n.format(fmt=figure_format) for n in OUTPUTS[command]]
+def _names(command: str, figure_format: str, organisations: str | None = None) -> list[str]:
+    names = [n.format(fmt=figure_format) for n in OUTPUTS[command]]
+    return names + ([f"organisations.{organisations}"] if organisations else [])
 
 
-def _format(figure_format: str) -> str:
+def _format(figure_format: str, organisations: str | None = None) -> str:
     if figure_format not in FIGURE_FORMATS:
-        from womlab.errors import WomlabError
-
-        raise WomlabError(f"figure format must be one of {', '.join(FIGURE_FORMATS)}, got {figure_format!r}")
+        raise StoreError(f"figure format must be one of {', '.join(FIGURE_FORMATS)}, got {figure_format!r}")
+    if organisations is not None and organisations not in ORGANISATION_FORMATS:
+        raise StoreError(f"organisations must be one of {', '.join(ORGANISATION_FORMATS)}, got {organisations!r}")
     return figure_format
 
 
 def check_output_folder(out: str | Path, command: str, scenario: Scenario, *, force: bool = False,
-                        figure_format: str = "png") -> Path:
+                        figure_format: str = "png", organisations: str | None = None) -> Path:
     """Check, before anything runs, that ``command`` may write its results for ``scenario`` into ``out``.
 
     Refused with one line: a file, a folder that cannot be created or written, a sweep's
@@ -105,8 +109,9 @@ def check_output_folder(out: str | Path, command: str, scenario: Scenario, *, fo
     ------
     StoreError
     """
-    fmt = _format(figure_format)
-    return check_results_folder(out, command, _identity(scenario, command), _names(command, fmt), force=force)
+    fmt = _format(figure_format, organisations)
+    return check_results_folder(out, command, _identity(scenario, command), _names(command, fmt, organisations),
+                                force=force)
 
 
 def _table_writer(table: Any, float_format: str | None = "%.6g") -> Callable[[Path], Any]:
@@ -119,13 +124,21 @@ def _figure_writer(fig: Any, fmt: str) -> Callable[[Path], Any]:
 
 def _save(command: str, study: Any, out: str | Path, tables: dict[str, Any], figures: dict[str, Callable[[], Any]],
           extra: dict[str, Any], *, force: bool, figure_format: str, command_line: list[str] | None,
-          wall_time: float | None = None, float_formats: dict[str, str | None] | None = None) -> list[Path]:
-    fmt = _format(figure_format)
+          wall_time: float | None = None, float_formats: dict[str, str | None] | None = None,
+          organisations: str | None = None, organisation_table: Callable[[], Any] | None = None) -> list[Path]:
+    fmt = _format(figure_format, organisations)
     scenario = study.scenario
     float_formats = float_formats or {}
-    with FolderWriter(out, command, _identity(scenario, command), _names(command, fmt), force=force) as folder:
+    names = _names(command, fmt, organisations)
+    with FolderWriter(out, command, _identity(scenario, command), names, force=force) as folder:
         for name, table in tables.items():
             folder.write(name, _table_writer(table, float_formats.get(name, "%.6g")))
+        if organisations is not None and organisation_table is not None:
+            table = organisation_table()
+            if organisations == "csv":
+                folder.write("organisations.csv", _table_writer(table, None))
+            else:
+                folder.write("organisations.parquet", lambda p: table.to_parquet(p, index=False))
         for stem, draw in figures.items():
             folder.write(f"{stem}.{fmt}", _figure_writer(draw(), fmt))
         info = manifest(study, extra, wall_time=wall_time, command=command, command_line=command_line,
@@ -133,9 +146,15 @@ def _save(command: str, study: Any, out: str | Path, tables: dict[str, Any], fig
         return folder.commit(info)
 
 
-def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, force: bool = False, figure_format: str = "png",
-               figure_size: tuple[float, float] | None = None, command_line: list[str] | None = None) -> list[Path]:
+def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisations: str | None = None,
+               force: bool = False, figure_format: str = "png", figure_size: tuple[float, float] | None = None,
+               command_line: list[str] | None = None) -> list[Path]:
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
+
+    With ``organisations = "parquet"`` (or ``"csv"``) also ``organisations.parquet``
+    (``.csv``): one row per replicate and organisation, :meth:`womlab.Batch.organisations`
+    (ids as given, region and node attributes, adoption period and time, referrer,
+    satisfied).
 
     Parameters
     ----------
@@ -144,6 +163,8 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, force: boo
         The results folder (created if needed).
     figure : bool
         Draw the figure.
+    organisations : {"parquet", "csv"}, optional
+        Also write the per-organisation file (checked before anything is written).
     force : bool
         Replace another command's or another scenario's results in ``out``.
     figure_format : str
@@ -163,7 +184,8 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, force: boo
     tables = {"curves.csv": batch.curves(), "summary.csv": batch.summary(), "metrics.csv": batch.metrics()}
     figures = {"adoption": lambda: adoption_figure(batch, size=figure_size)} if figure else {}
     return _save("run", batch, out, tables, figures, {}, force=force, figure_format=figure_format,
-                 command_line=command_line, float_formats={"curves.csv": None})
+                 command_line=command_line, float_formats={"curves.csv": None}, organisations=organisations,
+                 organisation_table=batch.organisations)
 
 
 def save_programme(study: ProgrammeStudy, out: str | Path, *, figure: bool = True, wall_time: float = 0.0,

@@ -1,25 +1,49 @@
 """The rules layer: the adoption and satisfaction formulas, written once.
 
 Every engine (:mod:`womlab.dynamics`) and every aggregate model (:mod:`womlab.aggregate`)
-calls these functions, so a formula lives in one place. Knows only the scenario. See
-:mod:`womlab.rules.adoption` for the rules and their sources.
+calls these functions, so a formula lives in one place: a scalar compiled function
+(:func:`rate`, :func:`hazard`, ...) that the array engine's compiled step and the Mesa
+model call per organisation, and the vector form built on it (:func:`adoption_rate`,
+:func:`step_hazard`, ...). Knows only the scenario. See :mod:`womlab.rules.adoption` for
+the rules and their sources, :mod:`womlab.rules.compiled` for the compiler check.
 """
 
 from __future__ import annotations
 
 from womlab.rules.adoption import (
+    FORM_CODES,
+    RULE_CODES,
     adoption_rate,
     draw_satisfied,
     draw_talkers,
     draw_thresholds,
+    external_part,
     external_share,
+    form_code,
+    hazard,
+    probability,
+    rate,
+    rule_code,
     step_hazard,
     step_probability,
+    talk_weight,
     talk_weights,
+    wom_part,
     word_of_mouth_part,
 )
+from womlab.rules.compiled import NUMBA_SUPPORTED, check_numba, compiled
 
 __all__ = [
+    "RULE_CODES",
+    "FORM_CODES",
+    "rule_code",
+    "form_code",
+    "rate",
+    "wom_part",
+    "external_part",
+    "probability",
+    "hazard",
+    "talk_weight",
     "adoption_rate",
     "external_share",
     "step_probability",
@@ -29,4 +53,7 @@ __all__ = [
     "draw_thresholds",
     "talk_weights",
     "word_of_mouth_part",
+    "compiled",
+    "check_numba",
+    "NUMBA_SUPPORTED",
 ]

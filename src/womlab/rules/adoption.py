@@ -35,6 +35,16 @@ Each rule gives a potential customer i a rate λᵢ per period from the talkers 
 A step of length dt turns a rate into a probability, ``exponential``: 1 − exp(−λ·dt)
 (the default), or ``linear``: min(1, λ·dt).
 
+Two forms, one formula. Each formula is written once, as a scalar compiled function
+(:func:`rate`, :func:`wom_part`, :func:`external_part`, :func:`probability`,
+:func:`hazard`, :func:`talk_weight`; rules and step forms by integer code,
+:data:`RULE_CODES` and :data:`FORM_CODES`). The array engine's compiled step and the
+Mesa model call these directly, one organisation at a time; the vector functions
+(:func:`adoption_rate`, :func:`word_of_mouth_part`, :func:`external_share`,
+:func:`step_probability`, :func:`step_hazard`, :func:`talk_weights`), which the
+aggregate models, the mean-field model and the event engine call, loop the same scalar
+functions over arrays.
+
 The "independent chances" form met in much of the literature — each period an
 organisation is persuaded from outside with probability p′ and by each of its m talking
 neighbours independently with probability q′ — is the same model:
@@ -64,11 +74,24 @@ social network. Proc. KDD 2003, 137–146.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
-from womlab.scenario import Adoption, Talkers, Thresholds
+from womlab.rules.compiled import compiled
+from womlab.scenario import RULES, STEP_FORMS, Adoption, Talkers, Thresholds
 
 __all__ = [
+    "RULE_CODES",
+    "FORM_CODES",
+    "rule_code",
+    "form_code",
+    "rate",
+    "wom_part",
+    "external_part",
+    "probability",
+    "hazard",
+    "talk_weight",
     "adoption_rate",
     "external_share",
     "step_probability",
@@ -80,41 +103,183 @@ __all__ = [
     "word_of_mouth_part",
 ]
 
+#: Rule name → the integer code the compiled formulas take (the order of ``scenario.RULES``).
+RULE_CODES = {name: code for code, name in enumerate(RULES)}
+#: Step form name → integer code (the order of ``scenario.STEP_FORMS``).
+FORM_CODES = {name: code for code, name in enumerate(STEP_FORMS)}
+SHARE, COUNT, CAPPED, THRESHOLD, CASCADE = (RULE_CODES[r] for r in ("share", "count", "capped", "threshold", "cascade"))
+EXPONENTIAL, LINEAR = FORM_CODES["exponential"], FORM_CODES["linear"]
 
-def _satisfied_share(talking: np.ndarray, total: np.ndarray) -> np.ndarray:
-    total = np.asarray(total)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(total > 0, talking / np.where(total > 0, total, 1), 0.0)
+
+def rule_code(rule: str) -> int:
+    """The integer code of ``rule`` for the compiled formulas."""
+    try:
+        return RULE_CODES[rule]
+    except KeyError:
+        raise ValueError(f"adoption.rule must be one of {', '.join(RULES)}, got {rule!r}") from None
+
+
+def form_code(form: str) -> int:
+    """The integer code of a step form for the compiled formulas."""
+    try:
+        return FORM_CODES[form]
+    except KeyError:
+        raise ValueError(f"step_probability must be exponential or linear, got {form!r}") from None
+
+
+# ----------------------------------------------------------------------------- the formulas, once
+@compiled
+def _share_of(talking: float, total: float) -> float:
+    return talking / total if total > 0 else 0.0
+
+
+@compiled
+def wom_part(rule: int, talking: float, total: float, threshold: float, q: float) -> float:
+    """The uncapped word-of-mouth rate of one organisation: q·T/D (``share``), q·T (``count``,
+    ``capped``), −ln(1 − q)·n (``cascade``, T = n newly satisfied neighbours), ∞ where T > 0
+    and T/D ≥ θ else 0 (``threshold``).
+
+    Examples
+    --------
+    >>> wom_part(RULE_CODES["share"], 1.0, 4.0, 0.0, 0.4)
+    0.1
+    """
+    if rule == SHARE:
+        return q * _share_of(talking, total)
+    if rule == THRESHOLD:
+        return math.inf if talking > 0 and _share_of(talking, total) >= threshold else 0.0
+    if rule == CASCADE:
+        if talking > 0:
+            return -math.log1p(-q) * talking if q < 1.0 else math.inf  # q = 1: certain persuasion
+        return 0.0  # (∞·0 never formed: q = 1 with no new neighbour is 0)
+    return q * talking
+
+
+@compiled
+def rate(rule: int, talking: float, total: float, threshold: float, p: float, q: float, cap: float) -> float:
+    """Rate λ per period of one potential customer: p + the word-of-mouth part, at most ``cap``
+    under ``capped``.
+
+    Examples
+    --------
+    >>> rate(RULE_CODES["capped"], 10.0, 0.0, 0.0, 0.01, 0.02, 0.05)
+    0.05
+    """
+    r = p + wom_part(rule, talking, total, threshold, q)
+    if rule == CAPPED and r > cap:
+        return cap
+    return r
+
+
+@compiled
+def external_part(rule: int, talking: float, total: float, threshold: float, p: float, q: float) -> float:
+    """Probability that an adoption is caused by external influence: p / (p + w), w the
+    uncapped word-of-mouth part; 1 where p + w = 0, 0 where w = ∞."""
+    s = p + wom_part(rule, talking, total, threshold, q)
+    return p / s if s > 0 else 1.0
+
+
+@compiled
+def probability(rate: float, dt: float, form: int) -> float:
+    """Probability of adopting within a step of length ``dt``: 1 − exp(−λ·dt) (``exponential``)
+    or min(1, λ·dt) (``linear``)."""
+    if form == EXPONENTIAL:
+        return -math.expm1(-rate * dt)
+    x = rate * dt
+    return 1.0 if x > 1.0 else x
+
+
+@compiled
+def hazard(rate: float, dt: float, form: int) -> float:
+    """Integrated hazard h of one step, so that 1 − exp(−h) is :func:`probability`."""
+    if form == EXPONENTIAL:
+        return rate * dt
+    x = rate * dt
+    if x >= 1.0:
+        return math.inf
+    return -math.log1p(-x)
+
+
+@compiled
+def talk_weight(rule: int, talkers: np.float32, satisfied_customer: bool, fresh: bool) -> np.float32:
+    """What one organisation puts into its neighbours' Tᵢ at the start of a step (float32):
+    its talkers τ if a satisfied customer, else 0; under ``cascade`` 1 during the period
+    after it became a satisfied customer (``fresh``), else 0."""
+    if rule == CASCADE:
+        return np.float32(1.0) if satisfied_customer and fresh else np.float32(0.0)
+    return np.float32(talkers) if satisfied_customer else np.float32(0.0)
+
+
+# ----------------------------------------------------------------------------- the same, over arrays
+@compiled
+def _rate_loop(rule, talking, total, threshold, p, q, cap, out):  # noqa: ANN001, ANN202
+    for k in range(out.size):
+        out[k] = rate(rule, talking[k], total[k], threshold[k], p, q, cap)
+
+
+@compiled
+def _wom_loop(rule, talking, total, threshold, q, out):  # noqa: ANN001, ANN202
+    for k in range(out.size):
+        out[k] = wom_part(rule, talking[k], total[k], threshold[k], q)
+
+
+@compiled
+def _external_loop(rule, talking, total, threshold, p, q, out):  # noqa: ANN001, ANN202
+    for k in range(out.size):
+        out[k] = external_part(rule, talking[k], total[k], threshold[k], p, q)
+
+
+@compiled
+def _step_loop(rates, dt, form, as_hazard, out):  # noqa: ANN001, ANN202
+    for k in range(out.size):
+        out[k] = hazard(rates[k], dt, form) if as_hazard else probability(rates[k], dt, form)
+
+
+@compiled
+def _talk_loop(rule, tau, satisfied_customer, fresh, out):  # noqa: ANN001, ANN202
+    for k in range(out.size):
+        out[k] = talk_weight(rule, tau[k], satisfied_customer[k], fresh[k])
+
+
+def _flat(*arrays):  # noqa: ANN001, ANN202
+    """Broadcast to one shape; return that shape and contiguous float64 1-d copies."""
+    given = [np.asarray(a, dtype=np.float64) for a in arrays]
+    shape = np.broadcast_shapes(*(a.shape for a in given))
+    return shape, [_flat_copy(a, shape, np.float64) for a in given]
+
+
+def _flat_copy(a: np.ndarray, shape: tuple, dtype: type) -> np.ndarray:
+    """``a`` as a writeable contiguous 1-d array of ``shape``'s size (copied only where needed)."""
+    if a.shape != shape or not a.flags.c_contiguous or not a.flags.writeable:
+        a = np.array(np.broadcast_to(a, shape), dtype=dtype, order="C")
+    return a.reshape(-1)
+
+
+def _threshold_or_zero(rule: str, threshold: np.ndarray | None) -> np.ndarray | float:
+    if threshold is None:
+        if rule == "threshold":
+            raise ValueError("the threshold rule needs each organisation's threshold")
+        return 0.0
+    return threshold
 
 
 def word_of_mouth_part(
-    rule: str, talking: np.ndarray, total: np.ndarray, q: float, threshold: np.ndarray | None = None
+    rule: str, talking: np.ndarray, total: np.ndarray | None, q: float, threshold: np.ndarray | None = None
 ) -> np.ndarray:
-    """The uncapped word-of-mouth rate: q·T/D (``share``), q·T (``count``, ``capped``),
-    −ln(1 − q)·n (``cascade``, T = n newly satisfied neighbours), ∞ where T > 0 and
-    T/D ≥ θ else 0 (``threshold``)."""
-    talking = np.asarray(talking, dtype=float)
-    if rule == "share":
-        return q * _satisfied_share(talking, total)
-    if rule == "threshold":
-        if threshold is None:
-            raise ValueError("the threshold rule needs each organisation's threshold")
-        reached = (talking > 0) & (_satisfied_share(talking, total) >= threshold)
-        return np.where(reached, np.inf, 0.0)
-    if rule == "cascade":
-        with np.errstate(divide="ignore"):
-            per_tie = -np.log1p(-q)  # q = 1 gives an infinite hazard: certain persuasion
-        out = np.zeros(talking.shape)
-        some = talking > 0
-        out[some] = per_tie * talking[some]  # (∞·0 never formed: q = 1 with no new neighbour is 0)
-        return out
-    return q * talking
+    """:func:`wom_part` over arrays: the uncapped word-of-mouth rate of each organisation.
+
+    ``total`` may be None for rules that do not use Dᵢ (``count``, ``capped``, ``cascade``).
+    """
+    shape, (t, d, th) = _flat(talking, 0.0 if total is None else total, _threshold_or_zero(rule, threshold))
+    out = np.empty(t.size)
+    _wom_loop(rule_code(rule), t, d, th, float(q), out)
+    return out.reshape(shape)
 
 
 def adoption_rate(
     rule: str, talking: np.ndarray, total: np.ndarray, adoption: Adoption, threshold: np.ndarray | None = None
 ) -> np.ndarray:
-    """Rate λ per period for each potential customer.
+    """Rate λ per period for each potential customer (:func:`rate` over arrays).
 
     Parameters
     ----------
@@ -138,56 +303,59 @@ def adoption_rate(
     >>> adoption_rate("share", np.array([1.0, 0.0]), np.array([4.0, 0.0]), Adoption(external=0.01, word_of_mouth=0.4))
     array([0.11, 0.01])
     """
-    p = adoption.external
-    rate = p + word_of_mouth_part(rule, talking, total, adoption.word_of_mouth, threshold)
-    if rule == "capped":
-        rate = np.minimum(rate, adoption.cap)
-    return rate
+    shape, (t, d, th) = _flat(talking, total, _threshold_or_zero(rule, threshold))
+    out = np.empty(t.size)
+    cap = float(adoption.cap) if adoption.cap is not None else math.inf
+    _rate_loop(rule_code(rule), t, d, th, float(adoption.external), float(adoption.word_of_mouth), cap, out)
+    return out.reshape(shape)
 
 
 def external_share(
     rule: str, talking: np.ndarray, total: np.ndarray, adoption: Adoption, threshold: np.ndarray | None = None
 ) -> np.ndarray:
-    """Probability that an adoption is caused by external influence: p / (p + w).
+    """Probability that an adoption is caused by external influence: p / (p + w) (:func:`external_part`
+    over arrays).
 
     w is the uncapped word-of-mouth part; where p + w = 0 the share is 1, where w = ∞ it is 0.
     """
-    p = adoption.external
-    w = word_of_mouth_part(rule, talking, total, adoption.word_of_mouth, threshold)
-    s = p + w
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(s > 0, p / np.where(s > 0, s, 1), 1.0)
+    shape, (t, d, th) = _flat(talking, total, _threshold_or_zero(rule, threshold))
+    out = np.empty(t.size)
+    _external_loop(rule_code(rule), t, d, th, float(adoption.external), float(adoption.word_of_mouth), out)
+    return out.reshape(shape)
+
+
+def _steps(rates: np.ndarray | float, dt: float, form: str, as_hazard: bool) -> np.ndarray:
+    code = form_code(form)
+    shape, (r,) = _flat(rates)
+    out = np.empty(r.size)
+    _step_loop(r, float(dt), code, as_hazard, out)
+    return out.reshape(shape)
 
 
 def step_probability(rate: np.ndarray | float, dt: float, form: str) -> np.ndarray:
-    """Probability of adopting within a step of length ``dt`` at rate ``rate``.
+    """Probability of adopting within a step of length ``dt`` at rate ``rate`` (:func:`probability`
+    over arrays).
 
     ``exponential``: 1 − exp(−λ·dt); ``linear``: min(1, λ·dt).
+
+    Examples
+    --------
+    >>> float(step_probability(0.5, 1.0, "linear"))
+    0.5
     """
-    rate = np.asarray(rate, dtype=float)
-    if form == "exponential":
-        return -np.expm1(-rate * dt)
-    if form == "linear":
-        return np.minimum(1.0, rate * dt)
-    raise ValueError(f"step_probability must be exponential or linear, got {form!r}")
+    return _steps(rate, dt, form, False)
 
 
 def step_hazard(rate: np.ndarray | float, dt: float, form: str) -> np.ndarray:
-    """Integrated hazard h of one step, so that 1 − exp(−h) is :func:`step_probability`.
+    """Integrated hazard h of one step, so that 1 − exp(−h) is :func:`step_probability`
+    (:func:`hazard` over arrays).
 
     An engine that draws one Exp(1) resistance Eᵢ per organisation and lets it adopt at
     the first step where the summed hazard reaches Eᵢ has exactly the per-step adoption
     probabilities of :func:`step_probability` (the survival function of a sum of hazards
     is the product of the steps' survival probabilities).
     """
-    rate = np.asarray(rate, dtype=float)
-    if form == "exponential":
-        return rate * dt
-    if form == "linear":
-        x = np.minimum(1.0, rate * dt)
-        with np.errstate(divide="ignore"):
-            return -np.log1p(-x)
-    raise ValueError(f"step_probability must be exponential or linear, got {form!r}")
+    return _steps(rate, dt, form, True)
 
 
 def draw_talkers(talkers: Talkers, n: int, rng: np.random.Generator) -> np.ndarray:
@@ -227,11 +395,15 @@ def draw_thresholds(thresholds: Thresholds, n: int, rng: np.random.Generator) ->
 
 
 def talk_weights(rule: str, tau: np.ndarray, satisfied_customer: np.ndarray, fresh: np.ndarray) -> np.ndarray:
-    """What each organisation puts into its neighbours' Tᵢ at the start of a step (float32).
+    """What each organisation puts into its neighbours' Tᵢ at the start of a step (float32;
+    :func:`talk_weight` over arrays).
 
     Every rule but ``cascade``: its talkers τ if it is a satisfied customer, else 0.
     ``cascade``: 1 during the period after it became a satisfied customer (``fresh``), else 0.
     """
-    if rule == "cascade":
-        return np.where(satisfied_customer & fresh, np.float32(1), np.float32(0))
-    return np.where(satisfied_customer, tau, np.float32(0)).astype(np.float32, copy=False)
+    given = [np.asarray(tau, dtype=np.float32), np.asarray(satisfied_customer, dtype=bool), np.asarray(fresh, dtype=bool)]
+    shape = np.broadcast_shapes(*(a.shape for a in given))
+    flat = [_flat_copy(a, shape, a.dtype.type) for a in given]
+    out = np.empty(shape, dtype=np.float32)
+    _talk_loop(rule_code(rule), *flat, out.reshape(-1))
+    return out

@@ -5,8 +5,9 @@ The lowest layer of womlab: it imports nothing of womlab but :mod:`womlab.errors
 ``sweep_spec`` the ``[sweep]`` section, ``tree`` the :class:`Scenario` itself (loading,
 ``replace``, ``--set``), ``checks`` the shared validation wording, ``registry`` what the
 layers above hand down (strategy names, the edge-list reader), ``resources`` the estimate
-of memory and work before anything runs, ``progress`` how long work reports itself, and
-``labels`` the plain label of every field.
+of memory and work before anything runs, ``progress`` how long work reports itself,
+``labels`` the plain label of every field, and ``shipped`` the demo scenarios that ship in
+the package (``demos/*.toml``).
 See :mod:`womlab.scenario.tree` for the file format.
 """
 
@@ -37,6 +38,7 @@ from womlab.scenario.sections import (
 from womlab.scenario.labels import field_label
 from womlab.scenario.resources import Estimate, check_resources, estimate_resources
 from womlab.scenario.sections import NO_EFFECT, no_effect
+from womlab.scenario.shipped import demo_names, demo_path, write_demo
 from womlab.scenario.sweep_spec import SWEEP_DESIGNS, Axis, SweepSpec
 from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario, parse_assignment
 
@@ -63,6 +65,9 @@ __all__ = [
     "SECTIONS",
     "field_type",
     "load_scenario",
+    "demo_names",
+    "demo_path",
+    "write_demo",
     "NETWORK_KINDS",
     "RULES",
     "STEP_FORMS",

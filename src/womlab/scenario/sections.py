@@ -8,9 +8,11 @@ are validated against :mod:`womlab.scenario.registry`.
 
 from __future__ import annotations
 
+import csv
 import math
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
+from functools import lru_cache
 from pathlib import Path
 from typing import Any, ClassVar, Protocol
 
@@ -34,6 +36,7 @@ __all__ = [
     "no_effect",
     "without_effect",
     "NETWORK_KINDS",
+    "FILE_KINDS",
     "RULES",
     "STEP_FORMS",
     "ENGINES",
@@ -46,7 +49,10 @@ __all__ = [
     "REWARD_SCHEMES",
 ]
 
-NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "scale_free", "edgelist")
+NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "regional_blocks", "scale_free",
+                 "edgelist", "graphml", "gexf")
+# Kinds read from a file named by network.path (their size and mean degree come from it)
+FILE_KINDS = ("edgelist", "graphml", "gexf")
 RULES = ("share", "count", "capped", "threshold", "cascade")
 STEP_FORMS = ("exponential", "linear")
 ENGINES = ("array", "mesa")
@@ -69,8 +75,9 @@ class Market:
     Parameters
     ----------
     organisations : int
-        Market size N. For ``network.kind = "edgelist"`` it may be left out and is then
-        the number of organisations in the file.
+        Market size N. For the kinds read from a file (``edgelist``, ``graphml``, ``gexf``) it
+        may be left out and is then the number of organisations in the file; if given, it
+        must match the file.
     initial_customers : int
         Customers at period 0, chosen at random (or by a seeding strategy). 0 is valid:
         adoption then starts from external influence alone, as in the Bass model.
@@ -122,20 +129,29 @@ class NetworkSpec:
     Parameters
     ----------
     kind : str
-        One of ``complete, ring, regular, random, small_world, regional, scale_free,
-        edgelist``.
+        One of ``complete, ring, regular, random, small_world, regional, regional_blocks,
+        scale_free, edgelist, graphml, gexf``. ``regional``: a small world inside each
+        region plus ties to other regions (clustered); ``regional_blocks``: a stochastic
+        block model of the regions (no clustering of its own). ``edgelist``, ``graphml``
+        and ``gexf`` are read from ``path``.
     mean_degree : float
-        Mean number of ties per organisation (ignored for ``complete`` and ``edgelist``).
-        Must be even for ``ring``, ``small_world`` and ``scale_free`` and whole for
-        ``regular``.
+        Mean number of ties per organisation (taken from the file for the file kinds,
+        ignored for ``complete``). Must be even for ``ring``, ``small_world``,
+        ``regional`` and ``scale_free`` and whole for ``regular``.
     rewiring : float
-        Watts–Strogatz rewiring probability (``small_world``).
+        Watts–Strogatz rewiring probability (``small_world``; inside each region for
+        ``regional``).
     within_region_share : float
-        Share of each organisation's expected ties inside its own region (``regional``).
+        Share of each organisation's ties inside its own region (``regional``,
+        ``regional_blocks``).
     path : str, optional
-        CSV file with columns ``source,target`` (``edgelist``); relative to the scenario file.
+        The network file, relative to the scenario file: a CSV with columns
+        ``source,target`` (``edgelist``), a GraphML (``graphml``) or GEXF (``gexf``) file.
     nodes_path : str, optional
         CSV file with columns ``id,region`` giving each organisation's region (``edgelist``).
+    region_attribute : str
+        The node attribute holding each organisation's region in a GraphML or GEXF file
+        (numbers or text, kept as given); without it everyone is in region 0.
     """
 
     section: ClassVar[str] = "network"
@@ -145,34 +161,44 @@ class NetworkSpec:
     within_region_share: float = 0.85
     path: str | None = None
     nodes_path: str | None = None
+    region_attribute: str = "region"
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("network.kind", self.kind, NETWORK_KINDS)
         in_unit("network.rewiring", self.rewiring)
         in_unit("network.within_region_share", self.within_region_share)
         n = scenario.market.organisations
-        if self.kind == "edgelist":
+        if self.kind in FILE_KINDS:
             if self.path is None:
-                raise ScenarioError('network.path is required when network.kind = "edgelist", got None')
+                raise ScenarioError(f'network.path is required when network.kind = "{self.kind}", got None')
+            if self.nodes_path is not None and self.kind != "edgelist":
+                fail("network.nodes_path", self.nodes_path, 'only with network.kind = "edgelist" (graph files carry '
+                     "their nodes' regions; see network.region_attribute)")
+            what = {"edgelist": "an existing CSV file", "graphml": "an existing GraphML file",
+                    "gexf": "an existing GEXF file"}[self.kind]
             for name in ("path", "nodes_path"):
                 value = getattr(self, name)
                 if value is not None and not Path(value).is_file():
-                    fail(f"network.{name}", value, "an existing CSV file")
+                    fail(f"network.{name}", value, what if name == "path" else "an existing CSV file")
             return
         if self.kind == "complete":
             return
         k = self.mean_degree
         if not (math.isfinite(k) and 0 < k < n):
             fail("network.mean_degree", k, f"> 0 and < market.organisations = {n}")
-        if self.kind in ("ring", "small_world", "scale_free") and (k != int(k) or int(k) % 2):
+        if self.kind in ("ring", "small_world", "regional", "scale_free") and (k != int(k) or int(k) % 2):
             fail("network.mean_degree", k, f'an even whole number for kind = "{self.kind}"')
         if self.kind == "regular":
             if k != int(k):
                 fail("network.mean_degree", k, 'a whole number for kind = "regular"')
             if (int(k) * n) % 2:
                 fail("network.mean_degree", k, f"such that mean_degree x organisations is even (organisations = {n})")
-        if self.kind == "regional" and scenario.market.regions < 2:
-            fail("market.regions", scenario.market.regions, 'at least 2 for network.kind = "regional"')
+        if self.kind in ("regional", "regional_blocks") and scenario.market.regions < 2:
+            fail("market.regions", scenario.market.regions, f'at least 2 for network.kind = "{self.kind}"')
+        smallest = n // scenario.market.regions
+        if self.kind == "regional" and smallest <= k:
+            fail("network.mean_degree", k, f'less than the smallest region ({smallest} organisations) for kind = '
+                 '"regional", whose regions are ring lattices of their own')
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -357,9 +383,19 @@ class Seeding:
     ----------
     strategy : str
         A name registered in :data:`womlab.seeding.STRATEGIES`: ``random, hubs, bridges,
-        pagerank, coreness, fringe, by_region, spread, greedy``.
+        pagerank, coreness, fringe, by_region, spread, greedy, listed``.
     budget : int, optional
-        Number of initial customers (seeds).
+        Number of initial customers (seeds). With ``listed`` it defaults to the number of
+        ids listed, and must equal it if given.
+    ids : list, optional
+        ``listed``: the organisations to seed, by their ids as given in the network file
+        (or positions 0..N−1 for generated networks); matched as text, so ``7`` and ``"7"``
+        are the same id.
+    ids_path : str, optional
+        ``listed``: a CSV file with the ids to seed in the column ``ids_column``, one per
+        row; relative to the scenario file. An alternative to ``ids``.
+    ids_column : str
+        The column of ``ids_path`` that holds the ids (default ``id``).
     betweenness_exact_up_to : int
         ``bridges`` computes exact betweenness up to this many organisations and
         sampled betweenness above it.
@@ -379,10 +415,14 @@ class Seeding:
     betweenness_sample: int = 500
     greedy_runs: int = 20
     greedy_candidates: int = 100
+    ids: tuple[Any, ...] | None = None
+    ids_path: str | None = None
+    ids_column: str = "id"
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("seeding.strategy", self.strategy, strategy_names())
         m = scenario.market
+        self._check_listed(m)
         if self.budget is not None:
             if not (0 <= self.budget <= m.organisations):
                 fail("seeding.budget", self.budget, f"between 0 and market.organisations = {m.organisations}")
@@ -396,6 +436,46 @@ class Seeding:
         non_negative("seeding.betweenness_exact_up_to", self.betweenness_exact_up_to)
         positive_int("seeding.greedy_runs", self.greedy_runs)
         non_negative("seeding.greedy_candidates", self.greedy_candidates)
+
+    def _check_listed(self, m: Market) -> None:
+        given = [name for name in ("ids", "ids_path") if getattr(self, name) is not None]
+        if self.strategy != "listed":
+            if given:
+                fail(f"seeding.{given[0]}", getattr(self, given[0]), 'used only with seeding.strategy = "listed"; '
+                     "leave it out")
+            return
+        if len(given) != 1:
+            raise ScenarioError('seeding.strategy = "listed" needs exactly one of seeding.ids (a list of organisation '
+                                f"ids) and seeding.ids_path (a CSV file), got {' and '.join(given) or 'neither'}")
+        ids = self.listed_ids()
+        if not ids:
+            fail(f"seeding.{given[0]}", self.ids_path or list(self.ids or ()), "at least one organisation id")
+        repeated = sorted({i for i in ids if ids.count(i) > 1})
+        if repeated:
+            fail(f"seeding.{given[0]}", self.ids_path or list(self.ids or ()),
+                 f"each id once (repeated: {', '.join(repr(r) for r in repeated[:5])})")
+        if len(ids) > m.organisations:
+            fail(f"seeding.{given[0]}", f"{len(ids)} ids", f"at most market.organisations = {m.organisations}")
+        stated = self.budget if self.budget is not None else (
+            m.n_initial if (m.initial_customers is not None or m.initial_share is not None) else None)
+        if stated is not None and stated != len(ids):
+            raise ScenarioError(
+                f"seeding.{given[0]} lists {len(ids)} organisations but the number of initial customers is {stated} "
+                "(seeding.budget or market.initial_customers); give the same number, or leave it out"
+            )
+
+    def listed_ids(self) -> list[str]:
+        """The ids of ``listed`` as text, from ``ids`` or the ``ids_column`` of ``ids_path``."""
+        if self.ids is not None:
+            return [str(v).strip() for v in self.ids]
+        if self.ids_path is None:
+            return []
+        return list(_ids_from_file(self.ids_path, self.ids_column))
+
+    @property
+    def listed_count(self) -> int | None:
+        """The number of seeds a ``listed`` strategy names (None for other strategies)."""
+        return len(self.listed_ids()) if self.strategy == "listed" else None
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -555,6 +635,38 @@ class Referral:
     def last_period(self, periods: int) -> int:
         """The programme's last period on a horizon of ``periods``."""
         return periods if self.end is None else self.end
+
+
+def _ids_from_file(path: str, column: str) -> tuple[str, ...]:
+    """The ids in ``column`` of the CSV file ``path`` (stripped text), remembered per file version."""
+    p = Path(path)
+    if not p.is_file():
+        fail("seeding.ids_path", path, "an existing CSV file")
+    return _read_ids(str(p), column, p.stat().st_mtime_ns, p.stat().st_size)
+
+
+@lru_cache(maxsize=32)
+def _read_ids(path: str, column: str, mtime: int, size: int) -> tuple[str, ...]:
+    try:
+        with open(path, newline="", encoding="utf-8-sig") as f:
+            rows = list(csv.reader(f))
+    except (OSError, UnicodeDecodeError, csv.Error) as exc:
+        raise ScenarioError(f"seeding.ids_path: cannot read {path!r}: {exc}") from None
+    header = [h.strip() for h in rows[0]] if rows else []
+    if column not in header:
+        raise ScenarioError(
+            f"seeding.ids_path: {path!r} must have a column {column!r} (seeding.ids_column); "
+            f"found {', '.join(header) or 'no columns'}"
+        )
+    at = header.index(column)
+    ids = []
+    for line, row in enumerate(rows[1:], start=2):
+        value = row[at].strip() if at < len(row) else ""
+        if not value:
+            raise ScenarioError(f"seeding.ids_path: {path!r} line {line} has no id in column {column!r}; "
+                                "allowed: an organisation id on every row")
+        ids.append(value)
+    return tuple(ids)
 
 
 class ScenarioParts(Protocol):

@@ -85,7 +85,7 @@ from typing import Any
 
 from womlab.errors import ScenarioError, ScenarioWarning
 from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field, utf8_text
-from womlab.scenario.registry import edgelist_facts
+from womlab.scenario.registry import network_file_facts, network_file_kinds
 from womlab.scenario.sections import (
     Adoption,
     Market,
@@ -98,7 +98,8 @@ from womlab.scenario.sections import (
     Thresholds,
     without_effect,
 )
-from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, parse_axes
+from womlab.scenario.shipped import demo_names, demo_path
+from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, is_path_field, parse_axes, resolve_path
 
 __all__ = ["Scenario", "load_scenario", "field_type", "parse_assignment", "SECTIONS", "INPUT_FIELDS"]
 
@@ -293,8 +294,12 @@ class Scenario:
 
     @property
     def n_initial(self) -> int:
-        """Number of initial customers: ``seeding.budget`` when given, else ``market.n_initial``."""
-        return self.seeding.budget if self.seeding.budget is not None else self.market.n_initial
+        """Number of initial customers: ``seeding.budget`` when given, else the ids a ``listed``
+        strategy names, else ``market.n_initial``."""
+        if self.seeding.budget is not None:
+            return self.seeding.budget
+        listed = self.seeding.listed_count
+        return listed if listed is not None else self.market.n_initial
 
 
 # What the user said is remembered beside the fields, not as fields: it is no part of a scenario's
@@ -381,14 +386,13 @@ def _build_section(cls: type, dotted: str, value: Any, base_dir: str | Path | No
         if nested is Talkers:
             kwargs[key] = _talkers(item, name)
         elif nested is Axis:
-            kwargs[key] = parse_axes(item, name)
+            kwargs[key] = parse_axes(item, name, base_dir)
         elif nested is not None:
             kwargs[key] = _build_section(nested, name, item, base_dir)
         else:
             kwargs[key] = coerce(item, types_of[key], name)
-        if cls is NetworkSpec and key in ("path", "nodes_path") and kwargs[key] is not None and base_dir is not None:
-            p = Path(kwargs[key])
-            kwargs[key] = str(p if p.is_absolute() else (Path(base_dir) / p).resolve())
+        if is_path_field(name) and isinstance(kwargs[key], str) and base_dir is not None:
+            kwargs[key] = resolve_path(kwargs[key], base_dir)
     return cls(**kwargs)
 
 
@@ -404,34 +408,39 @@ def _talkers(value: Any, dotted: str) -> Talkers:
     return Talkers(distribution="fixed", mean=float(value))
 
 
+_FILE_NAMES = {"edgelist": "edge list", "graphml": "GraphML file", "gexf": "GEXF file"}
+
+
 def _fill_edgelist_facts(kwargs: dict[str, Any], market_given: Mapping[str, Any]) -> None:
-    """For an edge-list network, the market size, the mean degree and (with a node file) the
-    number of regions come from the files (in place on ``kwargs``).
+    """For a network read from a file, the market size, the mean degree and (from a node file,
+    or a graph file's region attribute) the number of regions come from the file (in place on
+    ``kwargs``).
 
     ``network.mean_degree`` is the file's own, 2·ties / organisations, so that every
     derived quantity (the mapped Bass Q, the manifest) uses the network actually read.
     """
     network = kwargs.get("network")
-    if network is None or network.kind != "edgelist" or network.path is None or not Path(network.path).is_file():
+    if network is None or network.kind not in network_file_kinds() or network.path is None or not Path(network.path).is_file():
         return
     if network.nodes_path is not None and not Path(network.nodes_path).is_file():
         return  # NetworkSpec.check names the missing file
-    n, mean_degree, regions = edgelist_facts(network.path, network.nodes_path)
+    n, mean_degree, regions = network_file_facts(network.kind, network.path, network.nodes_path)
     kwargs["network"] = dataclasses.replace(network, mean_degree=mean_degree)
     market = kwargs["market"]
     name = Path(network.path).name
     if "organisations" in market_given and market.organisations != n:
         raise ScenarioError(
-            f"market.organisations must match the edge list ({n} organisations in {name}), "
+            f"market.organisations must match the {_FILE_NAMES.get(network.kind, 'network file')} "
+            f"({n} organisations in {name}), "
             f"got {market.organisations}"
         )
     changes: dict[str, Any] = {"organisations": n}
-    if network.nodes_path is not None:
+    if network.nodes_path is not None or regions > 1:  # a node file, or a graph file's region attribute
+        source = ("node file", Path(network.nodes_path).name) if network.nodes_path is not None else (
+            _FILE_NAMES.get(network.kind, "network file"), name)
         if "regions" in market_given and market.regions != regions:
-            raise ScenarioError(
-                f"market.regions must match the node file ({regions} regions in {Path(network.nodes_path).name}), "
-                f"got {market.regions}"
-            )
+            raise ScenarioError(f"market.regions must match the {source[0]} ({regions} regions in {source[1]}), "
+                                f"got {market.regions}")
         changes["regions"] = regions
     kwargs["market"] = dataclasses.replace(market, **changes)
 
@@ -451,13 +460,14 @@ def field_type(dotted: str) -> type:
 
 
 def load_scenario(path: str | Path, changes: Mapping[str, Any] | None = None) -> Scenario:
-    """Read and validate a scenario TOML file, with optional changes to its fields.
+    """Read and validate a scenario TOML file, or a shipped demo by name (``"demo"``), with
+    optional changes to its fields.
 
     Parameters
     ----------
     path : str or Path
-        A UTF-8 TOML file (a UTF-8 byte-order mark is allowed). Input files it names are
-        resolved against its folder.
+        A UTF-8 TOML file (a UTF-8 byte-order mark is allowed), or a shipped demo's name.
+        Input files it names are resolved against its folder.
     changes : mapping, optional
         Dotted field → value, applied to the file's values before validation, exactly
         as if the file said them (``womlab --set field=value``).
@@ -472,8 +482,12 @@ def load_scenario(path: str | Path, changes: Mapping[str, Any] | None = None) ->
         no scenario at all, or any field is invalid: one line naming what is wrong.
     """
     p = Path(path)
+    if not p.is_file() and str(path) in demo_names():  # a demo that ships with womlab
+        p = demo_path(str(path))
     if not p.is_file():
-        raise ScenarioError(f"scenario file {str(path)!r} does not exist")
+        raise ScenarioError(
+            f"scenario file {str(path)!r} does not exist (the shipped demos are {', '.join(demo_names())})"
+        )
     try:
         raw = p.read_bytes()
     except OSError as exc:

@@ -18,6 +18,7 @@ from womlab.seeding.registry import (
     register_simulator,
     strategy,
 )
+from womlab.seeding.centrality import betweenness, core_numbers, pagerank as pagerank_values
 from womlab.seeding.strategies import (
     bridges,
     by_region,
@@ -26,6 +27,7 @@ from womlab.seeding.strategies import (
     fringe,
     greedy,
     hubs,
+    listed,
     pagerank,
     random,
     region_quotas,
@@ -49,6 +51,10 @@ __all__ = [
     "by_region",
     "spread",
     "greedy",
+    "listed",
     "region_quotas",
     "engine_objective",
+    "betweenness",
+    "core_numbers",
+    "pagerank_values",
 ]

@@ -16,14 +16,16 @@ from womlab.store.folders import (
     FolderWriter,
     atomic_write,
     check_results_folder,
+    differences,
+    file_sha256,
     manifest,
     results_folder,
     versions,
 )
-from womlab.store.sweep_store import STORE_FORMAT, ResultsStore
+from womlab.store.sweep_store import STORE_FORMAT, ResultsStore, runs_schema
 
 __all__ = ["atomic_write", "manifest", "results_folder", "versions", "check_results_folder", "FolderWriter", "MANIFEST",
-           "ResultsStore", "STORE_FORMAT", "RUNS_SCHEMA", "CURVES_SCHEMA"]
+           "ResultsStore", "STORE_FORMAT", "RUNS_SCHEMA", "CURVES_SCHEMA", "runs_schema", "file_sha256", "differences"]
 
 
 def __getattr__(name: str) -> Any:  # RUNS_SCHEMA / CURVES_SCHEMA without importing pyarrow at import

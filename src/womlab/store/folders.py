@@ -19,6 +19,8 @@ A folder is refused, with one line and before any work, when it
 The manifest lists the files the command wrote (``files``), so the next command knows
 which are womlab's. :func:`manifest` says how a folder was made; :func:`versions` and
 :func:`machine` what it was made with.
+
+Every file is flushed to disk (fsync) before it is renamed into place, and the folder after.
 """
 
 from __future__ import annotations
@@ -39,9 +41,9 @@ from typing import Any
 from womlab.errors import StoreError
 
 __all__ = ["results_folder", "versions", "machine", "source_commit", "file_sha256", "atomic_write", "manifest",
-           "check_results_folder", "FolderWriter", "MANIFEST", "TIMING_FIELDS"]
+           "check_results_folder", "FolderWriter", "MANIFEST", "TIMING_FIELDS", "differences"]
 
-_LIBRARIES = ("womlab", "numpy", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib",
+_LIBRARIES = ("womlab", "numpy", "numba", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib",
               "pyarrow", "dask", "distributed", "tqdm")
 
 #: The one manifest name of every results folder.
@@ -108,18 +110,31 @@ def file_sha256(path: str | Path) -> str:
     return digest.hexdigest()
 
 
+def _fsync(path: str | Path, directory: bool = False) -> None:
+    fd = os.open(path, os.O_RDONLY | (getattr(os, "O_DIRECTORY", 0) if directory else 0))
+    try:
+        os.fsync(fd)
+    except OSError:  # pragma: no cover - a file system that cannot sync a folder
+        if not directory:
+            raise
+    finally:
+        os.close(fd)
+
+
 def atomic_write(path: Path, write: Callable[[Path], Any]) -> Path:
-    """Call ``write(tmp)`` on a temporary file beside ``path``, then rename it into place."""
+    """Call ``write(tmp)`` on a temporary file beside ``path``, flush it to disk, then rename it into place."""
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=path.parent)
     os.close(fd)
     try:
         write(Path(tmp))
         _shareable(Path(tmp))
+        _fsync(tmp)
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
+    _fsync(path.parent, directory=True)
     return path
 
 
@@ -239,14 +254,26 @@ def _ours(out: Path, data: dict[str, Any] | None) -> set[str]:
     return names
 
 
-def _differences(old: Any, new: Any, prefix: str = "", limit: int = 4) -> list[str]:
-    out: list[str] = []
-    if isinstance(old, dict) and isinstance(new, dict):
-        for key in sorted(set(old) | set(new), key=str):
-            out += _differences(old.get(key), new.get(key), f"{prefix}{key}.", limit)
-    elif old != new:
-        out.append(f"{prefix[:-1]} {json.dumps(old)} -> {json.dumps(new)}")
-    return out[:limit]
+def _flatten(value: Any, prefix: str = "") -> dict[str, Any]:
+    if isinstance(value, dict):
+        out: dict[str, Any] = {}
+        for k, v in value.items():
+            out.update(_flatten(v, f"{prefix}{k}."))
+        return out or {prefix[:-1]: {}}
+    return {prefix[:-1]: value}
+
+
+def differences(there: dict, now: dict, limit: int = 6) -> list[str]:
+    """``key: <there> there, <now> now`` for every dotted key whose value differs (at most ``limit``)."""
+    a, b = _flatten(there), _flatten(now)
+    missing = object()
+    out = []
+    for key in sorted(set(a) | set(b)):
+        va, vb = a.get(key, missing), b.get(key, missing)
+        if va != vb:
+            show = lambda v: "(absent)" if v is missing else json.dumps(v)  # noqa: E731
+            out.append(f"{key}: {show(va)} there, {show(vb)} now")
+    return out[:limit] + ([f"... and {len(out) - limit} more"] if len(out) > limit else [])
 
 
 def check_results_folder(out: str | Path, command: str, identity: dict[str, Any], names: Iterable[str], *,
@@ -280,7 +307,7 @@ def check_results_folder(out: str | Path, command: str, identity: dict[str, Any]
         raise StoreError(f"--out {str(out)!r} holds the results of {made_by}; use --force to replace them with "
                          f"womlab {command}'s, or choose another folder")
     if data.get("identity") != identity:
-        diff = _differences(data.get("identity"), identity)
+        diff = differences(data.get("identity") or {}, identity, limit=4)
         raise StoreError(f"--out {str(out)!r} holds the results of another scenario ({'; '.join(diff)}); use "
                          "--force to replace them, or choose another folder")
     return out
@@ -342,7 +369,7 @@ class FolderWriter:
             (stage / MANIFEST).write_text(text, encoding="utf-8")
             for name in [*self._files, MANIFEST]:
                 _shareable(stage / name)
-                _flush(stage / name)
+                _fsync(stage / name)
             (self.out / _MOVING).write_text(json.dumps(sorted({*self._files, *self._previous})), encoding="utf-8")
             (self.out / MANIFEST).unlink(missing_ok=True)
             for name in self._files:
@@ -352,6 +379,7 @@ class FolderWriter:
                     (self.out / name).unlink(missing_ok=True)
             os.replace(stage / MANIFEST, self.out / MANIFEST)
             (self.out / _MOVING).unlink(missing_ok=True)
+            _fsync(self.out, directory=True)
         except OSError as exc:
             raise StoreError(f"--out {str(self.out)!r} could not be written: {exc.strerror}") from None
         return [self.out / name for name in [*self._files, MANIFEST]]
@@ -365,20 +393,6 @@ class FolderWriter:
                 self.out.rmdir()  # only if still empty: nothing of ours is left
             except OSError:
                 pass
-
-
-def _flush(path: Path) -> None:
-    """Make a file's bytes durable before it is renamed into place."""
-    try:
-        fd = os.open(path, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
 
 
 def _plain(value: Any) -> Any:

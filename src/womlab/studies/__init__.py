@@ -5,9 +5,9 @@ nothing of files' contents, figures or the command line (above). ``runner`` hold
 replicate batches and paired runs (common random numbers, joblib); ``compare`` the
 network set beside the aggregate models; ``seeding_study`` the paired seeding study;
 ``programme`` a referral programme's economics; ``sweep`` designs and the resumable
-sweep runner; ``plan`` what each command will run on a scenario; ``sensitivity`` Sobol
-and Morris; ``metrics`` curve statistics and
-intervals; ``referrals`` referral-tree analytics; ``presenting`` the registry through
+sweep runner; ``sweep_studies`` the registry of what a sweep point runs; ``plan`` what
+each command will run on a scenario; ``sensitivity`` Sobol and Morris; ``metrics`` curve
+statistics and intervals; ``referrals`` referral-tree analytics; ``presenting`` the registry through
 which a study's result asks :mod:`womlab.results` to draw or write it.
 """
 
@@ -35,6 +35,7 @@ from womlab.studies.programme import (
     customer_values,
     evaluate_programme,
     programme_economics,
+    programme_ratios,
     roi,
     value_flow,
 )
@@ -49,15 +50,18 @@ from womlab.studies.referrals import (
     top_degree_referral_share,
     word_of_mouth_by_period,
 )
-from womlab.studies.runner import Batch, run_one, run_paired, run_replicates
+from womlab.studies.runner import Batch, crossover_seconds, parallel_choice, run_one, run_paired, run_replicates
 from womlab.studies.seeding_study import SeedingStudy, compare_strategies, lift_statistics, run_outcomes
 from womlab.studies.sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
 from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, run_point, run_sweep
+from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_study, sweep_studies, sweep_study
 
 __all__ = [
     "plan",
     "programme_summary",
     "slow_steps",
+    "parallel_choice",
+    "crossover_seconds",
     "Batch",
     "run_one",
     "run_replicates",
@@ -72,6 +76,7 @@ __all__ = [
     "ProgrammeStudy",
     "evaluate_programme",
     "programme_economics",
+    "programme_ratios",
     "customer_values",
     "value_flow",
     "roi",
@@ -102,6 +107,11 @@ __all__ = [
     "point_scenarios",
     "run_point",
     "run_sweep",
+    "Outcome",
+    "SweepStudy",
+    "register_sweep_study",
+    "sweep_study",
+    "sweep_studies",
     "saltelli_design",
     "sobol_indices",
     "morris_design",

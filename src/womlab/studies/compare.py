@@ -52,6 +52,7 @@ from womlab.aggregate import (
 )
 from womlab.dynamics import streams
 from womlab.networks import build_network
+from womlab.networks.given import GivenNetwork, as_network, mapped_with
 from womlab.scenario import Scenario
 from womlab.studies.metrics import pooled_gaps, pooled_metrics, replicate_gaps, replicate_metrics
 from womlab.studies.presenting import present
@@ -241,6 +242,7 @@ def compare(
     level: float = 0.95,
     progress: bool = False,
     batch: Batch | None = None,
+    network: GivenNetwork | None = None,
 ) -> Comparison:
     """Run a scenario's replicates and compare the network with every aggregate model.
 
@@ -263,6 +265,9 @@ def compare(
         Progress bar while running.
     batch : Batch, optional
         Runs already made of this scenario (then nothing is run).
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate and for the degree mean-field model (see
+        :func:`womlab.run_replicates`); it must have ``market.organisations`` organisations.
 
     Returns
     -------
@@ -277,12 +282,15 @@ def compare(
     >>> sorted(c.curves)
     ['bass_difference', 'bass_fitted', 'bass_mapped', 'capped_bass_difference', 'degree_mean_field']
     """
+    network = batch.network if network is None and batch is not None else network
+    given = None if network is None else as_network(network, scenario.market.organisations)
     if batch is None:
-        batch = run_replicates(scenario, replicates, jobs=jobs, progress=progress)
+        batch = run_replicates(scenario, replicates, jobs=jobs, progress=progress, network=given)
+        batch.network = network  # as given (a graph keeps its node attributes)
     seed = scenario.seed if seed is None else seed
     shares = batch.shares()
-    par = mapped_parameters(scenario)
-    curves = aggregate_curves(scenario)
+    par = mapped_parameters(mapped_with(scenario, given))
+    curves = aggregate_curves(mapped_with(scenario, given), given)
     fit = fit_bass(shares.mean(axis=0))
     curves["bass_fitted"] = fit.share(np.arange(shares.shape[1], dtype=float))
     per_rep_fits = fit_replicates(shares, market=None if fit.market_fitted else 1.0, start=(fit.p, fit.Q, fit.m))
@@ -304,5 +312,5 @@ def compare(
         bass_fit=fit,
         stock_flow_fit=sf,
         settings={"bootstrap": bootstrap, "fit_bootstrap": fit_bootstrap, "bootstrap_seed": seed, "level": level,
-                  "degree_mean_field_network": "replicate 0"},
+                  "degree_mean_field_network": "replicate 0" if given is None else "the network given"},
     )

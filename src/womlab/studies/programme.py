@@ -29,6 +29,7 @@ import pandas as pd
 from womlab.dynamics import ENROLMENT_STREAM, PROGRAMME_ENGINES, RunResult, streams
 from womlab.errors import ScenarioError
 from womlab.networks import build_network
+from womlab.networks.given import GivenNetwork, as_network
 from womlab.scenario import Referral, Scenario
 from womlab.studies.metrics import discount_factors, mean_interval
 from womlab.studies.referrals import referral_tree_summary
@@ -39,6 +40,8 @@ __all__ = [
     "value_flow",
     "roi",
     "programme_economics",
+    "programme_ratios",
+    "check_programme",
     "ProgrammeStudy",
     "evaluate_programme",
 ]
@@ -159,6 +162,57 @@ def programme_economics(baseline: RunResult, programme: RunResult, referral: Ref
     }
 
 
+RATIO_NAMES = ("roi", "cost_per_incremental_customer", "acceleration_share")
+
+
+def programme_ratios(table: pd.DataFrame, *, bootstrap: int, rng: np.random.Generator) -> list[dict]:
+    """ROI, cost per incremental customer and acceleration share of a programme, as ratios of
+    totals over replicates, each with a percentile bootstrap interval over replicates.
+
+    ``roi`` = Σ(ΔValue − Cost) / ΣCost, ``cost_per_incremental_customer`` = ΣCost / ΣΔcustomers
+    (NaN unless Σ ΔCustomers > 0), ``acceleration_share`` = Σ acceleration / Σ ΔValue (the
+    part of the incremental value that is customers adopting earlier, Libai, Muller &
+    Peres 2013). ``table`` has one row per replicate with the :func:`programme_economics`
+    columns. With one replicate there is no interval (NaN bounds).
+
+    Returns
+    -------
+    list of dict
+        One per ratio: ``outcome``, ``estimate``, ``low``, ``high``, ``interval``.
+    """
+    dv, c, dc, acc = (table[k].to_numpy(dtype=float)
+                      for k in ("incremental_value", "cost", "incremental_customers", "acceleration"))
+
+    def ratios(idx: np.ndarray) -> tuple[float, float, float]:
+        cs, vs, ns, accs = c[idx].sum(), dv[idx].sum(), dc[idx].sum(), acc[idx].sum()
+        return roi(vs, cs), (cs / ns if ns > 0 else float("nan")), (accs / vs if vs != 0 else float("nan"))
+
+    n = len(table)
+    est = ratios(np.arange(n))
+    boot = np.array([ratios(rng.integers(0, n, n)) for _ in range(bootstrap)]) if n > 1 else np.zeros((0, 3))
+    rows = []
+    for j, name in enumerate(RATIO_NAMES):
+        b = boot[:, j]
+        b = b[np.isfinite(b)]
+        lo, hi = (np.quantile(b, [0.025, 0.975]) if b.size else (np.nan, np.nan))
+        rows.append({"outcome": name, "estimate": est[j], "low": float(lo), "high": float(hi),
+                     "interval": f"ratio of totals; percentile bootstrap, {bootstrap} resamples of replicates"})
+    return rows
+
+
+def check_programme(scenario: Scenario) -> None:
+    """Raise ScenarioError unless the scenario has a programme that its engine can run."""
+    if not scenario.referral.active:
+        raise ScenarioError(
+            'referral.enrol must be one of all, share, strategy to evaluate a programme, got "none"'
+        )
+    if scenario.run.engine not in PROGRAMME_ENGINES:
+        raise ScenarioError(
+            f"run.engine must be one of {', '.join(PROGRAMME_ENGINES)} for a referral programme "
+            f"(the programme is not yet applied by the others), got {scenario.run.engine!r}"
+        )
+
+
 @dataclass(eq=False)
 class ProgrammeStudy:
     """A referral programme evaluated against its baseline on paired replicates.
@@ -193,10 +247,9 @@ class ProgrammeStudy:
     def summary(self) -> pd.DataFrame:
         """Per outcome: the estimate and its 95 % interval over replicates.
 
-        Totals and counts are means over replicates with a t interval. ``roi`` and
-        ``cost_per_incremental_customer`` are ratios of the totals over all replicates
-        (Σ(ΔValue − Cost) / ΣCost; ΣCost / ΣΔcustomers) with a percentile bootstrap
-        interval over replicates (resamples seeded from the scenario's seed).
+        Totals and counts are means over replicates with a t interval; ``roi``,
+        ``cost_per_incremental_customer`` and ``acceleration_share`` are ratios of totals
+        (:func:`programme_ratios`; resamples seeded from the scenario's seed).
         """
         table = self.per_replicate()
         rows = []
@@ -205,21 +258,8 @@ class ProgrammeStudy:
                     "customers_baseline", "customers_programme"):
             m, lo, hi = mean_interval(table[col].to_numpy())
             rows.append({"outcome": col, "estimate": m, "low": lo, "high": hi, "interval": "t, mean over replicates"})
-        dv, c, dc = (table[k].to_numpy(dtype=float) for k in ("incremental_value", "cost", "incremental_customers"))
-
-        def ratios(idx: np.ndarray) -> tuple[float, float]:
-            cs, vs, ns = c[idx].sum(), dv[idx].sum(), dc[idx].sum()
-            return roi(vs, cs), (cs / ns if ns > 0 else float("nan"))
-
-        est = ratios(np.arange(len(table)))
         rng = np.random.default_rng(np.random.SeedSequence(self.scenario.seed, spawn_key=(ENROLMENT_STREAM, 1)))
-        boot = np.array([ratios(rng.integers(0, len(table), len(table))) for _ in range(self.bootstrap)])
-        for j, name in enumerate(("roi", "cost_per_incremental_customer")):
-            b = boot[:, j]
-            b = b[np.isfinite(b)]
-            lo, hi = (np.quantile(b, [0.025, 0.975]) if b.size else (np.nan, np.nan))
-            rows.append({"outcome": name, "estimate": est[j], "low": float(lo), "high": float(hi),
-                         "interval": f"percentile bootstrap, {self.bootstrap} resamples of replicates"})
+        rows += programme_ratios(table, bootstrap=self.bootstrap, rng=rng)
         be = self.break_even_period()
         rows.append({"outcome": "break_even_period", "estimate": be, "low": np.nan, "high": np.nan,
                      "interval": "of the mean cumulative curves"})
@@ -275,6 +315,7 @@ def evaluate_programme(
     jobs: int | None = None,
     progress: bool = False,
     degrees: bool = True,
+    network: GivenNetwork | None = None,
 ) -> ProgrammeStudy:
     """Evaluate the scenario's referral programme against no programme, on paired replicates.
 
@@ -294,6 +335,9 @@ def evaluate_programme(
     degrees : bool
         Rebuild each replicate's network (from its network stream) to record degrees for
         the top-decile statistic.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate and both arms (see
+        :func:`womlab.run_replicates`); it must have ``market.organisations`` organisations.
 
     Raises
     ------
@@ -310,24 +354,19 @@ def evaluate_programme(
     >>> list(study.per_replicate().columns[:3])
     ['replicate', 'customers_baseline', 'customers_programme']
     """
-    if not scenario.referral.active:
-        raise ScenarioError(
-            'referral.enrol must be one of all, share, strategy to evaluate a programme, got "none"'
-        )
-    if scenario.run.engine not in PROGRAMME_ENGINES:
-        raise ScenarioError(
-            f"run.engine must be one of {', '.join(PROGRAMME_ENGINES)} for a referral programme "
-            f"(the programme is not yet applied by the others), got {scenario.run.engine!r}"
-        )
+    check_programme(scenario)
     replicates = scenario.run.replicates if replicates is None else replicates
     jobs = scenario.run.jobs if jobs is None else jobs
     if replicates < 1:
         raise ScenarioError(f"replicates must be a whole number >= 1, got {replicates}")
+    given = None if network is None else as_network(network, scenario.market.organisations)
     baseline = scenario.replace("referral.enrol", "none")
-    runs = run_paired({"baseline": baseline, "programme": scenario}, replicates, jobs=jobs, progress=progress)
+    runs = run_paired({"baseline": baseline, "programme": scenario}, replicates, jobs=jobs, progress=progress,
+                      network=given)
     degs = []
     if degrees:
         for r in range(replicates):
-            net = build_network(scenario, np.random.default_rng(streams(scenario.seed, (r,)).network))
+            net = given if given is not None else build_network(
+                scenario, np.random.default_rng(streams(scenario.seed, (r,)).network))
             degs.append(net.degree())
     return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs)

@@ -15,9 +15,13 @@ case of the same mechanism.
 
 from __future__ import annotations
 
+import math
+import sys
 import time
-from collections.abc import Callable, Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
+from functools import partial
 from typing import Any
 
 import numpy as np
@@ -27,6 +31,7 @@ from womlab.aggregate import aggregate_curve
 from womlab.dynamics import CURVE_COLUMNS, RunResult, engine_for, streams
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
+from womlab.networks.given import GivenNetwork, as_network, mapped_with, node_attributes
 from womlab.scenario import Scenario
 from womlab.scenario.progress import bar, doing
 from womlab.scenario.resources import usable_jobs
@@ -37,11 +42,14 @@ __all__ = [
     "run_one",
     "run_replicates",
     "run_paired",
+    "run_chunks",
+    "parallel_choice",
+    "crossover_seconds",
     "Batch",
 ]
 
 
-def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: ReferralNetwork | None = None) -> RunResult:
+def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: GivenNetwork | None = None) -> RunResult:
     """One seeded run of ``scenario`` with spawn key ``key``.
 
     Parameters
@@ -49,8 +57,10 @@ def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: Referra
     scenario : Scenario
     key : tuple of int
         SeedSequence spawn key: ``(replicate,)`` in a batch, ``(point, replicate)`` in a sweep.
-    network : ReferralNetwork, optional
-        A network to reuse; by default it is built from the run's network stream.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        The network to run on (an edge table has columns ``source``, ``target``; see
+        :func:`womlab.networks.given.as_network`), of ``market.organisations``
+        organisations; by default it is built from the run's network stream.
 
     Examples
     --------
@@ -60,7 +70,8 @@ def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: Referra
     >>> len(run_one(s, (0,)).curve())
     11
     """
-    return _run_variants({"": scenario}, key, network)[""]
+    given = None if network is None else as_network(network, scenario.market.organisations)
+    return _run_variants({"": scenario}, key, given)[""]
 
 
 def _run_variants(
@@ -82,11 +93,12 @@ def _run_variants(
 
 
 def _chunk(
-    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None
+    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None,
+    network: ReferralNetwork | None = None,
 ) -> list[tuple[tuple, dict[str, Any]]]:
     out = []
     for key in keys:
-        runs = _run_variants(variants, key)
+        runs = _run_variants(variants, key, network)
         out.append((key, runs if reduce is None else {name: reduce(r) for name, r in runs.items()}))
     return out
 
@@ -105,30 +117,159 @@ def _check_pairable(variants: Mapping[str, Scenario]) -> None:
             raise ScenarioError(f"variant {name!r} has run.periods = {s.run.periods}, the first {first.run.periods}")
 
 
+#: Seconds a fresh pool of worker processes takes before its first result: each worker starts
+#: Python, imports womlab and loads the compiled engine. Measured by ``benchmarks/sweeps.py``
+#: (median on the shared 2-core machine, 3.43 and 3.49 s, in CPU seconds of one worker, which
+#: a busy machine swells less than wall time); see :func:`crossover_seconds`.
+POOL_START_SECONDS = 3.5
+#: The same for a pool that is already running in this process (handing a chunk over and back).
+POOL_WARM_SECONDS = 0.05
+#: joblib keeps an idle pool this long (seconds) before its workers exit.
+POOL_IDLE_SECONDS = 300.0
+#: Chunks handed to a worker take about this long at most (seconds), so progress keeps moving.
+CHUNK_SECONDS = 1.0
+
+_MODES = ("auto", "pool", "in-process")
+_choice = {"mode": "auto"}
+_pool: dict[str, float] = {"workers": 0.0, "last_used": -np.inf}
+
+
+@contextmanager
+def parallel_choice(mode: str) -> Iterator[None]:
+    """Within the block, run batches ``"auto"`` (the default: in-process below the crossover),
+    always on the ``"pool"`` when ``jobs`` > 1, or always ``"in-process"``.
+
+    Results are the same whichever runs them (every run is seeded by its own key); this
+    only changes where they run, e.g. to time both or to test that they agree.
+
+    Examples
+    --------
+    >>> with parallel_choice("in-process"):
+    ...     pass
+    """
+    if mode not in _MODES:
+        raise ScenarioError(f"parallel choice must be one of {', '.join(_MODES)}, got {mode!r}")
+    before = _choice["mode"]
+    _choice["mode"] = mode
+    try:
+        yield
+    finally:
+        _choice["mode"] = before
+
+
+def crossover_seconds(workers: int, warm: bool = False) -> float:
+    """Estimated in-process seconds above which ``workers`` worker processes finish sooner.
+
+    In-process, W seconds of runs take W; on a pool they take S + W / workers, S the pool's
+    start-up (:data:`POOL_START_SECONDS`, or :data:`POOL_WARM_SECONDS` for a pool already
+    running in this process). The pool pays when W > S · workers / (workers − 1).
+
+    Examples
+    --------
+    >>> crossover_seconds(2) == 2 * POOL_START_SECONDS
+    True
+    """
+    if workers <= 1:
+        return np.inf
+    start = POOL_WARM_SECONDS if warm else POOL_START_SECONDS
+    return start * workers / (workers - 1)
+
+
+def _sized(func: Callable[[list[Any]], Any], chunk: list[Any]) -> tuple[int, Any]:
+    return len(chunk), func(chunk)
+
+
+def _pool_warm(workers: int) -> bool:
+    return _pool["workers"] == workers and time.monotonic() - _pool["last_used"] < POOL_IDLE_SECONDS * 0.9
+
+
+def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int, *,
+               chunk_size: int | None = None, what: str = "runs",
+               chosen: dict[str, str] | None = None) -> Iterator[tuple[int, Any]]:
+    """Run ``func`` over chunks of ``items``, in-process or on a pool of worker processes.
+
+    The one place womlab starts workers (batches, paired studies and sweeps all come here).
+    With ``jobs`` > 1 and the default ``"auto"`` choice (:func:`parallel_choice`), the first
+    items run in-process, one at a time, and their CPU time is taken; if the rest, at the last
+    item's time each, would take longer than :func:`crossover_seconds`, a joblib loky pool takes the rest
+    (a line on standard error says so when the pool has to start), otherwise they run
+    in-process too. The pool is joblib's reusable one: started once per process and reused
+    by later batches while it is busy enough not to idle out. Chunks hold about a quarter of
+    each worker's share, at most about :data:`CHUNK_SECONDS` of work (or ``chunk_size`` items).
+
+    ``chosen``, if given, receives ``chosen["backend"]``: ``"in-process"`` or ``"loky, N workers"``.
+
+    Yields
+    ------
+    (count, result)
+        How many items the chunk held and ``func(chunk)``, as chunks finish (in any order).
+    """
+    from joblib import Parallel, delayed
+
+    items = list(items)
+    workers = min(usable_jobs(jobs), len(items))  # never more processes than cores
+    mode = _choice["mode"]
+    done = 0
+    each = np.inf
+    if workers > 1 and mode == "auto":
+        warm = _pool_warm(workers)
+        need = crossover_seconds(workers, warm)
+        while done < len(items):
+            started = time.process_time()  # CPU seconds: the estimate does not swell when the machine is busy
+            result = func([items[done]])
+            each = time.process_time() - started
+            done += 1
+            yield 1, result
+            ahead = each * (len(items) - done)
+            if ahead < need:  # the rest is cheaper here; the first run's warm-up only overstates it
+                workers = 1
+                break
+            if done >= 2 or each > 4 * need:  # a second, warm timing, unless one run alone is that long
+                break
+    if chosen is not None:
+        chosen["backend"] = "in-process" if workers <= 1 or mode == "in-process" else f"loky, {workers} workers"
+    if workers <= 1 or mode == "in-process":
+        size = chunk_size or 1
+        for i in range(done, len(items), size):
+            chunk = items[i : i + size]
+            yield len(chunk), func(chunk)
+        return
+    rest = items[done:]
+    if not rest:
+        return
+    if chunk_size is None:
+        longest = max(1, int(CHUNK_SECONDS / each)) if np.isfinite(each) and each > 0 else len(rest)
+        chunk_size = max(1, min(math.ceil(len(rest) / (workers * 4)), longest))
+    chunks = [rest[i : i + chunk_size] for i in range(0, len(rest), chunk_size)]
+    if not _pool_warm(workers):
+        guess = f" for about {each * len(rest):.0f} s of {what}" if np.isfinite(each) else ""
+        print(f"womlab: starting {workers} worker processes{guess}", file=sys.stderr, flush=True)
+    try:
+        results = Parallel(n_jobs=workers, backend="loky", return_as="generator_unordered")(
+            delayed(_sized)(func, chunk) for chunk in chunks)
+        for count, chunk_result in results:
+            yield count, chunk_result
+            _pool.update(workers=float(workers), last_used=time.monotonic())
+    finally:
+        _pool.update(workers=float(workers), last_used=time.monotonic())
+
+
 def _execute(
     variants: Mapping[str, Scenario],
     keys: list[tuple[int, ...]],
     jobs: int,
     progress: bool,
     reduce: Callable[[RunResult], Any] | None = None,
+    network: ReferralNetwork | None = None,
 ) -> dict[tuple, dict[str, Any]]:
-    """Run every key, chunked across ``jobs`` workers; results keyed by spawn key.
+    """Run every key, in-process or across ``jobs`` workers (:func:`run_chunks`); results keyed by spawn key.
 
     ``reduce``, if given, is applied to each run inside the worker (a picklable function),
-    so that only its small return value travels back."""
-    from joblib import Parallel, delayed
-
-    workers = usable_jobs(jobs)  # never more processes than cores
-    if workers == 1 or len(keys) == 1:
-        chunks = [[k] for k in keys]
-        results = (_chunk(variants, c, reduce) for c in chunks)
-    else:
-        size = max(1, min(32, len(keys) // (workers * 4)))
-        chunks = [keys[i : i + size] for i in range(0, len(keys), size)]
-        results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c, reduce) for c in chunks)
+    so that only its small return value travels back. ``network``, if given, is the one
+    network every run is on (else each key builds its own)."""
     done: dict[tuple, dict[str, RunResult]] = {}
     with bar(len(keys), "replicates", unit="replicate", show=progress) as count:
-        for chunk in results:
+        for _, chunk in run_chunks(partial(_chunk, variants, reduce=reduce, network=network), keys, jobs):
             for key, result in chunk:
                 done[key] = result
             count.update(len(chunk))
@@ -146,11 +287,14 @@ class Batch:
         In replicate order.
     wall_time : float
         Seconds the batch took.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        The network every run was on, as it was given (None: each replicate built its own).
     """
 
     scenario: Scenario
     runs: list[RunResult]
     wall_time: float = 0.0
+    network: Any = field(default=None, repr=False)
     _aggregate: np.ndarray | None = field(default=None, repr=False)
 
     @property
@@ -162,9 +306,11 @@ class Batch:
         return np.vstack([r.share for r in self.runs])
 
     def aggregate(self) -> np.ndarray:
-        """The aggregate model's share on the same grid, step and step form."""
+        """The aggregate model's share on the same grid, step and step form (mapped with the
+        mean degree of the network given, when there is one: :func:`womlab.networks.given.mapped_with`)."""
         if self._aggregate is None:
-            self._aggregate = aggregate_curve(self.scenario)
+            given = None if self.network is None else as_network(self.network)
+            self._aggregate = aggregate_curve(mapped_with(self.scenario, given))
         return self._aggregate
 
     def curves(self) -> pd.DataFrame:
@@ -199,6 +345,40 @@ class Batch:
         90 % interval, aggregate value."""
         return metrics_table(self.shares(), self.aggregate())
 
+    def organisations(self, replicates: Sequence[int] | None = None) -> pd.DataFrame:
+        """Per-organisation results: one row per replicate and organisation.
+
+        ``replicate`` and then the columns of :meth:`womlab.dynamics.RunResult.to_frame`:
+        ids as given (and a networkx graph's node attributes) when the batch ran on a
+        network it was given, else 0..N−1 on each replicate's own network.
+
+        Parameters
+        ----------
+        replicates : sequence of int, optional
+            Which replicates; all by default.
+
+        Examples
+        --------
+        >>> import networkx as nx
+        >>> from womlab import Scenario, run_replicates
+        >>> s = Scenario.from_dict({"market": {"organisations": 34, "initial_customers": 2}, "run": {"periods": 10}})
+        >>> batch = run_replicates(s, 2, network=nx.karate_club_graph())
+        >>> table = batch.organisations()
+        >>> len(table), list(table.columns[:4])
+        (68, ['replicate', 'id', 'region', 'club'])
+        """
+        network = attributes = None
+        if self.network is not None:
+            network = as_network(self.network)
+            attributes = node_attributes(self.network, network)
+        chosen = range(len(self.runs)) if replicates is None else replicates
+        frames = []
+        for r in chosen:
+            table = self.runs[r].to_frame(network, attributes)
+            table.insert(0, "replicate", r)
+            frames.append(table)
+        return pd.concat(frames, ignore_index=True)
+
 
 def run_replicates(
     scenario: Scenario,
@@ -206,6 +386,7 @@ def run_replicates(
     *,
     jobs: int | None = None,
     progress: bool = False,
+    network: GivenNetwork | None = None,
 ) -> Batch:
     """Run ``replicates`` seeded replicates of ``scenario`` in parallel.
 
@@ -221,6 +402,19 @@ def run_replicates(
         Worker processes (joblib, loky backend); defaults to ``scenario.run.jobs``.
     progress : bool
         Show a progress bar on standard error.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate (replicates then differ in seeding and
+        dynamics only): arrays, a networkx graph, or an edge table with columns
+        ``source`` and ``target`` (:func:`womlab.networks.given.as_network`). It must
+        have ``market.organisations`` organisations. By default each replicate builds
+        its own from ``[network]``.
+
+    Raises
+    ------
+    ScenarioError
+        For fewer than one replicate.
+    NetworkError
+        For a network whose size is not ``market.organisations``, or that cannot be read.
 
     Examples
     --------
@@ -234,11 +428,12 @@ def run_replicates(
     jobs = scenario.run.jobs if jobs is None else jobs
     if replicates < 1:
         raise ScenarioError(f"replicates must be a whole number >= 1, got {replicates}")
+    given = None if network is None else as_network(network, scenario.market.organisations)
     start = time.perf_counter()
     keys = [(r,) for r in range(replicates)]
-    done = _execute({"": scenario}, keys, jobs, progress)
+    done = _execute({"": scenario}, keys, jobs, progress, network=given)
     runs = [done[k][""] for k in keys]
-    return Batch(scenario=scenario, runs=runs, wall_time=time.perf_counter() - start)
+    return Batch(scenario=scenario, runs=runs, wall_time=time.perf_counter() - start, network=network)
 
 
 def run_paired(
@@ -249,6 +444,7 @@ def run_paired(
     progress: bool = False,
     keys: Iterable[tuple[int, ...]] | None = None,
     reduce: Callable[[RunResult], Any] | None = None,
+    network: GivenNetwork | None = None,
 ) -> dict[str, list[Any]]:
     """Run every variant on the same replicates with common random numbers.
 
@@ -271,6 +467,9 @@ def run_paired(
     reduce : callable, optional
         A picklable function applied to each RunResult inside the worker; its return
         value replaces the run (keeps large studies small in memory).
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate and variant (see :func:`run_replicates`);
+        by default each replicate builds its own from the first variant's ``[network]``.
 
     Returns
     -------
@@ -278,6 +477,8 @@ def run_paired(
         Variant name → its runs (or reduced runs), in replicate order.
     """
     _check_pairable(variants)
+    first = next(iter(variants.values()))
+    given = None if network is None else as_network(network, first.market.organisations)
     keys = [(r,) for r in range(replicates)] if keys is None else [tuple(k) for k in keys]
-    done = _execute(dict(variants), keys, jobs, progress, reduce)
+    done = _execute(dict(variants), keys, jobs, progress, reduce, network=given)
     return {name: [done[k][name] for k in keys] for name in variants}
