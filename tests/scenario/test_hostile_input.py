@@ -160,3 +160,15 @@ def test_load_scenario_issues_each_as_a_warning(tmp_path):
         warnings.simplefilter("always")
         load_scenario(path)
     assert [str(w.message).split(" = ")[0] for w in record if w.category is ScenarioWarning] == ["adoption.cap"]
+
+
+def test_a_listed_seeds_file_never_echoes_another_file(tmp_path):
+    # seeding.ids_path pointed at a secrets file must not print its first line (issue 19 part 6)
+    (tmp_path / "secret.env").write_text("API_KEY=sk-live-123456\nOTHER=1\n")
+    (tmp_path / "s.toml").write_text('[market]\norganisations = 50\n[seeding]\nstrategy = "listed"\n'
+                                     'ids_path = "secret.env"\n')
+    with pytest.raises(ScenarioError) as exc:
+        load_scenario(tmp_path / "s.toml")
+    text = str(exc.value)
+    assert text.startswith("seeding.ids_path: 'secret.env' must have a column 'id'")
+    assert "sk-live" not in text and "API_KEY" not in text

@@ -25,7 +25,7 @@ GIB = 2**30
     ({"run": {"periods": 10**9}}, "run", "run.periods = 1,000,000,000"),
     ({"run": {"periods": 10, "report_every": 1e-8, "clock": "continuous"}}, "run", "run.report_every = 1e-08"),
     ({"run": {"replicates": 10**12}}, "run", "run.replicates = 1,000,000,000,000"),
-    ({"market": {"organisations": 10**6, "regions": 10**6}, "network": {"kind": "regional"}}, "run",
+    ({"market": {"organisations": 10**6, "regions": 10**6}, "network": {"kind": "regional_blocks"}}, "run",
      "market.regions = 1,000,000"),
     ({"study": {"replicates": 10**11}}, "seeding", "study.replicates = 100,000,000,000"),
 ])

@@ -51,7 +51,7 @@ def test_another_scenarios_results_are_refused_unless_forced(tmp_path, batches):
     out = tmp_path / "o"
     save_batch(batches[0], out)
     before = _snapshot(out)
-    with pytest.raises(StoreError, match=r"another scenario \(scenario.name .*\); use --force"):
+    with pytest.raises(StoreError, match=r"another scenario \(scenario.name: .*\); use --force"):
         save_batch(batches[1], out)
     assert _snapshot(out) == before
     save_batch(batches[1], out, force=True)
@@ -91,8 +91,9 @@ def test_a_users_own_file_is_never_replaced(tmp_path, batches):
 
 def test_a_sweep_folder_is_refused_even_when_forced(tmp_path, batches):
     out = tmp_path / "sweep"
-    ResultsStore.create_or_resume(out, {"identity": {"sweep": {"axes": {}}}, "scenario": {}},
-                                  __import__("pandas").DataFrame({"point": [0]}))
+    store = ResultsStore(out)
+    with store.locked():
+        store.create({"identity": {"sweep": {"axes": {}}}, "scenario": {}}, __import__("pandas").DataFrame({"point": [0]}))
     before = (out / "manifest.json").read_bytes()
     for force in (False, True):
         with pytest.raises(StoreError, match="holds a sweep's results"):

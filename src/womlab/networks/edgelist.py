@@ -13,7 +13,6 @@ names), no ties, only self-loops, or one id written two ways (``1`` and ``01``).
 from __future__ import annotations
 
 import io
-import re
 import warnings
 from functools import lru_cache
 from pathlib import Path
@@ -24,12 +23,9 @@ import pandas as pd
 from womlab.errors import NetworkError
 from womlab.networks.network import ReferralNetwork
 from womlab.networks.tables import from_edge_table
-from womlab.scenario.checks import utf8_text
+from womlab.scenario.checks import found_columns, utf8_text
 
 __all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts"]
-
-_COLUMN_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_ .-]{0,39}")
-
 
 def _text(path: str | Path, what: str) -> str:
     """The file's text, or one line saying why it is not UTF-8 text (never its contents)."""
@@ -57,11 +53,8 @@ def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.Dat
     table.columns = [str(c).strip() for c in table.columns]
     missing = [c for c in columns if c not in table.columns]
     if missing:
-        # name what was found only when it reads as column names: a header row of a CSV, not
-        # the first line of some other file
-        header = len(table.columns) >= 2 and all(_COLUMN_NAME.fullmatch(c) for c in table.columns)
-        found = f" (found {', '.join(table.columns)})" if header else " (its first line is not such a header)"
-        raise NetworkError(f"network.{what}: {name!r} must be {expected}; missing {', '.join(missing)}{found}")
+        raise NetworkError(f"network.{what}: {name!r} must be {expected}; missing {', '.join(missing)}"
+                           f"{found_columns(list(table.columns))}")
     if table[list(columns)].isna().any().any():
         raise NetworkError(f"network.{what}: {name!r} has empty cells in {', '.join(columns)}")
     return table

@@ -9,6 +9,7 @@ from __future__ import annotations
 import dataclasses
 import difflib
 import math
+import re
 import types
 import typing
 from typing import Any
@@ -16,7 +17,7 @@ from typing import Any
 from womlab.errors import ScenarioError
 
 __all__ = ["fail", "in_unit", "non_negative", "positive_int", "one_of", "unknown_field", "coerce", "field_names",
-           "hints", "drop_none", "utf8_text"]
+           "hints", "drop_none", "utf8_text", "found_columns"]
 
 
 def fail(dotted: str, value: Any, allowed: str) -> typing.NoReturn:
@@ -134,3 +135,24 @@ def utf8_text(raw: bytes, kind: str) -> str:
         column = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
         raise ValueError(f"is not UTF-8 text (byte 0x{raw[exc.start]:02x} at line {line}, column {column}); "
                          f"save it as UTF-8 {kind}") from None
+
+
+_COLUMN_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_ .-]{0,39}")
+
+
+def found_columns(columns: list[str]) -> str:
+    """What an error about missing columns may say of the columns found: their names when they read
+    as the header row of a CSV (at least two names, each a short plain word), else only that the
+    first line is not shown — so that a path pointed at some other file (a secrets file, the
+    system's password file) never has its first line echoed.
+
+    Examples
+    --------
+    >>> found_columns(["from", "to"])
+    ' (found from, to)'
+    >>> found_columns(["API_KEY=sk-live-123"])
+    ' (its first line is not shown: it does not read as a header of column names)'
+    """
+    if len(columns) >= 2 and all(_COLUMN_NAME.fullmatch(str(c)) for c in columns):
+        return f" (found {', '.join(map(str, columns))})"
+    return " (its first line is not shown: it does not read as a header of column names)"

@@ -10,7 +10,8 @@ memory than it has, or more than :data:`MAX_SECONDS` of work), and what can neve
 worker processes at the cores this process may use.
 
 The unit costs (:data:`COSTS`) are rounded from ``python benchmarks/resources.py``
-(``benchmarks/results/resources.md``) on a shared two-core machine; they are orders of
+(``benchmarks/results/resources.md``) and, for the centralities, ``benchmarks/results/seeding.md``,
+on a shared two-core machine; they are orders of
 magnitude, meant to tell "a minute" from "a day", and a scenario near a limit can be run
 anyway (``womlab ... --skip-resource-check``, or ``check_resources(..., skip=True)``).
 """
@@ -44,7 +45,7 @@ COSTS: dict[str, float] = {
     "bytes_per_region_pair": 16.0,        # the regional builder's block probabilities
     "bytes_per_curve_row": 48.0,          # one row of a run's curve (six numbers)
     "bytes_per_kept_organisation": 17.0,  # a kept run: adoption period, referrer, satisfied, time
-    "bytes_per_networkx_tie": 700.0,      # a networkx graph (bridges, pagerank, coreness)
+    "bytes_per_centrality_organisation": 64.0,  # compiled centralities on the CSR: a few arrays per organisation
     "bytes_per_mesa_agent": 3000.0,       # one Mesa agent and its cell
     "seconds_per_run": 0.01,              # fixed cost of one engine run
     "seconds_per_org_step_array": 1e-7,
@@ -53,8 +54,8 @@ COSTS: dict[str, float] = {
     "seconds_per_tie_build": 1e-6,
     "seconds_per_tie_build_scale_free": 4e-6,
     "seconds_per_region_pair": 2e-5,      # the regional builder's loop over region pairs
-    "seconds_per_networkx_tie": 2e-6,     # converting to networkx, and core numbers / PageRank
-    "seconds_per_betweenness_visit": 4e-6,  # Brandes, per source per (N + 2 ties)
+    "seconds_per_centrality_tie": 1e-6,   # PageRank or k-cores compiled on the CSR (benchmarks/results/seeding.md)
+    "seconds_per_betweenness_visit": 1.2e-7,  # compiled Brandes, per source per (N + 2 ties) (seeding.md)
     "seconds_pool_start": 3.0,            # a worker process importing the stack
     "bytes_per_process": 200 * 2**20,     # Python, numpy, scipy, pandas, networkx loaded
 }
@@ -211,7 +212,7 @@ def _network_parts(s: Any) -> list[Part]:
     seconds_tie = c["seconds_per_tie_build_scale_free"] if scale_free else c["seconds_per_tie_build"]
     fields = ("network.path",) if kind == "edgelist" else ("market.organisations", "network.mean_degree")
     parts.append(Part("network ties", fields, n * c["bytes_per_organisation"] + ties * per_tie, ties * seconds_tie))
-    if kind == "regional":
+    if kind == "regional_blocks":  # the block model loops over every pair of regions
         r = s.market.regions
         parts.append(Part("region pairs of the regional network", ("market.regions",),
                           r * r * c["bytes_per_region_pair"], r * r / 2 * c["seconds_per_region_pair"]))
@@ -225,15 +226,14 @@ def _strategy_cost(name: str, s: Any) -> tuple[float, float, tuple[str, ...]]:
     ties = 0.0 if s.network.kind == "complete" else n * float(s.network.mean_degree) / 2
     if s.network.kind == "complete":
         ties = n * (n - 1) / 2
-    nx_seconds = ties * c["seconds_per_networkx_tie"]
-    nx_bytes = ties * c["bytes_per_networkx_tie"] + n * 400.0
+    centrality_bytes = n * c["bytes_per_centrality_organisation"]
     if name == "bridges":
         sources = n if n <= s.seeding.betweenness_exact_up_to else min(n, s.seeding.betweenness_sample)
         field_ = "seeding.betweenness_exact_up_to" if n <= s.seeding.betweenness_exact_up_to else "seeding.betweenness_sample"
-        return (nx_seconds + sources * (n + 2 * ties) * c["seconds_per_betweenness_visit"], nx_bytes,
+        return (sources * (n + 2 * ties) * c["seconds_per_betweenness_visit"], centrality_bytes,
                 ("market.organisations", field_))
     if name in ("pagerank", "coreness"):
-        return nx_seconds * 2, nx_bytes, ("market.organisations",)
+        return ties * c["seconds_per_centrality_tie"], centrality_bytes, ("market.organisations",)
     if name == "greedy":
         pool = n if s.seeding.greedy_candidates <= 0 else min(s.seeding.greedy_candidates, n)
         budget = s.n_initial

@@ -9,6 +9,7 @@ are validated against :mod:`womlab.scenario.registry`.
 from __future__ import annotations
 
 import csv
+import io
 import math
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
@@ -17,7 +18,7 @@ from pathlib import Path
 from typing import Any, ClassVar, Protocol
 
 from womlab.errors import ScenarioError
-from womlab.scenario.checks import fail, in_unit, non_negative, one_of, positive_int
+from womlab.scenario.checks import fail, found_columns, in_unit, non_negative, one_of, positive_int, utf8_text
 from womlab.scenario.registry import strategy_names
 
 __all__ = [
@@ -647,23 +648,28 @@ def _ids_from_file(path: str, column: str) -> tuple[str, ...]:
 
 @lru_cache(maxsize=32)
 def _read_ids(path: str, column: str, mtime: int, size: int) -> tuple[str, ...]:
+    name = Path(path).name
     try:
-        with open(path, newline="", encoding="utf-8-sig") as f:
-            rows = list(csv.reader(f))
-    except (OSError, UnicodeDecodeError, csv.Error) as exc:
-        raise ScenarioError(f"seeding.ids_path: cannot read {path!r}: {exc}") from None
+        text = utf8_text(Path(path).read_bytes(), "CSV")
+        rows = list(csv.reader(io.StringIO(text, newline="")))
+    except OSError as exc:
+        raise ScenarioError(f"seeding.ids_path: cannot read {name!r}: {exc.strerror}") from None
+    except ValueError as exc:
+        raise ScenarioError(f"seeding.ids_path: {name!r} {exc}") from None
+    except csv.Error:
+        raise ScenarioError(f"seeding.ids_path: {name!r} is not a CSV (its rows do not parse)") from None
     header = [h.strip() for h in rows[0]] if rows else []
     if column not in header:
-        raise ScenarioError(
-            f"seeding.ids_path: {path!r} must have a column {column!r} (seeding.ids_column); "
-            f"found {', '.join(header) or 'no columns'}"
+        raise ScenarioError(  # never the file's first line, unless it reads as a CSV header
+            f"seeding.ids_path: {name!r} must have a column {column!r} (seeding.ids_column)"
+            f"{found_columns(header) if header else ' (it is empty)'}"
         )
     at = header.index(column)
     ids = []
     for line, row in enumerate(rows[1:], start=2):
         value = row[at].strip() if at < len(row) else ""
         if not value:
-            raise ScenarioError(f"seeding.ids_path: {path!r} line {line} has no id in column {column!r}; "
+            raise ScenarioError(f"seeding.ids_path: {name!r} line {line} has no id in column {column!r}; "
                                 "allowed: an organisation id on every row")
         ids.append(value)
     return tuple(ids)
@@ -765,16 +771,20 @@ no_effect("adoption.cap", lambda s: s.adoption.rule != "capped",
           lambda s: f'adoption.rule = "{s.adoption.rule}" (only the capped rule has a ceiling)')
 no_effect("adoption.threshold", lambda s: s.adoption.rule != "threshold",
           lambda s: f'adoption.rule = "{s.adoption.rule}" (thresholds belong to the threshold rule)')
-no_effect("network.rewiring", lambda s: s.network.kind != "small_world",
-          lambda s: f'network.kind = "{s.network.kind}" (rewiring shapes a small world only)')
-no_effect("network.within_region_share", lambda s: s.network.kind != "regional",
-          lambda s: f'network.kind = "{s.network.kind}" (it shapes the regional network only)')
-no_effect("network.mean_degree", lambda s: s.network.kind in ("complete", "edgelist"),
+_FILE_KINDS = ("edgelist", "graphml", "gexf")
+no_effect("network.rewiring", lambda s: s.network.kind not in ("small_world", "regional"),
+          lambda s: f'network.kind = "{s.network.kind}" (rewiring shapes small worlds: kinds small_world, regional)')
+no_effect("network.within_region_share", lambda s: s.network.kind not in ("regional", "regional_blocks"),
+          lambda s: f'network.kind = "{s.network.kind}" (it shapes regions: kinds regional, regional_blocks)')
+no_effect("network.mean_degree", lambda s: s.network.kind == "complete" or s.network.kind in _FILE_KINDS,
           lambda s: ("every organisation is tied to every other on the complete network" if s.network.kind == "complete"
-                     else "an edge list has its own mean degree, read from the file"))
-for _name in ("network.path", "network.nodes_path"):
-    no_effect(_name, lambda s: s.network.kind != "edgelist",
-              lambda s: f'network.kind = "{s.network.kind}" (files are read for kind = "edgelist" only)')
+                     else "a network file has its own mean degree, read from the file"))
+no_effect("network.path", lambda s: s.network.kind not in _FILE_KINDS,
+          lambda s: f'network.kind = "{s.network.kind}" (a file is read for kinds {", ".join(_FILE_KINDS)} only)')
+no_effect("network.nodes_path", lambda s: s.network.kind != "edgelist",
+          lambda s: f'network.kind = "{s.network.kind}" (a node file is read for kind = "edgelist" only)')
+no_effect("network.region_attribute", lambda s: s.network.kind not in ("graphml", "gexf"),
+          lambda s: f'network.kind = "{s.network.kind}" (it names a GraphML or GEXF node attribute)')
 no_effect("market.regions", lambda s: s.network.kind == "edgelist" and s.network.nodes_path is None,
           lambda s: "an edge list without network.nodes_path puts every organisation in one region")
 for _name in ("referral.strategy", "referral.enrol_count", "referral.start", "referral.end",
@@ -798,3 +808,5 @@ for _name in ("seeding.betweenness_exact_up_to", "seeding.betweenness_sample"):
     no_effect(_name, lambda s: not _uses(s, "bridges"), lambda s: "no strategy in use is bridges")
 for _name in ("seeding.greedy_runs", "seeding.greedy_candidates"):
     no_effect(_name, lambda s: not _uses(s, "greedy"), lambda s: "no strategy in use is greedy")
+for _name in ("seeding.ids", "seeding.ids_path", "seeding.ids_column"):
+    no_effect(_name, lambda s: not _uses(s, "listed"), lambda s: "no strategy in use is listed")

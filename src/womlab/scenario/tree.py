@@ -101,10 +101,7 @@ from womlab.scenario.sections import (
 from womlab.scenario.shipped import demo_names, demo_path
 from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, is_path_field, parse_axes, resolve_path
 
-__all__ = ["Scenario", "load_scenario", "field_type", "parse_assignment", "SECTIONS", "INPUT_FIELDS"]
-
-#: Fields that name an input file, resolved against the scenario file's folder.
-INPUT_FIELDS = ("network.path", "network.nodes_path")
+__all__ = ["Scenario", "load_scenario", "field_type", "parse_assignment", "SECTIONS", "input_fields"]
 
 
 SECTIONS: dict[str, type] = {
@@ -176,9 +173,12 @@ class Scenario:
         market_given = data.get("market", {})
         _fill_edgelist_facts(kwargs, market_given if isinstance(market_given, Mapping) else {})
         scenario = cls(**kwargs)
-        network = data.get("network", {})
-        paths = {f"network.{k}": str(network[k]) for k in ("path", "nodes_path")
-                 if isinstance(network, Mapping) and isinstance(network.get(k), str)}
+        paths = {}
+        for dotted in input_fields():
+            section, leaf = dotted.split(".")
+            table = data.get(section)
+            if isinstance(table, Mapping) and isinstance(table.get(leaf), str):
+                paths[dotted] = table[leaf]  # as the user gave it
         _remember(scenario, tuple(_leaves(data)), paths, None)
         return scenario
 
@@ -221,12 +221,13 @@ class Scenario:
         return self._source
 
     def inputs(self) -> list[dict[str, str]]:
-        """The input files the scenario reads: field, path as the user gave it, and path as resolved here."""
+        """The input files the scenario names (every ``path`` and ``*_path`` field that is set):
+        field, path as the user gave it, and path as resolved here."""
         out = []
-        for dotted in INPUT_FIELDS:
+        for dotted in input_fields():
             section, leaf = dotted.split(".")
             resolved = getattr(getattr(self, section), leaf)
-            if resolved is None or (section == "network" and self.network.kind != "edgelist"):
+            if resolved is None:
                 continue
             out.append({"field": dotted, "path": self._paths.get(dotted, resolved), "resolved": resolved})
         return out
@@ -282,7 +283,7 @@ class Scenario:
         data = _with_changes(self.to_dict(), changes)
         new = Scenario.from_dict(data)
         paths = {k: v for k, v in self._paths.items() if k not in changes}
-        paths.update({k: str(v) for k, v in changes.items() if k in INPUT_FIELDS and isinstance(v, str)})
+        paths.update({k: str(v) for k, v in changes.items() if k in input_fields() and isinstance(v, str)})
         given = tuple(dict.fromkeys([*self._given, *changes]))
         _remember(new, given, paths, self._source)
         return new
@@ -307,6 +308,13 @@ class Scenario:
 Scenario._given = ()  # type: ignore[attr-defined]
 Scenario._paths = {}  # type: ignore[attr-defined]
 Scenario._source = None  # type: ignore[attr-defined]
+
+
+def input_fields() -> tuple[str, ...]:
+    """Every scenario field that names an input file (``path`` or ``*_path``, resolved against the
+    scenario file's folder), e.g. ``network.path``, ``network.nodes_path``, ``seeding.ids_path``."""
+    return tuple(f"{section}.{name}" for section, cls in SECTIONS.items() for name in field_names(cls)
+                 if is_path_field(f"{section}.{name}"))
 
 
 def _remember(scenario: Scenario, given: tuple[str, ...], paths: dict[str, str], source: dict | None) -> None:

@@ -24,8 +24,8 @@ from womlab.scenario.resources import (
 
 __all__ = ["plan", "slow_steps", "programme_summary", "SLOW_SECONDS"]
 
-#: A seeding step that takes longer than this per replicate is reported as slow.
-SLOW_SECONDS = 10.0
+#: A seeding step that takes longer than this over the whole study (or per replicate) is reported as slow.
+SLOW_SECONDS = 60.0
 
 
 def programme_summary(scenario: Scenario) -> str:
@@ -126,7 +126,8 @@ def plan(scenario: Scenario, *, jobs: int | None = None) -> pd.DataFrame:
 
 
 def slow_steps(scenario: Scenario, command: str = "seeding", *, limit: float = SLOW_SECONDS) -> list[str]:
-    """The seeding steps that will take longer than ``limit`` seconds per replicate, one line each.
+    """The seeding steps that will take longer than ``limit`` seconds over the command's replicates
+    (or in a single replicate), one line each.
 
     For ``seeding`` every strategy of ``[study]``; otherwise ``seeding.strategy`` (and the
     enrolment strategy of a programme).
@@ -149,7 +150,7 @@ def slow_steps(scenario: Scenario, command: str = "seeding", *, limit: float = S
     out = []
     for name in dict.fromkeys(names):
         secs = strategy_seconds(name, s)
-        if secs <= limit:
+        if secs * reps / workers <= limit and secs <= limit:
             continue
         n = s.market.organisations
         if name == "bridges":
