@@ -54,7 +54,7 @@ def test_network_memory_is_at_least_its_csr_arrays():
 
 
 def test_work_beyond_a_month_is_refused():
-    s = Scenario.from_dict({"market": {"organisations": 2000}, "run": {"periods": 10_000, "replicates": 10_000,
+    s = Scenario.from_dict({"market": {"organisations": 2000}, "run": {"periods": 20_000, "replicates": 20_000,
                                                                         "engine": "mesa"}})
     with pytest.raises(ScenarioError, match="of work .* more than 30 days is refused"):
         check_resources(s, memory=2**50)

@@ -37,25 +37,26 @@ MAX_ORGANISATIONS = 2**31 - 1
 #: Work beyond this many seconds (30 days) is refused as a mistake unless the check is skipped.
 MAX_SECONDS = 30 * 24 * 3600.0
 
-#: Unit costs, rounded up from ``benchmarks/results/resources.md`` (bytes and seconds).
+#: Unit costs, rounded up (about twice what was measured, for a busier machine) from
+#: ``benchmarks/results/resources.md`` and ``benchmarks/results/seeding.md`` (bytes and seconds).
 COSTS: dict[str, float] = {
-    "bytes_per_organisation": 120.0,      # network arrays and one run's state
-    "bytes_per_tie": 80.0,                # builder's pair arrays and the CSR, per undirected tie
-    "bytes_per_tie_scale_free": 200.0,    # preferential attachment's draw lists
+    "bytes_per_organisation": 80.0,       # network arrays while building (55 measured)
+    "bytes_per_tie": 24.0,                # the builder's pair arrays and the CSR, per undirected tie (14 measured)
+    "bytes_per_tie_scale_free": 24.0,     # preferential attachment, built the same way (14 measured)
     "bytes_per_region_pair": 16.0,        # the regional builder's block probabilities
     "bytes_per_curve_row": 48.0,          # one row of a run's curve (six numbers)
     "bytes_per_kept_organisation": 17.0,  # a kept run: adoption period, referrer, satisfied, time
     "bytes_per_centrality_organisation": 64.0,  # compiled centralities on the CSR: a few arrays per organisation
     "bytes_per_mesa_agent": 3000.0,       # one Mesa agent and its cell
-    "seconds_per_run": 0.01,              # fixed cost of one engine run
-    "seconds_per_org_step_array": 1e-7,
-    "seconds_per_org_step_event": 1e-7,
-    "seconds_per_org_step_mesa": 1.5e-5,
-    "seconds_per_tie_build": 1e-6,
-    "seconds_per_tie_build_scale_free": 4e-6,
+    "seconds_per_run": 0.005,             # fixed cost of one engine run
+    "seconds_per_org_step_array": 3e-8,   # 1.3e-8 measured
+    "seconds_per_org_step_event": 6e-8,   # 3.0e-8 measured
+    "seconds_per_org_step_mesa": 7e-6,    # 3.3e-6 measured
+    "seconds_per_tie_build": 5e-7,        # 0.3e-6 measured (random, 4 million ties)
+    "seconds_per_tie_build_scale_free": 1e-6,
     "seconds_per_region_pair": 2e-5,      # the regional builder's loop over region pairs
     "seconds_per_centrality_tie": 1e-6,   # PageRank or k-cores compiled on the CSR (benchmarks/results/seeding.md)
-    "seconds_per_betweenness_visit": 1.2e-7,  # compiled Brandes, per source per (N + 2 ties) (seeding.md)
+    "seconds_per_betweenness_visit": 1.2e-7,  # compiled Brandes, per source per (N + 2 ties): 0.3-1.1e-7 measured
     "seconds_pool_start": 3.0,            # a worker process importing the stack
     "bytes_per_process": 200 * 2**20,     # Python, numpy, scipy, pandas, networkx loaded
 }
