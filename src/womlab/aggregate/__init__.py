@@ -12,7 +12,6 @@ from __future__ import annotations
 from womlab.aggregate.fitting import (
     BassFit,
     StockFlowFit,
-    bass_fit_table,
     fit_bass,
     fit_bass_sales,
     fit_replicates,
@@ -51,6 +50,5 @@ __all__ = [
     "fit_bass",
     "fit_bass_sales",
     "fit_replicates",
-    "bass_fit_table",
     "fit_stock_and_flow",
 ]

@@ -5,20 +5,30 @@ nothing of files' contents, figures or the command line (above). ``runner`` hold
 replicate batches and paired runs (common random numbers, joblib); ``compare`` the
 network set beside the aggregate models; ``seeding_study`` the paired seeding study;
 ``programme`` a referral programme's economics; ``sweep`` designs and the resumable
-sweep runner; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics and
-intervals; ``referrals`` referral-tree analytics; ``presenting`` the registry through
+sweep runner; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics; ``intervals``
+every confidence interval over replicates; ``referrals`` referral-tree analytics; ``presenting`` the registry through
 which a study's result asks :mod:`womlab.results` to draw or write it.
 """
 
 from __future__ import annotations
 
-from womlab.studies.compare import Comparison, aggregate_curves, compare
+from womlab.studies.compare import Comparison, aggregate_curves, bass_fit_table, compare
+from womlab.studies.intervals import (
+    FewReplicatesWarning,
+    Interval,
+    bootstrap_interval,
+    median_interval,
+    ratio_standard_error,
+    small_sample_level,
+    t_interval,
+)
 from womlab.studies.metrics import (
     GAP_NAMES,
     METRIC_NAMES,
-    bootstrap_mean_curve,
     curve_gap,
+    curve_gap_array,
     curve_metrics,
+    curve_metrics_array,
     discount_factors,
     mean_interval,
     metrics_table,
@@ -59,6 +69,7 @@ __all__ = [
     "Comparison",
     "compare",
     "aggregate_curves",
+    "bass_fit_table",
     "SeedingStudy",
     "compare_strategies",
     "lift_statistics",
@@ -87,7 +98,15 @@ __all__ = [
     "replicate_gaps",
     "pooled_metrics",
     "pooled_gaps",
-    "bootstrap_mean_curve",
+    "curve_metrics_array",
+    "curve_gap_array",
+    "Interval",
+    "FewReplicatesWarning",
+    "t_interval",
+    "bootstrap_interval",
+    "median_interval",
+    "ratio_standard_error",
+    "small_sample_level",
     "METRIC_NAMES",
     "GAP_NAMES",
     "SweepSummary",
