@@ -1,0 +1,224 @@
+"""Paired runs continued past the horizon with every lever off: what a lever changed in the end.
+
+A study that switches something on for a while (a referral programme, a lever started at
+one period or another) compares its arms at the horizon T. But an organisation one arm
+won by T may be one the other arm wins a period later: at the horizon that looks like
+expansion of the market, in the end it is only acceleration (Libai, Muller & Peres
+2013). :func:`continue_paired` runs every arm on past T with the levers off after T, on
+the same network and the same random draws (common random numbers), either for a set
+``lifetime`` of further periods or until every arm's market is exhausted.
+
+Exhausted. With external influence p > 0 every organisation adopts in the end, so an
+arm's market is exhausted when every organisation is a customer. With p = 0 word of
+mouth can stall short of the whole market; such an arm counts as exhausted when it
+gained no customer over the second half of the continuation (at least T periods). The
+continuation doubles (T, 2T, 4T, … periods beyond the horizon) until every arm of every
+replicate is exhausted or ``max_periods`` is reached; only unfinished replicates are
+run again, and a finished one is carried to the common end unchanged (nothing more
+happens in it). :attr:`Continuation.exhausted` says which replicates were.
+
+The first T periods of a continued run are those of the run to T bit for bit: the
+engines draw per organisation up front, or per step in order, and the levers stop at
+T. :func:`truncate` cuts a continued run back to an earlier horizon.
+
+References
+----------
+Libai, B., Muller, E. & Peres, R. (2013). Decomposing the value of word-of-mouth seeding
+programs: acceleration versus expansion. *Journal of Marketing Research* 50(2), 161–176.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from womlab.dynamics import RunResult
+from womlab.errors import ScenarioError
+from womlab.scenario import Scenario
+from womlab.studies.runner import run_paired
+
+__all__ = ["Continuation", "continue_paired", "levers_off_after", "truncate", "extend"]
+
+
+def levers_off_after(scenario: Scenario, period: int) -> Scenario:
+    """``scenario`` with every lever stopped after ``period``: the referral programme's last
+    period becomes ``min(referral.end, period)`` (a scenario without a programme is returned
+    as it is). A new lever adds its own line here."""
+    ref = scenario.referral
+    if ref.active:
+        last = min(ref.last_period(scenario.run.periods), period)
+        scenario = scenario.replace("referral.end", last)
+    return scenario
+
+
+def _continued(scenario: Scenario, periods: int) -> Scenario:
+    horizon = scenario.run.periods
+    # the end first (valid on the old horizon), then the longer horizon
+    return levers_off_after(scenario, horizon).replace("run.periods", periods)
+
+
+def truncate(run: RunResult, periods: int) -> RunResult:
+    """``run`` as it stood at the earlier horizon ``periods``: later adopters are
+    non-adopters, per-period records are cut to periods + 1 entries.
+
+    Examples
+    --------
+    >>> from womlab import Scenario, run_one
+    >>> s = Scenario.from_dict({"market": {"organisations": 200, "initial_customers": 2},
+    ...                         "run": {"periods": 20}})
+    >>> long, short = run_one(s.replace("run.periods", 30)), run_one(s)
+    >>> bool((truncate(long, 20).adoption_period == short.adoption_period).all())
+    True
+    """
+    if periods > run.periods:
+        raise ValueError(f"cannot truncate a run of {run.periods} periods to {periods}")
+    late = run.adoption_period > periods
+    ap = np.where(late, -1, run.adoption_period).astype(run.adoption_period.dtype)
+    extra = {}
+    for key, value in run.extra.items():
+        if isinstance(value, np.ndarray) and value.ndim == 1 and value.size == run.periods + 1:
+            value = value[: periods + 1].copy()
+        elif key == "rewarded":
+            value = value & ~late
+        elif key == "budget_exhausted_period" and value > periods:
+            value = -1
+        extra[key] = value
+    time = None if run.adoption_time is None else np.where(late, np.nan, run.adoption_time)
+    return replace(run, periods=periods, adoption_period=ap, referrer=np.where(late, -1, run.referrer).astype(
+        run.referrer.dtype), satisfied=run.satisfied & ~late, extra=extra, adoption_time=time)
+
+
+def extend(run: RunResult, periods: int) -> RunResult:
+    """An exhausted ``run`` carried, unchanged, to the later horizon ``periods`` (per-period
+    records padded with zeros: nothing happens after exhaustion)."""
+    if periods < run.periods:
+        raise ValueError(f"cannot extend a run of {run.periods} periods to {periods}")
+    extra = {}
+    for key, value in run.extra.items():
+        if isinstance(value, np.ndarray) and value.ndim == 1 and value.size == run.periods + 1:
+            value = np.concatenate([value, np.zeros(periods - run.periods, dtype=value.dtype)])
+        extra[key] = value
+    return replace(run, periods=periods, extra=extra)
+
+
+def _exhausted(run: RunResult, since: int, external: float) -> bool:
+    if external > 0:
+        return bool((run.adoption_period >= 0).all())
+    return not bool((run.adoption_period > since).any())
+
+
+@dataclass(eq=False)
+class Continuation:
+    """Arms run past the horizon with the levers off.
+
+    Attributes
+    ----------
+    horizon : int
+        T, the horizon of the study.
+    periods : int
+        The common end of the continuation (≥ T).
+    runs : dict
+        Arm name → its runs continued to ``periods``, in replicate order.
+    exhausted : numpy.ndarray
+        bool per replicate: every arm's market was exhausted by ``periods`` (always True
+        with a set ``lifetime``).
+    """
+
+    horizon: int
+    periods: int
+    runs: dict[str, list[RunResult]]
+    exhausted: np.ndarray
+
+    @property
+    def lifetime(self) -> int:
+        """Periods beyond the horizon."""
+        return self.periods - self.horizon
+
+    def at_horizon(self) -> dict[str, list[RunResult]]:
+        """Every arm's runs cut back to the horizon (identical to runs made to T)."""
+        return {name: [truncate(r, self.horizon) for r in runs] for name, runs in self.runs.items()}
+
+
+def continue_paired(
+    variants: Mapping[str, Scenario],
+    replicates: int,
+    *,
+    lifetime: int | None = None,
+    max_periods: int | None = None,
+    jobs: int = 1,
+    progress: bool = False,
+) -> Continuation:
+    """Run paired arms past their horizon with every lever off, for ``lifetime`` periods or
+    until every arm's market is exhausted.
+
+    Parameters
+    ----------
+    variants : mapping
+        Arm name → scenario (paired as in :func:`womlab.studies.run_paired`: same seed,
+        market, network and horizon T).
+    replicates : int
+        Replicates (spawn keys ``(0,) .. (replicates − 1,)``).
+    lifetime : int, optional
+        Periods to run beyond T. Default: until every arm's market is exhausted (see the
+        module notes), doubling the continuation as needed.
+    max_periods : int, optional
+        Longest horizon the doubling may reach; default max(64 T, T + 1000).
+    jobs : int
+        Worker processes. Results do not depend on it.
+    progress : bool
+        Show a progress bar.
+
+    Returns
+    -------
+    Continuation
+
+    Raises
+    ------
+    ScenarioError
+        ``lifetime`` not a whole number ≥ 0.
+
+    Examples
+    --------
+    >>> from womlab import Scenario
+    >>> s = Scenario.from_dict({"market": {"organisations": 200, "initial_customers": 2},
+    ...     "network": {"kind": "complete"}, "adoption": {"external": 0.05}, "run": {"periods": 5}})
+    >>> c = continue_paired({"only": s}, 2)
+    >>> bool(c.exhausted.all()), c.periods > 5
+    (True, True)
+    """
+    variants = dict(variants)
+    first = next(iter(variants.values()))
+    horizon = first.run.periods
+    if lifetime is not None:
+        if isinstance(lifetime, bool) or not isinstance(lifetime, (int, np.integer)) or lifetime < 0:
+            raise ScenarioError(f"lifetime must be a whole number of periods >= 0, got {lifetime!r}")
+        runs = run_paired({k: _continued(v, horizon + int(lifetime)) for k, v in variants.items()}, replicates,
+                          jobs=jobs, progress=progress)
+        return Continuation(horizon, horizon + int(lifetime), runs, np.ones(replicates, dtype=bool))
+    limit = max(64 * horizon, horizon + 1000) if max_periods is None else int(max_periods)
+    external = {k: v.adoption.external for k, v in variants.items()}
+    done: dict[int, dict[str, RunResult]] = {}
+    pending = list(range(replicates))
+    extra = horizon
+    periods = horizon + extra
+    while True:
+        periods = min(horizon + extra, limit)
+        arms = {k: _continued(v, periods) for k, v in variants.items()}
+        runs = run_paired(arms, len(pending), jobs=jobs, progress=progress, keys=[(r,) for r in pending])
+        since = periods - max(horizon, extra // 2)
+        still = []
+        for j, r in enumerate(pending):
+            result = {k: runs[k][j] for k in variants}
+            done[r] = result
+            if not all(_exhausted(result[k], since, external[k]) for k in variants):
+                still.append(r)
+        pending = still
+        if not pending or periods >= limit:
+            break
+        extra *= 2
+    unfinished = set(pending)
+    out = {k: [extend(done[r][k], periods) for r in range(replicates)] for k in variants}
+    exhausted = np.array([r not in unfinished for r in range(replicates)], dtype=bool)
+    return Continuation(horizon, periods, out, exhausted)
