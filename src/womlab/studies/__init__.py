@@ -4,15 +4,18 @@ Knows every layer below (dynamics, aggregate, store, seeding, networks, scenario
 nothing of files' contents, figures or the command line (above). ``runner`` holds
 replicate batches and paired runs (common random numbers, joblib); ``compare`` the
 network set beside the aggregate models; ``seeding_study`` the paired seeding study;
+``continuation`` paired runs continued past the horizon with the levers off;
 ``programme`` a referral programme's economics; ``sweep`` designs and the resumable
-sweep runner; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics; ``intervals``
-every confidence interval over replicates; ``referrals`` referral-tree analytics; ``presenting`` the registry through
-which a study's result asks :mod:`womlab.results` to draw or write it.
+sweep runner; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics;
+``intervals`` every confidence interval over replicates; ``referrals`` referral-tree
+analytics; ``presenting`` the registry through which a study's result asks
+:mod:`womlab.results` to draw or write it.
 """
 
 from __future__ import annotations
 
 from womlab.studies.compare import Comparison, aggregate_curves, bass_fit_table, compare
+from womlab.studies.continuation import Continuation, continue_paired, levers_off_after, truncate
 from womlab.studies.intervals import (
     FewReplicatesWarning,
     Interval,
@@ -66,6 +69,10 @@ __all__ = [
     "run_one",
     "run_replicates",
     "run_paired",
+    "Continuation",
+    "continue_paired",
+    "levers_off_after",
+    "truncate",
     "Comparison",
     "compare",
     "aggregate_curves",
