@@ -34,7 +34,10 @@ from womlab.aggregate import (
     fit_replicates,
     fit_stock_and_flow,
     mapped_parameters,
+    regular_tree_share,
+    ring_share,
     stock_and_flow,
+    two_organisation_share,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams
 from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
@@ -169,6 +172,9 @@ __all__ = [
     "save_seeding_study",
     "seeding_figure",
     "stock_and_flow",
+    "two_organisation_share",
+    "ring_share",
+    "regular_tree_share",
     "streams",
     "time_to_share",
     "top_degree_referral_share",
