@@ -21,10 +21,12 @@ Statistics per strategy
     Kaplan–Meier median when every run is censored at the horizon — with its
     order-statistics interval and ``t50_reached``, the runs that reached it (a mean of the
     runs that did would make a slow strategy look fast). Lift against ``random`` on
-    ``study.outcome``: the mean paired difference with its paired t interval, and the
-    ratio of means with a studentised paired bootstrap interval (the delta-method
-    standard error of a ratio; replicates resampled whole, the same resamples for every
-    strategy, from their own seeded stream; :mod:`womlab.studies.intervals`); a Wilcoxon
+    ``study.outcome``: the mean paired difference and the ratio of means, each with a
+    studentised paired bootstrap interval (standard errors s_d/√R and the delta-method
+    one of a ratio; replicates resampled whole, the same resamples for every strategy,
+    from their own seeded stream; :mod:`womlab.studies.intervals`) — outcomes such as
+    customers at the horizon are skewed, and there the paired t interval covered only
+    92–93 % at 20–24 replicates where the studentised one covers 94–95 %; a Wilcoxon
     signed-rank p-value of the paired differences (1 when every difference is zero); and
     what pairing bought:
     the half-width of the paired difference's t-interval (R − 1 degrees of freedom)
@@ -117,7 +119,8 @@ def lift_statistics(
         ``lift_ratio`` (mean x / mean baseline) with ``_low``/``_high`` bounds of its
         studentised paired bootstrap interval (the ratio's delta-method standard error,
         :func:`womlab.studies.intervals.ratio_standard_error`; cut at 0, since both outcomes
-        are non-negative); ``lift_diff`` (mean of x − baseline) with its paired t interval;
+        are non-negative); ``lift_diff`` (mean of x − baseline) with its studentised paired
+        bootstrap interval (standard error s_d/√R, the same resamples);
         ``wilcoxon_p``; ``paired_halfwidth``, ``unpaired_halfwidth`` (t-interval
         half-widths of the mean difference with and without pairing) and
         ``variance_reduction``. Bounds are NaN below the minimum replicates of
@@ -141,17 +144,20 @@ def lift_statistics(
         raise ValueError(f"x and baseline must be 1-d and of equal length, got {x.shape} and {b.shape}")
     if rng is None:
         raise ValueError("lift_statistics needs rng (the bootstrap stream)")
-    rng = np.random.default_rng(rng)
+    # one seed for both intervals: the same resamples of the replicates
+    seed = np.random.default_rng(rng).integers(2**63) if isinstance(rng, np.random.Generator) else rng
     r = x.size
     d = x - b
     ratio = float(x.mean() / b.mean()) if b.mean() > 0 else float("nan")
     if np.isfinite(ratio):
-        ci_ratio = bootstrap_interval(lambda i: x[i].mean(axis=-1) / b[i].mean(axis=-1), r, rng=rng,
+        ci_ratio = bootstrap_interval(lambda i: x[i].mean(axis=-1) / b[i].mean(axis=-1), r,
+                                      rng=np.random.default_rng(seed),
                                       standard_error=lambda i: ratio_standard_error(x[i], b[i]), level=level,
                                       resamples=resamples, bounds=(0.0, np.inf))
     else:
         ci_ratio = None
-    ci_diff = t_interval(d, level)
+    ci_diff = bootstrap_interval(lambda i: d[i].mean(axis=-1), r, rng=np.random.default_rng(seed), level=level,
+                                 standard_error=lambda i: d[i].std(axis=-1, ddof=1) / np.sqrt(r), resamples=resamples)
     if np.all(d == 0):
         p = 1.0
     else:
