@@ -154,3 +154,18 @@ def test_t50_of_the_mean_curve_interval_covers_at_the_usual_replicate_counts():
             ci = mean_curve_interval(shares, "t50", bootstrap=499, rng=rng)
             hits += ci.low <= truth <= ci.high
     assert LOW <= hits / 1000 <= HIGH, hits
+
+
+def test_the_command_says_in_one_line_that_there_is_no_interval(tmp_path, capsys):
+    # common practice for this command line: a warning is one line on standard error, as an error is
+    from womlab.cli import main
+
+    config = tmp_path / "study.toml"
+    config.write_text(
+        'name = "invented: too few replicates"\nseed = 3\n[market]\norganisations = 150\n'
+        '[network]\nkind = "random"\nmean_degree = 5\n[run]\nperiods = 10\n'
+        '[seeding]\nbudget = 3\n[study]\nstrategies = ["hubs"]\nbootstrap = 200\n', encoding="utf-8")
+    capsys.readouterr()
+    assert main(["seeding", str(config), "--out", str(tmp_path / "out"), "--quiet", "--replicates", "3"]) == 0
+    err = [line for line in capsys.readouterr().err.splitlines() if line.strip()]
+    assert err and all(line.startswith("womlab: warning: 3 replicate(s): no ") for line in err), err

@@ -35,8 +35,12 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
+    import warnings
+
     try:
-        return args.func(args)
+        with warnings.catch_warnings():  # a warning is one line, like an error (e.g. too few replicates)
+            warnings.showwarning = lambda message, *_args, **_kw: print(f"womlab: warning: {message}", file=sys.stderr)
+            return args.func(args)
     except WomlabError as exc:
         print(f"womlab: error: {exc}", file=sys.stderr)
         return 2
