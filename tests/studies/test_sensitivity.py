@@ -59,7 +59,7 @@ def test_sobol_standard_errors_match_the_spread_over_independent_designs():
     # factor 1.5 of the estimates' real standard deviation (each SE comes from 8 scrambles, so
     # its relative error is about 1/sqrt(14) = 0.27; averaged over 24 designs about 0.06, and the
     # real spread from 24 designs is itself uncertain by about 1/sqrt(46) = 0.15: a factor 1.5 is
-    # over 2.5 of these combined). The row bootstrap this replaces was about ten times too large.
+    # over 2.5 of these combined). The row bootstrap this replaces was four to six times too large here.
     tables = [sobol_indices(ishigami(saltelli_design(2**11, 3, np.random.default_rng(seed))), 3)
               for seed in range(24)]
     for col in ("S1", "ST"):
