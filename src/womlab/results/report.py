@@ -84,7 +84,9 @@ def sweep_summary(folder: str | Path | ResultsStore) -> pd.DataFrame:
         for outcome in OUTCOMES:
             x = group[outcome].astype("float64").to_numpy(na_value=np.nan)
             x = x[np.isfinite(x)]
-            mean, low, high = mean_interval(x)
+            # cut at the outcome's known range (shares in [0, 1], counts and times >= 0; studies.intervals)
+            known = (0.0, 1.0) if outcome.endswith("share") else (1.0 if outcome == "peak_period" else 0.0, np.inf)
+            mean, low, high = mean_interval(x, bounds=known)
             sd = float(x.std(ddof=1)) if x.size > 1 else np.nan
             rows.append({"point": int(point), "outcome": outcome, "runs": len(group), "reached": x.size,
                          "mean": mean, "sd": sd, "ci_low": low, "ci_high": high})
