@@ -22,6 +22,7 @@ import base64
 import html
 import io
 import json
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -30,6 +31,7 @@ from matplotlib.figure import Figure
 
 from womlab.scenario import Scenario
 from womlab.store import ResultsStore, atomic_write
+from womlab.studies.intervals import FewReplicatesWarning
 from womlab.studies.metrics import mean_interval
 from womlab.studies.sensitivity import morris_effects, sobol_indices
 from womlab.studies.sweep import OUTCOMES, unit_coordinates
@@ -86,7 +88,9 @@ def sweep_summary(folder: str | Path | ResultsStore) -> pd.DataFrame:
             x = x[np.isfinite(x)]
             # cut at the outcome's known range (shares in [0, 1], counts and times >= 0; studies.intervals)
             known = (0.0, 1.0) if outcome.endswith("share") else (1.0 if outcome == "peak_period" else 0.0, np.inf)
-            mean, low, high = mean_interval(x, bounds=known)
+            with warnings.catch_warnings():  # a point with one run has no interval; `reached` says why
+                warnings.simplefilter("ignore", FewReplicatesWarning)
+                mean, low, high = mean_interval(x, bounds=known)
             sd = float(x.std(ddof=1)) if x.size > 1 else np.nan
             rows.append({"point": int(point), "outcome": outcome, "runs": len(group), "reached": x.size,
                          "mean": mean, "sd": sd, "ci_low": low, "ci_high": high})
@@ -349,7 +353,7 @@ def write_report(folder: str | Path | ResultsStore) -> Path:
     for title, fig in figures.items():
         parts.append(f"<h3>{esc(title)}</h3><img class='figure' alt='{esc(title)}' src='data:image/png;base64,{_png(fig)}'>")
     parts.append("<h2>Outcomes by point</h2><p class='note'>Mean over a point's finished runs and the 95 % confidence "
-                 "interval of that mean (Student t). Times to a share average the runs that reached it.</p>")
+                 "interval of that mean (Student t; none where fewer than two runs count). Times to a share average the runs that reached it.</p>")
     parts.append(_table(by_point))
     if sens is not None:
         title = "Sobol indices" if spec.design == "sobol" else "Morris screening"
