@@ -117,8 +117,15 @@ def test_nothing_inside_womlab_imports_the_package_root():
     assert not importers, f"import the module you need, not the package root: {sorted(importers)}"
 
 
-def test_only_the_mesa_model_imports_mesa():
+def test_only_the_mesa_model_and_the_browser_view_import_mesa():
+    # the model (mesa.Model, its agents and space) and the page built on Mesa's own browser view;
+    # grimp counts `from mesa.visualization import ...` as importing mesa
     graph = _graph()
     importers = {m for m in graph.find_modules_that_directly_import("mesa") if m.startswith("womlab")}
-    assert importers == {"womlab.dynamics.mesa_model"}
+    assert importers == {"womlab.dynamics.mesa_model", "womlab.view.page"}
+
+
+def test_only_the_browser_view_imports_solara():
+    importers = {m for m in _graph().find_modules_that_directly_import("solara") if m.startswith("womlab")}
+    assert importers == {"womlab.view.page"}
 

@@ -27,22 +27,30 @@ import time
 
 import numpy as np
 import pandas as pd
+from common import parser, write
 from matplotlib.figure import Figure
 
 import womlab
 
-from common import parser, write
-
 
 def scenario(seed: int = 5) -> womlab.Scenario:
-    return womlab.Scenario.from_dict({
-        "name": "acceleration and expansion", "seed": seed,
-        "market": {"organisations": 1000, "initial_customers": 10}, "network": {"kind": "complete"},
-        "adoption": {"external": 0.01, "word_of_mouth": 0.3, "satisfied_share": 0.8},
-        "run": {"periods": 10},
-        "referral": {"enrol": "all", "talk_multiplier": 2.0, "reward": 1.0, "value_per_period": 1.0,
-                     "discount_rate": 0.01},
-    })
+    return womlab.Scenario.from_dict(
+        {
+            "name": "acceleration and expansion",
+            "seed": seed,
+            "market": {"organisations": 1000, "initial_customers": 10},
+            "network": {"kind": "complete"},
+            "adoption": {"external": 0.01, "word_of_mouth": 0.3, "satisfied_share": 0.8},
+            "run": {"periods": 10},
+            "referral": {
+                "enrol": "all",
+                "talk_multiplier": 2.0,
+                "reward": 1.0,
+                "value_per_period": 1.0,
+                "discount_rate": 0.01,
+            },
+        }
+    )
 
 
 def main(argv: list[str] | None = None) -> pd.DataFrame:
@@ -56,17 +64,31 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     at_horizon = runs["expansion_at_horizon"].sum() / runs["incremental_value"].sum()
     lifetime = runs["expansion"].sum() / runs["incremental_value_lifetime"].sum()
     rows = []
-    for name in ("incremental_value", "acceleration_at_horizon", "expansion_at_horizon",
-                 "incremental_value_lifetime", "acceleration", "expansion", "expanded_at_horizon", "expanded"):
+    for name in (
+        "incremental_value",
+        "acceleration_at_horizon",
+        "expansion_at_horizon",
+        "incremental_value_lifetime",
+        "acceleration",
+        "expansion",
+        "expanded_at_horizon",
+        "expanded",
+    ):
         rows.append({"outcome": name, **summary.loc[name, ["estimate", "low", "high"]].to_dict()})
     table = pd.DataFrame(rows)
     print(table.to_string(index=False))
     fig = Figure(figsize=(6, 3.6), layout="constrained")
     ax = fig.subplots()
-    parts = {"at the horizon (10 periods)": (summary.loc["acceleration_at_horizon", "estimate"],
-                                             summary.loc["expansion_at_horizon", "estimate"]),
-             f"whole life (continued to {int(runs['continued_to'].iloc[0])} periods)":
-                 (summary.loc["acceleration", "estimate"], summary.loc["expansion", "estimate"])}
+    parts = {
+        "at the horizon (10 periods)": (
+            summary.loc["acceleration_at_horizon", "estimate"],
+            summary.loc["expansion_at_horizon", "estimate"],
+        ),
+        f"whole life (continued to {int(runs['continued_to'].iloc[0])} periods)": (
+            summary.loc["acceleration", "estimate"],
+            summary.loc["expansion", "estimate"],
+        ),
+    }
     y = np.arange(len(parts))
     acc = [v[0] for v in parts.values()]
     exp = [v[1] for v in parts.values()]
@@ -81,9 +103,9 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         "result": "with p > 0 on a fixed market a programme's whole-life value is acceleration only",
         "source": "Libai, Muller & Peres (2013), Decomposing the value of word-of-mouth seeding programs, JMR 50(2)",
         "setup": f"complete network N = 1000, p = 0.01, q = 0.3, programme doubling word of mouth for 10 periods, "
-                 f"{args.replicates} paired replicates, continued until exhausted",
+        f"{args.replicates} paired replicates, continued until exhausted",
         "womlab": f"expansion {100 * lifetime:.1f} % of the whole-life value (every replicate exactly 0); at the "
-                  f"horizon {100 * at_horizon:.1f} % was labelled expansion",
+        f"horizon {100 * at_horizon:.1f} % was labelled expansion",
         "verdict": "reproduced" if ok else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

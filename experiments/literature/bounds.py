@@ -28,12 +28,11 @@ import time
 
 import numpy as np
 import pandas as pd
+from common import parser, write
 from matplotlib.figure import Figure
 
 import womlab
 from womlab.aggregate.exact import two_organisation_share
-
-from common import parser, write
 
 P, Q, PERIODS = 0.01, 0.4, 60
 KINDS = {  # label: network section
@@ -49,14 +48,22 @@ KINDS = {  # label: network section
 
 
 def scenario(network: dict, organisations: int, seed: int = 2023) -> womlab.Scenario:
-    return womlab.Scenario.from_dict({
-        "name": "bounds", "seed": seed,
-        "market": {"organisations": organisations, "initial_customers": 0, "regions": 4},
-        "network": network,
-        "adoption": {"rule": "share", "external": P, "word_of_mouth": Q, "satisfied_share": 1.0,
-                     "talkers_per_customer": 1},
-        "run": {"periods": PERIODS, "clock": "continuous"},
-    })
+    return womlab.Scenario.from_dict(
+        {
+            "name": "bounds",
+            "seed": seed,
+            "market": {"organisations": organisations, "initial_customers": 0, "regions": 4},
+            "network": network,
+            "adoption": {
+                "rule": "share",
+                "external": P,
+                "word_of_mouth": Q,
+                "satisfied_share": 1.0,
+                "talkers_per_customer": 1,
+            },
+            "run": {"periods": PERIODS, "clock": "continuous"},
+        }
+    )
 
 
 def check(shares: np.ndarray, lower: np.ndarray, upper: np.ndarray, organisations: int) -> dict[str, float]:
@@ -70,8 +77,11 @@ def check(shares: np.ndarray, lower: np.ndarray, upper: np.ndarray, organisation
     below, above = (lower - mean)[1:], (mean - upper)[1:]
     slack = 4 * se[1:] + 1.0 / organisations
     within = bool((below <= slack).all() and (above <= slack).all())
-    return {"below_lower_se": float((below[varies] / se[1:][varies]).max()),
-            "above_upper_se": float((above[varies] / se[1:][varies]).max()), "between": within}
+    return {
+        "below_lower_se": float((below[varies] / se[1:][varies]).max()),
+        "above_upper_se": float((above[varies] / se[1:][varies]).max()),
+        "between": within,
+    }
 
 
 def main(argv: list[str] | None = None) -> pd.DataFrame:
@@ -94,11 +104,21 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         isolated = 0 if network.complete else int((network.degree() == 0).sum())
         c = check(shares, lower, upper, args.organisations)
         mean = shares.mean(axis=0)
-        rows.append({"network": label, "isolated": isolated, **c,
-                     "t50": womlab.time_to_share(mean, 0.5), "share_at_20": float(mean[20])})
+        rows.append(
+            {
+                "network": label,
+                "isolated": isolated,
+                **c,
+                "t50": womlab.time_to_share(mean, 0.5),
+                "share_at_20": float(mean[20]),
+            }
+        )
         curves[label] = mean
-        print(f"{label:28s} isolated {isolated:3d}  past lower {c['below_lower_se']:+7.1f} SE  "
-              f"past upper {c['above_upper_se']:+7.1f} SE", flush=True)
+        print(
+            f"{label:28s} isolated {isolated:3d}  past lower {c['below_lower_se']:+7.1f} SE  "
+            f"past upper {c['above_upper_se']:+7.1f} SE",
+            flush=True,
+        )
     table = pd.DataFrame(rows)
     closed_form_gap = float(np.abs(curves["matching (two-organisation)"] - lower).max())
     fig = Figure(figsize=(7.5, 4.8), layout="constrained")
@@ -119,10 +139,10 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         "result": "adoption between the two-organisation network and the Bass curve",
         "source": "Fibich & Levin (2023), Universal bounds for spreading on networks; Fibich & Gibori (2010)",
         "setup": f"share rule, p = {P}, q = {Q}, continuous clock, N = {args.organisations}, "
-                 f"{args.replicates} runs x {len(KINDS)} network kinds",
+        f"{args.replicates} runs x {len(KINDS)} network kinds",
         "womlab": f"every kind within 4 SE of the band (largest excursions: {table['below_lower_se'].max():+.1f} SE "
-                  f"below the lower, {table['above_upper_se'].max():+.1f} SE above the upper); matching vs closed "
-                  f"form: largest gap {closed_form_gap:.4f}",
+        f"below the lower, {table['above_upper_se'].max():+.1f} SE above the upper); matching vs closed "
+        f"form: largest gap {closed_form_gap:.4f}",
         "verdict": "reproduced" if ok else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

@@ -28,12 +28,11 @@ import time
 
 import numpy as np
 import pandas as pd
+from common import parser, write
 from matplotlib.figure import Figure
 from scipy import optimize, special
 
 import womlab
-
-from common import parser, write
 
 PHI = 0.18
 GLOBAL = 0.10
@@ -56,14 +55,23 @@ def window_edges(phi: float = PHI) -> tuple[float, float]:
 
 
 def scenario(z: float, organisations: int, seed: int = 2002) -> womlab.Scenario:
-    return womlab.Scenario.from_dict({
-        "name": "cascade window", "seed": seed,
-        "market": {"organisations": organisations, "initial_customers": 1},
-        "network": {"kind": "random", "mean_degree": float(z)},
-        "adoption": {"rule": "threshold", "external": 0.0, "word_of_mouth": 1.0, "satisfied_share": 1.0,
-                     "talkers_per_customer": 1, "threshold": {"distribution": "fixed", "mean": PHI}},
-        "run": {"periods": 100},
-    })
+    return womlab.Scenario.from_dict(
+        {
+            "name": "cascade window",
+            "seed": seed,
+            "market": {"organisations": organisations, "initial_customers": 1},
+            "network": {"kind": "random", "mean_degree": float(z)},
+            "adoption": {
+                "rule": "threshold",
+                "external": 0.0,
+                "word_of_mouth": 1.0,
+                "satisfied_share": 1.0,
+                "talkers_per_customer": 1,
+                "threshold": {"distribution": "fixed", "mean": PHI},
+            },
+            "run": {"periods": 100},
+        }
+    )
 
 
 def global_frequency(z: float, runs: int, organisations: int) -> tuple[float, float]:
@@ -84,8 +92,15 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     for z in GRID:
         freq, size = global_frequency(z, args.runs, args.organisations)
         se = np.sqrt(max(freq * (1 - freq), 1 / args.runs) / args.runs)
-        rows.append({"mean_degree": z, "global_frequency": freq, "frequency_se": se, "mean_global_size": size,
-                     "inside_theory_window": low < z < high})
+        rows.append(
+            {
+                "mean_degree": z,
+                "global_frequency": freq,
+                "frequency_se": se,
+                "mean_global_size": size,
+                "inside_theory_window": low < z < high,
+            }
+        )
         print(f"z = {z:4.1f}: global cascades {freq:5.2f} (mean size {size:.3f})", flush=True)
     table = pd.DataFrame(rows)
     seen = table.loc[table["global_frequency"] > 0.05, "mean_degree"]
@@ -94,10 +109,22 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     fig = Figure(figsize=(6.5, 4), layout="constrained")
     ax = fig.subplots()
     ax.axvspan(low, high, color="#eeeeee", label=f"cascade condition: {low:.2f} < z < {high:.2f}")
-    ax.errorbar(table["mean_degree"], table["global_frequency"], yerr=1.96 * table["frequency_se"], marker="o",
-                color="#1f5f8b", label=f"womlab: share of {args.runs} single-seed runs reaching ≥ 10 %")
-    ax.plot(table["mean_degree"], table["mean_global_size"], marker="s", ls="--", color="#c0392b",
-            label="mean size of the global cascades")
+    ax.errorbar(
+        table["mean_degree"],
+        table["global_frequency"],
+        yerr=1.96 * table["frequency_se"],
+        marker="o",
+        color="#1f5f8b",
+        label=f"womlab: share of {args.runs} single-seed runs reaching ≥ 10 %",
+    )
+    ax.plot(
+        table["mean_degree"],
+        table["mean_global_size"],
+        marker="s",
+        ls="--",
+        color="#c0392b",
+        label="mean size of the global cascades",
+    )
     ax.set_xlabel("mean degree z")
     ax.set_ylabel("frequency, size")
     ax.set_title(f"threshold φ = {PHI}, N = {args.organisations}", fontsize=9)
@@ -107,10 +134,10 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         "result": "global cascades only in a window of mean degree",
         "source": "Watts (2002), A simple model of global cascades on random networks, PNAS 99",
         "setup": f"threshold rule, fixed φ = {PHI}, one seed, Erdős–Rényi, N = {args.organisations}, "
-                 f"{args.runs} runs per z in {GRID[0]:g}..{GRID[-1]:g}",
+        f"{args.runs} runs per z in {GRID[0]:g}..{GRID[-1]:g}",
         "womlab": f"global cascades (> 5 % of runs) for z = {obs_low:g}..{obs_high:g}; theory {low:.2f} < z < {high:.2f}; "
-                  f"largest frequency {table['global_frequency'].max():.2f} at z = "
-                  f"{table.loc[table['global_frequency'].idxmax(), 'mean_degree']:g}",
+        f"largest frequency {table['global_frequency'].max():.2f} at z = "
+        f"{table.loc[table['global_frequency'].idxmax(), 'mean_degree']:g}",
         "verdict": "reproduced" if ok else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

@@ -24,10 +24,12 @@ from womlab.store import atomic_write, results_folder, versions
 def parser(name: str, doc: str) -> argparse.ArgumentParser:
     """The script's argument parser: ``--out`` and whatever the script adds."""
     first = doc.strip().splitlines()[0]
-    p = argparse.ArgumentParser(prog=f"{name}.py", description=first,
-                                epilog="Writes table.csv, figure.png and verdict.json into --out.")
-    p.add_argument("--out", default=str(Path("out") / "literature" / name),
-                   help=f"results folder (default: out/literature/{name})")
+    p = argparse.ArgumentParser(
+        prog=f"{name}.py", description=first, epilog="Writes table.csv, figure.png and verdict.json into --out."
+    )
+    p.add_argument(
+        "--out", default=str(Path("out") / "literature" / name), help=f"results folder (default: out/literature/{name})"
+    )
     return p
 
 

@@ -25,22 +25,25 @@ import sys
 import time
 
 import pandas as pd
+from common import parser, write
 from matplotlib.figure import Figure
 
 import womlab
-
-from common import parser, write
 
 STEPS = (1.0, 0.5, 0.25)
 
 
 def scenario(step: float, seed: int = 3) -> womlab.Scenario:
-    return womlab.Scenario.from_dict({
-        "name": "complete network", "seed": seed,
-        "market": {"organisations": 4000, "initial_customers": 40}, "network": {"kind": "complete"},
-        "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
-        "run": {"periods": 30, "time_step": step},
-    })
+    return womlab.Scenario.from_dict(
+        {
+            "name": "complete network",
+            "seed": seed,
+            "market": {"organisations": 4000, "initial_customers": 40},
+            "network": {"kind": "complete"},
+            "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
+            "run": {"periods": 30, "time_step": step},
+        }
+    )
 
 
 def main(argv: list[str] | None = None) -> pd.DataFrame:
@@ -54,17 +57,32 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         c = womlab.compare(s, args.replicates, bootstrap=200, fit_bootstrap=200)
         ratio = c.fits.set_index("parameter").loc["Q_ratio"]
         closed = womlab.fit_bass(c.batch.shares().mean(axis=0)).Q / womlab.mapped_parameters(s).Q
-        rows.append({"time_step": step, "Q_ratio": ratio["estimate"], "low": ratio["low"], "high": ratio["high"],
-                     "closed_form_Q_ratio": closed, "Q_mapped": womlab.mapped_parameters(s).Q})
-        print(f"step {step}: Q_eff / Q_mapped {ratio['estimate']:.4f} [{ratio['low']:.4f}, {ratio['high']:.4f}]; "
-              f"closed form {closed:.4f}", flush=True)
+        rows.append(
+            {
+                "time_step": step,
+                "Q_ratio": ratio["estimate"],
+                "low": ratio["low"],
+                "high": ratio["high"],
+                "closed_form_Q_ratio": closed,
+                "Q_mapped": womlab.mapped_parameters(s).Q,
+            }
+        )
+        print(
+            f"step {step}: Q_eff / Q_mapped {ratio['estimate']:.4f} [{ratio['low']:.4f}, {ratio['high']:.4f}]; "
+            f"closed form {closed:.4f}",
+            flush=True,
+        )
     table = pd.DataFrame(rows)
     ok = bool(((table["low"] <= 1) & (table["high"] >= 1)).all())
     fig = Figure(figsize=(5.5, 3.6), layout="constrained")
     ax = fig.subplots()
-    ax.errorbar(table["time_step"], table["Q_ratio"], yerr=[table["Q_ratio"] - table["low"],
-                                                           table["high"] - table["Q_ratio"]],
-                marker="o", label="difference form in the run's step (now)")
+    ax.errorbar(
+        table["time_step"],
+        table["Q_ratio"],
+        yerr=[table["Q_ratio"] - table["low"], table["high"] - table["Q_ratio"]],
+        marker="o",
+        label="difference form in the run's step (now)",
+    )
     ax.plot(table["time_step"], table["closed_form_Q_ratio"], marker="s", ls="--", label="closed form (before)")
     ax.axhline(1, color="black", lw=0.8)
     ax.set_xscale("log")
@@ -76,8 +94,11 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         "result": "on the complete network Q_eff / Q_mapped = 1",
         "source": "Bass (1969); Kurtz (1970)",
         "setup": f"complete network N = 4000, p = 0.01, q = 0.5, s = 0.8, steps {STEPS}, {args.replicates} runs",
-        "womlab": "; ".join(f"step {r.time_step:g}: {r.Q_ratio:.3f} [{r.low:.3f}, {r.high:.3f}] "
-                            f"(closed form {r.closed_form_Q_ratio:.3f})" for r in table.itertuples()),
+        "womlab": "; ".join(
+            f"step {r.time_step:g}: {r.Q_ratio:.3f} [{r.low:.3f}, {r.high:.3f}] "
+            f"(closed form {r.closed_form_Q_ratio:.3f})"
+            for r in table.itertuples()
+        ),
         "verdict": "reproduced" if ok else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

@@ -27,25 +27,32 @@ import time
 
 import numpy as np
 import pandas as pd
+from common import parser, write
 from matplotlib.figure import Figure
 
 import womlab
-
-from common import parser, write
 
 EXTERNAL = (0.0, 0.0001, 0.001, 0.003, 0.01, 0.03)
 
 
 def scenario(external: float, organisations: int = 1000, seed: int = 2021) -> womlab.Scenario:
-    return womlab.Scenario.from_dict({
-        "name": "hub advantage", "seed": seed,
-        "market": {"organisations": organisations, "initial_customers": 1},
-        "network": {"kind": "scale_free", "mean_degree": 4},
-        "adoption": {"rule": "share", "external": external, "word_of_mouth": 0.3, "satisfied_share": 1.0,
-                     "talkers_per_customer": 1},
-        "run": {"periods": 300},
-        "study": {"strategies": ["random", "hubs"], "outcome": "customers"},
-    })
+    return womlab.Scenario.from_dict(
+        {
+            "name": "hub advantage",
+            "seed": seed,
+            "market": {"organisations": organisations, "initial_customers": 1},
+            "network": {"kind": "scale_free", "mean_degree": 4},
+            "adoption": {
+                "rule": "share",
+                "external": external,
+                "word_of_mouth": 0.3,
+                "satisfied_share": 1.0,
+                "talkers_per_customer": 1,
+            },
+            "run": {"periods": 300},
+            "study": {"strategies": ["random", "hubs"], "outcome": "customers"},
+        }
+    )
 
 
 def advantage(external: float, replicates: int, jobs: int, organisations: int = 1000) -> dict[str, float]:
@@ -55,9 +62,16 @@ def advantage(external: float, replicates: int, jobs: int, organisations: int = 
     diff = (wide["random"] - wide["hubs"]).to_numpy(dtype=float)
     mean, low, high = womlab.mean_interval(diff)
     table = study.strategies_table().set_index("strategy")
-    return {"external": external, "t50_random": table.loc["random", "t50_median"],
-            "t50_hubs": table.loc["hubs", "t50_median"], "advantage": mean, "advantage_low": low,
-            "advantage_high": high, "pairs_reaching_half": int(np.isfinite(diff).sum()), "replicates": replicates}
+    return {
+        "external": external,
+        "t50_random": table.loc["random", "t50_median"],
+        "t50_hubs": table.loc["hubs", "t50_median"],
+        "advantage": mean,
+        "advantage_low": low,
+        "advantage_high": high,
+        "pairs_reaching_half": int(np.isfinite(diff).sum()),
+        "replicates": replicates,
+    }
 
 
 def main(argv: list[str] | None = None) -> pd.DataFrame:
@@ -70,9 +84,11 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     for external in EXTERNAL:
         row = advantage(external, args.replicates, args.jobs)
         rows.append(row)
-        print(f"p = {external:<7g} median t50 random {row['t50_random']:6.1f}, hubs {row['t50_hubs']:6.1f}; "
-              f"advantage {row['advantage']:6.2f} [{row['advantage_low']:.2f}, {row['advantage_high']:.2f}]",
-              flush=True)
+        print(
+            f"p = {external:<7g} median t50 random {row['t50_random']:6.1f}, hubs {row['t50_hubs']:6.1f}; "
+            f"advantage {row['advantage']:6.2f} [{row['advantage_low']:.2f}, {row['advantage_high']:.2f}]",
+            flush=True,
+        )
     table = pd.DataFrame(rows)
     first, last = table.iloc[0], table.iloc[-1]
     ok = bool(first["advantage_low"] > 0 and abs(last["advantage"]) < 0.1 * first["advantage"])
@@ -82,8 +98,12 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     left.plot(x, table["t50_random"], marker="o", color="#555555", label="random seed")
     left.plot(x, table["t50_hubs"], marker="s", color="#c0392b", label="hub seed")
     left.set_ylabel("median periods to half the market")
-    right.errorbar(x, table["advantage"], yerr=[table["advantage"] - table["advantage_low"],
-                                                table["advantage_high"] - table["advantage"]], marker="o")
+    right.errorbar(
+        x,
+        table["advantage"],
+        yerr=[table["advantage"] - table["advantage_low"], table["advantage_high"] - table["advantage"]],
+        marker="o",
+    )
     right.axhline(0, color="black", lw=0.8)
     right.set_ylabel("hub advantage: t50 random − t50 hub\n(paired mean, 95 % t interval)")
     for ax in (left, right):
@@ -95,12 +115,12 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     verdict = {
         "result": "the hub advantage vanishes with a little external influence",
         "source": "Rossman & Fisher (2021), Network hubs cease to be influential in the presence of low levels "
-                  "of advertising, PNAS 118(7)",
+        "of advertising, PNAS 118(7)",
         "setup": f"share rule q = 0.3, scale-free N = 1000, mean degree 4, one seed, hubs vs random on "
-                 f"{args.replicates} paired replicates, p in {EXTERNAL}",
+        f"{args.replicates} paired replicates, p in {EXTERNAL}",
         "womlab": f"advantage {first['advantage']:.1f} periods [{first['advantage_low']:.1f}, "
-                  f"{first['advantage_high']:.1f}] at p = 0; {last['advantage']:.2f} [{last['advantage_low']:.2f}, "
-                  f"{last['advantage_high']:.2f}] at p = {last['external']:g}",
+        f"{first['advantage_high']:.1f}] at p = 0; {last['advantage']:.2f} [{last['advantage_low']:.2f}, "
+        f"{last['advantage_high']:.2f}] at p = {last['external']:g}",
         "verdict": "reproduced" if ok else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

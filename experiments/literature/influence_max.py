@@ -31,13 +31,12 @@ import time
 import networkx as nx
 import numpy as np
 import pandas as pd
+from common import parser, write
 from matplotlib.figure import Figure
 
 import womlab
 from womlab.networks import ReferralNetwork
 from womlab.seeding import greedy
-
-from common import parser, write
 
 W, N_ORGS, N_TIES, BUDGETS = 0.3, 10, 15, (1, 2, 3)
 
@@ -71,15 +70,23 @@ def exact_spread(graph: nx.Graph, w: float) -> dict[tuple[int, ...], float]:
 
 
 def scenario(budget: int, seed: int = 2003) -> womlab.Scenario:
-    return womlab.Scenario.from_dict({
-        "name": "independent cascade", "seed": seed,
-        "market": {"organisations": N_ORGS, "initial_customers": budget},
-        "network": {"kind": "random", "mean_degree": 2 * N_TIES / N_ORGS},
-        "adoption": {"rule": "cascade", "external": 0.0, "word_of_mouth": W, "satisfied_share": 1.0,
-                     "talkers_per_customer": 1},
-        "run": {"periods": N_ORGS + 2},
-        "seeding": {"greedy_runs": 200, "greedy_candidates": 0},
-    })
+    return womlab.Scenario.from_dict(
+        {
+            "name": "independent cascade",
+            "seed": seed,
+            "market": {"organisations": N_ORGS, "initial_customers": budget},
+            "network": {"kind": "random", "mean_degree": 2 * N_TIES / N_ORGS},
+            "adoption": {
+                "rule": "cascade",
+                "external": 0.0,
+                "word_of_mouth": W,
+                "satisfied_share": 1.0,
+                "talkers_per_customer": 1,
+            },
+            "run": {"periods": N_ORGS + 2},
+            "seeding": {"greedy_runs": 200, "greedy_candidates": 0},
+        }
+    )
 
 
 def simulated_spread(network: ReferralNetwork, seeds: tuple[int, ...], runs: int, seed: int = 0) -> tuple[float, float]:
@@ -87,8 +94,10 @@ def simulated_spread(network: ReferralNetwork, seeds: tuple[int, ...], runs: int
     s = scenario(len(seeds))
     engine = womlab.engine_for(s)
     ss = np.random.SeedSequence(seed).spawn(runs)
-    sizes = np.array([engine(s, network, np.asarray(seeds, np.int32), np.random.default_rng(q)).customers[-1]
-                      for q in ss], dtype=float)
+    sizes = np.array(
+        [engine(s, network, np.asarray(seeds, np.int32), np.random.default_rng(q)).customers[-1] for q in ss],
+        dtype=float,
+    )
     return float(sizes.mean()), float(sizes.std(ddof=1) / np.sqrt(runs))
 
 
@@ -105,20 +114,49 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     for k in BUDGETS:
         sets = {s: v for s, v in sigma.items() if len(s) == k}
         best = max(sets, key=sets.get)
-        exact_greedy = tuple(sorted(int(v) for v in greedy(network, k, np.random.default_rng(k), candidates=0,
-                                                           objective=lambda s: sigma[tuple(sorted(int(v) for v in s))]
-                                                           if len(s) else 0.0)))
-        mc_greedy = tuple(sorted(int(v) for v in womlab.choose_seeds(
-            "greedy", network, k, np.random.default_rng(100 + k), scenario=scenario(k))))
-        tried = {"optimum": best, "greedy, exact objective": exact_greedy, "greedy, womlab's own runs": mc_greedy,
-                 "random set": tuple(sorted(int(v) for v in rng.choice(N_ORGS, k, replace=False)))}
+        exact_greedy = tuple(
+            sorted(
+                int(v)
+                for v in greedy(
+                    network,
+                    k,
+                    np.random.default_rng(k),
+                    candidates=0,
+                    objective=lambda s: sigma[tuple(sorted(int(v) for v in s))] if len(s) else 0.0,
+                )
+            )
+        )
+        mc_greedy = tuple(
+            sorted(
+                int(v)
+                for v in womlab.choose_seeds("greedy", network, k, np.random.default_rng(100 + k), scenario=scenario(k))
+            )
+        )
+        tried = {
+            "optimum": best,
+            "greedy, exact objective": exact_greedy,
+            "greedy, womlab's own runs": mc_greedy,
+            "random set": tuple(sorted(int(v) for v in rng.choice(N_ORGS, k, replace=False))),
+        }
         for label, seeds in tried.items():
             mean, se = simulated_spread(network, seeds, args.runs, seed=k)
-            rows.append({"budget": k, "set": label, "seeds": " ".join(map(str, seeds)), "exact_spread": sigma[seeds],
-                         "womlab_mean": mean, "womlab_se": se, "gap_in_se": (mean - sigma[seeds]) / se,
-                         "share_of_optimum": sigma[seeds] / sets[best]})
-            print(f"k = {k} {label:26s} {seeds}: exact {sigma[seeds]:.4f}, womlab {mean:.4f} ± {se:.4f}, "
-                  f"{sigma[seeds] / sets[best]:.3f} of the optimum", flush=True)
+            rows.append(
+                {
+                    "budget": k,
+                    "set": label,
+                    "seeds": " ".join(map(str, seeds)),
+                    "exact_spread": sigma[seeds],
+                    "womlab_mean": mean,
+                    "womlab_se": se,
+                    "gap_in_se": (mean - sigma[seeds]) / se,
+                    "share_of_optimum": sigma[seeds] / sets[best],
+                }
+            )
+            print(
+                f"k = {k} {label:26s} {seeds}: exact {sigma[seeds]:.4f}, womlab {mean:.4f} ± {se:.4f}, "
+                f"{sigma[seeds] / sets[best]:.3f} of the optimum",
+                flush=True,
+            )
     table = pd.DataFrame(rows)
     guarantee = 1 - 1 / np.e
     greedy_rows = table[table["set"].str.startswith("greedy")]
@@ -136,9 +174,9 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         "result": "exact independent-cascade spread; greedy reaches at least 1 - 1/e of the optimum",
         "source": "Kempe, Kleinberg & Tardos (2003), Maximizing the spread of influence through a social network, KDD",
         "setup": f"gnm graph n = {N_ORGS}, m = {N_TIES}, w = {W}; exact sigma by 2^{N_TIES} live-tie patterns; "
-                 f"{args.runs} cascade runs per set",
+        f"{args.runs} cascade runs per set",
         "womlab": f"largest gap {table['gap_in_se'].abs().max():.1f} SE; greedy at "
-                  f"{greedy_rows['share_of_optimum'].min():.3f} of the optimum or better (guarantee {guarantee:.3f})",
+        f"{greedy_rows['share_of_optimum'].min():.3f} of the optimum or better (guarantee {guarantee:.3f})",
         "verdict": "reproduced" if ok else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

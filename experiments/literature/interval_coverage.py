@@ -28,12 +28,11 @@ from matplotlib.figure import Figure
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "tests" / "studies"))
 
+from common import parser, write  # noqa: E402
 from test_intervals import _bass_curves, _paired_counts  # noqa: E402  the generators the tests use
 
 import womlab  # noqa: E402
 from womlab.studies.metrics import curve_metrics_array, mean_curve_interval  # noqa: E402
-
-from common import parser, write  # noqa: E402
 
 COUNTS = (20, 24)
 
@@ -52,10 +51,15 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     nodes, weights = np.polynomial.hermite_e.hermegauss(60)
     weights = weights / weights.sum()
     a, b = np.meshgrid(nodes, nodes)
-    truth_t50 = womlab.time_to_share((_bass_curves(a.ravel(), b.ravel(), t)
-                                      * np.outer(weights, weights).ravel()[:, None]).sum(axis=0), 0.5)
-    hits = {(stat, method, n): 0 for stat in ("lift ratio", "lift difference", "t50 of the mean curve")
-            for method in ("now", "percentile (before)") for n in COUNTS}
+    truth_t50 = womlab.time_to_share(
+        (_bass_curves(a.ravel(), b.ravel(), t) * np.outer(weights, weights).ravel()[:, None]).sum(axis=0), 0.5
+    )
+    hits = {
+        (stat, method, n): 0
+        for stat in ("lift ratio", "lift difference", "t50 of the mean curve")
+        for method in ("now", "percentile (before)")
+        for n in COUNTS
+    }
     for n in COUNTS:
         rng = np.random.default_rng(9000 + n)
         for _ in range(args.datasets):
@@ -78,9 +82,18 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
             hits[("t50 of the mean curve", "percentile (before)", n)] += lo <= truth_t50 <= hi
         print(f"{n} replicates done", flush=True)
     se = np.sqrt(0.95 * 0.05 / args.datasets)
-    table = pd.DataFrame([{"statistic": s, "interval": m, "replicates": n, "coverage": h / args.datasets,
-                           "coverage_se": np.sqrt(max(h / args.datasets * (1 - h / args.datasets), 1e-9) / args.datasets)}
-                          for (s, m, n), h in hits.items()])
+    table = pd.DataFrame(
+        [
+            {
+                "statistic": s,
+                "interval": m,
+                "replicates": n,
+                "coverage": h / args.datasets,
+                "coverage_se": np.sqrt(max(h / args.datasets * (1 - h / args.datasets), 1e-9) / args.datasets),
+            }
+            for (s, m, n), h in hits.items()
+        ]
+    )
     print(table.to_string(index=False))
     now = table[table["interval"] == "now"]
     ok = bool(((now["coverage"] - 0.95).abs() <= 3 * se).all())
@@ -88,8 +101,7 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
     ax = fig.subplots()
     for j, (method, g) in enumerate(table.groupby("interval", sort=False)):
         labels = [f"{s}\n{n} reps" for s, n in zip(g["statistic"], g["replicates"])]
-        ax.errorbar(np.arange(len(g)) + 0.15 * j, g["coverage"], yerr=1.96 * g["coverage_se"], fmt="o",
-                    label=method)
+        ax.errorbar(np.arange(len(g)) + 0.15 * j, g["coverage"], yerr=1.96 * g["coverage_se"], fmt="o", label=method)
     ax.set_xticks(np.arange(len(labels)), labels, fontsize=6.5)
     ax.axhline(0.95, color="black", lw=0.8)
     ax.axhspan(0.95 - 3 * se, 0.95 + 3 * se, color="#eeeeee")
@@ -100,8 +112,10 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         "result": "95 % intervals cover 95 % at the replicate counts the studies use",
         "source": "verification (known truth); Efron & Tibshirani (1993); Hesterberg (2015)",
         "setup": f"{args.datasets} synthetic data sets per count, 20 and 24 replicates",
-        "womlab": "; ".join(f"{r.statistic} {r.replicates}: {r.coverage:.3f} (before {b:.3f})" for r, b in zip(
-            now.itertuples(), table[table['interval'] != 'now']['coverage'])),
+        "womlab": "; ".join(
+            f"{r.statistic} {r.replicates}: {r.coverage:.3f} (before {b:.3f})"
+            for r, b in zip(now.itertuples(), table[table["interval"] != "now"]["coverage"])
+        ),
         "verdict": "reproduced" if ok else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

@@ -22,11 +22,10 @@ import time
 
 import numpy as np
 import pandas as pd
+from common import parser, write
 from matplotlib.figure import Figure
 
 import womlab
-
-from common import parser, write
 
 A, B = 7.0, 0.1
 TRUE = {"S1": [0.314, 0.442, 0.0], "ST": [0.558, 0.442, 0.244]}
@@ -40,14 +39,14 @@ def ishigami(x: np.ndarray) -> np.ndarray:
 def row_bootstrap_se(y: np.ndarray, k: int, resamples: int, rng: np.random.Generator) -> dict[str, np.ndarray]:
     """The standard errors the row bootstrap gave (womlab before): rows resampled as if independent."""
     n = y.size // (k + 2)
-    fa, fb = y[:n], y[n:2 * n]
+    fa, fb = y[:n], y[n : 2 * n]
     draws = {"S1": np.empty((resamples, k)), "ST": np.empty((resamples, k))}
     for j in range(resamples):
         idx = rng.integers(0, n, n)
         a, b = fa[idx], fb[idx]
         v = np.var(np.concatenate([a, b]), ddof=1)
         for i in range(k):
-            ab = y[(2 + i) * n:(3 + i) * n][idx]
+            ab = y[(2 + i) * n : (3 + i) * n][idx]
             draws["S1"][j, i] = np.mean(b * (ab - a)) / v
             draws["ST"][j, i] = 0.5 * np.mean((a - ab) ** 2) / v
     return {key: d.std(axis=0, ddof=1) for key, d in draws.items()}
@@ -79,10 +78,18 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         for i in range(3):
             real = e[:, i].std(ddof=1)
             reported = float(np.sqrt((s[:, i] ** 2).mean()))
-            rows.append({"index": f"{key} x{i + 1}", "true": TRUE[key][i], "mean_estimate": e[:, i].mean(),
-                         "real_sd": real, "reported_se_now": reported, "row_bootstrap_se_before": bs[:, i].mean(),
-                         "ratio_now": reported / real if real > 1e-6 else np.nan,
-                         "ratio_before": bs[:, i].mean() / real if real > 1e-6 else np.nan})
+            rows.append(
+                {
+                    "index": f"{key} x{i + 1}",
+                    "true": TRUE[key][i],
+                    "mean_estimate": e[:, i].mean(),
+                    "real_sd": real,
+                    "reported_se_now": reported,
+                    "row_bootstrap_se_before": bs[:, i].mean(),
+                    "ratio_now": reported / real if real > 1e-6 else np.nan,
+                    "ratio_before": bs[:, i].mean() / real if real > 1e-6 else np.nan,
+                }
+            )
     table = pd.DataFrame(rows)
     print(table.to_string(index=False))
     varies = table["real_sd"] > 1e-6
@@ -104,9 +111,9 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         "source": "verification (known truth); Saltelli et al. (2010); Owen (1997)",
         "setup": f"Ishigami function, N = 2^{args.log2n}, {args.designs} independent designs",
         "womlab": f"reported / real spread {worst.min():.2f}-{worst.max():.2f}; the row bootstrap gave "
-                  f"{table.loc[varies, 'ratio_before'].min():.1f}-{table.loc[varies, 'ratio_before'].max():.1f} times "
-                  f"the real spread (S1 of x1: {table.loc[0, 'row_bootstrap_se_before']:.4f} before, "
-                  f"{table.loc[0, 'reported_se_now']:.4f} now, real {table.loc[0, 'real_sd']:.4f})",
+        f"{table.loc[varies, 'ratio_before'].min():.1f}-{table.loc[varies, 'ratio_before'].max():.1f} times "
+        f"the real spread (S1 of x1: {table.loc[0, 'row_bootstrap_se_before']:.4f} before, "
+        f"{table.loc[0, 'reported_se_now']:.4f} now, real {table.loc[0, 'real_sd']:.4f})",
         "verdict": "reproduced" if ok else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

@@ -1,6 +1,6 @@
 """Print the README's table from the verdict.json files the scripts wrote.
 
-    python experiments/literature/table.py [--results experiments/literature/results]
+python experiments/literature/table.py [--results experiments/literature/results]
 """
 
 from __future__ import annotations
@@ -10,16 +10,34 @@ import json
 import sys
 from pathlib import Path
 
-ORDER = ["bounds", "tree_laws", "cascade_window", "complex_contagion", "hub_advantage", "influence_max",
-         "acceleration_expansion", "complete_network_bass", "interval_coverage", "sobol_errors"]
+ORDER = [
+    "bounds",
+    "tree_laws",
+    "cascade_window",
+    "complex_contagion",
+    "hub_advantage",
+    "influence_max",
+    "acceleration_expansion",
+    "complete_network_bass",
+    "interval_coverage",
+    "sobol_errors",
+]
 
 
 def main(argv: list[str] | None = None) -> str:
-    p = argparse.ArgumentParser(prog="table.py", description="Print the README table from the scripts' verdict.json files.")
-    p.add_argument("--results", default=str(Path(__file__).resolve().parent / "results"),
-                   help="folder holding one results folder per script (default: experiments/literature/results)")
+    p = argparse.ArgumentParser(
+        prog="table.py", description="Print the README table from the scripts' verdict.json files."
+    )
+    p.add_argument(
+        "--results",
+        default=str(Path(__file__).resolve().parent / "results"),
+        help="folder holding one results folder per script (default: experiments/literature/results)",
+    )
     args = p.parse_args(argv)
-    lines = ["| result | source | set-up | womlab (with interval) | verdict | script |", "| --- | --- | --- | --- | --- | --- |"]
+    lines = [
+        "| result | source | set-up | womlab (with interval) | verdict | script |",
+        "| --- | --- | --- | --- | --- | --- |",
+    ]
     for name in ORDER:
         path = Path(args.results) / name / "verdict.json"
         if not path.exists():

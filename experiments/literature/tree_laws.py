@@ -30,12 +30,11 @@ import time
 
 import numpy as np
 import pandas as pd
+from common import parser, write
 from matplotlib.figure import Figure
 
 import womlab
 from womlab.aggregate.exact import regular_tree_share, ring_share
-
-from common import parser, write
 
 PERIODS, P = 30, 0.01
 CASES = [  # label, kind, k, rule, q, clock, step, initial share, satisfied share
@@ -50,16 +49,25 @@ CASES = [  # label, kind, k, rule, q, clock, step, initial share, satisfied shar
 TALKERS = 2
 
 
-def scenario(kind: str, k: int, rule: str, q: float, clock: str, step: float, x0: float, s: float,
-             organisations: int) -> womlab.Scenario:
-    return womlab.Scenario.from_dict({
-        "name": "tree law", "seed": 11,
-        "market": {"organisations": organisations, "initial_customers": int(round(x0 * organisations))},
-        "network": {"kind": kind, "mean_degree": k},
-        "adoption": {"rule": rule, "external": P, "word_of_mouth": q, "satisfied_share": s,
-                     "talkers_per_customer": TALKERS},
-        "run": {"periods": PERIODS, "time_step": step, "clock": clock},
-    })
+def scenario(
+    kind: str, k: int, rule: str, q: float, clock: str, step: float, x0: float, s: float, organisations: int
+) -> womlab.Scenario:
+    return womlab.Scenario.from_dict(
+        {
+            "name": "tree law",
+            "seed": 11,
+            "market": {"organisations": organisations, "initial_customers": int(round(x0 * organisations))},
+            "network": {"kind": kind, "mean_degree": k},
+            "adoption": {
+                "rule": rule,
+                "external": P,
+                "word_of_mouth": q,
+                "satisfied_share": s,
+                "talkers_per_customer": TALKERS,
+            },
+            "run": {"periods": PERIODS, "time_step": step, "clock": clock},
+        }
+    )
 
 
 def law(kind: str, k: int, rule: str, q: float, clock: str, step: float, x0: float, s: float) -> np.ndarray:
@@ -67,8 +75,15 @@ def law(kind: str, k: int, rule: str, q: float, clock: str, step: float, x0: flo
     if kind == "ring" and x0 == 0 and s == 1 and clock == "continuous":
         return ring_share(t, P, q)
     per_neighbour = q / k if rule == "share" else q * TALKERS
-    return regular_tree_share(PERIODS, k, P, per_neighbour, satisfied_share=s, initial_share=x0,
-                              time_step=None if clock == "continuous" else step)
+    return regular_tree_share(
+        PERIODS,
+        k,
+        P,
+        per_neighbour,
+        satisfied_share=s,
+        initial_share=x0,
+        time_step=None if clock == "continuous" else step,
+    )
 
 
 def main(argv: list[str] | None = None) -> pd.DataFrame:
@@ -90,8 +105,15 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         gap = np.abs(mean - exact)
         z = (gap[1:] / np.maximum(se[1:], 1e-12)).max()
         ok = bool((gap <= 4 * se + 1 / args.organisations).all())
-        rows.append({"case": label, "max_abs_gap": float(gap.max()), "max_gap_in_se": float(z),
-                     "se_at_half": float(se[np.argmin(np.abs(exact - 0.5))]), "within_4_se": ok})
+        rows.append(
+            {
+                "case": label,
+                "max_abs_gap": float(gap.max()),
+                "max_gap_in_se": float(z),
+                "se_at_half": float(se[np.argmin(np.abs(exact - 0.5))]),
+                "within_4_se": ok,
+            }
+        )
         line = left.plot(t, exact, lw=1.5, label=label)[0]
         left.plot(t, mean, ls="none", marker=".", ms=3, color=line.get_color())
         right.plot(t, (mean - exact) / np.maximum(se, 1e-12), color=line.get_color(), lw=1)
@@ -111,9 +133,9 @@ def main(argv: list[str] | None = None) -> pd.DataFrame:
         "result": "ring law; random-regular law; the array engine's exact step law on k-regular tree-like networks",
         "source": "Fibich & Gibori (2010); the step recursion derived in womlab.aggregate.exact",
         "setup": f"N = {args.organisations}, {args.replicates} runs per case, p = {P}, {len(CASES)} cases "
-                 "(continuous clock and steps 1, 0.5, 0.25)",
+        "(continuous clock and steps 1, 0.5, 0.25)",
         "womlab": f"largest gap {table['max_abs_gap'].max():.4f} of the market, at most "
-                  f"{table['max_gap_in_se'].max():.1f} SE of the mean",
+        f"{table['max_gap_in_se'].max():.1f} SE of the mean",
         "verdict": "reproduced" if table["within_4_se"].all() else "not reproduced",
     }
     write(args.out, table, fig, verdict, started)

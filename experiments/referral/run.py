@@ -1,21 +1,23 @@
 """Referral programme experiment: one invented programme across network kinds and reward levels.
 
-INVENTED scenario (programme.toml): no real firm, programme or data. The reward paid
-per successful referral buys extra word of mouth through an invented, saturating
-response curve, talk multiplier = 1 + 1.5 * reward / (reward + 20): a reward of 20 makes
-an enrolled satisfied customer's word of mouth count 1.75 times. Each (network kind,
-reward) point is evaluated with womlab.evaluate_programme on paired replicates (the
-programme run and the no-programme run share network and random draws).
+INVENTED scenario (sweep.toml): no real firm, programme or data. The experiment itself is
+the sweep in sweep.toml — network kind x reward, the programme evaluated against no
+programme at every point on 20 paired replicates (``[sweep] study = "programme"``), the
+talk multiplier a reward buys following the reward on an invented, saturating response
+curve. This script runs (or resumes) that sweep and adds what a sweep cannot: the reward
+at which the return crosses zero, interpolated between the swept rewards, and the figure.
 
-Writes results/roi.csv (one row per network kind and reward: ROI with its 95 % interval
-and the other outcomes) and results/roi.png. Run from the repository root:
+Writes, into --out: roi.csv (one row per network kind and reward: ROI, incremental
+customers and value, cost, acceleration, expansion, cost per incremental customer and the
+acceleration share, each with its 95 % interval), break_even.csv and roi.png; the sweep's
+own results folder (runs.parquet, summary.csv, report.html) is --sweep.
 
-    PYTHONPATH=src python experiments/referral/run.py
+    python experiments/referral/run.py [--out DIR] [--sweep DIR] [--jobs N]
 """
 
 from __future__ import annotations
 
-import sys
+import argparse
 import time
 from pathlib import Path
 
@@ -28,47 +30,21 @@ import womlab
 from womlab.store import atomic_write
 
 HERE = Path(__file__).resolve().parent
-KINDS = ("random", "small_world", "regional", "scale_free")
-REWARDS = (2.5, 5.0, 10.0, 20.0, 40.0, 80.0)
+OUTCOMES = ("roi", "incremental_customers", "incremental_value", "cost", "acceleration", "expansion",
+            "cost_per_incremental_customer", "acceleration_share")
 
 
-def multiplier(reward: float) -> float:
-    """Invented response: the talk multiplier a reward buys (saturating)."""
-    return 1.0 + 1.5 * reward / (reward + 20.0)
-
-
-def main(replicates: int | None = None, jobs: int | None = None) -> pd.DataFrame:
-    base = womlab.load_scenario(HERE / "programme.toml")
+def table(summary: pd.DataFrame) -> pd.DataFrame:
+    """One row per network kind and reward from the sweep's summary: each outcome's estimate and 95 % interval."""
     rows = []
-    start = time.perf_counter()
-    for kind in KINDS:
-        for reward in REWARDS:
-            s = base.replace({"network.kind": kind, "referral.reward": reward,
-                              "referral.talk_multiplier": multiplier(reward)})
-            study = womlab.evaluate_programme(s, replicates, jobs=jobs, degrees=False)
-            summ = study.summary().set_index("outcome")
-            row = {"network": kind, "reward": reward, "talk_multiplier": multiplier(reward),
-                   "replicates": study.replicates}
-            for name in ("roi", "incremental_customers", "incremental_value", "cost", "acceleration", "expansion",
-                         "cost_per_incremental_customer"):
-                row[name] = summ.loc[name, "estimate"]
-                row[f"{name}_low"] = summ.loc[name, "low"]
-                row[f"{name}_high"] = summ.loc[name, "high"]
-            row["break_even_period"] = summ.loc["break_even_period", "estimate"]
-            rows.append(row)
-            print(f"{kind:12s} reward {reward:5.1f}: ROI {row['roi']:6.2f} "
-                  f"[{row['roi_low']:.2f}, {row['roi_high']:.2f}]", flush=True)
-    table = pd.DataFrame(rows)
-    out = HERE / "results"
-    atomic_write(out / "roi.csv", lambda p: table.to_csv(p, index=False, float_format="%.6g"))
-    even = break_even_rewards(table)
-    atomic_write(out / "break_even.csv", lambda p: even.to_csv(p, index=False, float_format="%.4g"))
-    print(even.to_string(index=False))
-    fig = roi_figure(table, base)
-    atomic_write(out / "roi.png", lambda p: fig.savefig(p, dpi=130, format="png"))
-    print(f"{len(rows)} points in {time.perf_counter() - start:.0f} s; wrote results/roi.csv, "
-          "results/break_even.csv and results/roi.png")
-    return table
+    keys = ["network.kind", "referral.reward", "referral.talk_multiplier"]
+    for (kind, reward, multiplier), g in summary.groupby(keys, sort=False):
+        g = g.set_index("outcome")
+        row = {"network": kind, "reward": reward, "talk_multiplier": multiplier, "replicates": int(g["runs"].iloc[0])}
+        for name in OUTCOMES:
+            row[name], row[f"{name}_low"], row[f"{name}_high"] = g.loc[name, ["estimate", "low", "high"]]
+        rows.append(row)
+    return pd.DataFrame(rows)
 
 
 def break_even_rewards(table: pd.DataFrame) -> pd.DataFrame:
@@ -90,21 +66,19 @@ def break_even_rewards(table: pd.DataFrame) -> pd.DataFrame:
 
 
 def roi_figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
-    fig = Figure(figsize=(10, 4.2), layout="constrained")
+    rewards = sorted(table["reward"].unique())
+    fig = Figure(figsize=(10, 4.4), layout="constrained")
     left, right = fig.subplots(1, 2)
-    for kind in KINDS:
-        t = table[table["network"] == kind]
-        yerr = np.vstack([t["roi"] - t["roi_low"], t["roi_high"] - t["roi"]])
-        left.errorbar(t["reward"], t["roi"], yerr=yerr, marker="o", ms=4, capsize=3, lw=1.5, label=kind)
-        yerr = np.vstack([t["incremental_customers"] - t["incremental_customers_low"],
-                          t["incremental_customers_high"] - t["incremental_customers"]])
-        right.errorbar(t["reward"], t["incremental_customers"], yerr=yerr, marker="o", ms=4, capsize=3, lw=1.5,
-                       label=kind)
+    for kind, t in table.groupby("network", sort=False):
+        for ax, name in ((left, "roi"), (right, "incremental_customers")):
+            yerr = np.vstack([t[name] - t[f"{name}_low"], t[f"{name}_high"] - t[name]])
+            ax.errorbar(t["reward"], t[name], yerr=yerr, marker="o", ms=4, capsize=3, lw=1.5, label=kind)
     left.axhline(0.0, color="#555555", lw=1, ls="--")
-    left.text(REWARDS[0], 0.0, " break-even (ROI = 0)", va="bottom", fontsize=8, color="#555555")
-    left.set(xscale="log", xticks=REWARDS, xticklabels=[f"{r:g}" for r in REWARDS], xlabel="reward per successful referral", ylabel="ROI = (ΔValue − Cost) / Cost",
-             title="return on the programme (95 % intervals)")
-    right.set(xscale="log", xticks=REWARDS, xticklabels=[f"{r:g}" for r in REWARDS], xlabel="reward per successful referral", ylabel="incremental customers at the horizon",
+    left.text(rewards[0], 0.0, " break-even (ROI = 0)", va="bottom", fontsize=8, color="#555555")
+    ticks = dict(xscale="log", xticks=rewards, xticklabels=[f"{r:g}" for r in rewards],
+                 xlabel="reward per successful referral")
+    left.set(**ticks, ylabel="ROI = Σ(ΔValue − Cost) / ΣCost", title="return on the programme (95 % intervals)")
+    right.set(**ticks, ylabel="incremental customers at the horizon",
               title="customers the programme adds (95 % intervals)")
     for ax in (left, right):
         ax.xaxis.set_minor_formatter(NullFormatter())
@@ -117,6 +91,30 @@ def roi_figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
     return fig
 
 
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--out", default="out/experiments/referral",
+                        help="folder for roi.csv, break_even.csv, roi.png (default %(default)s; the tracked "
+                             "results are experiments/referral/results)")
+    parser.add_argument("--sweep", default="out/experiments/referral-sweep",
+                        help="the sweep's results folder (default %(default)s); rerun to resume")
+    parser.add_argument("--jobs", type=int, default=None, help="worker processes (default run.jobs)")
+    args = parser.parse_args()
+    start = time.perf_counter()
+    base = womlab.load_scenario(HERE / "sweep.toml")
+    done = womlab.run_sweep(base, args.sweep, args.jobs)
+    print(f"sweep: {done.points} points x {base.sweep.replicates} replicates, {done.ran} run now "
+          f"({done.backend}), {done.failures} failed; {args.sweep}/report.html")
+    result = table(womlab.sweep_summary(args.sweep))
+    even = break_even_rewards(result)
+    out = Path(args.out)
+    atomic_write(out / "roi.csv", lambda p: result.to_csv(p, index=False, float_format="%.6g"))
+    atomic_write(out / "break_even.csv", lambda p: even.to_csv(p, index=False, float_format="%.4g"))
+    fig = roi_figure(result, base)
+    atomic_write(out / "roi.png", lambda p: fig.savefig(p, dpi=130, format="png"))
+    print(even.to_string(index=False))
+    print(f"{time.perf_counter() - start:.0f} s; wrote {out}/roi.csv, break_even.csv, roi.png")
+
+
 if __name__ == "__main__":
-    reps = int(sys.argv[1]) if len(sys.argv) > 1 else None
-    main(reps)
+    main()

@@ -1,19 +1,24 @@
 """Seeding strategies on four network kinds, under two rules, with and without external influence.
 
-Every strategy of base.toml's [study] is compared with random seeding on paired replicates
-(womlab.compare_strategies: one network per replicate, common random numbers) for each of
-random, small_world, regional and scale_free networks at the same mean degree, under the
-``share`` and ``count`` rules, with external influence 0 and 0.01 per period. The scenario is
-invented (see base.toml). Writes results/seeding_experiment.csv (one row per network kind x
-rule x external x strategy), results/seeding_experiment.png and results/manifest.json.
+The experiment is the sweep in sweep.toml (invented scenario): network kind x adoption rule
+(with its word of mouth) x external influence, and at every point the paired seeding study
+(``[sweep] study = "seeding"``: every strategy of [study] on the same network and the same
+random draws per replicate, lift against random seeding with paired-bootstrap intervals).
+This script runs (or resumes) that sweep and adds what a sweep cannot: one table of every
+strategy at every point, and the figure.
 
-    python experiments/seeding/run.py [--replicates 30] [--jobs 2]
+Writes, into --out: seeding_experiment.csv (one row per network kind x rule x external x
+strategy: discounted customer-periods and customers with 95 % intervals, lift as ratio and
+difference with their intervals, Wilcoxon p-value, paired and unpaired half-widths) and
+seeding_experiment.png; the sweep's own results folder (runs.parquet, summary.csv,
+report.html) is --sweep.
+
+    python experiments/seeding/run.py [--out DIR] [--sweep DIR] [--jobs N] [--plot-only]
 """
 
 from __future__ import annotations
 
 import argparse
-import json
 import time
 from pathlib import Path
 
@@ -23,46 +28,50 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import FixedFormatter, FixedLocator, NullFormatter
 
 import womlab
-from womlab.store import atomic_write, versions
+from womlab.store import atomic_write
 
 HERE = Path(__file__).resolve().parent
 KINDS = ("random", "small_world", "regional", "scale_free")
-# word of mouth per rule: share q = 0.4 of the satisfied share; count q = 0.07 per talker,
-# about 0.4 / mean degree, so that both rules spread at a similar pace on the random network
-RULES = {"share": 0.4, "count": 0.07}
-EXTERNAL = (0.0, 0.01)
 TICKS = (0.25, 0.5, 0.75, 1, 1.5, 2, 3, 4)
 COLOURS = {"random": "#555555", "small_world": "#1f5f8b", "regional": "#2e8b57", "scale_free": "#c0392b"}
+PER_STRATEGY = ("customers", "t50", "peak_period", "customer_periods")
+LIFT = ("lift_ratio", "lift_diff", "wilcoxon_p", "paired_halfwidth", "unpaired_halfwidth")
 
 
-def run(replicates: int | None, jobs: int | None) -> pd.DataFrame:
-    base = womlab.load_scenario(HERE / "base.toml")
-    frames = []
-    for kind in KINDS:
-        for rule, q in RULES.items():
-            for external in EXTERNAL:
-                s = base.replace({"network.kind": kind, "adoption.rule": rule,
-                                  "adoption.word_of_mouth": q, "adoption.external": external})
-                start = time.perf_counter()
-                study = womlab.compare_strategies(s, replicates=replicates, jobs=jobs, snapshot=False)
-                table = study.strategies_table()
-                table.insert(0, "external", external)
-                table.insert(0, "rule", rule)
-                table.insert(0, "network", kind)
-                frames.append(table)
-                print(f"{kind:12s} {rule:6s} p={external:<5g} {time.perf_counter() - start:6.1f} s  "
-                      + "  ".join(f"{r.strategy}={r.lift_ratio:.2f}" for r in table.itertuples() if r.strategy != "random"),
-                      flush=True)
-    return pd.concat(frames, ignore_index=True)
+def table(summary: pd.DataFrame, strategies: tuple[str, ...]) -> pd.DataFrame:
+    """One row per point and strategy from the sweep's summary."""
+    rows = []
+    keys = ["network.kind", "adoption.rule", "adoption.word_of_mouth", "adoption.external"]
+    for (kind, rule, q, external), g in summary.groupby(keys, sort=False):
+        g = g.set_index("outcome")
+        for s in strategies:
+            row = {"network": kind, "rule": rule, "word_of_mouth": q, "external": external, "strategy": s,
+                   "replicates": int(g["runs"].iloc[0])}
+            for name in PER_STRATEGY:
+                row[f"{name}_mean"], row[f"{name}_low"], row[f"{name}_high"] = g.loc[f"{name}[{s}]",
+                                                                                     ["estimate", "low", "high"]]
+            for name in LIFT:
+                key = f"{name}[{s}]"
+                if s == "random":
+                    row[name] = {"lift_ratio": 1.0, "lift_diff": 0.0, "wilcoxon_p": 1.0}.get(name, np.nan)
+                else:
+                    row[name] = g.loc[key, "estimate"]
+                if name in ("lift_ratio", "lift_diff"):
+                    row[f"{name}_low"] = row[name] if s == "random" else g.loc[key, "low"]
+                    row[f"{name}_high"] = row[name] if s == "random" else g.loc[key, "high"]
+            rows.append(row)
+    return pd.DataFrame(rows)
 
 
 def figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
     strategies = [s for s in table["strategy"].unique() if s != "random"]
+    rules = dict(zip(table["rule"], table["word_of_mouth"]))
+    externals = sorted(table["external"].unique())
     fig = Figure(figsize=(12, 8.5), layout="constrained")
-    axes = fig.subplots(len(RULES), len(EXTERNAL), sharex=True, sharey=True)
+    axes = fig.subplots(len(rules), len(externals), sharex=True, sharey=True)
     offsets = np.linspace(-0.3, 0.3, len(KINDS))
-    for i, rule in enumerate(RULES):
-        for j, external in enumerate(EXTERNAL):
+    for i, rule in enumerate(rules):
+        for j, external in enumerate(externals):
             ax = axes[i, j]
             sub = table[(table["rule"] == rule) & (table["external"] == external)]
             for k, kind in enumerate(KINDS):
@@ -78,8 +87,8 @@ def figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
             ax.xaxis.set_minor_formatter(NullFormatter())
             ax.set_yticks(np.arange(len(strategies)), strategies)
             ax.grid(alpha=0.3, axis="x")
-            ax.set_title(f"rule = {rule} (q = {RULES[rule]:g}), external p = {external:g}", fontsize=10)
-            if i == len(RULES) - 1:
+            ax.set_title(f"rule = {rule} (q = {rules[rule]:g}), external p = {external:g}", fontsize=10)
+            if i == len(rules) - 1:
                 ax.set_xlabel("lift vs random seeding: ratio of mean discounted customer-periods\n"
                               "(95 % paired-bootstrap interval; log scale)")
     axes[0, 0].invert_yaxis()  # once: the axes share y, so each call would flip all of them
@@ -87,36 +96,35 @@ def figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
                frameon=False, title="network (dot: lift, line: 95 % interval)", title_fontsize=9)
     st = base.study
     fig.suptitle(f"{base.name}: N = {base.market.organisations}, mean degree {base.network.mean_degree:g}, "
-                 f"budget {base.n_initial}, {st.replicates} paired replicates, discount {st.discount_rate:g}/period",
-                 fontsize=11)
+                 f"budget {base.n_initial}, {base.sweep.replicates} paired replicates, discount "
+                 f"{st.discount_rate:g}/period", fontsize=11)
     return fig
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--replicates", type=int, default=None, help="overrides study.replicates")
-    parser.add_argument("--jobs", type=int, default=None, help="overrides run.jobs")
-    parser.add_argument("--plot-only", action="store_true", help="redraw the figure from results/seeding_experiment.csv")
+    parser.add_argument("--out", default="out/experiments/seeding",
+                        help="folder for seeding_experiment.csv and .png (default %(default)s; the tracked results "
+                             "are experiments/seeding/results)")
+    parser.add_argument("--sweep", default="out/experiments/seeding-sweep",
+                        help="the sweep's results folder (default %(default)s); rerun to resume")
+    parser.add_argument("--jobs", type=int, default=None, help="worker processes (default run.jobs)")
+    parser.add_argument("--plot-only", action="store_true", help="redraw the figure from --out's seeding_experiment.csv")
     args = parser.parse_args()
-    out = HERE / "results"
+    out = Path(args.out)
     start = time.perf_counter()
-    base = womlab.load_scenario(HERE / "base.toml")
-    if args.replicates is not None:
-        base = base.replace("study.replicates", args.replicates)
+    base = womlab.load_scenario(HERE / "sweep.toml")
     if args.plot_only:
-        fig = figure(pd.read_csv(out / "seeding_experiment.csv"), base)
-        atomic_write(out / "seeding_experiment.png", lambda p: fig.savefig(p, dpi=120, format="png"))
-        return
-    table = run(args.replicates, args.jobs)
-    atomic_write(out / "seeding_experiment.csv", lambda p: table.to_csv(p, index=False, float_format="%.6g"))
-    fig = figure(table, base)
+        result = pd.read_csv(out / "seeding_experiment.csv")
+    else:
+        done = womlab.run_sweep(base, args.sweep, args.jobs)
+        print(f"sweep: {done.points} points x {base.sweep.replicates} replicates, {done.ran} run now "
+              f"({done.backend}), {done.failures} failed; {args.sweep}/report.html")
+        result = table(womlab.sweep_summary(args.sweep), base.study.compared)
+        atomic_write(out / "seeding_experiment.csv", lambda p: result.to_csv(p, index=False, float_format="%.6g"))
+    fig = figure(result, base)
     atomic_write(out / "seeding_experiment.png", lambda p: fig.savefig(p, dpi=120, format="png"))
-    info = {"scenario": base.to_dict(), "varied": {"network.kind": list(KINDS), "adoption.rule/word_of_mouth": RULES,
-                                                   "adoption.external": list(EXTERNAL)},
-            "wall_time_s": round(time.perf_counter() - start, 1), "versions": versions()}
-    atomic_write(out / "manifest.json", lambda p: p.write_text(json.dumps(info, indent=2) + "\n", encoding="utf-8"))
-    print(f"wrote {out}/seeding_experiment.csv, seeding_experiment.png, manifest.json "
-          f"in {time.perf_counter() - start:.0f} s")
+    print(f"{time.perf_counter() - start:.0f} s; wrote {out}/seeding_experiment.csv and seeding_experiment.png")
 
 
 if __name__ == "__main__":

@@ -8,13 +8,15 @@ curves against the aggregate Bass and stock-and-flow models.
 Quick start::
 
     import womlab
-    s = womlab.load_scenario("configs/demo.toml")
+    s = womlab.load_scenario("demo")  # a shipped demo by name, or any scenario file
     batch = womlab.run_replicates(s, 20, jobs=2)
     batch.metrics()                    # t10/t50/t90, peak, final share: network vs aggregate
     womlab.adoption_figure(batch).savefig("adoption.png")
 """
 
 from __future__ import annotations
+
+from importlib import metadata as _metadata
 
 from womlab.aggregate import (
     AggregateParameters,
@@ -39,9 +41,10 @@ from womlab.aggregate import (
     stock_and_flow,
     two_organisation_share,
 )
-from womlab.dynamics import RunResult, engine_for, run_events, streams
-from womlab.errors import NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
+from womlab.errors import ClusterError, NetworkError, ScenarioError, StoreError, WomlabError
 from womlab.networks import ReferralNetwork, build_network, read_edgelist
+from womlab.networks.given import as_network
 from womlab.results import (
     adoption_figure,
     comparison_figure,
@@ -57,7 +60,7 @@ from womlab.results import (
     sweep_summary,
     write_report,
 )
-from womlab.scenario import Scenario, load_scenario
+from womlab.scenario import Scenario, demo_names, load_scenario, write_demo
 from womlab.seeding import STRATEGIES, choose_seeds
 from womlab.store import ResultsStore
 from womlab.studies import (
@@ -65,6 +68,7 @@ from womlab.studies import (
     Comparison,
     ProgrammeStudy,
     SeedingStudy,
+    SweepStudy,
     SweepSummary,
     aggregate_curves,
     bass_fit_table,
@@ -86,8 +90,10 @@ from womlab.studies import (
     pooled_gaps,
     pooled_metrics,
     programme_economics,
+    programme_ratios,
     referral_tree_summary,
     referrals_per_customer,
+    register_sweep_study,
     replicate_gaps,
     replicate_metrics,
     reproduction_by_period,
@@ -97,17 +103,22 @@ from womlab.studies import (
     run_sweep,
     saltelli_design,
     sobol_indices,
+    sweep_studies,
     time_to_share,
     top_degree_referral_share,
     word_of_mouth_by_period,
 )
 
-__version__ = "0.1.0"
+try:  # the one source of the version is pyproject.toml, read from the installed metadata
+    __version__ = _metadata.version("womlab")
+except _metadata.PackageNotFoundError:  # pragma: no cover - imported from a source tree that was never installed
+    __version__ = "0+unknown"
 
 __all__ = [
     "AggregateParameters",
     "BassFit",
     "Batch",
+    "ClusterError",
     "Comparison",
     "NetworkError",
     "ProgrammeStudy",
@@ -123,6 +134,7 @@ __all__ = [
     "adoption_figure",
     "aggregate_curve",
     "aggregate_curves",
+    "as_network",
     "bass_density",
     "bass_difference",
     "bass_fit_table",
@@ -138,6 +150,7 @@ __all__ = [
     "comparison_figure",
     "curve_gap",
     "curve_metrics",
+    "demo_names",
     "degree_classes",
     "degree_mean_field",
     "degree_mean_field_curve",
@@ -157,6 +170,7 @@ __all__ = [
     "pooled_metrics",
     "programme_economics",
     "programme_figure",
+    "programme_ratios",
     "read_edgelist",
     "referral_tree_figure",
     "referral_tree_summary",
@@ -177,11 +191,16 @@ __all__ = [
     "regular_tree_share",
     "streams",
     "time_to_share",
+    "to_networkx",
     "top_degree_referral_share",
     "word_of_mouth_by_period",
+    "write_demo",
     # sweeps, results store, sensitivity, report
     "ResultsStore",
+    "SweepStudy",
     "SweepSummary",
+    "register_sweep_study",
+    "sweep_studies",
     "design_points",
     "morris_design",
     "morris_effects",
@@ -195,6 +214,7 @@ __all__ = [
     "write_report",
     # the Mesa model, imported on first use so that `import womlab` does not import mesa
     "ReferralModel",
+    "Organisation",
     "run_mesa",
     # engines and their dispatch
     "engine_for",

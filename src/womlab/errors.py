@@ -6,7 +6,7 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 
 from __future__ import annotations
 
-__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError"]
+__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError"]
 
 
 class WomlabError(Exception):
@@ -27,3 +27,11 @@ class NetworkError(WomlabError, ValueError):
 
 class StoreError(WomlabError):
     """A results folder cannot be written, read or resumed."""
+
+
+class ClusterError(WomlabError):
+    """A Dask cluster cannot be started or its scheduler cannot be reached."""
+
+
+class ViewError(WomlabError):
+    """The browser view cannot start (its extra is not installed, or the server did not come up)."""

@@ -35,8 +35,12 @@ def test_ring_law_is_the_tree_law_at_degree_two_and_the_pair_at_degree_one():
 
 def test_step_law_converges_to_the_continuous_law_in_proportion_to_the_step():
     continuous = regular_tree_share(30, 4, 0.01, 0.1, satisfied_share=0.7, initial_share=0.01)
-    errors = [np.abs(regular_tree_share(30, 4, 0.01, 0.1, satisfied_share=0.7, initial_share=0.01, time_step=dt)
-                     - continuous).max() for dt in (0.5, 0.25, 0.125)]
+    errors = [
+        np.abs(
+            regular_tree_share(30, 4, 0.01, 0.1, satisfied_share=0.7, initial_share=0.01, time_step=dt) - continuous
+        ).max()
+        for dt in (0.5, 0.25, 0.125)
+    ]
     assert errors[0] > errors[1] > errors[2]
     assert errors[0] / errors[1] == pytest.approx(2, rel=0.1) and errors[1] / errors[2] == pytest.approx(2, rel=0.1)
 

@@ -18,8 +18,8 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from womlab import Scenario, ScenarioError, build_network, run_one
-from womlab.dynamics.mesa_model import FLAT_PARAMETERS, ReferralModel, run_mesa
+from womlab import NetworkError, Scenario, ScenarioError, build_network, run_one
+from womlab.dynamics.mesa_model import FLAT_PARAMETERS, MESA_VERSION, Organisation, ReferralModel, run_mesa
 
 FLAT = {
     "organisations": 200,
@@ -97,14 +97,14 @@ def test_flat_parameters_map_onto_the_scenario() -> None:
                      "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
         "run": {"periods": 12},
     })
-    assert model.scenario == nested
+    assert model.womlab_scenario == nested
     assert FLAT_PARAMETERS["word_of_mouth"] == FLAT_PARAMETERS["adoption_word_of_mouth"] == "adoption.word_of_mouth"
     assert "replicates" not in FLAT_PARAMETERS and "engine" not in FLAT_PARAMETERS
     assert FLAT_PARAMETERS["referral_budget"] == "referral.budget" and "budget" not in FLAT_PARAMETERS
     nested_threshold = ReferralModel(**FLAT, rule="threshold", threshold={"distribution": "fixed", "mean": 0.3})
-    assert nested_threshold.scenario.adoption.threshold.mean == 0.3
+    assert nested_threshold.womlab_scenario.adoption.threshold.mean == 0.3
     based = ReferralModel(nested, periods=5, external=0.02)  # with a scenario: Scenario.replace
-    assert based.scenario == nested.replace({"run.periods": 5, "adoption.external": 0.02})
+    assert based.womlab_scenario == nested.replace({"run.periods": 5, "adoption.external": 0.02})
 
 
 def test_bad_flat_parameters_name_the_field() -> None:
@@ -123,7 +123,7 @@ def test_seeded_model_is_deterministic_and_matches_run_one() -> None:
     for field in ("adoption_period", "referrer", "satisfied"):
         np.testing.assert_array_equal(getattr(a, field), getattr(b, field))
     # replicate r of the model is replicate r of a womlab batch on the mesa engine
-    scenario = ReferralModel(**FLAT).scenario.replace("run.engine", "mesa")
+    scenario = ReferralModel(**FLAT).womlab_scenario.replace("run.engine", "mesa")
     via_batch = run_one(scenario, (3,))
     np.testing.assert_array_equal(via_batch.adoption_period, a.adoption_period)
     np.testing.assert_array_equal(via_batch.referrer, a.referrer)
@@ -145,9 +145,10 @@ def test_callers_graph_and_network_are_not_changed() -> None:
     assert list(graph.edges(data=True)) == list(before.edges(data=True))
     assert model.result().customers[-1] > 2
 
-    network = build_network(scenario.replace("market.organisations", 200), np.random.default_rng(5))
+    larger = scenario.replace("market.organisations", 200)
+    network = build_network(larger, np.random.default_rng(5))
     indptr, indices, region = network.indptr.copy(), network.indices.copy(), network.region.copy()
-    run_mesa(scenario, network, np.array([1, 2, 3]), np.random.default_rng(6))
+    run_mesa(larger, network, np.array([1, 2, 3]), np.random.default_rng(6))
     np.testing.assert_array_equal(network.indptr, indptr)
     np.testing.assert_array_equal(network.indices, indices)
     np.testing.assert_array_equal(network.region, region)
@@ -203,14 +204,14 @@ def test_importing_the_model_leaves_the_multiprocessing_start_method_alone() -> 
 
 
 def _with_programme(**referral) -> Scenario:
-    base = ReferralModel(**FLAT).scenario
+    base = ReferralModel(**FLAT).womlab_scenario
     return base.replace({f"referral.{k}": v for k, v in referral.items()})
 
 
 def test_programme_without_boost_or_payments_reproduces_the_baseline() -> None:
     # womlab.dynamics.programme: enrolment has its own stream, so a programme that changes nothing
     # sees the baseline's dynamics draws and gives the baseline run, organisation by organisation
-    base = _run(scenario=ReferralModel(**FLAT).scenario).result()
+    base = _run(scenario=ReferralModel(**FLAT).womlab_scenario).result()
     same = _run(scenario=_with_programme(enrol="all")).result()
     np.testing.assert_array_equal(same.adoption_period, base.adoption_period)
     np.testing.assert_array_equal(same.referrer, base.referrer)
@@ -230,7 +231,7 @@ def test_programme_pays_enrolled_referrers_in_its_window_within_budget() -> None
     assert ((result.adoption_period[rewarded] >= 3) & (result.adoption_period[rewarded] <= 8)).all()
     assert extra["programme_cost"].sum() == 2.0 * rewarded.size <= 40.0
     boosted = _run(scenario=scenario.replace("referral.reward", 0.0)).result()
-    plain = _run(scenario=ReferralModel(**FLAT).scenario).result()
+    plain = _run(scenario=ReferralModel(**FLAT).womlab_scenario).result()
     assert boosted.customers[8] > plain.customers[8]  # tripled word of mouth in periods 3-8 shows
 
 
@@ -243,7 +244,7 @@ def test_a_batch_run_does_not_keep_its_models_alive() -> None:
         return sum(isinstance(o, ReferralModel) for o in gc.get_objects())
 
     before = alive()
-    scenario = ReferralModel(**FLAT).scenario.replace("run.engine", "mesa")
+    scenario = ReferralModel(**FLAT).womlab_scenario.replace("run.engine", "mesa")
     for r in range(3):
         run_one(scenario, (r,))
     assert alive() <= before + 1  # at most the model built by hand above
@@ -268,3 +269,85 @@ def test_womlab_imports_mesa_only_when_the_model_is_asked_for():
     code = ("import sys, womlab; assert 'mesa' not in sys.modules; "
             "womlab.ReferralModel; assert 'mesa' in sys.modules")
     assert subprocess.run([sys.executable, "-c", code]).returncode == 0
+
+
+class Cautious(Organisation):
+    """A user's own organisation: a budget attribute, and it never adopts in an odd step."""
+
+    def __init__(self, model, cell, organisation):  # noqa: ANN001
+        super().__init__(model, cell, organisation)
+        self.budget = 100 + organisation
+
+    def decide(self) -> None:
+        super().decide()
+        if self.model.step_count % 2 == 1:
+            self.adopting = False
+
+
+def test_own_agent_class_and_agent_reporters_reach_mesa_s_data_collector() -> None:
+    # Mesa's DataCollector (the reference library) collects the user's agent reporters
+    model = _run(**FLAT, agent_class=Cautious, agent_reporters={"budget": "budget", "customer": "customer"})
+    assert all(isinstance(a, Cautious) for a in model.agents)
+    result = model.result()
+    assert (result.new_customers[1::2] == 0).all()  # the subclass's own decision is the one used
+    assert result.customers[-1] > FLAT["initial_customers"]
+    agents = model.datacollector.get_agent_vars_dataframe()
+    assert len(agents) == FLAT["organisations"] * (FLAT["periods"] + 1)
+    last = agents.xs(FLAT["periods"], level="Step")
+    assert int(last["customer"].sum()) == result.customers[-1]
+    assert sorted(last["budget"]) == list(range(100, 100 + FLAT["organisations"]))
+    with pytest.raises(ScenarioError, match="agent_class must be womlab's Organisation or a subclass"):
+        ReferralModel(**FLAT, agent_class=mesa.Agent)
+
+
+def test_keyword_parameters_suit_mesa_s_browser_view() -> None:
+    # Mesa's browser view checks the model's signature: every parameter without a default must be
+    # given, and a catch-all is accepted only under the name `kwargs` (mesa.visualization.solara_viz)
+    import inspect
+
+    params = inspect.signature(ReferralModel.__init__).parameters
+    required = [n for n, p in params.items() if p.default is inspect.Parameter.empty
+                and p.kind not in (p.VAR_KEYWORD, p.VAR_POSITIONAL) and n != "self"]
+    assert required == []
+    assert [n for n, p in params.items() if p.kind == p.VAR_KEYWORD] == ["kwargs"]
+    assert not any(p.kind == p.VAR_POSITIONAL for p in params.values())
+
+
+def test_the_model_keeps_womlab_s_scenario_apart_from_mesa_s() -> None:
+    model = ReferralModel(**FLAT)
+    assert isinstance(model.womlab_scenario, Scenario)
+    assert model.womlab_scenario.market.organisations == FLAT["organisations"]
+    if MESA_VERSION >= (3, 5):  # Mesa's own experiment parameters, which its view hands back on reset
+        from mesa.experimental.scenarios import Scenario as MesaScenario
+
+        assert isinstance(model.scenario, MesaScenario)
+        again = ReferralModel(scenario=MesaScenario(periods=5), **FLAT_WITHOUT_PERIODS)
+        assert again.womlab_scenario.run.periods == 5
+        # Mesa 3.5's Network space takes layout=None: no spring layout, so a cell's physical
+        # position falls back to its coordinate (mesa.discrete_space.Cell.position)
+        assert all(float(cell.position) == cell.coordinate for cell in model.space.all_cells)
+
+
+FLAT_WITHOUT_PERIODS = {k: v for k, v in FLAT.items() if k != "periods"}
+
+
+def test_a_network_of_the_wrong_size_is_refused_in_one_line() -> None:
+    # Zachary (1977) karate club, 34 organisations, against a market of 200
+    with pytest.raises(NetworkError, match=r"^the network has 34 organisations but market.organisations is 200;"):
+        ReferralModel(**FLAT, network=nx.karate_club_graph())
+
+
+def test_an_edge_table_is_a_network_and_adoption_times_end_the_step() -> None:
+    # Padgett & Ansell (1993) Florentine families, as networkx ships them, handed in as an edge table
+    graph = nx.florentine_families_graph()
+    table = nx.to_pandas_edgelist(graph)
+    model = _run(organisations=15, initial_customers=2, periods=6, time_step=0.5, word_of_mouth=0.8,
+                 network=table)
+    assert model.network.ties == graph.number_of_edges() == 20
+    assert sorted(model.network.labels) == sorted(graph.nodes)
+    result = model.result()
+    seen = result.adoption_period >= 0
+    # period k covers the times (k - 1, k]; a Mesa step ends at a multiple of the time step
+    np.testing.assert_array_equal(np.ceil(result.adoption_time[seen]), result.adoption_period[seen])
+    np.testing.assert_allclose(result.adoption_time[seen] * 2, np.round(result.adoption_time[seen] * 2))
+    assert np.isnan(result.adoption_time[~seen]).all()

@@ -68,8 +68,8 @@ def test_summary_interval_is_the_student_t_interval_of_the_mean(tmp_path, monkey
     x = runs.loc[(runs["point"] == 0), "final_share"].astype(float)
     row = summary[(summary["point"] == 0) & (summary["outcome"] == "final_share")].iloc[0]
     lo, hi = stats.t.interval(0.95, len(x) - 1, loc=x.mean(), scale=x.std(ddof=1) / len(x) ** 0.5)
-    assert row["mean"] == pytest.approx(x.mean()) and row["ci_low"] == pytest.approx(lo)
-    assert row["ci_high"] == pytest.approx(hi) and row["runs"] == 3
+    assert row["estimate"] == pytest.approx(x.mean()) and row["low"] == pytest.approx(lo)
+    assert row["high"] == pytest.approx(hi) and row["runs"] == 3
     assert summary.loc[summary["point"] == 3, "runs"].empty  # every run of point 3 failed
 
 

@@ -16,7 +16,7 @@ def _s(**sections):
 
 
 def test_demo_config_loads():
-    s = load_scenario(ROOT / "configs" / "demo.toml")
+    s = load_scenario("demo")  # the demo that ships in the package, by name
     assert s.market.organisations == 12_000 and s.market.n_initial == 120
     assert s.network.kind == "regional" and s.market.regions == 6
     assert s.adoption.talkers_per_customer.distribution == "poisson"
@@ -95,7 +95,7 @@ def test_replace_returns_a_new_validated_scenario():
 
 
 def test_round_trip_through_dict():
-    s = load_scenario(ROOT / "configs" / "demo.toml")
+    s = load_scenario("demo")  # the demo that ships in the package, by name
     assert Scenario.from_dict(s.to_dict()) == s
 
 
@@ -118,7 +118,7 @@ def test_edgelist_path_relative_to_the_scenario_file(tmp_path):
         load_scenario(tmp_path / "t.toml")
 
 
-@pytest.mark.parametrize("path", sorted((ROOT / "configs").glob("*.toml")) + sorted((ROOT / "experiments").glob("*/*.toml")),
+@pytest.mark.parametrize("path", sorted((ROOT / "src" / "womlab" / "scenario" / "demos").glob("*.toml")) + sorted((ROOT / "experiments").glob("*/*.toml")),
                          ids=lambda p: p.name)
 def test_every_shipped_scenario_is_valid_and_says_it_is_invented(path):
     # House rule: demo data and examples are an invented scenario of our own, and say so.

@@ -104,8 +104,12 @@ def test_studentised_interval_of_a_mean_matches_the_t_interval_on_normal_data():
     # Efron & Tibshirani (1993), ch. 12: for normal data the bootstrap-t interval approaches the
     # t interval; at n = 200 within 10 % of its half-width (tolerance fixed before looking)
     x = np.random.default_rng(3).normal(10.0, 2.0, 200)
-    ci = bootstrap_interval(lambda i: x[i].mean(axis=-1), x.size, rng=np.random.default_rng(4),
-                            standard_error=lambda i: x[i].std(axis=-1, ddof=1) / np.sqrt(x.size))
+    ci = bootstrap_interval(
+        lambda i: x[i].mean(axis=-1),
+        x.size,
+        rng=np.random.default_rng(4),
+        standard_error=lambda i: x[i].std(axis=-1, ddof=1) / np.sqrt(x.size),
+    )
     ref = t_interval(x)
     half = (ref.high - ref.low) / 2
     assert ci.low == pytest.approx(ref.low, abs=0.1 * half) and ci.high == pytest.approx(ref.high, abs=0.1 * half)
@@ -164,7 +168,9 @@ def test_the_command_says_in_one_line_that_there_is_no_interval(tmp_path, capsys
     config.write_text(
         'name = "invented: too few replicates"\nseed = 3\n[market]\norganisations = 150\n'
         '[network]\nkind = "random"\nmean_degree = 5\n[run]\nperiods = 10\n'
-        '[seeding]\nbudget = 3\n[study]\nstrategies = ["hubs"]\nbootstrap = 200\n', encoding="utf-8")
+        '[seeding]\nbudget = 3\n[study]\nstrategies = ["hubs"]\nbootstrap = 200\n',
+        encoding="utf-8",
+    )
     capsys.readouterr()
     assert main(["seeding", str(config), "--out", str(tmp_path / "out"), "--quiet", "--replicates", "3"]) == 0
     err = [line for line in capsys.readouterr().err.splitlines() if line.strip()]

@@ -45,24 +45,35 @@ def test_every_network_lies_between_the_two_organisation_network_and_bass():
             assert (np.abs(shares.mean(axis=0) - lower) <= 4 * se + 1 / n).all()
 
 
-@pytest.mark.parametrize("kind, k, rule, q, step", [("regular", 4, "share", 0.4, 0.25), ("ring", 2, "share", 0.4, 1.0),
-                                                    ("regular", 3, "count", 0.1, 1.0)])
+@pytest.mark.parametrize(
+    "kind, k, rule, q, step",
+    [("regular", 4, "share", 0.4, 0.25), ("ring", 2, "share", 0.4, 1.0), ("regular", 3, "count", 0.1, 1.0)],
+)
 def test_array_engine_follows_its_exact_step_law_on_tree_like_networks(kind, k, rule, q, step):
     # The step recursion of womlab.aggregate.exact (derived there: the survival over a step splits
     # per neighbour on a k-regular tree) is the array engine's own law, not a small-step limit, so
     # the check is tight: at every period the mean of 6 runs at N = 20,000 is within 4 SE plus
     # 1/N of it (short cycles of a random regular network shift the mean by O(1/N)).
     n, x0, s_share, talkers, p = 20000, 0.01, 0.7, 2, 0.01
-    s = womlab.Scenario.from_dict({
-        "seed": 13, "market": {"organisations": n, "initial_customers": int(x0 * n)},
-        "network": {"kind": kind, "mean_degree": k},
-        "adoption": {"rule": rule, "external": p, "word_of_mouth": q, "satisfied_share": s_share,
-                     "talkers_per_customer": talkers},
-        "run": {"periods": 25, "time_step": step},
-    })
+    s = womlab.Scenario.from_dict(
+        {
+            "seed": 13,
+            "market": {"organisations": n, "initial_customers": int(x0 * n)},
+            "network": {"kind": kind, "mean_degree": k},
+            "adoption": {
+                "rule": rule,
+                "external": p,
+                "word_of_mouth": q,
+                "satisfied_share": s_share,
+                "talkers_per_customer": talkers,
+            },
+            "run": {"periods": 25, "time_step": step},
+        }
+    )
     shares = womlab.run_replicates(s, 6).shares()
-    law = regular_tree_share(25, k, p, q / k if rule == "share" else q * talkers, satisfied_share=s_share,
-                             initial_share=x0, time_step=step)
+    law = regular_tree_share(
+        25, k, p, q / k if rule == "share" else q * talkers, satisfied_share=s_share, initial_share=x0, time_step=step
+    )
     se = shares.std(axis=0, ddof=1) / np.sqrt(shares.shape[0])
     assert (np.abs(shares.mean(axis=0) - law) <= 4 * se + 1 / n).all()
 
@@ -120,6 +131,11 @@ def test_cascade_rule_matches_exact_independent_cascade_spread_and_greedy_meets_
     assert abs(mean - sigma[best]) <= 4 * se
     for k in (1, 2, 3):
         optimum = max(v for s, v in sigma.items() if len(s) == k)
-        chosen = womlab.seeding.greedy(network, k, np.random.default_rng(k), candidates=0,
-                                       objective=lambda s: sigma[tuple(sorted(int(v) for v in s))] if len(s) else 0.0)
+        chosen = womlab.seeding.greedy(
+            network,
+            k,
+            np.random.default_rng(k),
+            candidates=0,
+            objective=lambda s: sigma[tuple(sorted(int(v) for v in s))] if len(s) else 0.0,
+        )
         assert sigma[tuple(sorted(int(v) for v in chosen))] >= (1 - 1 / np.e) * optimum

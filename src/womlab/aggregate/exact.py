@@ -143,6 +143,7 @@ def regular_tree_share(
     p, a, s, x0, k = float(external), float(per_neighbour), float(satisfied_share), float(initial_share), int(degree)
     t = np.arange(periods + 1, dtype=float)
     if time_step is None:
+
         def rhs(time: float, y: np.ndarray) -> np.ndarray:
             g = y[0]
             u = (1 - x0) * np.exp(-p * time) * g ** (k - 1)

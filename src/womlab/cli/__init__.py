@@ -1,7 +1,7 @@
 """The ``womlab`` command. It only parses, calls the public functions and writes files.
 
 One module per command (``run``, ``compare``, ``seeding``, ``referral``, ``check``,
-``sweep``); each has an ``add(subparsers)`` that declares its options and the function it
+``sweep``, ``init``, ``view``); each has an ``add(subparsers)`` that declares its options and the function it
 calls. A new command is a new module here and one entry in :data:`COMMANDS`. A user
 mistake (a :class:`~womlab.errors.WomlabError`) is printed as one line on standard error
 with exit status 2, never as a traceback.
@@ -12,13 +12,13 @@ from __future__ import annotations
 import argparse
 import sys
 
-from womlab.cli import check, compare, referral, run, seeding, sweep
+from womlab.cli import check, compare, init, referral, run, seeding, sweep, view
 from womlab.errors import WomlabError
 
 __all__ = ["main", "build_parser", "COMMANDS"]
 
 #: The command modules, in the order ``womlab --help`` lists them.
-COMMANDS = (run, seeding, referral, compare, check, sweep)
+COMMANDS = (run, seeding, referral, compare, check, sweep, init, view)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -26,10 +26,20 @@ def build_parser() -> argparse.ArgumentParser:
         prog="womlab",
         description="Word-of-mouth growth on referral networks, set against the aggregate model.",
     )
+    parser.add_argument("--version", action="version", version=f"womlab {_version()}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     for command in COMMANDS:
         command.add(sub)
     return parser
+
+
+def _version() -> str:
+    from importlib import metadata
+
+    try:
+        return metadata.version("womlab")
+    except metadata.PackageNotFoundError:  # pragma: no cover - a source tree never installed
+        return "0+unknown"
 
 
 def main(argv: list[str] | None = None) -> int:

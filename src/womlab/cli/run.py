@@ -18,7 +18,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     scenario = load(args)
     out = Path(args.out) if args.out else Path("out") / Path(args.config).stem
     batch = run_replicates(scenario, progress=not args.quiet)
-    written = save_batch(batch, out)
+    written = save_batch(batch, out, organisations=args.organisations)
     metrics = batch.metrics()[["metric", "network_median", "network_q05", "network_q95", "aggregate"]]
     print(f"{scenario.name}: {batch.replicates} runs of {scenario.market.organisations} organisations "
           f"on a {scenario.network.kind} network, {batch.wall_time:.1f} s")
@@ -28,6 +28,8 @@ def cmd_run(args: argparse.Namespace) -> int:
 
 
 def add(sub: Any) -> None:
-    batch_command(sub, "run", cmd_run, "run replicates of a scenario and write its results folder",
-                  "scenario TOML file", "number of replicate runs (overrides run.replicates)",
-                  "out/<config name>", engine=True)
+    cmd = batch_command(sub, "run", cmd_run, "run replicates of a scenario and write its results folder",
+                        "scenario TOML file, or a shipped demo's name", "number of replicate runs (overrides run.replicates)",
+                        "out/<config name>", engine=True)
+    cmd.add_argument("--organisations", choices=["parquet", "csv"],
+                     help="also write organisations.parquet (or .csv): one row per replicate and organisation")

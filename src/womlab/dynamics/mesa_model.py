@@ -42,9 +42,21 @@ dynamics stream handed in (or the run's dynamics stream from
 :func:`womlab.dynamics.streams`). Mesa's stdlib ``model.random`` is seeded from it but
 never used for a draw.
 
-Importing Mesa forces the multiprocessing start method to ``spawn`` (a side effect of
-``mesa.batchrunner``); this module puts the previous setting back, so that importing
-womlab changes nothing outside it.
+Mesa versions. The model runs on Mesa 3.3 (the newest for Python 3.11) through 3.5 (Python
+3.12 and newer); ``make test`` runs its tests on both. Three habits of Mesa are handled
+here, each behind a check of the version or of the signature that has it:
+
+- Mesa up to 3.4 forces the multiprocessing start method to ``spawn`` when
+  ``mesa.batchrunner`` is imported; this module puts the previous setting back, so that
+  importing womlab changes nothing outside it (3.5 sets it only inside ``batch_run``).
+- Mesa up to 3.4 numbers agents in ``mesa.Agent._ids``, a class-level dict keyed by the
+  model; :func:`run_mesa` drops the finished model's entry so that it can be freed.
+- Mesa 3.5's ``discrete_space.Network`` lays the graph out with a spring layout unless
+  told ``layout=None`` (11.7 s at 1,000 organisations); the model passes ``layout=None``
+  wherever the space accepts it.
+
+Mesa 3.5's ``Model`` has a ``scenario`` property of its own (Mesa's experiment
+parameters), so womlab's scenario is kept as :attr:`ReferralModel.womlab_scenario`.
 """
 
 from __future__ import annotations
@@ -52,8 +64,10 @@ from __future__ import annotations
 import bisect
 import dataclasses
 import difflib
+import inspect
 import itertools
 import multiprocessing
+import re
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -65,9 +79,22 @@ import mesa  # noqa: E402
 from mesa.agent import AgentSet  # noqa: E402
 from mesa.discrete_space import FixedAgent, Network  # noqa: E402
 
-if multiprocessing.get_start_method(allow_none=True) != _start_method:  # undo mesa.batchrunner's import side effect
+#: The installed Mesa's (major, minor) version.
+MESA_VERSION: tuple[int, ...] = tuple(int(part) for part in re.findall(r"\d+", mesa.__version__)[:2])
+
+# Mesa <= 3.4: importing mesa.batchrunner forces the start method; put it back
+if MESA_VERSION < (3, 5) and multiprocessing.get_start_method(allow_none=True) != _start_method:
     multiprocessing.set_start_method(_start_method, force=True)
 del _start_method
+
+# Mesa >= 3.5 lays a Network space out (spring layout) unless told layout=None
+_SPACE_OPTIONS: dict[str, Any] = (
+    {"layout": None} if "layout" in inspect.signature(Network.__init__).parameters else {}
+)
+try:  # Mesa >= 3.5: its own experiment parameters, which its browser view passes back as `scenario=`
+    from mesa.experimental.scenarios import Scenario as _MesaScenario  # noqa: E402
+except ImportError:  # Mesa <= 3.4
+    _MesaScenario = None
 
 from womlab import rules  # noqa: E402
 from womlab.dynamics.programme import start_programme  # noqa: E402
@@ -75,10 +102,11 @@ from womlab.dynamics.run_result import RunResult  # noqa: E402
 from womlab.dynamics.streams import streams  # noqa: E402
 from womlab.errors import ScenarioError  # noqa: E402
 from womlab.networks import ReferralNetwork, build_network  # noqa: E402
+from womlab.networks.given import GivenNetwork, as_network  # noqa: E402
 from womlab.scenario import SECTIONS, Scenario  # noqa: E402
 from womlab.seeding import initial_customers  # noqa: E402
 
-__all__ = ["ReferralModel", "Organisation", "run_mesa", "FLAT_PARAMETERS"]
+__all__ = ["ReferralModel", "Organisation", "run_mesa", "FLAT_PARAMETERS", "MESA_VERSION", "flat_parameters"]
 
 # these describe batches, studies and sweeps, not one model run
 _NOT_FLAT_SECTIONS = {"study", "sweep"}
@@ -109,6 +137,32 @@ def _flat_parameters() -> tuple[dict[str, str], dict[str, list[str]]]:
 #: Every field is ``<section>_<field>`` (``adoption_word_of_mouth``); a field whose name
 #: is used by no other section is also its bare name (``word_of_mouth``).
 FLAT_PARAMETERS, _AMBIGUOUS = _flat_parameters()
+
+
+def flat_parameters(scenario: Scenario) -> dict[str, Any]:
+    """The flat keyword parameters of :class:`ReferralModel` that rebuild ``scenario``.
+
+    Every field that describes one run, as ``<section>_<field>`` (plus ``name`` and
+    ``seed``), in its file form: what Mesa's batch runner and browser view pass back to
+    the model.
+
+    Examples
+    --------
+    >>> s = Scenario.from_dict({"market": {"organisations": 120, "regions": 3}, "network": {"kind": "regional"},
+    ...                         "adoption": {"talkers_per_customer": {"distribution": "poisson", "mean": 2}}})
+    >>> flat = flat_parameters(s)
+    >>> flat["adoption_talkers_per_customer"], "run_replicates" in flat
+    ({'distribution': 'poisson', 'mean': 2.0}, False)
+    >>> ReferralModel(**flat).womlab_scenario == s
+    True
+    """
+    out: dict[str, Any] = {}
+    for key, value in scenario.to_dict().items():
+        if isinstance(value, dict) and key in SECTIONS:
+            out.update({f"{key}_{k}": v for k, v in value.items() if f"{key}_{k}" in FLAT_PARAMETERS})
+        elif key in FLAT_PARAMETERS:
+            out[key] = value
+    return out
 
 
 def _scenario_from_flat(scenario: Scenario | None, parameters: Mapping[str, Any]) -> Scenario:
@@ -166,12 +220,20 @@ class Organisation(FixedAgent):
         in which it is enrolled runs.
     adoption_period : int
         Period in which it became a customer (0 for initial customers), −1 if not yet.
+    adoption_step : int
+        Step in which it became a customer (0 for initial customers), −1 if not yet; its
+        adoption time is the end of that step, ``adoption_step * run.time_step``.
     referrer : int
         Id of the satisfied customer whose word of mouth caused its adoption; −1 for
         external influence, initial customers and potential customers.
     neighbours : list of Organisation
         Its neighbours on the network space (empty on the complete network, where
         every other organisation is a neighbour and the model supplies totals).
+
+    Subclass it to give organisations attributes or a decision of their own, and hand the
+    subclass to :class:`ReferralModel` as ``agent_class``: it is created as
+    ``agent_class(model, cell, organisation)``; :meth:`decide` sets ``adopting`` (and
+    the cause) from the state at the start of the step, :meth:`adopt` applies it.
 
     Examples
     --------
@@ -187,9 +249,9 @@ class Organisation(FixedAgent):
         super().__init__(model)
         self.cell = cell
         self.organisation = organisation
-        spec = model.scenario.adoption.talkers_per_customer
+        spec = model.womlab_scenario.adoption.talkers_per_customer
         self.talkers = float(rules.draw_talkers(spec, 1, model.rng)[0])
-        adoption = model.scenario.adoption
+        adoption = model.womlab_scenario.adoption
         self.threshold = (
             float(rules.draw_thresholds(adoption.threshold, 1, model.rng)[0]) if adoption.rule == "threshold" else None
         )
@@ -199,6 +261,7 @@ class Organisation(FixedAgent):
         self.talk = 0.0
         self.counted = 0.0
         self.adoption_period = -1
+        self.adoption_step = -1
         self.referrer = -1
         self.neighbours: list[Organisation] = []
         self.neighbour_talkers = 0.0
@@ -254,8 +317,9 @@ class Organisation(FixedAgent):
         self.customer = True
         self.adopting = False
         self.adoption_period = period
+        self.adoption_step = model.step_count
         self.referrer = self._cause
-        self.satisfied = bool(rules.draw_satisfied(model.scenario.adoption.satisfied_share, 1, model.rng)[0])
+        self.satisfied = bool(rules.draw_satisfied(model.womlab_scenario.adoption.satisfied_share, 1, model.rng)[0])
         self.fresh_until = model.step_count + model.steps_per_period  # newly satisfied for one period
         self.talk = self.counted = model.talk_weight(self)
 
@@ -275,11 +339,12 @@ class ReferralModel(mesa.Model):
         The scenario to run; defaults to womlab's defaults. Only its ``market``,
         ``network``, ``adoption`` and ``run`` (periods, time_step, step_probability)
         sections are used.
-    network : ReferralNetwork or networkx.Graph, optional
-        The referral network. A networkx graph (nodes 0..N−1 or any sortable labels,
-        optional integer ``region`` attribute) is read, never changed. By default the
-        network is built from the run's network stream, exactly as :func:`womlab.run_one`
-        builds it.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        The referral network: arrays, a networkx graph (any node ids, optional integer
+        ``region`` attribute; read, never changed) or an edge table (columns ``source``,
+        ``target``), read by :func:`womlab.networks.given.as_network`; its size must be
+        ``market.organisations``. By default the network is built from the run's network
+        stream, exactly as :func:`womlab.run_one` builds it.
     initial : sequence of int, optional
         Ids of the customers at period 0; by default drawn from the run's seeding
         stream, as :func:`womlab.run_one` draws them.
@@ -292,8 +357,16 @@ class ReferralModel(mesa.Model):
         r of :func:`womlab.run_replicates` with ``engine = "mesa"``. Give Mesa's batch
         runner ``"replicate": range(R)`` for R different replicates (its
         ``iterations`` repeat the same seeded run).
-    **parameters
-        Flat scenario fields, for Mesa's batch runner: each name in
+    agent_class : type, optional
+        The agents' class: :class:`Organisation` or a subclass of it with attributes or
+        a decision of its own. Created as ``agent_class(model, cell, organisation)``.
+    agent_reporters : mapping, optional
+        Mesa agent reporters (column name → attribute name or function of an agent),
+        collected every step beside the model reporters
+        (``model.datacollector.get_agent_vars_dataframe()``).
+    **kwargs
+        Flat scenario fields, for Mesa's batch runner and browser view (which needs the
+        catch-all to be called ``kwargs``): each name in
         :data:`FLAT_PARAMETERS` sets one dotted field. Every field of a section that
         describes one run is ``<section>_<field>`` (``adoption_word_of_mouth``), and
         also its bare name where no other section uses that name — ``name``, ``seed``;
@@ -313,8 +386,10 @@ class ReferralModel(mesa.Model):
 
     Attributes
     ----------
-    scenario : Scenario
-        The scenario as run.
+    womlab_scenario : Scenario
+        The scenario as run. (Not ``scenario``: from Mesa 3.5 that is Mesa's own
+        experiment-parameter object; a Mesa scenario handed in as ``scenario=``, as
+        Mesa's browser view does on reset, gives its parameters as flat parameters.)
     network : ReferralNetwork
         The referral network as arrays.
     space : mesa.discrete_space.Network
@@ -330,12 +405,15 @@ class ReferralModel(mesa.Model):
     Raises
     ------
     ScenarioError
-        For an unknown flat parameter (with a did-you-mean), an invalid value, or
-        initial customers that are not distinct ids of the network.
+        For an unknown flat parameter (with a did-you-mean), an invalid value, initial
+        customers that are not distinct ids of the network, or an agent class that is
+        not an :class:`Organisation`.
+    NetworkError
+        For a network whose size is not ``market.organisations``.
 
     Notes
     -----
-    Mesa 3.3 keeps a reference to every model it has numbered agents for
+    Mesa up to 3.4 keeps a reference to every model it has numbered agents for
     (``mesa.Agent._ids``), so a model built by hand lives until the process ends;
     :func:`run_mesa`, which the batches use, drops that reference after each run.
 
@@ -360,18 +438,33 @@ class ReferralModel(mesa.Model):
         self,
         scenario: Scenario | None = None,
         *,
-        network: ReferralNetwork | nx.Graph | None = None,
+        network: GivenNetwork | None = None,
         initial: Sequence[int] | np.ndarray | None = None,
         rng: np.random.Generator | int | None = None,
         replicate: int = 0,
-        **parameters: Any,
+        agent_class: type[Organisation] | None = None,
+        agent_reporters: Mapping[str, Any] | None = None,
+        **kwargs: Any,
     ) -> None:
-        scenario = _scenario_from_flat(scenario, parameters)
+        if _MesaScenario is not None and isinstance(scenario, _MesaScenario):
+            # Mesa's own experiment parameters (its browser view passes a fresh one on reset)
+            given = {k: v for k, v in scenario.to_dict().items() if k not in ("rng", "model", "_scenario_id")}
+            if rng is None:
+                rng = scenario.rng
+            scenario, kwargs = None, {**given, **kwargs}
+        if scenario is not None and not isinstance(scenario, Scenario):
+            raise ScenarioError(f"scenario must be a womlab Scenario, got {type(scenario).__name__}")
+        agent_class = Organisation if agent_class is None else agent_class
+        if not (isinstance(agent_class, type) and issubclass(agent_class, Organisation)):
+            raise ScenarioError(
+                f"agent_class must be womlab's Organisation or a subclass of it, got {agent_class!r}"
+            )
+        scenario = _scenario_from_flat(scenario, kwargs)
         st = streams(scenario.seed, (replicate,))
         if network is None:
             network = build_network(scenario, np.random.default_rng(st.network))
-        elif isinstance(network, nx.Graph):
-            network = ReferralNetwork.from_networkx(network)
+        else:
+            network = as_network(network, scenario.market.organisations)
         if initial is None:
             initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
         initial = np.asarray(initial, dtype=np.int64).ravel()
@@ -387,7 +480,7 @@ class ReferralModel(mesa.Model):
         # None without a programme; enrolment has its own stream, model.rng is not advanced
         self.programme = start_programme(scenario, network, self.rng)
 
-        self.scenario = scenario
+        self.womlab_scenario = scenario  # not `scenario`: Mesa 3.5's Model.scenario is its own
         self.network = network
         self.complete = network.complete
         run = scenario.run
@@ -399,9 +492,9 @@ class ReferralModel(mesa.Model):
         self._chances: dict[tuple[float, float], tuple[float, float]] = {}
 
         graph = nx.empty_graph(network.n) if network.complete else _graph_of(network)
-        self.space = Network(graph, random=self.random)
+        self.space = Network(graph, random=self.random, **_SPACE_OPTIONS)
         cells = [self.space[i] for i in range(network.n)]
-        organisations = [Organisation(self, cells[i], i) for i in range(network.n)]
+        organisations = [agent_class(self, cells[i], i) for i in range(network.n)]
         self._by_id = organisations
         for agent in organisations:
             agent.meet_neighbours()
@@ -425,7 +518,8 @@ class ReferralModel(mesa.Model):
                 "customers": "customers",
                 "new_customers": "new_customers",
                 "satisfied_customers": "satisfied_customers",
-            }
+            },
+            agent_reporters=dict(agent_reporters) if agent_reporters else None,
         )
         self.datacollector.collect(self)
 
@@ -444,7 +538,7 @@ class ReferralModel(mesa.Model):
         key = (talking, total)
         found = self._chances.get(key) if threshold is None else None
         if found is None:
-            adoption, run = self.scenario.adoption, self.scenario.run
+            adoption, run = self.womlab_scenario.adoption, self.womlab_scenario.run
             t, d = np.array([talking]), np.array([total])
             theta = None if threshold is None else np.array([threshold])
             rate = rules.adoption_rate(adoption.rule, t, d, adoption, theta)
@@ -458,7 +552,7 @@ class ReferralModel(mesa.Model):
     def talk_weight(self, agent: Organisation) -> float:
         """What ``agent`` puts into its neighbours' Tᵢ in the coming step (:func:`womlab.rules.talk_weights`)."""
         weight = rules.talk_weights(
-            self.scenario.adoption.rule,
+            self.womlab_scenario.adoption.rule,
             np.array([agent.talkers], dtype=np.float32),
             np.array([agent.customer and agent.satisfied]),
             np.array([agent.fresh_until >= self.step_count + 1]),
@@ -494,7 +588,7 @@ class ReferralModel(mesa.Model):
             return
         self.step_count += 1
         self.period = -(-self.step_count // self.steps_per_period)
-        if self.scenario.adoption.rule == "cascade":
+        if self.womlab_scenario.adoption.rule == "cascade":
             self._refresh_cascade_talk()
         if self.programme is not None:
             self._count_talk()
@@ -522,18 +616,23 @@ class ReferralModel(mesa.Model):
         """The run so far as a :class:`~womlab.dynamics.RunResult` (the same object the array engine returns).
 
         Per-organisation vectors are read off the agents; ``periods`` is the
-        scenario's horizon.
+        scenario's horizon; ``adoption_time`` is the end of the step of adoption, as in
+        the array engine.
         """
         agents = self._by_id
         customer = np.array([a.customer for a in agents], dtype=bool)
+        step = np.array([a.adoption_step for a in agents], dtype=np.int64)
+        run = self.womlab_scenario.run
         return RunResult(
-            periods=self.scenario.run.periods,
+            periods=run.periods,
             adoption_period=np.array([a.adoption_period for a in agents], dtype=np.int32),
             referrer=np.array([a.referrer for a in agents], dtype=np.int32),
             satisfied=customer & np.array([a.satisfied for a in agents], dtype=bool),
             region=np.asarray(self.network.region, dtype=np.int32).copy(),
             initial=self.initial.copy(),
             engine="mesa",
+            adoption_time=np.where(step >= 0, step / run.steps_per_period, np.nan),
+            report_every=run.report_every,
             extra={} if self.programme is None else self.programme.record(),
         )
 
@@ -589,10 +688,13 @@ def run_mesa(
 def _forget(model: mesa.Model) -> None:
     """Drop Mesa's class-level reference to a finished model, so that it can be freed.
 
-    Mesa 3.3 numbers agents per model in ``mesa.Agent._ids``, a dict keyed by the model
-    itself, and never removes the entry: without this every model of a batch — and all
-    its agents — would stay in memory until the worker exits.
+    Mesa up to 3.4 numbers agents per model in ``mesa.Agent._ids``, a dict keyed by the
+    model itself, and never removes the entry: without this every model of a batch — and
+    all its agents — would stay in memory until the worker exits. Mesa 3.5 numbers agents
+    on the model and keeps no such dict.
     """
+    if MESA_VERSION >= (3, 5):
+        return
     ids = getattr(mesa.Agent, "_ids", None)
     if isinstance(ids, dict):
         ids.pop(model, None)

@@ -19,13 +19,23 @@ grid, so the T + 1 row rule holds for them whatever the report grid.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
+import networkx as nx
 import numpy as np
 import pandas as pd
 
-__all__ = ["RunResult", "CURVE_COLUMNS"]
+from womlab.errors import NetworkError
+from womlab.networks.given import organisation_ids
+from womlab.networks.network import ReferralNetwork
+
+__all__ = ["RunResult", "CURVE_COLUMNS", "ORGANISATION_COLUMNS", "to_networkx"]
 
 CURVE_COLUMNS = ("period", "time", "customers", "new_customers", "satisfied_customers")
+
+#: Columns of :meth:`RunResult.to_frame` (a network's node attributes go after ``region``).
+ORGANISATION_COLUMNS = ("id", "region", "customer", "initial", "adoption_period", "adoption_time", "referrer",
+                        "satisfied", "referrals")
 
 
 @dataclass(eq=False)
@@ -161,8 +171,143 @@ class RunResult:
             }
         )
 
+    def to_frame(self, network: ReferralNetwork | None = None, attributes: pd.DataFrame | None = None) -> pd.DataFrame:
+        """One row per organisation: who it is and how it became a customer.
+
+        Parameters
+        ----------
+        network : ReferralNetwork, optional
+            The network the run was on; its ``labels`` (the ids as given, e.g. an edge
+            list's or a networkx graph's node ids) become ``id`` and ``referrer``. Without
+            it, ids are 0..N−1.
+        attributes : pandas.DataFrame, optional
+            One row per organisation in network order (e.g.
+            :func:`womlab.networks.given.node_attributes` of a networkx graph); its columns
+            go after ``region``.
+
+        Returns
+        -------
+        pandas.DataFrame
+            ``id``, ``region`` (code), the attributes, ``customer`` (at the horizon),
+            ``initial``, ``adoption_period`` (period 0 for the initial customers; missing
+            if never), ``adoption_time`` (NaN if never or not recorded), ``referrer`` (id
+            of the satisfied customer whose word of mouth brought it in; missing for
+            external influence, initial customers and non-customers), ``satisfied``, and
+            ``referrals`` (how many organisations it brought in).
+
+        Raises
+        ------
+        NetworkError
+            If ``network`` or ``attributes`` has another number of organisations.
+
+        Examples
+        --------
+        >>> import networkx as nx
+        >>> from womlab import Scenario, run_one
+        >>> from womlab.networks.given import as_network
+        >>> net = as_network(nx.florentine_families_graph(), 15)
+        >>> s = Scenario.from_dict({"market": {"organisations": 15, "initial_customers": 2}, "run": {"periods": 8}})
+        >>> table = run_one(s, (0,), network=net).to_frame(net)
+        >>> list(table.columns)
+        ['id', 'region', 'customer', 'initial', 'adoption_period', 'adoption_time', 'referrer', 'satisfied', 'referrals']
+        >>> int(table["initial"].sum()), table["id"].iloc[0]
+        (2, 'Acciaiuoli')
+        """
+        n = self.n
+        if network is not None and network.n != n:
+            raise NetworkError(f"the network has {network.n} organisations but the run had {n}")
+        ids = organisation_ids(network) if network is not None else np.arange(n)
+        adopted = self.adoption_period >= 0
+        referred = self.referrer >= 0
+        initial = np.zeros(n, dtype=bool)
+        initial[self.initial] = True
+        referrer_ids = ids[np.where(referred, self.referrer, 0)]
+        if ids.dtype.kind in "iu":  # whole-number ids: a nullable integer column
+            referrer: Any = pd.array(referrer_ids, dtype="Int64")
+            referrer[~referred] = pd.NA
+        else:
+            referrer = referrer_ids.astype(object)
+            referrer[~referred] = None
+        adoption_period = pd.array(np.where(adopted, self.adoption_period, 0), dtype="Int64")
+        adoption_period[~adopted] = pd.NA
+        columns: dict[str, Any] = {"id": ids, "region": self.region.astype(np.int64)}
+        if attributes is not None:
+            if len(attributes) != n:
+                raise NetworkError(f"attributes has {len(attributes)} rows but the run had {n} organisations")
+            for name in attributes.columns:
+                if name not in ORGANISATION_COLUMNS:
+                    columns[str(name)] = attributes[name].to_numpy()
+        columns.update({
+            "customer": adopted,
+            "initial": initial,
+            "adoption_period": adoption_period,
+            "adoption_time": (np.full(n, np.nan) if self.adoption_time is None
+                              else np.where(adopted, self.adoption_time, np.nan)),
+            "referrer": referrer,
+            "satisfied": self.satisfied & adopted,
+            "referrals": np.bincount(self.referrer[referred], minlength=n)[:n],
+        })
+        return pd.DataFrame(columns)
+
     def region_curve(self) -> pd.DataFrame:
         """Long table: period, region, customers."""
         by = self.customers_by_region()
         periods, regions = np.meshgrid(np.arange(by.shape[0]), np.arange(by.shape[1]), indexing="ij")
         return pd.DataFrame({"period": periods.ravel(), "region": regions.ravel(), "customers": by.ravel()})
+
+
+def to_networkx(result: RunResult, network: ReferralNetwork | None = None,
+                attributes: pd.DataFrame | None = None) -> nx.DiGraph:
+    """The run as a directed graph: every organisation with its adoption, and the referral forest.
+
+    Nodes are the organisations (by ``id`` as given when ``network`` has labels) with the
+    columns of :meth:`RunResult.to_frame` as attributes (missing values left out), and
+    ``start``, the adoption time, for customers. Each edge runs from a referrer to the
+    organisation its word of mouth brought in, with that adoption's ``period`` and
+    ``start``; the edges form a forest whose roots are the initial customers and those
+    who came by external influence. Written with :func:`networkx.write_gexf`, the
+    ``start`` times make a dynamic graph file that graph viewers replay as the spread.
+
+    Parameters
+    ----------
+    result : RunResult
+    network : ReferralNetwork, optional
+        The network the run was on, for the ids as given.
+    attributes : pandas.DataFrame, optional
+        Node attributes in network order, as for :meth:`RunResult.to_frame`.
+
+    Examples
+    --------
+    >>> import networkx as nx
+    >>> from womlab import Scenario, run_one
+    >>> s = Scenario.from_dict({"market": {"organisations": 300, "initial_customers": 3},
+    ...                         "network": {"kind": "random", "mean_degree": 6}, "run": {"periods": 20}})
+    >>> result = run_one(s, (0,))
+    >>> forest = to_networkx(result)
+    >>> nx.is_forest(forest), forest.number_of_edges() == int((result.referrer >= 0).sum())
+    (True, True)
+    """
+    table = result.to_frame(network, attributes)
+    graph = nx.DiGraph()
+    records = table.to_dict("records")
+    for row in records:
+        data = {str(k): _plain(v) for k, v in row.items() if k != "id" and not _missing(v)}
+        if row["customer"] and not _missing(row["adoption_time"]):
+            data["start"] = float(row["adoption_time"])
+        graph.add_node(_plain(row["id"]), **data)
+    for row in records:
+        if not _missing(row["referrer"]):
+            edge: dict[str, float] = {"period": int(row["adoption_period"])}
+            if not _missing(row["adoption_time"]):
+                edge["start"] = float(row["adoption_time"])
+            graph.add_edge(_plain(row["referrer"]), _plain(row["id"]), **edge)
+    return graph
+
+
+def _missing(value: Any) -> bool:
+    return value is None or value is pd.NA or (isinstance(value, float) and np.isnan(value))
+
+
+def _plain(value: Any) -> Any:
+    """numpy scalars as Python ones (graph files and viewers want plain types)."""
+    return value.item() if isinstance(value, np.generic) else value

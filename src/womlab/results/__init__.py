@@ -30,7 +30,7 @@ from womlab.studies.sweep import SweepSummary
 
 register(Comparison, "figure", comparison_figure)
 register(Comparison, "save", save_comparison)
-register(SweepSummary, "report", lambda summary: write_report(summary.out))
+register(SweepSummary, "report", lambda summary: write_report(summary.out, lock=False))  # the sweep holds the lock
 
 __all__ = [
     "adoption_figure",

@@ -10,6 +10,7 @@ import json
 from pathlib import Path
 from typing import Any
 
+from womlab.errors import StoreError
 from womlab.results.figures import (
     adoption_figure,
     comparison_figure,
@@ -24,7 +25,7 @@ from womlab.studies.programme import ProgrammeStudy
 from womlab.studies.runner import Batch
 from womlab.studies.seeding_study import BOOTSTRAP_KEY, SeedingStudy
 
-__all__ = ["save_batch", "save_programme", "save_seeding_study", "save_comparison"]
+__all__ = ["save_batch", "save_programme", "save_seeding_study", "save_comparison", "ORGANISATION_FORMATS"]
 
 
 def _write_json(path: Path, info: dict[str, Any]) -> Path:
@@ -40,16 +41,26 @@ def _write_table(path: Path, table: Any, float_format: str | None = "%.6g") -> P
     return atomic_write(path, lambda p: table.to_csv(p, index=False, float_format=float_format))
 
 
-def save_batch(batch: Batch, out: str | Path, *, figure: bool = True) -> list[Path]:
+#: Forms of the optional per-organisation file of a results folder.
+ORGANISATION_FORMATS = ("parquet", "csv")
+
+
+def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisations: str | None = None) -> list[Path]:
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
 
-    Returns the paths written.
+    With ``organisations = "parquet"`` (or ``"csv"``) also ``organisations.parquet``
+    (``.csv``): one row per replicate and organisation, :meth:`womlab.Batch.organisations`
+    (ids as given, region and node attributes, adoption period and time, referrer,
+    satisfied). Returns the paths written.
 
     Raises
     ------
     StoreError
-        If ``out`` exists and is not a folder, or cannot be written.
+        If ``out`` exists and is not a folder, cannot be written, or ``organisations``
+        is not one of parquet, csv (checked before anything is written).
     """
+    if organisations is not None and organisations not in ORGANISATION_FORMATS:
+        raise StoreError(f"organisations must be one of {', '.join(ORGANISATION_FORMATS)}, got {organisations!r}")
     out = results_folder(out)
     written = [
         _write_table(out / "curves.csv", batch.curves(), float_format=None),
@@ -58,8 +69,16 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True) -> list[Pa
     ]
     if figure:
         written.append(_write_figure(out / "adoption.png", adoption_figure(batch)))
+    if organisations is not None:
+        written.append(_write_organisations(out, batch.organisations(), organisations))
     written.append(_write_json(out / "manifest.json", manifest(batch)))
     return written
+
+
+def _write_organisations(out: Path, table: Any, form: str) -> Path:
+    if form == "csv":
+        return _write_table(out / "organisations.csv", table, float_format=None)
+    return atomic_write(out / "organisations.parquet", lambda p: table.to_parquet(p, index=False))
 
 
 def save_programme(study: ProgrammeStudy, out: str | Path, *, figure: bool = True,

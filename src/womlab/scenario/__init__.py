@@ -3,7 +3,8 @@
 The lowest layer of womlab: it imports nothing of womlab but :mod:`womlab.errors`.
 ``sections`` holds the sections, ``sweep_spec`` the ``[sweep]`` section, ``tree`` the
 :class:`Scenario` itself (loading, ``replace``), ``checks`` the shared validation wording,
-and ``registry`` what the layers above hand down (strategy names, the edge-list reader).
+``registry`` what the layers above hand down (strategy names, the edge-list reader),
+and ``shipped`` the demo scenarios that ship in the package (``demos/*.toml``).
 See :mod:`womlab.scenario.tree` for the file format.
 """
 
@@ -31,6 +32,7 @@ from womlab.scenario.sections import (
     Talkers,
     Thresholds,
 )
+from womlab.scenario.shipped import demo_names, demo_path, write_demo
 from womlab.scenario.sweep_spec import SWEEP_DESIGNS, Axis, SweepSpec
 from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario
 
@@ -50,6 +52,9 @@ __all__ = [
     "SECTIONS",
     "field_type",
     "load_scenario",
+    "demo_names",
+    "demo_path",
+    "write_demo",
     "NETWORK_KINDS",
     "RULES",
     "STEP_FORMS",

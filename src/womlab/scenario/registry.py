@@ -9,7 +9,10 @@ hand it down when they are imported (``import womlab`` imports them all):
   ``study.strategies`` and ``referral.strategy`` are checked;
 * how to read an edge list's size and mean degree (:mod:`womlab.networks` registers its
   reader with :func:`register_edgelist_reader`), which the scenario uses to take
-  ``market.organisations`` and ``network.mean_degree`` from the file.
+  ``market.organisations`` and ``network.mean_degree`` from the file;
+* the names of the studies a sweep point can run (:mod:`womlab.studies.sweep_studies`
+  registers each with :func:`register_sweep_study_name`, with the fields that study sets
+  itself), against which ``sweep.study`` and the sweep's axes are checked.
 """
 
 from __future__ import annotations
@@ -17,9 +20,11 @@ from __future__ import annotations
 from collections.abc import Callable
 from pathlib import Path
 
-__all__ = ["register_strategy_name", "strategy_names", "register_edgelist_reader", "edgelist_facts"]
+__all__ = ["register_strategy_name", "strategy_names", "register_edgelist_reader", "edgelist_facts",
+           "register_sweep_study_name", "sweep_study_names", "sweep_study_fixed_fields"]
 
 _STRATEGY_NAMES: set[str] = set()
+_SWEEP_STUDIES: dict[str, dict[str, str]] = {}
 _EDGELIST_READER: list[Callable[[str, str | None], tuple[int, float]]] = []
 
 
@@ -43,3 +48,19 @@ def edgelist_facts(path: str | Path, nodes_path: str | Path | None) -> tuple[int
     if not _EDGELIST_READER:  # pragma: no cover - `import womlab` registers it
         raise RuntimeError("no edge-list reader is registered; import womlab (womlab.networks registers it)")
     return _EDGELIST_READER[0](str(path), None if nodes_path is None else str(nodes_path))
+
+
+def register_sweep_study_name(name: str, fixed_fields: dict[str, str] | None = None) -> None:
+    """Make ``name`` a valid ``sweep.study``; ``fixed_fields`` maps the dotted fields that study
+    sets itself (so that a sweep axis may not vary them) to the reason, said in the error."""
+    _SWEEP_STUDIES[name] = dict(fixed_fields or {})
+
+
+def sweep_study_names() -> tuple[str, ...]:
+    """The registered sweep study names, in the order registered."""
+    return tuple(_SWEEP_STUDIES)
+
+
+def sweep_study_fixed_fields(name: str) -> dict[str, str]:
+    """Dotted field → reason, for the fields sweep study ``name`` sets itself ({} if unknown)."""
+    return dict(_SWEEP_STUDIES.get(name, {}))

@@ -1,8 +1,13 @@
-"""The ``[sweep]`` section: which scenario fields vary, over which values, how sampled.
+"""The ``[sweep]`` section: which scenario fields vary, over which values, how sampled,
+and which study runs at every point.
 
 An axis names a dotted scenario field; its type is read off the scenario's own
 dataclasses (:func:`field_type_in`), so a field of a new section can be swept with no
-change here.
+change here. Fields that change no result (:data:`FIXED_FIELDS`) and fields the point's
+study sets itself may not vary. A list axis may follow another list axis of the same
+length (``{ follows = "referral.reward", values = [...] }``): the two move together, one
+value of each per point. Values of a path field (``network.path``, ``network.nodes_path``,
+any ``*_path``) are resolved against the scenario file's folder, like the field itself.
 """
 
 from __future__ import annotations
@@ -12,15 +17,40 @@ import math
 import typing
 from collections.abc import Mapping
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Any, ClassVar
 
 from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, fail, field_names, hints, one_of, positive_int, unknown_field
+from womlab.scenario.registry import sweep_study_fixed_fields, sweep_study_names
 from womlab.scenario.sections import Talkers
 
-__all__ = ["Axis", "SweepSpec", "SWEEP_DESIGNS", "field_type_in", "parse_axes"]
+__all__ = ["Axis", "SweepSpec", "SWEEP_DESIGNS", "FIXED_FIELDS", "field_type_in", "parse_axes", "is_path_field",
+           "resolve_path"]
 
 SWEEP_DESIGNS = ("grid", "latin", "sobol", "morris")
+
+FIXED_FIELDS = {
+    "name": "the scenario's name changes no result",
+    "run.jobs": "the number of worker processes changes no result (give --jobs instead)",
+    "run.replicates": "a sweep runs sweep.replicates replicates at every point",
+    "study.replicates": "a sweep runs sweep.replicates replicates at every point",
+    "run.report_every": "a sweep keeps per-period outcomes, whatever the curve grid",
+}
+"""Fields a sweep axis may not vary, with the reason (they change no result of a sweep)."""
+
+
+def is_path_field(dotted: str) -> bool:
+    """Whether the scenario field ``dotted`` names a file (``path`` or ``*_path``), resolved against
+    the scenario file's folder."""
+    leaf = dotted.rsplit(".", 1)[-1]
+    return leaf == "path" or leaf.endswith("_path")
+
+
+def resolve_path(value: str, base_dir: str | Path) -> str:
+    """A path field's value resolved against ``base_dir`` (absolute paths are kept)."""
+    p = Path(value)
+    return str(p if p.is_absolute() else (Path(base_dir) / p).resolve())
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -30,7 +60,9 @@ class Axis:
     Either a list of ``values`` (numbers or text, e.g. network kinds) or a range
     ``start``..``stop`` (TOML keys ``from`` and ``to``), on a log scale if ``log``.
     ``steps`` (range axes, ``grid`` design only) is the number of evenly spaced values,
-    ends included. A whole-number field gets rounded values.
+    ends included. A whole-number field gets rounded values. ``follows`` names another
+    list axis of as many values: this axis then takes its k-th value wherever that axis
+    takes its k-th (the two are one dimension of the design).
     """
 
     name: str
@@ -39,13 +71,16 @@ class Axis:
     stop: float | None = None
     steps: int | None = None
     log: bool = False
+    follows: str | None = None
 
     @property
     def is_range(self) -> bool:
         return self.values is None
 
     def to_table(self) -> Any:
-        """The axis as written in a scenario file: a list, or ``{from, to, steps, log}``."""
+        """The axis as written in a scenario file: a list, ``{follows, values}`` or ``{from, to, steps, log}``."""
+        if self.follows is not None:
+            return {"follows": self.follows, "values": list(self.values or ())}
         if self.values is not None:
             return list(self.values)
         table: dict[str, Any] = {"from": self.start, "to": self.stop}
@@ -74,6 +109,12 @@ class SweepSpec:
         Seeded replicate runs at every point.
     levels : int
         Number of grid levels of each axis in the Morris design (even, >= 2).
+    study : str
+        What runs at every point: ``run`` (one run per replicate; adoption outcomes),
+        ``programme`` (the referral programme against its baseline, paired; its
+        economics), ``seeding`` (every ``study.strategies`` strategy, paired; their
+        outcomes and lifts against random) — or a study registered later
+        (:func:`womlab.studies.sweep_studies.register_sweep_study`).
     axes : tuple of Axis
         Read from the ``[sweep.axes]`` table, one key per dotted scenario field. With
         ``latin``, ``sobol`` and ``morris`` a list axis is sampled as a discrete uniform
@@ -86,18 +127,24 @@ class SweepSpec:
     samples: int = 64
     replicates: int = 10
     levels: int = 4
+    study: str = "run"
     axes: tuple[Axis, ...] = ()
 
     def check(self, scenario: object) -> None:
         one_of("sweep.design", self.design, SWEEP_DESIGNS)
+        one_of("sweep.study", self.study, sweep_study_names() or ("run",))
         positive_int("sweep.samples", self.samples)
         positive_int("sweep.replicates", self.replicates)
         if self.design == "sobol" and (self.samples < 2 or self.samples & (self.samples - 1)):
             fail("sweep.samples", self.samples, 'a power of 2 >= 2 for design = "sobol" (balance of the Sobol\' sequence)')
         if self.design == "morris" and (self.levels < 2 or self.levels % 2):
             fail("sweep.levels", self.levels, 'an even whole number >= 2 for design = "morris"')
+        fixed = {**FIXED_FIELDS, **sweep_study_fixed_fields(self.study)}
         for axis in self.axes:
+            if axis.name in fixed:
+                raise ScenarioError(f"sweep.axes.{axis.name!r}: {axis.name} may not vary in a sweep: {fixed[axis.name]}")
             _check_axis(axis, self.design, type(scenario))
+        _check_followers(self.axes)
 
     def to_table(self) -> dict[str, Any]:
         """The section as written in a scenario file (axes keyed by dotted field)."""
@@ -106,8 +153,14 @@ class SweepSpec:
             "samples": self.samples,
             "replicates": self.replicates,
             "levels": self.levels,
+            "study": self.study,
             "axes": {a.name: a.to_table() for a in self.axes},
         }
+
+    @property
+    def leaders(self) -> tuple[Axis, ...]:
+        """The axes that are dimensions of the design (every axis but those that follow another)."""
+        return tuple(a for a in self.axes if a.follows is None)
 
     def axis(self, name: str) -> Axis:
         for a in self.axes:
@@ -153,7 +206,7 @@ def _check_axis(axis: Axis, design: str, root: type) -> None:
     if axis.values is not None:
         if len(axis.values) == 0:
             fail(where, [], "a non-empty list of values")
-        if len(set(map(repr, axis.values))) != len(axis.values):
+        if axis.follows is None and len(set(map(repr, axis.values))) != len(axis.values):
             fail(where, list(axis.values), "a list without repeated values")
         if design == "morris":
             fail(where, list(axis.values), 'a range { from, to } for design = "morris" (elementary effects need a scale)')
@@ -176,8 +229,28 @@ def _check_axis(axis: Axis, design: str, root: type) -> None:
             fail(f"{where}.steps", axis.steps, "a whole number >= 2")
 
 
-def parse_axes(value: Any, dotted: str) -> tuple[Axis, ...]:
-    """Parse the ``[sweep.axes]`` table: dotted field name → list, or {from, to, steps, log}."""
+def _check_followers(axes: tuple[Axis, ...]) -> None:
+    by_name = {a.name: a for a in axes}
+    for axis in axes:
+        if axis.follows is None:
+            continue
+        where = f"sweep.axes.{axis.name!r}.follows"
+        leader = by_name.get(axis.follows)
+        if leader is None:
+            fail(where, axis.follows, f"another axis of this sweep ({', '.join(repr(a.name) for a in axes if a is not axis)})")
+        if leader.values is None or leader.follows is not None:
+            fail(where, axis.follows, "a list axis that follows no other (a range axis has no k-th value)")
+        if len(leader.values) != len(axis.values or ()):
+            fail(f"sweep.axes.{axis.name!r}.values", list(axis.values or ()),
+                 f"{len(leader.values)} values, as many as {axis.follows!r} has")
+
+
+def parse_axes(value: Any, dotted: str, base_dir: str | Path | None = None) -> tuple[Axis, ...]:
+    """Parse the ``[sweep.axes]`` table: dotted field name → list, {follows, values} or {from, to, steps, log}.
+
+    Values of a path field (:func:`is_path_field`) are resolved against ``base_dir`` (the
+    scenario file's folder) when it is given.
+    """
     if isinstance(value, (list, tuple)) and all(isinstance(a, Axis) for a in value):
         return tuple(value)
     if not isinstance(value, Mapping):
@@ -189,11 +262,22 @@ def parse_axes(value: Any, dotted: str) -> tuple[Axis, ...]:
             for i, v in enumerate(spec):
                 if isinstance(v, (dict, list, tuple)) or v is None:
                     raise ScenarioError(f"{where}[{i}] must be a number, text or true/false, got {v!r}")
-            axes.append(Axis(name=str(name), values=tuple(spec)))
+            axes.append(Axis(name=str(name), values=_paths(tuple(spec), str(name), base_dir)))
             continue
         if not isinstance(spec, Mapping):
             raise ScenarioError(f"{where} must be a list of values or a table {{ from, to, steps, log }}, got {spec!r}")
-        known = ["from", "to", "steps", "log"]
+        if "follows" in spec:
+            for key in spec:
+                if key not in ("follows", "values"):
+                    unknown_field(f"{where}.{key}", ["follows", "values"])
+            values = spec.get("values")
+            if not isinstance(values, (list, tuple)) or any(isinstance(v, (dict, list, tuple)) or v is None
+                                                            for v in values):
+                raise ScenarioError(f"{where}.values must be a list of numbers, text or true/false, got {values!r}")
+            axes.append(Axis(name=str(name), values=_paths(tuple(values), str(name), base_dir),
+                             follows=coerce(spec["follows"], str, f"{where}.follows")))
+            continue
+        known = ["from", "to", "steps", "log", "follows"]
         for key in spec:
             if key not in known:
                 unknown_field(f"{where}.{key}", known)
@@ -208,3 +292,9 @@ def parse_axes(value: Any, dotted: str) -> tuple[Axis, ...]:
         )
     return tuple(axes)
 
+
+
+def _paths(values: tuple, name: str, base_dir: str | Path | None) -> tuple:
+    if base_dir is None or not is_path_field(name):
+        return values
+    return tuple(resolve_path(v, base_dir) if isinstance(v, str) else v for v in values)

@@ -95,7 +95,8 @@ from womlab.scenario.sections import (
     Talkers,
     Thresholds,
 )
-from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, parse_axes
+from womlab.scenario.shipped import demo_names, demo_path
+from womlab.scenario.sweep_spec import Axis, SweepSpec, field_type_in, is_path_field, parse_axes, resolve_path
 
 __all__ = ["Scenario", "load_scenario", "field_type", "SECTIONS"]
 
@@ -235,14 +236,13 @@ def _build_section(cls: type, dotted: str, value: Any, base_dir: str | Path | No
         if nested is Talkers:
             kwargs[key] = _talkers(item, name)
         elif nested is Axis:
-            kwargs[key] = parse_axes(item, name)
+            kwargs[key] = parse_axes(item, name, base_dir)
         elif nested is not None:
             kwargs[key] = _build_section(nested, name, item, base_dir)
         else:
             kwargs[key] = coerce(item, types_of[key], name)
-        if cls is NetworkSpec and key in ("path", "nodes_path") and kwargs[key] is not None and base_dir is not None:
-            p = Path(kwargs[key])
-            kwargs[key] = str(p if p.is_absolute() else (Path(base_dir) / p).resolve())
+        if is_path_field(name) and isinstance(kwargs[key], str) and base_dir is not None:
+            kwargs[key] = resolve_path(kwargs[key], base_dir)
     return cls(**kwargs)
 
 
@@ -295,7 +295,7 @@ def field_type(dotted: str) -> type:
 
 
 def load_scenario(path: str | Path) -> Scenario:
-    """Read and validate a scenario TOML file.
+    """Read and validate a scenario TOML file, or a shipped demo by name (``"demo"``).
 
     Raises
     ------
@@ -303,8 +303,12 @@ def load_scenario(path: str | Path) -> Scenario:
         If the file is missing, is not valid TOML, or any field is invalid.
     """
     p = Path(path)
+    if not p.is_file() and str(path) in demo_names():  # a demo that ships with womlab
+        p = demo_path(str(path))
     if not p.is_file():
-        raise ScenarioError(f"scenario file {str(path)!r} does not exist")
+        raise ScenarioError(
+            f"scenario file {str(path)!r} does not exist (the shipped demos are {', '.join(demo_names())})"
+        )
     try:
         data = tomllib.loads(p.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:

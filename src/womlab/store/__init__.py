@@ -12,10 +12,10 @@ from __future__ import annotations
 from typing import Any
 
 from womlab.store.folders import atomic_write, manifest, results_folder, versions
-from womlab.store.sweep_store import STORE_FORMAT, ResultsStore
+from womlab.store.sweep_store import STORE_FORMAT, ResultsStore, differences, file_sha256, runs_schema
 
 __all__ = ["atomic_write", "manifest", "results_folder", "versions", "ResultsStore", "STORE_FORMAT", "RUNS_SCHEMA",
-           "CURVES_SCHEMA"]
+           "CURVES_SCHEMA", "runs_schema", "file_sha256", "differences"]
 
 
 def __getattr__(name: str) -> Any:  # RUNS_SCHEMA / CURVES_SCHEMA without importing pyarrow at import

@@ -1,6 +1,7 @@
 """Results folders: where every command's files go, written so that none is ever half-written.
 
-Files are written to a temporary name and renamed into place, so an interrupted write
+Files are written to a temporary name, flushed to disk (fsync) and renamed into place
+(the folder is flushed too, so the rename survives a crash), so an interrupted write
 never leaves a half-written file under its real name, and a failure leaves the files
 already written intact. :func:`manifest` and :func:`versions` say how a folder was made.
 """
@@ -34,8 +35,19 @@ def versions() -> dict[str, str]:
     return out
 
 
+def _fsync(path: str | Path, directory: bool = False) -> None:
+    fd = os.open(path, os.O_RDONLY | (getattr(os, "O_DIRECTORY", 0) if directory else 0))
+    try:
+        os.fsync(fd)
+    except OSError:  # pragma: no cover - a file system that cannot sync a folder
+        if not directory:
+            raise
+    finally:
+        os.close(fd)
+
+
 def atomic_write(path: Path, write: Callable[[Path], Any]) -> Path:
-    """Call ``write(tmp)`` on a temporary file beside ``path``, then rename it into place."""
+    """Call ``write(tmp)`` on a temporary file beside ``path``, flush it to disk, then rename it into place."""
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=path.parent)
     os.close(fd)
@@ -44,10 +56,12 @@ def atomic_write(path: Path, write: Callable[[Path], Any]) -> Path:
         umask = os.umask(0)
         os.umask(umask)
         os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; results folders are meant to be shared
+        _fsync(tmp)
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
+    _fsync(path.parent, directory=True)
     return path
 
 

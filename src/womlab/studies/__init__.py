@@ -6,10 +6,10 @@ replicate batches and paired runs (common random numbers, joblib); ``compare`` t
 network set beside the aggregate models; ``seeding_study`` the paired seeding study;
 ``continuation`` paired runs continued past the horizon with the levers off;
 ``programme`` a referral programme's economics; ``sweep`` designs and the resumable
-sweep runner; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics;
-``intervals`` every confidence interval over replicates; ``referrals`` referral-tree
-analytics; ``presenting`` the registry through which a study's result asks
-:mod:`womlab.results` to draw or write it.
+sweep runner; ``sweep_studies`` the registry of what a sweep point runs; ``sensitivity``
+Sobol and Morris; ``metrics`` curve statistics; ``intervals`` every confidence interval
+over replicates; ``referrals`` referral-tree analytics; ``presenting`` the registry through
+which a study's result asks :mod:`womlab.results` to draw or write it.
 """
 
 from __future__ import annotations
@@ -46,6 +46,7 @@ from womlab.studies.programme import (
     customer_values,
     evaluate_programme,
     programme_economics,
+    programme_ratios,
     roi,
     value_flow,
 )
@@ -63,6 +64,7 @@ from womlab.studies.runner import Batch, run_one, run_paired, run_replicates
 from womlab.studies.seeding_study import SeedingStudy, compare_strategies, lift_statistics, run_outcomes
 from womlab.studies.sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
 from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, run_point, run_sweep
+from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_study, sweep_studies, sweep_study
 
 __all__ = [
     "Batch",
@@ -84,6 +86,7 @@ __all__ = [
     "ProgrammeStudy",
     "evaluate_programme",
     "programme_economics",
+    "programme_ratios",
     "customer_values",
     "value_flow",
     "roi",
@@ -121,6 +124,11 @@ __all__ = [
     "point_scenarios",
     "run_point",
     "run_sweep",
+    "Outcome",
+    "SweepStudy",
+    "register_sweep_study",
+    "sweep_study",
+    "sweep_studies",
     "saltelli_design",
     "sobol_indices",
     "morris_design",

@@ -58,6 +58,7 @@ from womlab.aggregate import (
 )
 from womlab.dynamics import streams
 from womlab.networks import build_network
+from womlab.networks.given import GivenNetwork, as_network, mapped_with
 from womlab.scenario import Scenario
 from womlab.studies.intervals import bootstrap_interval
 from womlab.studies.metrics import pooled_gaps, pooled_metrics, replicate_gaps, replicate_metrics
@@ -112,7 +113,7 @@ class Comparison:
     gaps : pandas.DataFrame
         Gap of the mean network curve to each aggregate curve (:func:`womlab.studies.metrics.pooled_gaps`).
     fits : pandas.DataFrame
-        Fitted Bass parameters with intervals (:func:`womlab.aggregate.fitting.bass_fit_table`).
+        Fitted Bass parameters with intervals (:func:`bass_fit_table`).
     replicate_metrics, replicate_gaps, replicate_fits : pandas.DataFrame
         The same, per replicate.
     bass_fit : womlab.aggregate.fitting.BassFit
@@ -250,6 +251,7 @@ def compare(
     level: float = 0.95,
     progress: bool = False,
     batch: Batch | None = None,
+    network: GivenNetwork | None = None,
 ) -> Comparison:
     """Run a scenario's replicates and compare the network with every aggregate model.
 
@@ -272,6 +274,9 @@ def compare(
         Progress bar while running.
     batch : Batch, optional
         Runs already made of this scenario (then nothing is run).
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate and for the degree mean-field model (see
+        :func:`womlab.run_replicates`); it must have ``market.organisations`` organisations.
 
     Returns
     -------
@@ -286,12 +291,15 @@ def compare(
     >>> sorted(c.curves)
     ['bass_difference', 'bass_fitted', 'bass_mapped', 'degree_mean_field', 'stock_and_flow']
     """
+    network = batch.network if network is None and batch is not None else network
+    given = None if network is None else as_network(network, scenario.market.organisations)
     if batch is None:
-        batch = run_replicates(scenario, replicates, jobs=jobs, progress=progress)
+        batch = run_replicates(scenario, replicates, jobs=jobs, progress=progress, network=given)
+        batch.network = network  # as given (a graph keeps its node attributes)
     seed = scenario.seed if seed is None else seed
     shares = batch.shares()
-    par = mapped_parameters(scenario)
-    curves = aggregate_curves(scenario)
+    par = mapped_parameters(mapped_with(scenario, given))
+    curves = aggregate_curves(mapped_with(scenario, given), given)
     a, run = scenario.adoption, scenario.run
     step = {} if run.clock == "continuous" else {"time_step": run.time_step, "form": run.step_probability}
     fit = fit_bass(shares.mean(axis=0), **step)
@@ -314,7 +322,7 @@ def compare(
         bass_fit=fit,
         stock_flow_fit=sf,
         settings={"bootstrap": bootstrap, "fit_bootstrap": fit_bootstrap, "bootstrap_seed": seed, "level": level,
-                  "degree_mean_field_network": "replicate 0"},
+                  "degree_mean_field_network": "replicate 0" if given is None else "the network given"},
     )
 
 

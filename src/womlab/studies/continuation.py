@@ -11,11 +11,12 @@ the same network and the same random draws (common random numbers), either for a
 Exhausted. With external influence p > 0 every organisation adopts in the end, so an
 arm's market is exhausted when every organisation is a customer. With p = 0 word of
 mouth can stall short of the whole market; such an arm counts as exhausted when it
-gained no customer over the second half of the continuation (at least T periods). The
-continuation doubles (T, 2T, 4T, … periods beyond the horizon) until every arm of every
-replicate is exhausted or ``max_periods`` is reached; only unfinished replicates are
-run again, and a finished one is carried to the common end unchanged (nothing more
-happens in it). :attr:`Continuation.exhausted` says which replicates were.
+gained no customer over the second half of the continuation (at least T periods). Each
+replicate's continuation doubles (T, 2T, 4T, … periods beyond the horizon) until every
+arm of that replicate is exhausted or ``max_periods`` is reached, and its runs end there:
+a replicate's result depends on its own key only, never on the other replicates run with
+it (a sweep that runs one key at a time gets the same numbers). :attr:`Continuation.exhausted`
+says which replicates were exhausted.
 
 The first T periods of a continued run are those of the run to T bit for bit: the
 engines draw per organisation up front, or per step in order, and the levers stop at
@@ -29,17 +30,18 @@ programs: acceleration versus expansion. *Journal of Marketing Research* 50(2), 
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
 
 import numpy as np
 
 from womlab.dynamics import RunResult
 from womlab.errors import ScenarioError
+from womlab.networks.given import GivenNetwork, as_network
 from womlab.scenario import Scenario
 from womlab.studies.runner import run_paired
 
-__all__ = ["Continuation", "continue_paired", "levers_off_after", "truncate", "extend"]
+__all__ = ["Continuation", "continue_paired", "levers_off_after", "truncate"]
 
 
 def levers_off_after(scenario: Scenario, period: int) -> Scenario:
@@ -86,21 +88,15 @@ def truncate(run: RunResult, periods: int) -> RunResult:
             value = -1
         extra[key] = value
     time = None if run.adoption_time is None else np.where(late, np.nan, run.adoption_time)
-    return replace(run, periods=periods, adoption_period=ap, referrer=np.where(late, -1, run.referrer).astype(
-        run.referrer.dtype), satisfied=run.satisfied & ~late, extra=extra, adoption_time=time)
-
-
-def extend(run: RunResult, periods: int) -> RunResult:
-    """An exhausted ``run`` carried, unchanged, to the later horizon ``periods`` (per-period
-    records padded with zeros: nothing happens after exhaustion)."""
-    if periods < run.periods:
-        raise ValueError(f"cannot extend a run of {run.periods} periods to {periods}")
-    extra = {}
-    for key, value in run.extra.items():
-        if isinstance(value, np.ndarray) and value.ndim == 1 and value.size == run.periods + 1:
-            value = np.concatenate([value, np.zeros(periods - run.periods, dtype=value.dtype)])
-        extra[key] = value
-    return replace(run, periods=periods, extra=extra)
+    return replace(
+        run,
+        periods=periods,
+        adoption_period=ap,
+        referrer=np.where(late, -1, run.referrer).astype(run.referrer.dtype),
+        satisfied=run.satisfied & ~late,
+        extra=extra,
+        adoption_time=time,
+    )
 
 
 def _exhausted(run: RunResult, since: int, external: float) -> bool:
@@ -118,18 +114,22 @@ class Continuation:
     horizon : int
         T, the horizon of the study.
     periods : int
-        The common end of the continuation (≥ T).
+        The longest continuation's end (≥ T); each replicate's runs end at their own
+        ``RunResult.periods``.
     runs : dict
-        Arm name → its runs continued to ``periods``, in replicate order.
+        Arm name → its continued runs, in replicate order.
     exhausted : numpy.ndarray
         bool per replicate: every arm's market was exhausted by ``periods`` (always True
         with a set ``lifetime``).
+    keys : list of tuple
+        The spawn keys, in the order of the runs.
     """
 
     horizon: int
     periods: int
     runs: dict[str, list[RunResult]]
     exhausted: np.ndarray
+    keys: list[tuple[int, ...]] | None = None
 
     @property
     def lifetime(self) -> int:
@@ -149,6 +149,8 @@ def continue_paired(
     max_periods: int | None = None,
     jobs: int = 1,
     progress: bool = False,
+    keys: Iterable[tuple[int, ...]] | None = None,
+    network: GivenNetwork | None = None,
 ) -> Continuation:
     """Run paired arms past their horizon with every lever off, for ``lifetime`` periods or
     until every arm's market is exhausted.
@@ -159,7 +161,7 @@ def continue_paired(
         Arm name → scenario (paired as in :func:`womlab.studies.run_paired`: same seed,
         market, network and horizon T).
     replicates : int
-        Replicates (spawn keys ``(0,) .. (replicates − 1,)``).
+        Replicates (spawn keys ``(0,) .. (replicates − 1,)``) unless ``keys`` is given.
     lifetime : int, optional
         Periods to run beyond T. Default: until every arm's market is exhausted (see the
         module notes), doubling the continuation as needed.
@@ -169,6 +171,10 @@ def continue_paired(
         Worker processes. Results do not depend on it.
     progress : bool
         Show a progress bar.
+    keys : iterable of tuple, optional
+        The spawn keys to run instead (a sweep point's ``(point, replicate)``).
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network for every replicate and arm (as in :func:`womlab.studies.run_paired`).
 
     Returns
     -------
@@ -191,34 +197,44 @@ def continue_paired(
     variants = dict(variants)
     first = next(iter(variants.values()))
     horizon = first.run.periods
+    keys = [(r,) for r in range(replicates)] if keys is None else [tuple(k) for k in keys]
+    given = None if network is None else as_network(network, first.market.organisations)
     if lifetime is not None:
         if isinstance(lifetime, bool) or not isinstance(lifetime, (int, np.integer)) or lifetime < 0:
             raise ScenarioError(f"lifetime must be a whole number of periods >= 0, got {lifetime!r}")
-        runs = run_paired({k: _continued(v, horizon + int(lifetime)) for k, v in variants.items()}, replicates,
-                          jobs=jobs, progress=progress)
-        return Continuation(horizon, horizon + int(lifetime), runs, np.ones(replicates, dtype=bool))
+        runs = run_paired(
+            {k: _continued(v, horizon + int(lifetime)) for k, v in variants.items()},
+            len(keys),
+            jobs=jobs,
+            progress=progress,
+            keys=keys,
+            network=given,
+        )
+        return Continuation(horizon, horizon + int(lifetime), runs, np.ones(len(keys), dtype=bool), keys)
     limit = max(64 * horizon, horizon + 1000) if max_periods is None else int(max_periods)
     external = {k: v.adoption.external for k, v in variants.items()}
     done: dict[int, dict[str, RunResult]] = {}
-    pending = list(range(replicates))
+    pending = list(range(len(keys)))
     extra = horizon
     periods = horizon + extra
     while True:
         periods = min(horizon + extra, limit)
         arms = {k: _continued(v, periods) for k, v in variants.items()}
-        runs = run_paired(arms, len(pending), jobs=jobs, progress=progress, keys=[(r,) for r in pending])
+        runs = run_paired(
+            arms, len(pending), jobs=jobs, progress=progress, keys=[keys[j] for j in pending], network=given
+        )
         since = periods - max(horizon, extra // 2)
         still = []
-        for j, r in enumerate(pending):
-            result = {k: runs[k][j] for k in variants}
-            done[r] = result
+        for i, j in enumerate(pending):
+            result = {k: runs[k][i] for k in variants}
+            done[j] = result
             if not all(_exhausted(result[k], since, external[k]) for k in variants):
-                still.append(r)
+                still.append(j)
         pending = still
         if not pending or periods >= limit:
             break
         extra *= 2
     unfinished = set(pending)
-    out = {k: [extend(done[r][k], periods) for r in range(replicates)] for k in variants}
-    exhausted = np.array([r not in unfinished for r in range(replicates)], dtype=bool)
-    return Continuation(horizon, periods, out, exhausted)
+    out = {k: [done[j][k] for j in range(len(keys))] for k in variants}
+    exhausted = np.array([j not in unfinished for j in range(len(keys))], dtype=bool)
+    return Continuation(horizon, periods, out, exhausted, keys)

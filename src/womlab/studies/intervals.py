@@ -108,8 +108,9 @@ class Interval:
 
 
 def _too_few(n: int, minimum: int, method: str) -> Interval:
-    warnings.warn(f"{n} replicate(s): no {method} interval below {minimum} replicates", FewReplicatesWarning,
-                  stacklevel=3)
+    warnings.warn(
+        f"{n} replicate(s): no {method} interval below {minimum} replicates", FewReplicatesWarning, stacklevel=3
+    )
     return Interval(float("nan"), float("nan"), method, f"none: {n} replicate(s), fewer than {minimum}")
 
 
@@ -123,7 +124,10 @@ def _clip(low: float, high: float, method: str, bounds: tuple[float, float] | No
 
 
 def t_interval(
-    x: np.ndarray, level: float = 0.95, *, bounds: tuple[float, float] | None = None,
+    x: np.ndarray,
+    level: float = 0.95,
+    *,
+    bounds: tuple[float, float] | None = None,
     min_replicates: int = MIN_REPLICATES_T,
 ) -> Interval:
     """Student-t interval of the mean of the finite values of ``x``.
@@ -145,7 +149,10 @@ def t_interval(
 
 
 def mean_interval(
-    x: np.ndarray, level: float = 0.95, *, bounds: tuple[float, float] | None = None,
+    x: np.ndarray,
+    level: float = 0.95,
+    *,
+    bounds: tuple[float, float] | None = None,
     min_replicates: int = MIN_REPLICATES_T,
 ) -> tuple[float, float, float]:
     """Mean of the finite values of ``x`` and its Student-t interval (:func:`t_interval`).
@@ -274,21 +281,32 @@ def bootstrap_interval(
             i = as_index(i)
             th, s = np.asarray(statistic(i), dtype=float), np.asarray(standard_error(i), dtype=float)
             with np.errstate(divide="ignore", invalid="ignore"):
-                return np.where(s > 0, (th - theta) / np.where(s > 0, s, 1.0),
-                                np.where(th == theta, 0.0, np.sign(th - theta) * np.inf))
+                return np.where(
+                    s > 0,
+                    (th - theta) / np.where(s > 0, s, 1.0),
+                    np.where(th == theta, 0.0, np.sign(th - theta) * np.inf),
+                )
 
         with warnings.catch_warnings():  # infinite pivots (a resample of one replicate) are expected
             warnings.simplefilter("ignore", RuntimeWarning)
-            res = stats.bootstrap((index,), pivot, vectorized=True, method="percentile", n_resamples=resamples,
-                                  batch=batch, rng=rng)
+            res = stats.bootstrap(
+                (index,), pivot, vectorized=True, method="percentile", n_resamples=resamples, batch=batch, rng=rng
+            )
         t = np.asarray(res.bootstrap_distribution, dtype=float)
         bad = int(np.isnan(t).sum())
         if bad:
-            return Interval(float("nan"), float("nan"), method,
-                            f"none: the statistic is undefined in {bad} of {resamples} resamples")
+            return Interval(
+                float("nan"),
+                float("nan"),
+                method,
+                f"none: the statistic is undefined in {bad} of {resamples} resamples",
+            )
         if not se > 0:
-            return _clip(theta, theta, method, bounds) if np.all(t == 0) else Interval(
-                float("nan"), float("nan"), method, "none: zero standard error")
+            return (
+                _clip(theta, theta, method, bounds)
+                if np.all(t == 0)
+                else Interval(float("nan"), float("nan"), method, "none: zero standard error")
+            )
         a = (1 - level) / 2
         t_lo = float(np.quantile(t, a, method="inverted_cdf"))
         t_hi = float(np.quantile(t, 1 - a, method="inverted_cdf"))
@@ -300,13 +318,22 @@ def bootstrap_interval(
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", stats.DegenerateDataWarning)
         warnings.simplefilter("ignore", RuntimeWarning)
-        res = stats.bootstrap((index,), stat, vectorized=True, method="BCa", n_resamples=resamples, batch=batch,
-                              confidence_level=small_sample_level(level, replicates), rng=rng)
+        res = stats.bootstrap(
+            (index,),
+            stat,
+            vectorized=True,
+            method="BCa",
+            n_resamples=resamples,
+            batch=batch,
+            confidence_level=small_sample_level(level, replicates),
+            rng=rng,
+        )
     dist = np.asarray(res.bootstrap_distribution, dtype=float)
     bad = int((~np.isfinite(dist)).sum())
     if bad:
-        return Interval(float("nan"), float("nan"), method,
-                        f"none: the statistic is undefined in {bad} of {resamples} resamples")
+        return Interval(
+            float("nan"), float("nan"), method, f"none: the statistic is undefined in {bad} of {resamples} resamples"
+        )
     if np.all(dist == dist[0]):
         return _clip(float(dist[0]), float(dist[0]), method, bounds)
     lo, hi = float(res.confidence_interval.low), float(res.confidence_interval.high)
@@ -315,13 +342,23 @@ def bootstrap_interval(
         # statistic such as the peak period): the percentile interval of the same resamples
         # at the same expanded level
         method = "percentile bootstrap (BCa undefined)"
-        res = stats.bootstrap((index,), stat, vectorized=True, method="percentile", n_resamples=0,
-                              bootstrap_result=res, confidence_level=small_sample_level(level, replicates), rng=rng)
+        res = stats.bootstrap(
+            (index,),
+            stat,
+            vectorized=True,
+            method="percentile",
+            n_resamples=0,
+            bootstrap_result=res,
+            confidence_level=small_sample_level(level, replicates),
+            rng=rng,
+        )
         lo, hi = float(res.confidence_interval.low), float(res.confidence_interval.high)
     return _clip(lo, hi, method, bounds)
 
 
-def median_interval(x: np.ndarray, level: float = 0.95, *, censored_above: float | None = None) -> tuple[float, Interval]:
+def median_interval(
+    x: np.ndarray, level: float = 0.95, *, censored_above: float | None = None
+) -> tuple[float, Interval]:
     """Median of ``x`` and its distribution-free interval from order statistics.
 
     NaN values are runs censored above (they never reached the level by the horizon
@@ -361,5 +398,9 @@ def median_interval(x: np.ndarray, level: float = 0.95, *, censored_above: float
     k = n + 1 - j  # symmetric
     low, high = v[j - 1], v[k - 1]
     note = f"censored at {censored_above:g}" if censored_above is not None and not np.isfinite(high) else ""
-    return median, Interval(float(low) if np.isfinite(low) else float("nan"),
-                            float(high) if np.isfinite(high) else float("nan"), method, note)
+    return median, Interval(
+        float(low) if np.isfinite(low) else float("nan"),
+        float(high) if np.isfinite(high) else float("nan"),
+        method,
+        note,
+    )

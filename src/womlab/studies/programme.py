@@ -41,6 +41,7 @@ import pandas as pd
 from womlab.dynamics import ENROLMENT_STREAM, PROGRAMME_ENGINES, RunResult, streams
 from womlab.errors import ScenarioError
 from womlab.networks import build_network
+from womlab.networks.given import GivenNetwork, as_network
 from womlab.scenario import Referral, Scenario
 from womlab.studies.continuation import continue_paired
 from womlab.studies.intervals import bootstrap_interval, ratio_standard_error, t_interval
@@ -52,6 +53,8 @@ __all__ = [
     "value_flow",
     "roi",
     "programme_economics",
+    "programme_ratios",
+    "check_programme",
     "ProgrammeStudy",
     "evaluate_programme",
 ]
@@ -209,6 +212,77 @@ def programme_economics(
     return out
 
 
+RATIO_NAMES = ("roi", "roi_lifetime", "cost_per_incremental_customer", "acceleration_share")
+
+# name: (numerator, denominator, offset, bounds); the ratio is Σ numerator / Σ denominator + offset
+_RATIOS = {
+    "roi": ("incremental_value", "cost", -1.0, None),
+    "roi_lifetime": ("incremental_value_lifetime", "cost", -1.0, None),
+    "cost_per_incremental_customer": ("cost", "incremental_customers", 0.0, (0.0, np.inf)),
+    "acceleration_share": ("acceleration", "incremental_value_lifetime", 0.0, None),
+}
+
+
+def programme_ratios(table: pd.DataFrame, *, bootstrap: int, rng: np.random.Generator) -> list[dict]:
+    """ROI, whole-life ROI, cost per incremental customer and acceleration share of a
+    programme, as ratios of totals over replicates, each with a studentised bootstrap interval.
+
+    ``roi`` = Σ(ΔValue − Cost) / ΣCost at the horizon, ``roi_lifetime`` the same with the
+    whole-life incremental value, ``cost_per_incremental_customer`` = ΣCost / ΣΔcustomers
+    (NaN unless ΣΔcustomers > 0), ``acceleration_share`` = Σ acceleration / Σ whole-life
+    incremental value (the part of the programme's value that is customers adopting
+    earlier, measured on the continuation; Libai, Muller & Peres 2013; NaN without a
+    continuation). ``table`` has one row per replicate with the :func:`programme_economics`
+    columns. Intervals: :func:`womlab.studies.intervals.bootstrap_interval` with the
+    delta-method standard error of a ratio (replicates resampled whole, all four on the
+    same resamples); none below five replicates.
+
+    Returns
+    -------
+    list of dict
+        One per ratio: ``outcome``, ``estimate``, ``low``, ``high``, ``interval``.
+    """
+    seed = int(rng.integers(2**63))
+    n = len(table)
+    rows = []
+    for name, (num, den, offset, bounds) in _RATIOS.items():
+        if num not in table or den not in table:  # a table from before the column existed
+            rows.append({"outcome": name, "estimate": np.nan, "low": np.nan, "high": np.nan,
+                         "interval": f"none: no {num if num not in table else den} column"})
+            continue
+        x, b = (table[k].to_numpy(dtype=float) for k in (num, den))
+        finite = bool(np.isfinite(x).all() and np.isfinite(b).all())
+        est = float(x.sum() / b.sum() + offset) if finite and b.sum() > 0 else float("nan")
+        if not np.isfinite(est):
+            how = "none: undefined (no cost, no incremental customers or no continuation)"
+            rows.append({"outcome": name, "estimate": est, "low": np.nan, "high": np.nan, "interval": how})
+            continue
+
+        def statistic(i: np.ndarray, x: np.ndarray = x, b: np.ndarray = b, offset: float = offset) -> np.ndarray:
+            total = b[i].sum(axis=-1)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                return np.where(total > 0, x[i].sum(axis=-1) / total + offset, np.nan)
+
+        ci = bootstrap_interval(statistic, n, rng=np.random.default_rng(seed), bounds=bounds, resamples=bootstrap,
+                                standard_error=lambda i, x=x, b=b: ratio_standard_error(x[i], b[i]))
+        rows.append({"outcome": name, "estimate": est, "low": ci.low, "high": ci.high,
+                     "interval": f"ratio of totals; {ci.describe()}, {bootstrap} resamples of replicates"})
+    return rows
+
+
+def check_programme(scenario: Scenario) -> None:
+    """Raise ScenarioError unless the scenario has a programme that its engine can run."""
+    if not scenario.referral.active:
+        raise ScenarioError(
+            'referral.enrol must be one of all, share, strategy to evaluate a programme, got "none"'
+        )
+    if scenario.run.engine not in PROGRAMME_ENGINES:
+        raise ScenarioError(
+            f"run.engine must be one of {', '.join(PROGRAMME_ENGINES)} for a referral programme "
+            f"(the programme is not yet applied by the others), got {scenario.run.engine!r}"
+        )
+
+
 @dataclass(eq=False)
 class ProgrammeStudy:
     """A referral programme evaluated against its baseline on paired replicates.
@@ -257,12 +331,12 @@ class ProgrammeStudy:
 
         Totals and counts are means over replicates with a t interval, cut at their
         feasible range where it is known (counts and costs ≥ 0, customers in [0, N]).
-        ``roi``, ``roi_lifetime`` and ``cost_per_incremental_customer`` are ratios of the
-        totals over all replicates (Σ(ΔValue − Cost) / ΣCost; ΣCost / ΣΔcustomers) with a
-        studentised bootstrap interval over replicates (the delta-method standard error of
-        a ratio; resamples seeded from the scenario's seed; :mod:`womlab.studies.intervals`).
-        The ``interval`` column says how each interval was made, and when it was clipped
-        or is missing (fewer than five replicates for a bootstrap, two for a t interval).
+        ``roi``, ``roi_lifetime``, ``cost_per_incremental_customer`` and
+        ``acceleration_share`` are ratios of totals over all replicates with studentised
+        bootstrap intervals (:func:`programme_ratios`; resamples seeded from the scenario's
+        seed). The ``interval`` column says how each interval was made, and when it was
+        clipped or is missing (fewer than five replicates for a bootstrap, two for a t
+        interval).
         """
         table = self.per_replicate()
         n = float(self.scenario.market.organisations)
@@ -279,29 +353,8 @@ class ProgrammeStudy:
             ci = t_interval(x, bounds=bounds.get(col))
             rows.append({"outcome": col, "estimate": float(np.nanmean(x)) if np.isfinite(x).any() else float("nan"),
                          "low": ci.low, "high": ci.high, "interval": f"{ci.describe()}, mean over replicates"})
-        rng_seed = np.random.SeedSequence(self.scenario.seed, spawn_key=(ENROLMENT_STREAM, 1))
-        ratios = {
-            # (numerator, denominator, offset, bounds): estimate Σnum / Σden + offset
-            "roi": ("incremental_value", "cost", -1.0, None),
-            "roi_lifetime": ("incremental_value_lifetime", "cost", -1.0, None),
-            "cost_per_incremental_customer": ("cost", "incremental_customers", 0.0, (0.0, np.inf)),
-        }
-        for name, (num, den, offset, bnds) in ratios.items():
-            x, b = (table[k].to_numpy(dtype=float) for k in (num, den))
-            est = float(x.sum() / b.sum() + offset) if np.isfinite(x).all() and b.sum() > 0 else float("nan")
-            if np.isfinite(est):
-                def statistic(i: np.ndarray, x=x, b=b, offset=offset) -> np.ndarray:  # noqa: ANN001
-                    den_sum = b[i].sum(axis=-1)
-                    with np.errstate(divide="ignore", invalid="ignore"):
-                        return np.where(den_sum > 0, x[i].sum(axis=-1) / den_sum + offset, np.nan)
-
-                ci = bootstrap_interval(statistic, len(table), rng=np.random.default_rng(rng_seed), bounds=bnds,
-                                        standard_error=lambda i, x=x, b=b: ratio_standard_error(x[i], b[i]),
-                                        resamples=self.bootstrap)
-                low, high, how = ci.low, ci.high, f"{ci.describe()}, {self.bootstrap} resamples of replicates"
-            else:
-                low, high, how = float("nan"), float("nan"), "none: no cost or no incremental customers"
-            rows.append({"outcome": name, "estimate": est, "low": low, "high": high, "interval": how})
+        rng = np.random.default_rng(np.random.SeedSequence(self.scenario.seed, spawn_key=(ENROLMENT_STREAM, 1)))
+        rows += programme_ratios(table, bootstrap=self.bootstrap, rng=rng)
         be = self.break_even_period()
         rows.append({"outcome": "break_even_period", "estimate": be, "low": np.nan, "high": np.nan,
                      "interval": "of the mean cumulative curves"})
@@ -358,6 +411,7 @@ def evaluate_programme(
     progress: bool = False,
     degrees: bool = True,
     lifetime: int | None = None,
+    network: GivenNetwork | None = None,
 ) -> ProgrammeStudy:
     """Evaluate the scenario's referral programme against no programme, on paired replicates.
 
@@ -379,6 +433,9 @@ def evaluate_programme(
     degrees : bool
         Rebuild each replicate's network (from its network stream) to record degrees for
         the top-decile statistic.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate and both arms (see
+        :func:`womlab.run_replicates`); it must have ``market.organisations`` organisations.
     lifetime : int, optional
         Periods the continuation runs past the horizon; defaults to ``referral.lifetime``,
         and without it until the baseline's market is exhausted.
@@ -398,28 +455,22 @@ def evaluate_programme(
     >>> list(study.per_replicate().columns[:3])
     ['replicate', 'customers_baseline', 'customers_programme']
     """
-    if not scenario.referral.active:
-        raise ScenarioError(
-            'referral.enrol must be one of all, share, strategy to evaluate a programme, got "none"'
-        )
-    if scenario.run.engine not in PROGRAMME_ENGINES:
-        raise ScenarioError(
-            f"run.engine must be one of {', '.join(PROGRAMME_ENGINES)} for a referral programme "
-            f"(the programme is not yet applied by the others), got {scenario.run.engine!r}"
-        )
+    check_programme(scenario)
     replicates = scenario.run.replicates if replicates is None else replicates
     jobs = scenario.run.jobs if jobs is None else jobs
     if replicates < 1:
         raise ScenarioError(f"replicates must be a whole number >= 1, got {replicates}")
+    given = None if network is None else as_network(network, scenario.market.organisations)
     baseline = scenario.replace("referral.enrol", "none")
     lifetime = scenario.referral.lifetime if lifetime is None else lifetime
     cont = continue_paired({"baseline": baseline, "programme": scenario}, replicates, lifetime=lifetime, jobs=jobs,
-                           progress=progress)
+                           progress=progress, network=given)
     runs = cont.at_horizon()
     degs = []
     if degrees:
         for r in range(replicates):
-            net = build_network(scenario, np.random.default_rng(streams(scenario.seed, (r,)).network))
+            net = given if given is not None else build_network(
+                scenario, np.random.default_rng(streams(scenario.seed, (r,)).network))
             degs.append(net.degree())
     return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs,
                           continued_baseline=cont.runs["baseline"], continued_programme=cont.runs["programme"],

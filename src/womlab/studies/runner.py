@@ -27,6 +27,7 @@ from womlab.aggregate import aggregate_curve
 from womlab.dynamics import CURVE_COLUMNS, RunResult, engine_for, streams
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
+from womlab.networks.given import GivenNetwork, as_network, mapped_with, node_attributes
 from womlab.scenario import Scenario
 from womlab.seeding import initial_customers
 from womlab.studies.metrics import metrics_table
@@ -39,7 +40,7 @@ __all__ = [
 ]
 
 
-def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: ReferralNetwork | None = None) -> RunResult:
+def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: GivenNetwork | None = None) -> RunResult:
     """One seeded run of ``scenario`` with spawn key ``key``.
 
     Parameters
@@ -47,8 +48,10 @@ def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: Referra
     scenario : Scenario
     key : tuple of int
         SeedSequence spawn key: ``(replicate,)`` in a batch, ``(point, replicate)`` in a sweep.
-    network : ReferralNetwork, optional
-        A network to reuse; by default it is built from the run's network stream.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        The network to run on (an edge table has columns ``source``, ``target``; see
+        :func:`womlab.networks.given.as_network`), of ``market.organisations``
+        organisations; by default it is built from the run's network stream.
 
     Examples
     --------
@@ -58,7 +61,8 @@ def run_one(scenario: Scenario, key: tuple[int, ...] = (0,), *, network: Referra
     >>> len(run_one(s, (0,)).curve())
     11
     """
-    return _run_variants({"": scenario}, key, network)[""]
+    given = None if network is None else as_network(network, scenario.market.organisations)
+    return _run_variants({"": scenario}, key, given)[""]
 
 
 def _run_variants(
@@ -79,11 +83,12 @@ def _run_variants(
 
 
 def _chunk(
-    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None
+    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None,
+    network: ReferralNetwork | None = None,
 ) -> list[tuple[tuple, dict[str, Any]]]:
     out = []
     for key in keys:
-        runs = _run_variants(variants, key)
+        runs = _run_variants(variants, key, network)
         out.append((key, runs if reduce is None else {name: reduce(r) for name, r in runs.items()}))
     return out
 
@@ -108,21 +113,23 @@ def _execute(
     jobs: int,
     progress: bool,
     reduce: Callable[[RunResult], Any] | None = None,
+    network: ReferralNetwork | None = None,
 ) -> dict[tuple, dict[str, Any]]:
     """Run every key, chunked across ``jobs`` workers; results keyed by spawn key.
 
     ``reduce``, if given, is applied to each run inside the worker (a picklable function),
-    so that only its small return value travels back."""
+    so that only its small return value travels back. ``network``, if given, is the one
+    network every run is on (else each key builds its own)."""
     from joblib import Parallel, delayed, effective_n_jobs
 
     workers = effective_n_jobs(jobs)
     if workers == 1 or len(keys) == 1:
         chunks = [[k] for k in keys]
-        results = (_chunk(variants, c, reduce) for c in chunks)
+        results = (_chunk(variants, c, reduce, network) for c in chunks)
     else:
         size = max(1, min(32, len(keys) // (workers * 4)))
         chunks = [keys[i : i + size] for i in range(0, len(keys), size)]
-        results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c, reduce) for c in chunks)
+        results = Parallel(n_jobs=workers, return_as="generator_unordered")(delayed(_chunk)(variants, c, reduce, network) for c in chunks)
     done: dict[tuple, dict[str, RunResult]] = {}
     bar = None
     if progress:
@@ -150,11 +157,14 @@ class Batch:
         In replicate order.
     wall_time : float
         Seconds the batch took.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        The network every run was on, as it was given (None: each replicate built its own).
     """
 
     scenario: Scenario
     runs: list[RunResult]
     wall_time: float = 0.0
+    network: Any = field(default=None, repr=False)
     _aggregate: np.ndarray | None = field(default=None, repr=False)
 
     @property
@@ -166,9 +176,11 @@ class Batch:
         return np.vstack([r.share for r in self.runs])
 
     def aggregate(self) -> np.ndarray:
-        """The aggregate model's share on the same grid, step and step form."""
+        """The aggregate model's share on the same grid, step and step form (mapped with the
+        mean degree of the network given, when there is one: :func:`womlab.networks.given.mapped_with`)."""
         if self._aggregate is None:
-            self._aggregate = aggregate_curve(self.scenario)
+            given = None if self.network is None else as_network(self.network)
+            self._aggregate = aggregate_curve(mapped_with(self.scenario, given))
         return self._aggregate
 
     def curves(self) -> pd.DataFrame:
@@ -203,6 +215,40 @@ class Batch:
         90 % interval, aggregate value."""
         return metrics_table(self.shares(), self.aggregate())
 
+    def organisations(self, replicates: Sequence[int] | None = None) -> pd.DataFrame:
+        """Per-organisation results: one row per replicate and organisation.
+
+        ``replicate`` and then the columns of :meth:`womlab.dynamics.RunResult.to_frame`:
+        ids as given (and a networkx graph's node attributes) when the batch ran on a
+        network it was given, else 0..N−1 on each replicate's own network.
+
+        Parameters
+        ----------
+        replicates : sequence of int, optional
+            Which replicates; all by default.
+
+        Examples
+        --------
+        >>> import networkx as nx
+        >>> from womlab import Scenario, run_replicates
+        >>> s = Scenario.from_dict({"market": {"organisations": 34, "initial_customers": 2}, "run": {"periods": 10}})
+        >>> batch = run_replicates(s, 2, network=nx.karate_club_graph())
+        >>> table = batch.organisations()
+        >>> len(table), list(table.columns[:4])
+        (68, ['replicate', 'id', 'region', 'club'])
+        """
+        network = attributes = None
+        if self.network is not None:
+            network = as_network(self.network)
+            attributes = node_attributes(self.network, network)
+        chosen = range(len(self.runs)) if replicates is None else replicates
+        frames = []
+        for r in chosen:
+            table = self.runs[r].to_frame(network, attributes)
+            table.insert(0, "replicate", r)
+            frames.append(table)
+        return pd.concat(frames, ignore_index=True)
+
 
 def run_replicates(
     scenario: Scenario,
@@ -210,6 +256,7 @@ def run_replicates(
     *,
     jobs: int | None = None,
     progress: bool = False,
+    network: GivenNetwork | None = None,
 ) -> Batch:
     """Run ``replicates`` seeded replicates of ``scenario`` in parallel.
 
@@ -225,6 +272,19 @@ def run_replicates(
         Worker processes (joblib, loky backend); defaults to ``scenario.run.jobs``.
     progress : bool
         Show a progress bar on standard error.
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate (replicates then differ in seeding and
+        dynamics only): arrays, a networkx graph, or an edge table with columns
+        ``source`` and ``target`` (:func:`womlab.networks.given.as_network`). It must
+        have ``market.organisations`` organisations. By default each replicate builds
+        its own from ``[network]``.
+
+    Raises
+    ------
+    ScenarioError
+        For fewer than one replicate.
+    NetworkError
+        For a network whose size is not ``market.organisations``, or that cannot be read.
 
     Examples
     --------
@@ -238,11 +298,12 @@ def run_replicates(
     jobs = scenario.run.jobs if jobs is None else jobs
     if replicates < 1:
         raise ScenarioError(f"replicates must be a whole number >= 1, got {replicates}")
+    given = None if network is None else as_network(network, scenario.market.organisations)
     start = time.perf_counter()
     keys = [(r,) for r in range(replicates)]
-    done = _execute({"": scenario}, keys, jobs, progress)
+    done = _execute({"": scenario}, keys, jobs, progress, network=given)
     runs = [done[k][""] for k in keys]
-    return Batch(scenario=scenario, runs=runs, wall_time=time.perf_counter() - start)
+    return Batch(scenario=scenario, runs=runs, wall_time=time.perf_counter() - start, network=network)
 
 
 def run_paired(
@@ -253,6 +314,7 @@ def run_paired(
     progress: bool = False,
     keys: Iterable[tuple[int, ...]] | None = None,
     reduce: Callable[[RunResult], Any] | None = None,
+    network: GivenNetwork | None = None,
 ) -> dict[str, list[Any]]:
     """Run every variant on the same replicates with common random numbers.
 
@@ -275,6 +337,9 @@ def run_paired(
     reduce : callable, optional
         A picklable function applied to each RunResult inside the worker; its return
         value replaces the run (keeps large studies small in memory).
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate and variant (see :func:`run_replicates`);
+        by default each replicate builds its own from the first variant's ``[network]``.
 
     Returns
     -------
@@ -282,6 +347,8 @@ def run_paired(
         Variant name → its runs (or reduced runs), in replicate order.
     """
     _check_pairable(variants)
+    first = next(iter(variants.values()))
+    given = None if network is None else as_network(network, first.market.organisations)
     keys = [(r,) for r in range(replicates)] if keys is None else [tuple(k) for k in keys]
-    done = _execute(dict(variants), keys, jobs, progress, reduce)
+    done = _execute(dict(variants), keys, jobs, progress, reduce, network=given)
     return {name: [done[k][name] for k in keys] for name in variants}

@@ -48,6 +48,7 @@ from scipy import stats
 
 from womlab.dynamics import RunResult, streams
 from womlab.networks import ReferralNetwork, build_network
+from womlab.networks.given import GivenNetwork, as_network
 from womlab.scenario import Scenario
 from womlab.studies.intervals import bootstrap_interval, median_interval, ratio_standard_error, t_interval
 from womlab.studies.metrics import curve_metrics, discount_factors
@@ -268,6 +269,7 @@ def compare_strategies(
     *,
     progress: bool = False,
     snapshot: bool | None = None,
+    network: GivenNetwork | None = None,
 ) -> SeedingStudy:
     """Run seeding strategies on paired replicates and compare them with ``random``.
 
@@ -288,6 +290,9 @@ def compare_strategies(
     snapshot : bool, optional
         Keep replicate 0's network and runs for :func:`womlab.network_snapshot_figure`;
         by default only for networks of at most 600 organisations (not complete).
+    network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
+        Your own network, for every replicate and strategy (see
+        :func:`womlab.run_replicates`); it must have ``market.organisations`` organisations.
 
     Raises
     ------
@@ -315,7 +320,8 @@ def compare_strategies(
     if snapshot is None:
         snapshot = scenario.market.organisations <= SNAPSHOT_MAX_ORGANISATIONS and scenario.network.kind != "complete"
     start = time.perf_counter()
-    reduced = run_paired(variants, replicates, jobs=jobs, progress=progress,
+    given = None if network is None else as_network(network, scenario.market.organisations)
+    reduced = run_paired(variants, replicates, jobs=jobs, progress=progress, network=given,
                          reduce=partial(run_outcomes, discount_rate=study.discount_rate, keep_first=snapshot))
     rows = []
     shares = {}
@@ -327,7 +333,8 @@ def compare_strategies(
     kept = None
     if snapshot:
         # replicate 0's network, rebuilt from its own network stream: the one its runs were on
-        network = build_network(scenario, np.random.default_rng(streams(scenario.seed, (0,)).network))
+        network = given if given is not None else build_network(
+            scenario, np.random.default_rng(streams(scenario.seed, (0,)).network))
         kept = (network, {name: reduced[name][0]["run"] for name in names})
     return SeedingStudy(scenario=scenario, strategies=names, runs=pd.DataFrame(rows), shares=shares,
                         wall_time=time.perf_counter() - start, snapshot=kept)
