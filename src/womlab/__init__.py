@@ -22,8 +22,10 @@ from importlib import metadata as _metadata
 from womlab.aggregate import (
     AggregateParameters,
     BassFit,
+    SegmentParameters,
     StockFlowFit,
     aggregate_curve,
+    bass_calendar_share,
     bass_density,
     bass_difference,
     bass_fit_table,
@@ -38,7 +40,11 @@ from womlab.aggregate import (
     fit_replicates,
     fit_stock_and_flow,
     mapped_parameters,
+    mapped_segments,
+    segment_difference,
+    segment_ode,
     stock_and_flow,
+    van_den_bulte_joshi,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
 from womlab.errors import (
@@ -128,6 +134,12 @@ except _metadata.PackageNotFoundError:  # pragma: no cover - imported from a sou
 __all__ = [
     "AggregateParameters",
     "BassFit",
+    "SegmentParameters",
+    "bass_calendar_share",
+    "mapped_segments",
+    "segment_difference",
+    "segment_ode",
+    "van_den_bulte_joshi",
     "Batch",
     "ClusterError",
     "Comparison",

@@ -18,6 +18,15 @@ from womlab.aggregate.fitting import (
     fit_replicates,
     fit_stock_and_flow,
 )
+from womlab.aggregate.markets import (
+    SegmentParameters,
+    bass_calendar_share,
+    external_by_period,
+    mapped_segments,
+    segment_difference,
+    segment_ode,
+    van_den_bulte_joshi,
+)
 from womlab.aggregate.mean_field import degree_classes, degree_mean_field, degree_mean_field_curve
 from womlab.aggregate.models import (
     AGGREGATE_LABELS,
@@ -53,4 +62,11 @@ __all__ = [
     "fit_replicates",
     "bass_fit_table",
     "fit_stock_and_flow",
+    "SegmentParameters",
+    "mapped_segments",
+    "segment_ode",
+    "segment_difference",
+    "van_den_bulte_joshi",
+    "bass_calendar_share",
+    "external_by_period",
 ]

@@ -48,6 +48,7 @@ from __future__ import annotations
 import numpy as np
 
 from womlab import rules
+from womlab.dynamics.markets import market_inputs
 from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
 from womlab.dynamics.run_result import RunResult
 from womlab.networks import ReferralNetwork
@@ -324,9 +325,17 @@ def run_array(
     adoption, run = scenario.adoption, scenario.run
     n, rule = network.n, adoption.rule
     spp = run.steps_per_period
+    # segments and the campaign calendar (all None without them; drawn from a stream of their own)
+    market = market_inputs(scenario, network, rng)
+    external = market.external if external is None else external
+    group = market.group if group is None else group
+    external_weight = market.external_weight if external_weight is None else external_weight
+    wom_weight = market.word_of_mouth_weight if wom_weight is None else wom_weight
 
-    tau = np.ascontiguousarray(rules.draw_talkers(adoption.talkers_per_customer, n, rng), dtype=np.float32)
-    would_be_satisfied = np.ascontiguousarray(rules.draw_satisfied(adoption.satisfied_share, n, rng))
+    tau = np.ascontiguousarray(rules.draw_talkers(adoption.talkers_per_customer, n, rng, market.talkers),
+                               dtype=np.float32)
+    satisfied_share = adoption.satisfied_share if market.satisfied_share is None else market.satisfied_share
+    would_be_satisfied = np.ascontiguousarray(rules.draw_satisfied(satisfied_share, n, rng))
     resistance = rng.standard_exponential(n)
     u_cause = rng.random(n)
     theta = rules.draw_thresholds(adoption.threshold, n, rng) if rule == "threshold" else np.zeros(0)
@@ -368,6 +377,9 @@ def run_array(
         adoption_time=np.where(adopted, adoption_step / spp, np.nan),
         report_every=run.report_every,
         extra={} if programme is None else programme.record(),
+        segment=market.segment,
+        segment_names=market.segment_names,
+        value=market.value,
     )
 
 

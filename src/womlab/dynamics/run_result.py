@@ -70,6 +70,12 @@ class RunResult:
         not record it (Mesa).
     report_every : float
         Default spacing of :meth:`curve` rows (1/n of a period; 1 = the period grid).
+    segment : numpy.ndarray, optional
+        int32 segment code per organisation (``[segments]`` or a node file's ``segment``
+        column), names in ``segment_names``; None without segments.
+    value : numpy.ndarray, optional
+        Value per period of each organisation as a customer (segment value × node ``size``);
+        None: 1 each.
     """
 
     periods: int
@@ -84,6 +90,9 @@ class RunResult:
     extra: dict = field(default_factory=dict)
     adoption_time: np.ndarray | None = None
     report_every: float = 1.0
+    segment: np.ndarray | None = None
+    segment_names: tuple[str, ...] = ()
+    value: np.ndarray | None = None
 
     @property
     def n(self) -> int:

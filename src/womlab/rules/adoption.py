@@ -358,17 +358,25 @@ def step_hazard(rate: np.ndarray | float, dt: float, form: str) -> np.ndarray:
     return _steps(rate, dt, form, True)
 
 
-def draw_talkers(talkers: Talkers, n: int, rng: np.random.Generator) -> np.ndarray:
-    """Talkers per organisation (float32), drawn once per run: fixed or Poisson(mean)."""
+def draw_talkers(talkers: Talkers, n: int, rng: np.random.Generator, mean: np.ndarray | None = None) -> np.ndarray:
+    """Talkers per organisation (float32), drawn once per run: fixed or Poisson(mean).
+
+    ``mean`` (one value per organisation: segments) replaces ``talkers.mean``; the
+    distribution stays ``talkers.distribution``.
+    """
+    m = talkers.mean if mean is None else np.asarray(mean, dtype=np.float64)
     if talkers.distribution == "fixed":
-        return np.full(n, talkers.mean, dtype=np.float32)
+        return np.full(n, m, dtype=np.float32) if mean is None else np.asarray(m, dtype=np.float32).copy()
     if talkers.distribution == "poisson":
-        return rng.poisson(talkers.mean, size=n).astype(np.float32)
+        return rng.poisson(m, size=n).astype(np.float32)
     raise ValueError(f"talkers distribution must be fixed or poisson, got {talkers.distribution!r}")
 
 
-def draw_satisfied(satisfied_share: float, n: int, rng: np.random.Generator) -> np.ndarray:
-    """Whether each organisation would be satisfied once a customer (bool), drawn up front."""
+def draw_satisfied(satisfied_share: float | np.ndarray, n: int, rng: np.random.Generator) -> np.ndarray:
+    """Whether each organisation would be satisfied once a customer (bool), drawn up front.
+
+    ``satisfied_share`` is one probability, or one per organisation (segments).
+    """
     return rng.random(n) < satisfied_share
 
 

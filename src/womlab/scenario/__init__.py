@@ -10,6 +10,8 @@ See :mod:`womlab.scenario.tree` for the file format.
 
 from __future__ import annotations
 
+from womlab.scenario.fit_spec import PRIOR_DISTRIBUTIONS, FitSpec, Prior
+from womlab.scenario.markets import Campaign, Campaigns, Segment, Segments
 from womlab.scenario.sections import (
     CLOCKS,
     CONTINUOUS_RULES,
@@ -32,7 +34,6 @@ from womlab.scenario.sections import (
     Talkers,
     Thresholds,
 )
-from womlab.scenario.fit_spec import PRIOR_DISTRIBUTIONS, FitSpec, Prior
 from womlab.scenario.shipped import demo_names, demo_path, write_demo
 from womlab.scenario.sweep_spec import SWEEP_DESIGNS, Axis, SweepSpec
 from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario
@@ -51,6 +52,10 @@ __all__ = [
     "Referral",
     "FitSpec",
     "Prior",
+    "Segment",
+    "Segments",
+    "Campaign",
+    "Campaigns",
     "Scenario",
     "SECTIONS",
     "field_type",
