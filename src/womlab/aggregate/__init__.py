@@ -22,7 +22,9 @@ from womlab.aggregate.markets import (
     SegmentParameters,
     bass_calendar_share,
     external_by_period,
+    group_curves,
     mapped_segments,
+    segment_curves,
     segment_difference,
     segment_ode,
     van_den_bulte_joshi,
@@ -69,4 +71,6 @@ __all__ = [
     "van_den_bulte_joshi",
     "bass_calendar_share",
     "external_by_period",
+    "group_curves",
+    "segment_curves",
 ]

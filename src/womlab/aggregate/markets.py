@@ -43,6 +43,8 @@ __all__ = [
     "van_den_bulte_joshi",
     "bass_calendar_share",
     "external_by_period",
+    "segment_curves",
+    "group_curves",
 ]
 
 
@@ -301,3 +303,41 @@ def _riccati(f0: float, p: float, Q: float, t: float) -> float:
     # divided through by A·e^{rt} so that large rt cannot overflow
     decay = np.exp(-(p + Q) * t)
     return float((1 - p / A * decay) / (1 + Q / A * decay))
+
+
+def segment_curves(scenario: Scenario) -> np.ndarray:
+    """Each segment's customer share on periods 0..T from the mapped segment model, on the engines'
+    step and step form (:func:`segment_difference`); shape (T + 1, K), one column without segments.
+
+    Examples
+    --------
+    >>> from womlab import Scenario
+    >>> s = Scenario.from_dict({"run": {"periods": 5}, "campaign": [{"from": 2, "to": 3, "multiplier": 3}],
+    ...                         "segments": {"few": {"share": 0.2, "external": 2}, "many": {"share": 0.8}}})
+    >>> segment_curves(s).shape
+    (6, 2)
+    """
+    par = mapped_segments(scenario)
+    run = scenario.run
+    return segment_difference(par.p, par.Q, par.initial, time_step=run.time_step, form=run.step_probability)
+
+
+def group_curves(scenario: Scenario, by: str | None = None) -> tuple[np.ndarray, tuple[str, ...]]:
+    """The aggregate customer share per group on periods 0..T, and the groups' names.
+
+    ``by = None``: the whole market (Σ_k θ_k F_k); ``"segment"``: each segment's F_k;
+    ``"region"``: under the mean-field assumption regions are alike, so each region's
+    column is the market's curve (a campaign limited to one region is spread over the market,
+    :func:`external_by_period`).
+    """
+    F = segment_curves(scenario)
+    par_weights = mapped_segments(scenario).weights
+    market = F @ par_weights
+    if by is None:
+        return market[:, None], ("market",)
+    if by == "segment":
+        return F, scenario.segments.names or ("market",)
+    if by == "region":
+        regions = scenario.market.regions
+        return np.repeat(market[:, None], regions, axis=1), tuple(str(r) for r in range(regions))
+    raise ValueError(f'by must be "segment" or "region", got {by!r}')

@@ -130,6 +130,60 @@ class RunResult:
         np.add.at(counts, (self.adoption_period[adopted], self.region[adopted]), 1)
         return np.cumsum(counts, axis=0)
 
+    def groups(self, by: str) -> tuple[np.ndarray, tuple[str, ...]]:
+        """Each organisation's group code and the groups' names: ``by = "segment"`` or ``"region"``.
+
+        Raises
+        ------
+        ValueError
+            For another ``by``, or ``"segment"`` on a run without segments.
+        """
+        if by == "region":
+            k = int(self.region.max()) + 1 if self.n else 0
+            return self.region, tuple(str(r) for r in range(k))
+        if by == "segment":
+            if self.segment is None:
+                raise ValueError('by = "segment" needs segments ([segments], or a node file column segment); '
+                                 "this run has none")
+            return self.segment, self.segment_names
+        raise ValueError(f'by must be "segment" or "region", got {by!r}')
+
+    def curve_by(self, by: str) -> pd.DataFrame:
+        """Per period and group (``by = "segment"`` or ``"region"``): organisations, customers, new
+        customers, satisfied customers, share of the group, and value (customers × value per period).
+
+        Examples
+        --------
+        >>> import numpy as np
+        >>> r = RunResult(periods=2, adoption_period=np.array([0, 1, -1, 2], dtype=np.int32),
+        ...               referrer=np.full(4, -1, dtype=np.int32), satisfied=np.array([1, 1, 0, 0], bool),
+        ...               region=np.array([0, 0, 1, 1], dtype=np.int32), initial=np.array([0]), engine="array")
+        >>> r.curve_by("region")[["period", "group", "customers", "share"]].values.tolist()
+        [[0, '0', 1, 0.5], [0, '1', 0, 0.0], [1, '0', 2, 1.0], [1, '1', 0, 0.0], [2, '0', 2, 1.0], [2, '1', 1, 0.5]]
+        """
+        codes, names = self.groups(by)
+        k, rows = len(names), self.periods + 1
+        adopted = self.adoption_period >= 0
+        new = np.zeros((rows, k), dtype=np.int64)
+        np.add.at(new, (self.adoption_period[adopted], codes[adopted]), 1)
+        sat = np.zeros((rows, k), dtype=np.int64)
+        np.add.at(sat, (self.adoption_period[self.satisfied], codes[self.satisfied]), 1)
+        value = np.zeros((rows, k))
+        np.add.at(value, (self.adoption_period[adopted], codes[adopted]),
+                  1.0 if self.value is None else self.value[adopted])
+        sizes = np.bincount(codes, minlength=k)
+        customers = np.cumsum(new, axis=0)
+        return pd.DataFrame({
+            "period": np.repeat(np.arange(rows), k),
+            "group": np.tile(np.array(names, dtype=object), rows),
+            "organisations": np.tile(sizes, rows),
+            "customers": customers.ravel(),
+            "new_customers": new.ravel(),
+            "satisfied_customers": np.cumsum(sat, axis=0).ravel(),
+            "share": (customers / np.maximum(sizes, 1)).ravel(),
+            "value": np.cumsum(value, axis=0).ravel(),
+        })
+
     def curve(self, every: float | None = None) -> pd.DataFrame:
         """Table of period, time, customers, new_customers, satisfied_customers.
 

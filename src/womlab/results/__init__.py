@@ -23,6 +23,7 @@ from womlab.results.figures import (
     seeding_figure,
 )
 from womlab.results.fit import fit_figure, overlay_observed, save_fit
+from womlab.results.groups import group_figure
 from womlab.results.report import sensitivity_table, sweep_figures, sweep_summary, write_report
 from womlab.results.save import save_batch, save_comparison, save_programme, save_seeding_study
 from womlab.studies.calibration import Fit
@@ -54,4 +55,5 @@ __all__ = [
     "fit_figure",
     "save_fit",
     "overlay_observed",
+    "group_figure",
 ]
