@@ -54,17 +54,21 @@ def plain_run(scenario, network, initial, rng):
     u_cause = rng.random(n)
     code, form = rules.rule_code(a.rule), rules.form_code(run.step_probability)
     adopted = np.full(n, -1, dtype=np.int32)
+    opens_at = np.zeros(n, dtype=np.int32) if m.opens_at is None else m.opens_at
+    initial = initial[opens_at[initial] == 0]
     adopted[initial] = 0
     referrer = np.full(n, -1, dtype=np.int32)
     hazard = np.zeros(n)
-    matrix = network.matrix(np.float64)
-    total = matrix @ tau
+    def around(x):  # what each organisation's neighbours hold (integer talkers: sums exact in any order)
+        return x.sum() - x if network.complete else network.matrix(np.float64) @ x
+
+    total = around(tau)
     for step in range(1, run.periods * spp + 1):
         period = (step + spp - 1) // spp
         talk = np.where((adopted >= 0) & sat, tau, 0.0)
-        talking = matrix @ talk
+        talking = around(talk)
         new = []
-        for i in np.flatnonzero(adopted < 0):
+        for i in np.flatnonzero((adopted < 0) & (opens_at <= period)):
             p = m.external_rate(period, i, a.external)
             q = a.word_of_mouth * (1.0 if m.word_of_mouth_weight is None else m.word_of_mouth_weight[i])
             hazard[i] += rules.hazard(rules.rate(code, talking[i], total[i], 0.0, p, q, a.cap), dt, form)
@@ -78,10 +82,14 @@ def plain_run(scenario, network, initial, rng):
     return adopted, referrer, m
 
 
-@pytest.mark.parametrize("kind", ["random", "regional"])
-def test_kernel_with_segments_and_calendar_is_the_plain_loop(kind):
+@pytest.mark.parametrize("kind,opens", [("random", None), ("regional", None),
+                                        ("regional", [{"region": 2, "period": 6}, {"segment": "influentials", "period": 3}]),
+                                        ("complete", [{"region": 0, "period": 9}])])
+def test_kernel_with_segments_and_calendar_is_the_plain_loop(kind, opens):
     s = _scenario(kind, campaign=[{"from": 4, "to": 7, "external": 0.05, "segment": "imitators"},
                                   {"from": 12, "to": 13, "multiplier": 4.0, "region": 1}])
+    if opens is not None:
+        s = s.replace("market.opens", opens)
     grew = []
     for seed in range(3):
         net = build_network(s, np.random.default_rng([seed, 1]))
@@ -92,6 +100,8 @@ def test_kernel_with_segments_and_calendar_is_the_plain_loop(kind):
         assert np.array_equal(fast.referrer, referrer)
         assert np.array_equal(fast.segment, m.segment)
         grew.append(fast.customers[-1] > 100)
+        if opens is not None:  # nobody in a closed part adopts before it opens
+            assert np.all(fast.adoption_period[fast.adoption_period >= 0] >= m.opens_at[fast.adoption_period >= 0])
     assert all(grew)
 
 
@@ -166,13 +176,16 @@ def _within(a: np.ndarray, m: np.ndarray, what: str) -> None:
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("kind,seed", [("complete", 8101), ("regional", 8201)])
-def test_engines_agree_with_two_segments_and_a_calendar(kind, seed):
+@pytest.mark.parametrize("kind,seed,opens", [("complete", 8101, None), ("regional", 8201, None),
+                                            ("regional", 8301, [{"region": 1, "period": 8}])])
+def test_engines_agree_with_two_segments_and_a_calendar(kind, seed, opens):
     # Tolerance basis as in test_engines_agree.py: |z| > 4 has probability 6.3e-5 per comparison;
-    # 2 cases x (21 periods + 4 end counts) = 50 comparisons, false-alarm chance below 0.4 %.
+    # 3 cases x (21 periods + 4 end counts) = 75 comparisons, false-alarm chance below 0.5 %.
     runs = {}
     for engine, s in (("array", seed), ("mesa", seed + 1)):
         sc = _scenario(kind, n=N, seed=s).replace("run.engine", engine)
+        if opens is not None:  # a market that grows: region 1 opens in period 8
+            sc = sc.replace("market.opens", opens)
         runs[engine] = run_replicates(sc, R_ARRAY if engine == "array" else R_MESA, jobs=2).runs
         assert {r.engine for r in runs[engine]} == {engine}
     a, a_ends = _outcomes(runs["array"])

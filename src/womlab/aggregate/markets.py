@@ -34,6 +34,7 @@ from scipy.integrate import solve_ivp
 from womlab.errors import WomlabError
 from womlab.rules import step_probability
 from womlab.scenario import Scenario
+from womlab.scenario.markets import openings
 
 __all__ = [
     "SegmentParameters",
@@ -43,6 +44,7 @@ __all__ = [
     "van_den_bulte_joshi",
     "bass_calendar_share",
     "external_by_period",
+    "opening_by_group",
     "segment_curves",
     "group_curves",
 ]
@@ -64,6 +66,8 @@ class SegmentParameters:
         Word of mouth, (K, K): Q[k, j] is group k's hazard per unit of group j's customer share.
     initial : numpy.ndarray
         Customer share of each group at period 0.
+    opens : numpy.ndarray
+        Period in which each group enters the market (0: from the start; ``market.opens``).
     """
 
     names: tuple[str, ...]
@@ -71,6 +75,7 @@ class SegmentParameters:
     p: np.ndarray
     Q: np.ndarray
     initial: np.ndarray
+    opens: np.ndarray | None = None
 
 
 def _segment_values(
@@ -92,9 +97,48 @@ def _segment_values(
     )
 
 
+@dataclass(frozen=True)
+class _Cells:
+    """The groups the aggregate model tracks: segments, or region × segment cells when a campaign or an
+    opening names a region (cell r·K + k)."""
+
+    regions: int
+    segments: tuple[str, ...]
+    region: np.ndarray  # region of each cell
+    segment: np.ndarray  # segment of each cell
+    weights: np.ndarray  # share of the market
+
+
+def _cells(scenario: Scenario) -> _Cells:
+    names, theta = _segment_values(scenario)[:2]
+    named_region = any(c.region is not None for c in scenario.campaign.entries) or any(
+        o.region is not None for o in openings(scenario.market)
+    )
+    R = scenario.market.regions if named_region else 1
+    n = scenario.market.organisations
+    region_share = np.bincount((np.arange(n) * R // n), minlength=R) / n  # balanced regions
+    region = np.repeat(np.arange(R), len(names))
+    segment = np.tile(np.arange(len(names)), R)
+    return _Cells(R, names, region, segment, region_share[region] * theta[segment])
+
+
+def _cell_names(cells: _Cells) -> tuple[str, ...]:
+    if cells.regions == 1:
+        return cells.segments
+    return tuple(f"region {r}, {cells.segments[k]}" for r, k in zip(cells.region, cells.segment))
+
+
+def _matches(cells: _Cells, scenario: Scenario, region: object, segment: str | None) -> np.ndarray:
+    if region is not None:
+        return cells.region == int(region) if isinstance(region, int) else np.zeros(cells.region.size, bool)
+    if segment is not None:
+        return cells.segment == scenario.segments.code(segment, "segment")
+    return np.ones(cells.region.size, dtype=bool)
+
+
 def external_by_period(scenario: Scenario) -> np.ndarray:
-    """Base p per period and segment from the calendar, shape (periods + 1, segments); region campaigns
-    are averaged over the regions (balanced regions: each 1/R of the market).
+    """Base p per period and group from the calendar, shape (periods + 1, groups) (segments, or region
+    × segment cells when a campaign or an opening names a region), before the segments' multipliers.
 
     Examples
     --------
@@ -103,23 +147,27 @@ def external_by_period(scenario: Scenario) -> np.ndarray:
     >>> external_by_period(s)[:, 0].round(3).tolist()
     [0.01, 0.01, 0.05, 0.05, 0.01]
     """
+    cells = _cells(scenario)
     T, base = scenario.run.periods, float(scenario.adoption.external)
-    names = scenario.segments.names or ("market",)
-    table = np.full((T + 1, len(names)), base)
-    regions = scenario.market.regions
+    table = np.full((T + 1, cells.weights.size), base)
     for c in scenario.campaign.entries:
-        rows = slice(c.first, c.last + 1)
-        if c.segment is not None:
-            table[rows, names.index(c.segment)] = c.p(base)
-        elif c.region is not None:  # one region of R balanced ones: its share of the segment's p
-            table[rows, :] += (c.p(base) - base) / regions
-        else:
-            table[rows, :] = c.p(base)
+        table[c.first : c.last + 1, _matches(cells, scenario, c.region, c.segment)] = c.p(base)
     return table
 
 
+def opening_by_group(scenario: Scenario) -> np.ndarray:
+    """The period in which each group enters the market (0: from the start), as the engines decide
+    it per organisation (the latest opening naming its region or its segment)."""
+    cells = _cells(scenario)
+    out = np.zeros(cells.weights.size, dtype=np.int64)
+    for o in openings(scenario.market):
+        hit = _matches(cells, scenario, o.region, o.segment)
+        out[hit] = np.maximum(out[hit], o.period)
+    return out
+
+
 def mapped_segments(scenario: Scenario) -> SegmentParameters:
-    """Map ``[segments]`` and ``[[campaign]]`` to the segment model (mean field).
+    """Map ``[segments]``, ``[[campaign]]`` and ``market.opens`` to the segment model (mean field).
 
     Derivation. Segment j holds θ_j·N organisations with τ̄_j talkers each on average, a share
     s_j of its customers satisfied; F_j is its customer share. A potential customer of segment k
@@ -133,8 +181,12 @@ def mapped_segments(scenario: Scenario) -> SegmentParameters:
     * ``count``: T ≈ k̄ Σ_j θ_j τ̄_j s_j F_j, hence **Q_kj = w_k q k̄ θ_j τ̄_j s_j**.
     * other rules: Q is NaN (no Bass counterpart, as for one market).
 
-    Every segment starts at the market's initial share (initial customers are drawn from the
-    whole market).
+    When a campaign or an opening names a region, the groups are region × segment cells (regions
+    balanced, segments placed independently of regions: cell share = region share × θ_k) with
+    the same formulas. Closed organisations are still neighbours (D counts them; they have no
+    satisfied talkers), so a part that opens late hears the word of mouth of the whole market.
+    Every open group starts at the market's initial share (initial customers are drawn from the
+    whole market, and those in a closed part are left out); a closed group starts at 0.
 
     Examples
     --------
@@ -145,30 +197,47 @@ def mapped_segments(scenario: Scenario) -> SegmentParameters:
     [[0.3, 0.1], [0.3, 0.1]]
     """
     a, n = scenario.adoption, scenario.market.organisations
-    names, theta, e, w, s, tau = _segment_values(scenario)
+    _, _, e_k, w_k, s_k, tau_k = _segment_values(scenario)
+    cells = _cells(scenario)
+    theta, e, w, sat, tau = (
+        cells.weights,
+        e_k[cells.segment],
+        w_k[cells.segment],
+        s_k[cells.segment],
+        tau_k[cells.segment],
+    )
     p = external_by_period(scenario) * e[None, :]
-    talk = theta * tau * s
+    talk = theta * tau * sat
     if a.rule == "share":
-        denominator = float(np.sum(theta * tau))
+        denominator = np.full(theta.size, float(np.sum(theta * tau)))
         if scenario.network.kind == "complete":
             denominator = denominator - tau / n
-        Q = w[:, None] * a.word_of_mouth * talk[None, :] / np.broadcast_to(denominator, theta.shape)[:, None]
+        Q = w[:, None] * a.word_of_mouth * talk[None, :] / denominator[:, None]
     elif a.rule == "count":
         k = float(n - 1) if scenario.network.kind == "complete" else float(scenario.network.mean_degree)
         Q = w[:, None] * a.word_of_mouth * k * talk[None, :]
     else:
         Q = np.full((theta.size, theta.size), np.nan)
-    initial = np.full(theta.size, scenario.n_initial / n)
-    return SegmentParameters(names=names, weights=theta, p=p, Q=Q, initial=initial)
+    opens = opening_by_group(scenario)
+    initial = np.where(opens == 0, scenario.n_initial / n, 0.0)
+    return SegmentParameters(names=_cell_names(cells), weights=theta, p=p, Q=Q, initial=initial, opens=opens)
 
 
 def segment_difference(
-    p: np.ndarray, Q: np.ndarray, initial: np.ndarray, *, time_step: float = 1.0, form: str = "linear"
+    p: np.ndarray,
+    Q: np.ndarray,
+    initial: np.ndarray,
+    *,
+    time_step: float = 1.0,
+    form: str = "linear",
+    opens: np.ndarray | None = None,
 ) -> np.ndarray:
     """The segment model on the engines' clock: F_k ← F_k + (1 − F_k)·π(p_k(period) + Σ_j Q_kj F_j).
 
     ``p`` has one row per period 0..T (row 0 unused) and one column per group; π is the step
-    probability of :func:`womlab.rules.step_probability`. Returns F, shape (T + 1, K).
+    probability of :func:`womlab.rules.step_probability`. With ``opens`` (a period per group), a
+    group stays where it is before the period in which it opens (a market that grows). Returns
+    F, shape (T + 1, K).
 
     Examples
     --------
@@ -183,8 +252,9 @@ def segment_difference(
     out = np.empty(p.shape)
     f = out[0] = np.asarray(initial, dtype=float)
     for period in range(1, p.shape[0]):
+        live = 1.0 if opens is None else (np.asarray(opens) <= period).astype(float)
         for _ in range(spp):
-            f = f + (1 - f) * step_probability(p[period] + Q @ f, time_step, form)
+            f = f + live * (1 - f) * step_probability(p[period] + Q @ f, time_step, form)
         out[period] = f
     return out
 
@@ -319,25 +389,34 @@ def segment_curves(scenario: Scenario) -> np.ndarray:
     """
     par = mapped_segments(scenario)
     run = scenario.run
-    return segment_difference(par.p, par.Q, par.initial, time_step=run.time_step, form=run.step_probability)
+    return segment_difference(
+        par.p, par.Q, par.initial, time_step=run.time_step, form=run.step_probability, opens=par.opens
+    )
 
 
 def group_curves(scenario: Scenario, by: str | None = None) -> tuple[np.ndarray, tuple[str, ...]]:
     """The aggregate customer share per group on periods 0..T, and the groups' names.
 
-    ``by = None``: the whole market (Σ_k θ_k F_k); ``"segment"``: each segment's F_k;
-    ``"region"``: under the mean-field assumption regions are alike, so each region's
-    column is the market's curve (a campaign limited to one region is spread over the market,
-    :func:`external_by_period`).
+    ``by = None``: the whole market (customers over all N organisations, the final market);
+    ``"segment"`` or ``"region"``: each segment's or region's share. Under the mean-field
+    assumption regions differ only by their campaigns and opening periods; without either, each
+    region's column is the market's curve.
     """
     F = segment_curves(scenario)
-    par_weights = mapped_segments(scenario).weights
-    market = F @ par_weights
+    cells = _cells(scenario)
+    w = cells.weights
     if by is None:
-        return market[:, None], ("market",)
+        return (F @ w)[:, None], ("market",)
     if by == "segment":
-        return F, scenario.segments.names or ("market",)
-    if by == "region":
-        regions = scenario.market.regions
-        return np.repeat(market[:, None], regions, axis=1), tuple(str(r) for r in range(regions))
-    raise ValueError(f'by must be "segment" or "region", got {by!r}')
+        of, names = cells.segment, cells.segments
+    elif by == "region":
+        of, names = cells.region, tuple(str(r) for r in range(scenario.market.regions))
+        if cells.regions == 1:
+            return np.repeat((F @ w)[:, None], len(names), axis=1), names
+    else:
+        raise ValueError(f'by must be "segment" or "region", got {by!r}')
+    out = np.empty((F.shape[0], len(names)))
+    for g in range(len(names)):
+        inside = of == g
+        out[:, g] = F[:, inside] @ w[inside] / w[inside].sum()
+    return out, names

@@ -55,12 +55,14 @@ from womlab.networks import ReferralNetwork
 from womlab.rules import compiled, external_part, hazard, rate, talk_weight
 from womlab.scenario import Scenario
 
-__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER"]
+__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER", "CLOSED"]
 
 #: State code of an organisation that is not (yet) a customer.
 POTENTIAL = 0
 #: State code of a customer.
 CUSTOMER = 1
+#: State code of an organisation whose part of the market has not opened yet (``market.opens``).
+CLOSED = 2
 
 
 @compiled
@@ -141,7 +143,7 @@ def pick_referrers(network: ReferralNetwork, adopters: np.ndarray, talk: np.ndar
 @compiled
 def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, group, external_weight, wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
             q, cap, tau, satisfied, resistance, u_cause, theta, state, adoption_step, referrer, initial, varying,
-            ledger):
+            ledger, opens_at):
     """The whole run, step by step (see the module notes); updates ``state``, ``adoption_step``,
     ``referrer`` and the programme's ``ledger`` in place."""
     n = tau.size
@@ -187,9 +189,26 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
     p_weights, q_weights, thresholds = external_weight.size > 0, wom_weight.size > 0, theta.size > 0
     checked = 0  # customers[checked:] have not had their weight applied yet
 
+    opening = opens_at.size > 0
+
     for step in range(1, steps + 1):
         period = (step + spp - 1) // spp
         boosting = programme and start <= period <= end and exhausted[0] < 0
+
+        # 0. markets that grow: at the first step of a period, the organisations whose part of the
+        # market opens join the potential customers (the list rebuilt, so it stays ascending)
+        if opening and (step - 1) % spp == 0:
+            joined = False
+            for i in range(n):
+                if state[i] == CLOSED and opens_at[i] <= period:
+                    state[i] = POTENTIAL
+                    joined = True
+            if joined:
+                npot = 0
+                for i in range(n):
+                    if state[i] == POTENTIAL:
+                        potential[npot] = i
+                        npot += 1
 
         # 1. weights: apply each changed weight along its row, by its difference
         for c in range(0 if varying else checked, ncust):
@@ -343,6 +362,10 @@ def run_array(
 
     initial = np.ascontiguousarray(initial, dtype=np.int32)
     state = np.full(n, POTENTIAL, dtype=np.int8)
+    opens_at = np.zeros(0, dtype=np.int32) if market.opens_at is None else market.opens_at
+    if opens_at.size:  # markets that grow: closed until their period; a seed there is left out
+        state[opens_at > 0] = CLOSED
+        initial = np.ascontiguousarray(initial[opens_at[initial] == 0])
     state[initial] = CUSTOMER
     adoption_step = np.full(n, -1, dtype=np.int32)
     adoption_step[initial] = 0
@@ -362,6 +385,7 @@ def run_array(
         np.ascontiguousarray(theta, dtype=np.float64), state, adoption_step, referrer, initial,
         rule == "cascade" or programme is not None,
         idle_ledger() if programme is None else programme.ledger,
+        opens_at,
     )
 
     adopted = adoption_step >= 0
@@ -380,6 +404,7 @@ def run_array(
         segment=market.segment,
         segment_names=market.segment_names,
         value=market.value,
+        opens_at=market.opens_at,
     )
 
 

@@ -29,8 +29,9 @@ from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork
 from womlab.networks.edgelist import read_node_traits
 from womlab.scenario import Scenario
+from womlab.scenario.markets import openings
 
-__all__ = ["MarketInputs", "market_inputs", "segment_rng", "segment_counts", "campaign_table", "SEGMENT_STREAM"]
+__all__ = ["MarketInputs", "market_inputs", "opening_periods", "segment_rng", "segment_counts", "campaign_table", "SEGMENT_STREAM"]
 
 #: Last element of the spawn key of the stream that places organisations in segments
 #: (the dynamics stream's key extended by it; "SEGM" in ASCII).
@@ -58,6 +59,9 @@ class MarketInputs:
         p per period and group, shape (periods + 1, groups); row 0 unused.
     group : numpy.ndarray or None
         int32 column of ``external`` per organisation.
+    opens_at : numpy.ndarray or None
+        int32 period in which each organisation enters the market (``market.opens``; 0 = from
+        the start): the latest opening that names its region or its segment.
     """
 
     segment: np.ndarray | None = None
@@ -69,6 +73,7 @@ class MarketInputs:
     value: np.ndarray | None = None
     external: np.ndarray | None = None
     group: np.ndarray | None = None
+    opens_at: np.ndarray | None = None
 
     def external_rate(self, period: int, organisation: int, base: float) -> float:
         """p of ``organisation`` in ``period`` (calendar, then its multiplier), as the kernel computes it."""
@@ -184,7 +189,25 @@ def market_inputs(scenario: Scenario, network: ReferralNetwork, rng: np.random.G
         value=value,
         external=table,
         group=group,
+        opens_at=opening_periods(scenario, network, segment),
     )
+
+
+def opening_periods(scenario: Scenario, network: ReferralNetwork, segment: np.ndarray | None) -> np.ndarray | None:
+    """The period in which each organisation enters the market (0 = from the start); None without
+    ``market.opens``. An organisation named by two openings (its region and its segment) enters at
+    the later one."""
+    entries = openings(scenario.market)
+    if not entries:
+        return None
+    out = np.zeros(network.n, dtype=np.int32)
+    for i, o in enumerate(entries):
+        if o.region is not None:
+            members = network.region == _region_code(o.region, network, f"market.opens[{i}].region")
+        else:
+            members = segment == scenario.segments.code(o.segment, f"market.opens[{i}].segment")
+        out[members] = np.maximum(out[members], o.period)
+    return out
 
 
 def campaign_table(

@@ -293,6 +293,9 @@ class Organisation(FixedAgent):
     def decide(self) -> None:
         """Compute phase: from the neighbours' state at the start of the step, draw whether to adopt."""
         model = self.model
+        opens_at = model.market.opens_at
+        if opens_at is not None and opens_at[self.organisation] > model.period:
+            return  # its part of the market has not opened: it feels nothing
         if model.complete:
             talking = model.talk_total  # a potential customer's own talk is 0
             total = model.talkers_total - self.talkers
@@ -493,6 +496,8 @@ class ReferralModel(mesa.Model):
         self.programme = start_programme(scenario, network, self.rng)
         # segments and the campaign calendar: their own stream too (dynamics.markets)
         self.market = market_inputs(scenario, network, self.rng)
+        if self.market.opens_at is not None:  # markets that grow: a seed in a part not yet open is left out
+            initial = initial[self.market.opens_at[initial] == 0]
 
         self.womlab_scenario = scenario  # not `scenario`: Mesa 3.5's Model.scenario is its own
         self.network = network
@@ -655,6 +660,7 @@ class ReferralModel(mesa.Model):
             segment=self.market.segment,
             segment_names=self.market.segment_names,
             value=self.market.value,
+            opens_at=self.market.opens_at,
         )
 
 

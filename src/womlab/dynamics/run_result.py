@@ -76,6 +76,9 @@ class RunResult:
     value : numpy.ndarray, optional
         Value per period of each organisation as a customer (segment value × node ``size``);
         None: 1 each.
+    opens_at : numpy.ndarray, optional
+        int32 period in which each organisation entered the market (``market.opens``; 0 = from
+        the start); None when the whole market is open from period 0.
     """
 
     periods: int
@@ -93,6 +96,7 @@ class RunResult:
     segment: np.ndarray | None = None
     segment_names: tuple[str, ...] = ()
     value: np.ndarray | None = None
+    opens_at: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -129,6 +133,18 @@ class RunResult:
         counts = np.zeros((self.periods + 1, regions), dtype=np.int64)
         np.add.at(counts, (self.adoption_period[adopted], self.region[adopted]), 1)
         return np.cumsum(counts, axis=0)
+
+    @property
+    def market_size(self) -> np.ndarray:
+        """Organisations in the market at each period (all N unless parts open later), int64."""
+        if self.opens_at is None:
+            return np.full(self.periods + 1, self.n, dtype=np.int64)
+        return np.cumsum(np.bincount(self.opens_at, minlength=self.periods + 1)[: self.periods + 1])
+
+    @property
+    def share_of_current_market(self) -> np.ndarray:
+        """Customers as a share of the organisations in the market at each period."""
+        return self.customers / np.maximum(self.market_size, 1)
 
     def groups(self, by: str) -> tuple[np.ndarray, tuple[str, ...]]:
         """Each organisation's group code and the groups' names: ``by = "segment"`` or ``"region"``.
@@ -185,7 +201,8 @@ class RunResult:
         })
 
     def curve(self, every: float | None = None) -> pd.DataFrame:
-        """Table of period, time, customers, new_customers, satisfied_customers.
+        """Table of period, time, customers, new_customers, satisfied_customers (and, when parts
+        of the market open later, market, share_of_current_market, share_of_final_market).
 
         Parameters
         ----------
@@ -205,7 +222,7 @@ class RunResult:
             raise ValueError(f"every must be 1/n of a period for a whole n >= 1, got {every!r}")
         if per == 1:
             t = np.arange(self.periods + 1)
-            return pd.DataFrame(
+            return self._with_market(pd.DataFrame(
                 {
                     "period": t,
                     "time": t.astype(float),
@@ -213,7 +230,7 @@ class RunResult:
                     "new_customers": self.new_customers,
                     "satisfied_customers": self.satisfied_customers,
                 }
-            )
+            ))
         if self.adoption_time is None:
             raise ValueError(f"a report grid finer than one period needs adoption times; the {self.engine} engine keeps none")
         slots = self.periods * per
@@ -224,7 +241,7 @@ class RunResult:
         new = np.bincount(row, minlength=slots + 1)[: slots + 1]
         sat = np.bincount(row[self.satisfied[seen]], minlength=slots + 1)[: slots + 1]
         k = np.arange(slots + 1)
-        return pd.DataFrame(
+        return self._with_market(pd.DataFrame(
             {
                 "period": (k + per - 1) // per,
                 "time": k / per,
@@ -232,7 +249,19 @@ class RunResult:
                 "new_customers": new,
                 "satisfied_customers": np.cumsum(sat),
             }
-        )
+        ))
+
+    def _with_market(self, table: pd.DataFrame) -> pd.DataFrame:
+        """A market that grows (``market.opens``): add the organisations in the market at each row's
+        period (``market``), customers' share of it (``share_of_current_market``) and of the final
+        market (``share_of_final_market``)."""
+        if self.opens_at is None:
+            return table
+        size = self.market_size[table["period"].to_numpy()]
+        table["market"] = size
+        table["share_of_current_market"] = table["customers"] / np.maximum(size, 1)
+        table["share_of_final_market"] = table["customers"] / self.n
+        return table
 
     def to_frame(self, network: ReferralNetwork | None = None, attributes: pd.DataFrame | None = None) -> pd.DataFrame:
         """One row per organisation: who it is and how it became a customer.

@@ -32,7 +32,7 @@ from typing import Any, ClassVar
 from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, fail, hints, in_unit, non_negative, unknown_field
 
-__all__ = ["Segment", "Segments", "Campaign", "Campaigns", "SHARE_TOLERANCE"]
+__all__ = ["Segment", "Segments", "Campaign", "Campaigns", "Opening", "openings", "check_openings", "SHARE_TOLERANCE"]
 
 #: How far the segment shares may sum from 1 (rounding in a hand-written file).
 SHARE_TOLERANCE = 1e-6
@@ -320,3 +320,70 @@ def _group_words(a: Campaign, b: Campaign) -> str:
         if c.segment is not None:
             return f"segment {c.segment!r}"
     return "the whole market"
+
+
+@dataclass(frozen=True, kw_only=True)
+class Opening:
+    """One entry of ``market.opens``: a region (code, or value as given in a node file) or a segment
+    that enters the market in ``period``. Before it, its organisations are not potential customers,
+    feel no influence and are not counted in the market."""
+
+    period: int
+    region: Any = None
+    segment: str | None = None
+
+
+def openings(market: Any) -> tuple[Opening, ...]:
+    """``market.opens`` as :class:`Opening` entries (a table or a list of tables in the file)."""
+    value = market.opens
+    if value is None:
+        return ()
+    if isinstance(value, Mapping):
+        value = (value,)
+    out = []
+    for i, entry in enumerate(value):
+        where = f"market.opens[{i}]"
+        if isinstance(entry, Opening):
+            out.append(entry)
+            continue
+        if not isinstance(entry, Mapping):
+            raise ScenarioError(f"{where} must be a table {{region = 3, period = 12}} or {{segment = \"...\", "
+                                f"period = 12}}, got {entry!r}")
+        for key in entry:
+            if key not in ("region", "segment", "period"):
+                unknown_field(f"{where}.{key}", ["region", "segment", "period"])
+        if "period" not in entry:
+            raise ScenarioError(f"{where}.period is required (the period in which it opens, 1..run.periods)")
+        region = entry.get("region")
+        if region is not None and (isinstance(region, bool) or not isinstance(region, (int, str))):
+            fail(f"{where}.region", region, "a region code or a region value as given")
+        segment = entry.get("segment")
+        out.append(Opening(period=coerce(entry["period"], int, f"{where}.period"), region=region,
+                           segment=None if segment is None else coerce(segment, str, f"{where}.segment")))
+    return tuple(out)
+
+
+def check_openings(scenario: Any) -> None:
+    """Each opening names one region that exists or one segment of ``[segments]``, and a period in 1..T."""
+    entries = openings(scenario.market)
+    if not entries:
+        return
+    _discrete_only(scenario, "market.opens (a market that grows)")
+    T, regions = scenario.run.periods, scenario.market.regions
+    seen: dict[str, int] = {}
+    for i, o in enumerate(entries):
+        where = f"market.opens[{i}]"
+        if not 1 <= o.period <= T:
+            fail(f"{where}.period", o.period, f"a period between 1 and run.periods = {T}")
+        if (o.region is None) == (o.segment is None):
+            raise ScenarioError(f"{where} needs exactly one of region and segment, got region = {o.region!r} and "
+                                f"segment = {o.segment!r}")
+        if o.segment is not None:
+            scenario.segments.code(o.segment, f"{where}.segment")
+        elif scenario.network.kind != "edgelist" and not (isinstance(o.region, int) and 0 <= o.region < regions):
+            fail(f"{where}.region", o.region, f"a region code between 0 and market.regions - 1 = {regions - 1}")
+        key = f"region {o.region!r}" if o.region is not None else f"segment {o.segment!r}"
+        if key in seen:
+            raise ScenarioError(f"{where} opens {key} again (market.opens[{seen[key]}] opens it); "
+                                "allowed: one opening per region or segment")
+        seen[key] = i

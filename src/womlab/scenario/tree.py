@@ -88,7 +88,7 @@ from typing import Any
 from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field
 from womlab.scenario.fit_spec import FitSpec, Prior, parse_priors
-from womlab.scenario.markets import Campaigns, Segments
+from womlab.scenario.markets import Campaigns, Segments, check_openings
 from womlab.scenario.registry import network_file_facts, network_file_kinds
 from womlab.scenario.sections import (
     Adoption,
@@ -159,6 +159,7 @@ class Scenario:
             fail("seed", self.seed, "a whole number >= 0")
         for key in SECTIONS:
             getattr(self, key).check(self)
+        check_openings(self)  # market.opens reads [segments] and [run], checked above
 
     # ------------------------------------------------------------------ construction
     @classmethod

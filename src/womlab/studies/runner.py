@@ -367,7 +367,9 @@ class Batch:
             c = run.curve(self.scenario.run.report_every)
             c.insert(0, "replicate", i)
             frames.append(c)
-        return pd.concat(frames, ignore_index=True)[["replicate", *CURVE_COLUMNS]]
+        table = pd.concat(frames, ignore_index=True)
+        extra = [c for c in table.columns if c not in ("replicate", *CURVE_COLUMNS)]  # market columns, if any
+        return table[["replicate", *CURVE_COLUMNS, *extra]]
 
     def summary(self, by: str | None = None) -> pd.DataFrame:
         """Per period: mean, sd, q05, q50, q95 of the customer share, and the aggregate prediction.
