@@ -18,6 +18,7 @@ from womlab.aggregate.fitting import (
     fit_replicates,
     fit_stock_and_flow,
 )
+from womlab.aggregate.generations import norton_bass, norton_bass_ode
 from womlab.aggregate.markets import (
     SegmentParameters,
     bass_calendar_share,
@@ -73,4 +74,6 @@ __all__ = [
     "external_by_period",
     "group_curves",
     "segment_curves",
+    "norton_bass",
+    "norton_bass_ode",
 ]
