@@ -30,13 +30,15 @@ from womlab.store import versions
 
 HERE = Path(__file__).resolve().parent
 KINDS = ("complete", "random", "small_world", "regional", "scale_free")
+#: The regional kind's share of ties within a region in these runs.
+REGIONS = {"regional": {"network.within_region_share": 0.8}}
 
 
 def coverage(base: womlab.Scenario, points: int, jobs: int) -> pd.DataFrame:
     frames = []
     for kind in KINDS:
         t0 = time.perf_counter()
-        table = womlab.simulation_based_calibration(base.replace("network.kind", kind), points, jobs=jobs)
+        table = womlab.simulation_based_calibration(base.replace({"network.kind": kind, **REGIONS.get(kind, {})}), points, jobs=jobs)
         table["network_kind"] = kind
         frames.append(table)
         print(f"{kind}: {points} fits, {time.perf_counter() - t0:.0f} s, 90 % coverage "

@@ -3,7 +3,8 @@
 Organisations sit on a referral network; satisfied customers talk to their neighbours.
 womlab simulates each organisation (a fast numpy array engine, and a Mesa model as the
 per-agent reference), runs seeded replicates in parallel, and sets the emergent adoption
-curves against the aggregate Bass and stock-and-flow models.
+curves against the aggregate Bass models (closed form, ODE, difference form, and the Bass
+difference model with a ceiling on the adoption rate).
 
 Quick start::
 
@@ -32,11 +33,13 @@ from womlab.aggregate import (
     bass_ode,
     bass_peak_time,
     bass_share,
+    capped_bass_difference,
     degree_classes,
     degree_mean_field,
     degree_mean_field_curve,
     fit_bass,
     fit_bass_sales,
+    fit_capped_bass_difference,
     fit_replicates,
     fit_stock_and_flow,
     mapped_parameters,
@@ -55,12 +58,17 @@ from womlab.errors import (
     NetworkError,
     ObservedDataError,
     ScenarioError,
+    ScenarioWarning,
     StoreError,
     WomlabError,
 )
 from womlab.networks import ReferralNetwork, build_network, from_edge_table, read_edgelist, read_graph_file
 from womlab.networks.given import as_network
 from womlab.results import (
+    check_output_folder,
+    save_comparison,
+    save_figure,
+    strategy_colour,
     adoption_figure,
     comparison_figure,
     fit_figure,
@@ -78,7 +86,15 @@ from womlab.results import (
     sweep_summary,
     write_report,
 )
-from womlab.scenario import Scenario, demo_names, load_scenario, write_demo
+from womlab.scenario import (
+    Scenario,
+    check_resources,
+    demo_names,
+    estimate_resources,
+    field_label,
+    load_scenario,
+    write_demo,
+)
 from womlab.seeding import STRATEGIES, choose_seeds
 from womlab.store import ResultsStore
 from womlab.studies import (
@@ -107,9 +123,11 @@ from womlab.studies import (
     parallel_choice,
     pooled_metrics,
     programme_economics,
+    plan,
     programme_ratios,
     read_observed,
     referral_tree_summary,
+    referrals_by_adoption_period,
     register_sweep_study,
     referrals_per_customer,
     replicate_gaps,
@@ -156,6 +174,7 @@ __all__ = [
     "STRATEGIES",
     "Scenario",
     "ScenarioError",
+    "ScenarioWarning",
     "SeedingStudy",
     "StockFlowFit",
     "StoreError",
@@ -172,6 +191,17 @@ __all__ = [
     "bass_peak_time",
     "bass_share",
     "build_network",
+    "capped_bass_difference",
+    "check_output_folder",
+    "check_resources",
+    "estimate_resources",
+    "field_label",
+    "fit_capped_bass_difference",
+    "plan",
+    "referrals_by_adoption_period",
+    "save_comparison",
+    "save_figure",
+    "strategy_colour",
     "choose_seeds",
     "compare",
     "compare_strategies",

@@ -7,7 +7,7 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 from __future__ import annotations
 
 __all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError", "CompilerError",
-           "ObservedDataError"]
+           "ObservedDataError", "ScenarioWarning"]
 
 
 class WomlabError(Exception):
@@ -28,6 +28,12 @@ class NetworkError(WomlabError, ValueError):
 
 class StoreError(WomlabError):
     """A results folder cannot be written, read or resumed."""
+
+
+class ScenarioWarning(UserWarning):
+    """A scenario is valid but says something that will not happen as written, e.g. a field
+    that has no effect under the chosen rule (``adoption.cap`` with ``rule = "share"``).
+    The ``womlab`` command prints it as ``womlab: warning: ...``; the work goes on."""
 
 
 class ClusterError(WomlabError):

@@ -1,8 +1,8 @@
 """The aggregate layer: growth when everyone talks to everyone, and fitting it to curves.
 
 Knows the rules and the scenario (below); nothing of networks, seeding, engines or agents.
-``models`` holds the Bass model (closed form, ODE, difference form), the stock-and-flow
-difference model and the micro-to-macro mapping; ``mean_field`` the degree-based
+``models`` holds the Bass model (closed form, ODE, difference form), the capped Bass
+difference model (formerly "stock-and-flow") and the micro-to-macro mapping; ``mean_field`` the degree-based
 mean-field model (fed a degree sequence, never a network object it must import);
 ``fitting`` the least-squares fits of these curves to network runs or sales data.
 """
@@ -16,6 +16,7 @@ from womlab.aggregate.fitting import (
     fit_bass,
     fit_bass_sales,
     fit_replicates,
+    fit_capped_bass_difference,
     fit_stock_and_flow,
 )
 from womlab.aggregate.generations import norton_bass, norton_bass_ode
@@ -40,6 +41,7 @@ from womlab.aggregate.models import (
     bass_ode,
     bass_peak_time,
     bass_share,
+    capped_bass_difference,
     mapped_parameters,
     stock_and_flow,
 )
@@ -52,6 +54,7 @@ __all__ = [
     "bass_density",
     "bass_ode",
     "bass_difference",
+    "capped_bass_difference",
     "stock_and_flow",
     "aggregate_curve",
     "bass_peak_time",
@@ -64,6 +67,7 @@ __all__ = [
     "fit_bass_sales",
     "fit_replicates",
     "bass_fit_table",
+    "fit_capped_bass_difference",
     "fit_stock_and_flow",
     "SegmentParameters",
     "mapped_segments",

@@ -8,8 +8,8 @@ word-of-mouth strength says how much word of mouth the network "loses" to cluste
 local saturation and degree heterogeneity.
 
 Every fitted curve is the closed form :func:`womlab.aggregate.bass_share` (which handles
-an initial share F₀), or :func:`womlab.aggregate.stock_and_flow` for the stock-and-flow
-fit: the formulas live in :mod:`womlab.aggregate` alone.
+an initial share F₀), or :func:`womlab.aggregate.capped_bass_difference` for the fit of
+the capped Bass difference model: the formulas live in :mod:`womlab.aggregate` alone.
 
 Models
 ------
@@ -37,7 +37,7 @@ import numpy as np
 import pandas as pd
 from scipy.optimize import least_squares
 
-from womlab.aggregate.models import bass_density, bass_share, stock_and_flow
+from womlab.aggregate.models import bass_density, bass_share, capped_bass_difference
 from womlab.errors import WomlabError
 
 __all__ = [
@@ -47,6 +47,7 @@ __all__ = [
     "fit_bass_sales",
     "fit_replicates",
     "bass_fit_table",
+    "fit_capped_bass_difference",
     "fit_stock_and_flow",
 ]
 
@@ -402,7 +403,7 @@ def _fit_row(name: str, estimate: float, boot: np.ndarray, reps: np.ndarray, map
 
 @dataclass(frozen=True)
 class StockFlowFit:
-    """A fit of the stock-and-flow difference model's slope and cap.
+    """A fit of the capped Bass difference model's slope and cap (:func:`fit_capped_bass_difference`).
 
     Attributes
     ----------
@@ -422,7 +423,7 @@ class StockFlowFit:
     rmse: float
 
 
-def fit_stock_and_flow(
+def fit_capped_bass_difference(
     share: np.ndarray,
     *,
     organisations: int,
@@ -433,7 +434,7 @@ def fit_stock_and_flow(
     form: str = "linear",
     fit_cap: bool = True,
 ) -> StockFlowFit:
-    """Fit the slope (and cap) of :func:`womlab.aggregate.stock_and_flow` to a share curve on periods 0..T.
+    """Fit the slope (and cap) of :func:`womlab.aggregate.capped_bass_difference` to a share curve on periods 0..T.
 
     The external influence, satisfied share and talkers are held at the given values;
     the slope is searched as the Bass-like strength slope·N·s·τ̄ (so the search is well
@@ -444,12 +445,12 @@ def fit_stock_and_flow(
     n = int(organisations)
     per_q = n * satisfied_share * talkers_per_customer
     if per_q <= 0:
-        raise WomlabError("fit_stock_and_flow needs organisations × satisfied share × talkers > 0")
+        raise WomlabError("fit_capped_bass_difference needs organisations × satisfied share × talkers > 0")
 
     def curve(x: np.ndarray) -> np.ndarray:
-        c = stock_and_flow(periods, n, s[0] * n, slope=x[0] / per_q, satisfied_share=satisfied_share,
-                           talkers_per_customer=talkers_per_customer, external=external,
-                           cap=float(x[1]) if fit_cap else None, time_step=time_step, form=form)
+        c = capped_bass_difference(periods, n, s[0] * n, slope=x[0] / per_q, satisfied_share=satisfied_share,
+                                   talkers_per_customer=talkers_per_customer, external=external,
+                                   cap=float(x[1]) if fit_cap else None, time_step=time_step, form=form)
         return c[1:] / n
 
     if fit_cap:
@@ -463,3 +464,7 @@ def fit_stock_and_flow(
         slope=float(res.x[0] / per_q), cap=float(res.x[1]) if fit_cap else None, success=bool(res.success),
         message=str(res.message), nfev=int(res.nfev), rmse=float(np.sqrt(np.mean(res.fun**2))),
     )
+
+
+#: Former name of :func:`fit_capped_bass_difference`, kept so that code written for it keeps working.
+fit_stock_and_flow = fit_capped_bass_difference

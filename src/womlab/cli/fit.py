@@ -3,10 +3,9 @@
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
 from typing import Any
 
-from womlab.cli.common import positive, print_table
+from womlab.cli.common import add_scenario_options, positive, prepare, print_table
 
 __all__ = ["add", "add_data", "observed_points"]
 
@@ -39,15 +38,14 @@ def observed_points(args: argparse.Namespace, scenario: Any) -> Any:
 
 def cmd_fit(args: argparse.Namespace) -> int:
     from womlab.results import save_fit
-    from womlab.scenario import load_scenario
     from womlab.studies import fit_observed, read_observed
 
-    scenario = load_scenario(args.config)
+    scenario, out = prepare(args, "fit")
     observed = read_observed(args.data) if args.data is not None else None  # else the file fit.data_path names
-    out = Path(args.out) if args.out else Path("out") / f"{Path(args.config).stem}-fit"
     fit = fit_observed(scenario, observed, holdout=args.holdout, particles=args.particles,
                        simulations=args.simulations, jobs=args.jobs, progress=not args.quiet)
-    written = save_fit(fit, out, periods=args.forecast)
+    written = save_fit(fit, out, periods=args.forecast, force=args.force, figure_format=args.figure_format,
+                       command_line=getattr(args, "command_line", None))
     print(f"{scenario.name}: {len(fit.names)} free field(s) fitted to {len(fit.fitted)} points of {fit.observed.source}, "
           f"{fit.smc.simulations} simulations, {fit.wall_time:.1f} s ({fit.smc.stopped})")
     for note in fit.notes:
@@ -78,6 +76,13 @@ def add(sub: Any) -> None:
     cmd.add_argument("--particles", type=positive, help="overrides fit.particles")
     cmd.add_argument("--simulations", type=positive, help="overrides fit.simulations (the budget)")
     cmd.add_argument("--jobs", type=positive, help="worker processes, -1 for every core (overrides run.jobs)")
+    add_scenario_options(cmd)
     cmd.add_argument("--out", help="results folder (default out/<config name>-fit)")
+    cmd.add_argument("--force", "--overwrite", action="store_true",
+                     help="replace another command's or another scenario's results in --out (files womlab did "
+                          "not write are never replaced)")
+    cmd.add_argument("--figure-format", choices=["png", "pdf", "svg"], default="png", help="figure format (default png)")
+    cmd.add_argument("--skip-resource-check", action="store_true",
+                     help="run even when the estimate says it will not fit this machine")
     cmd.add_argument("--quiet", action="store_true", help="no progress lines")
     cmd.set_defaults(func=cmd_fit)

@@ -15,17 +15,29 @@ layer.
 from __future__ import annotations
 
 from womlab.results.figures import (
+    FIGURE_FORMATS,
     adoption_figure,
     comparison_figure,
     network_snapshot_figure,
+    plain_text,
     programme_figure,
     referral_tree_figure,
+    save_figure,
     seeding_figure,
+    strategy_colour,
 )
-from womlab.results.fit import fit_figure, overlay_observed, save_fit
+from womlab.results.fit import fit_figure, overlay_observed
 from womlab.results.groups import group_figure
 from womlab.results.report import sensitivity_table, sweep_figures, sweep_summary, write_report
-from womlab.results.save import save_batch, save_comparison, save_programme, save_seeding_study
+from womlab.results.save import (
+    check_output_folder,
+    save_batch,
+    save_comparison,
+    save_fit,
+    save_programme,
+    save_seeding_study,
+    sections_in_use,
+)
 from womlab.studies.calibration import Fit
 from womlab.studies.compare import Comparison
 from womlab.studies.presenting import register
@@ -38,6 +50,12 @@ register(Fit, "figure", fit_figure)
 register(Fit, "save", save_fit)
 
 __all__ = [
+    "FIGURE_FORMATS",
+    "check_output_folder",
+    "plain_text",
+    "save_figure",
+    "sections_in_use",
+    "strategy_colour",
     "adoption_figure",
     "comparison_figure",
     "network_snapshot_figure",

@@ -1,28 +1,24 @@
 """A fit to an observed series, drawn and written; observed points on other adoption figures.
 
 :func:`fit_figure` draws the observed points, the Bass fit to the same points, the network
-posterior band and the holdout line, beside each free field's posterior; :func:`save_fit`
-writes the fit's results folder. :func:`overlay_observed` puts an observed series on the
+posterior band and the holdout line, beside each free field's posterior
+(:func:`womlab.results.save.save_fit` writes the fit's results folder). :func:`overlay_observed` puts an observed series on the
 two panels of an adoption figure (``womlab run --data``, ``womlab compare --data``).
 """
 
 from __future__ import annotations
 
-import json
-from pathlib import Path
-from types import SimpleNamespace
 from typing import Any
 
 import numpy as np
 from matplotlib.figure import Figure
 from matplotlib.ticker import NullFormatter
 
-from womlab.store import atomic_write, manifest, results_folder
-from womlab.studies.calibration import DRAW_KEY, Fit
+from womlab.studies.calibration import Fit
 from womlab.studies.observed import ObservedSeries
-from womlab.studies.smc import FIT_KEY, weighted_quantile
+from womlab.studies.smc import weighted_quantile
 
-__all__ = ["fit_figure", "save_fit", "overlay_observed"]
+__all__ = ["fit_figure", "overlay_observed"]
 
 NETWORK_COLOUR = "#1f5f8b"
 BASS_COLOUR = "#c0392b"
@@ -37,7 +33,8 @@ def overlay_observed(top: Any, bottom: Any, observed: ObservedSeries, organisati
     axis = top if observed.kind == "customers" else bottom
     axis.scatter(observed.periods, observed.counts / size, s=16, color=OBSERVED_COLOUR, zorder=5,
                  label=f"observed ({observed.source})")
-    axis.legend(loc="lower right" if axis is top else "upper right", fontsize=8, frameon=False)
+    # beside the axes, off the data, as every womlab figure's legends
+    axis.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0, fontsize=8, frameon=False)
 
 
 def fit_figure(fit: Fit, *, periods: int = 12, title: str | None = None) -> Figure:
@@ -152,72 +149,3 @@ def fit_figure(fit: Fit, *, periods: int = 12, title: str | None = None) -> Figu
         ax.tick_params(labelsize=7.5)
     right.suptitle(f"posterior, {w.size} particles (x axis: prior range)", fontsize=9)
     return fig
-
-
-def _json(path: Path, info: dict[str, Any]) -> Path:
-    text = json.dumps(info, indent=2, default=float)
-    return atomic_write(path, lambda p: p.write_text(text + "\n", encoding="utf-8"))
-
-
-def _table(path: Path, table: Any) -> Path:
-    return atomic_write(path, lambda p: table.to_csv(p, index=False, float_format="%.6g"))
-
-
-def save_fit(fit: Fit, out: str | Path, *, periods: int = 12, figure: bool = True) -> list[Path]:
-    """Write a fit's results folder; returns the paths written.
-
-    Files: ``posterior.csv`` (final particles: network kind, free fields, weight,
-    distance), ``fit_summary.csv`` (per free field and mapped Bass p, Q: median, 50 % and
-    90 % intervals, effective sample size), ``forecast.csv`` (:meth:`Fit.forecast`,
-    ``periods`` ahead), ``stage.csv`` (:meth:`Fit.stage`), ``generations.csv`` (tolerance,
-    acceptance and effective sample size per generation), ``network_kinds.csv``
-    (probabilities, when kinds were compared), ``holdout.csv`` (network against Bass, when
-    points were held out), ``fit.png`` and ``manifest.json``.
-
-    Raises
-    ------
-    StoreError
-        If ``out`` exists and is not a folder, or cannot be created.
-    """
-    out = results_folder(out)
-    tables = {
-        "posterior.csv": fit.posterior,
-        "fit_summary.csv": fit.summary(),
-        "forecast.csv": fit.forecast(periods),
-        "stage.csv": fit.stage(),
-        "generations.csv": fit.generations(),
-    }
-    if len(fit.kinds) > 1:
-        tables["network_kinds.csv"] = fit.network_kinds()
-    holdout = None
-    if fit.held_out is not None:
-        holdout = fit.holdout_scores()
-        tables["holdout.csv"] = holdout
-    written = [_table(out / name, table) for name, table in tables.items()]
-    if figure:
-        fig = fit_figure(fit, periods=periods)
-        written.append(atomic_write(out / "fit.png", lambda p: fig.savefig(p, dpi=130, format="png")))
-    made = SimpleNamespace(scenario=fit.base, replicates=fit.replicates, wall_time=fit.wall_time)
-    info = manifest(made, {
-        "study": "fit to an observed series: ABC-SMC (womlab.studies.smc) through womlab.studies.run_paired",
-        "data": {"file": fit.observed.source, "kind": fit.observed.kind, "points": len(fit.observed),
-                 "fitted_points": len(fit.fitted), "held_out_points": 0 if fit.held_out is None else len(fit.held_out),
-                 "market": fit.observed.market},
-        "free": list(fit.names),
-        "priors": {p.name: p.to_table() for p in fit.priors},
-        "network_kinds": list(fit.kinds),
-        "settings": {"particles": fit.settings.particles, "generations": fit.settings.generations,
-                     "simulations": fit.settings.simulations, "quantile": fit.settings.quantile,
-                     "min_acceptance": fit.settings.min_acceptance},
-        "simulations": fit.smc.simulations,
-        "stopped": fit.smc.stopped,
-        "notes": fit.notes,
-        "spawn_keys": f"proposal j of generation g: SeedSequence(root_seed, spawn_key=({FIT_KEY}, g, j)); "
-                      f"proposals drawn from SeedSequence(root_seed, spawn_key=({FIT_KEY}, g)); forecasts rerun the "
-                      f"accepted keys to a longer horizon; decision draws SeedSequence(root_seed, spawn_key={DRAW_KEY} + (r,))",
-        "summary_statistic": "cumulative curve at the observed periods (customers, or new customers summed over them)",
-        "distance": "root mean square difference of the cumulative curves over the observed total",
-        "holdout": None if holdout is None else holdout.to_dict(orient="records"),
-    })
-    written.append(_json(out / "manifest.json", info))
-    return written

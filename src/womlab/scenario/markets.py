@@ -31,6 +31,7 @@ from typing import Any, ClassVar
 
 from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, fail, hints, in_unit, non_negative, unknown_field
+from womlab.scenario.sections import no_effect
 
 __all__ = ["Segment", "Segments", "Campaign", "Campaigns", "Opening", "openings", "check_openings", "SHARE_TOLERANCE"]
 
@@ -347,8 +348,10 @@ def openings(market: Any) -> tuple[Opening, ...]:
             out.append(entry)
             continue
         if not isinstance(entry, Mapping):
-            raise ScenarioError(f"{where} must be a table {{region = 3, period = 12}} or {{segment = \"...\", "
-                                f"period = 12}}, got {entry!r}")
+            raise ScenarioError(
+                f'{where} must be a table {{region = 3, period = 12}} or {{segment = "...", '
+                f"period = 12}}, got {entry!r}"
+            )
         for key in entry:
             if key not in ("region", "segment", "period"):
                 unknown_field(f"{where}.{key}", ["region", "segment", "period"])
@@ -358,8 +361,13 @@ def openings(market: Any) -> tuple[Opening, ...]:
         if region is not None and (isinstance(region, bool) or not isinstance(region, (int, str))):
             fail(f"{where}.region", region, "a region code or a region value as given")
         segment = entry.get("segment")
-        out.append(Opening(period=coerce(entry["period"], int, f"{where}.period"), region=region,
-                           segment=None if segment is None else coerce(segment, str, f"{where}.segment")))
+        out.append(
+            Opening(
+                period=coerce(entry["period"], int, f"{where}.period"),
+                region=region,
+                segment=None if segment is None else coerce(segment, str, f"{where}.segment"),
+            )
+        )
     return tuple(out)
 
 
@@ -376,14 +384,35 @@ def check_openings(scenario: Any) -> None:
         if not 1 <= o.period <= T:
             fail(f"{where}.period", o.period, f"a period between 1 and run.periods = {T}")
         if (o.region is None) == (o.segment is None):
-            raise ScenarioError(f"{where} needs exactly one of region and segment, got region = {o.region!r} and "
-                                f"segment = {o.segment!r}")
+            raise ScenarioError(
+                f"{where} needs exactly one of region and segment, got region = {o.region!r} and "
+                f"segment = {o.segment!r}"
+            )
         if o.segment is not None:
             scenario.segments.code(o.segment, f"{where}.segment")
         elif scenario.network.kind != "edgelist" and not (isinstance(o.region, int) and 0 <= o.region < regions):
             fail(f"{where}.region", o.region, f"a region code between 0 and market.regions - 1 = {regions - 1}")
         key = f"region {o.region!r}" if o.region is not None else f"segment {o.segment!r}"
         if key in seen:
-            raise ScenarioError(f"{where} opens {key} again (market.opens[{seen[key]}] opens it); "
-                                "allowed: one opening per region or segment")
+            raise ScenarioError(
+                f"{where} opens {key} again (market.opens[{seen[key]}] opens it); "
+                "allowed: one opening per region or segment"
+            )
         seen[key] = i
+
+
+def _every_segment_sets(s: Any, name: str) -> bool:
+    groups = s.segments.groups
+    return bool(groups) and all(getattr(g, name) is not None for g in groups)
+
+
+no_effect(
+    "adoption.satisfied_share",
+    lambda s: _every_segment_sets(s, "satisfied_share"),
+    lambda s: "every segment of [segments] sets its own satisfied_share",
+)
+no_effect(
+    "adoption.talkers_per_customer.mean",
+    lambda s: _every_segment_sets(s, "talkers"),
+    lambda s: "every segment of [segments] sets its own talkers (the distribution still applies)",
+)

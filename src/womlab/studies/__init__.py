@@ -5,8 +5,9 @@ nothing of files' contents, figures or the command line (above). ``runner`` hold
 replicate batches and paired runs (common random numbers, joblib); ``compare`` the
 network set beside the aggregate models; ``seeding_study`` the paired seeding study;
 ``programme`` a referral programme's economics; ``sweep`` designs and the resumable
-sweep runner; ``sweep_studies`` the registry of what a sweep point runs; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics and
-intervals; ``referrals`` referral-tree analytics; ``observed`` observed adoption series; ``smc`` the
+sweep runner; ``sweep_studies`` the registry of what a sweep point runs; ``plan`` what
+each command will run on a scenario; ``sensitivity`` Sobol and Morris; ``metrics`` curve
+statistics and intervals; ``referrals`` referral-tree analytics; ``observed`` observed adoption series; ``smc`` the
 ABC-SMC; ``calibration`` fitting, forecasting and staging an observed market; ``presenting`` the registry through
 which a study's result asks :mod:`womlab.results` to draw or write it.
 """
@@ -23,6 +24,7 @@ from womlab.studies.calibration import (
 )
 from womlab.studies.compare import Comparison, aggregate_curves, compare
 from womlab.studies.observed import ObservedSeries, observed_series, read_observed
+from womlab.studies.plan import plan, programme_summary, slow_steps
 from womlab.studies.metrics import (
     GAP_NAMES,
     METRIC_NAMES,
@@ -53,6 +55,7 @@ from womlab.studies.referrals import (
     referral_counts,
     referral_tree_summary,
     referrals_per_customer,
+    referrals_by_adoption_period,
     reproduction_by_period,
     top_degree_referral_share,
     word_of_mouth_by_period,
@@ -65,6 +68,9 @@ from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, r
 from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_study, sweep_studies, sweep_study
 
 __all__ = [
+    "plan",
+    "programme_summary",
+    "slow_steps",
     "parallel_choice",
     "crossover_seconds",
     "Batch",
@@ -91,6 +97,7 @@ __all__ = [
     "referrals_per_customer",
     "generations",
     "top_degree_referral_share",
+    "referrals_by_adoption_period",
     "reproduction_by_period",
     "referral_tree_summary",
     "discount_factors",

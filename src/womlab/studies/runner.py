@@ -33,6 +33,8 @@ from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
 from womlab.networks.given import GivenNetwork, as_network, mapped_with, node_attributes
 from womlab.scenario import Scenario
+from womlab.scenario.progress import bar, doing
+from womlab.scenario.resources import usable_jobs
 from womlab.seeding import initial_customers
 from womlab.studies.metrics import metrics_table
 
@@ -81,6 +83,8 @@ def _run_variants(
         network = build_network(first, np.random.default_rng(st.network))
     out = {}
     for name, scenario in variants.items():
+        if name:
+            doing(name)
         initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
         result = engine_for(scenario)(scenario, network, initial, np.random.default_rng(st.dynamics))
         result.seed, result.spawn_key = scenario.seed, tuple(key)
@@ -213,10 +217,10 @@ def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int
     (count, result)
         How many items the chunk held and ``func(chunk)``, as chunks finish (in any order).
     """
-    from joblib import Parallel, delayed, effective_n_jobs
+    from joblib import Parallel, delayed
 
     items = list(items)
-    workers = min(effective_n_jobs(jobs), len(items))
+    workers = min(usable_jobs(jobs), len(items))  # never more processes than cores
     mode = _choice["mode"]
     done = 0
     each = np.inf
@@ -277,18 +281,11 @@ def _execute(
     so that only its small return value travels back. ``network``, if given, is the one
     network every run is on (else each key builds its own)."""
     done: dict[tuple, dict[str, RunResult]] = {}
-    bar = None
-    if progress:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(total=len(keys), unit="run", desc="runs", leave=False)
-    for _, chunk in run_chunks(partial(_chunk, variants, reduce=reduce, network=network), keys, jobs):
-        for key, result in chunk:
-            done[key] = result
-        if bar is not None:
-            bar.update(len(chunk))
-    if bar is not None:
-        bar.close()
+    with bar(len(keys), "replicates", unit="replicate", show=progress) as count:
+        for _, chunk in run_chunks(partial(_chunk, variants, reduce=reduce, network=network), keys, jobs):
+            for key, result in chunk:
+                done[key] = result
+            count.update(len(chunk))
     return done
 
 
