@@ -11,7 +11,8 @@ __all__ = ["group_figure"]
 GROUP_COLOURS = ("#1f5f8b", "#d35400", "#27ae60", "#8e44ad", "#c0392b", "#7f8c8d", "#b7950b", "#2c3e50")
 
 
-def group_figure(batch, by: str = "segment", *, title: str | None = None) -> Figure:  # noqa: ANN001 - Batch
+def group_figure(batch, by: str = "segment", *, title: str | None = None,  # noqa: ANN001 - Batch
+                 size: tuple[float, float] | None = None) -> Figure:
     """Customer share of each group over time (median, 5–95 % band; the aggregate model dashed) and
     new customers per period as a share of each group.
 
@@ -22,6 +23,8 @@ def group_figure(batch, by: str = "segment", *, title: str | None = None) -> Fig
         ``"segment"`` or ``"region"``.
     title : str, optional
         Defaults to the scenario's name and the split.
+    size : (width, height), optional
+        In inches.
 
     Examples
     --------
@@ -35,7 +38,7 @@ def group_figure(batch, by: str = "segment", *, title: str | None = None) -> Fig
     shares, names = batch.group_shares(by)
     aggregate = batch.group_aggregate(by)
     t = np.arange(shares.shape[1])
-    fig = Figure(figsize=(7.5, 6.5), layout="constrained")
+    fig = Figure(figsize=size or (7.5, 6.5), layout="constrained")
     top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=[3, 2])
     new = np.diff(shares, axis=1)
     for g, name in enumerate(names):
