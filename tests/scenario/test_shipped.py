@@ -19,7 +19,7 @@ from womlab.scenario import demo_path
 
 
 def test_every_demo_ships_and_loads_by_name() -> None:
-    assert demo_names() == ["demo", "fit-demo", "referral-demo", "seeding-demo", "sweep-demo"]
+    assert demo_names() == ["demo", "fit-demo", "markets-demo", "referral-demo", "seeding-demo", "sweep-demo"]
     for name in demo_names():
         assert load_scenario(name) == load_scenario(demo_path(name))
         assert "invented" in demo_path(name).read_text(encoding="utf-8").lower()

@@ -5,6 +5,8 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.figure import Figure
 
+from womlab.results.figures import title_text
+
 __all__ = ["group_figure"]
 
 # a qualitative palette that stays apart in print and for the common colour-vision deficiencies
@@ -59,7 +61,8 @@ def group_figure(batch, by: str = "segment", *, title: str | None = None,  # noq
     top.set_ylim(0, 1.02)
     top.grid(alpha=0.3)
     top.legend(loc="lower right", fontsize=8, frameon=False)
-    top.set_title(title or f"{batch.scenario.name}: by {by} ({batch.replicates} runs, 5–95 % bands)", fontsize=11)
+    top.set_title(title_text(title or f"{batch.scenario.name}: by {by} ({batch.replicates} runs, 5–95 % bands)"),
+                  fontsize=11)
     bottom.set_xlabel("period")
     bottom.set_ylabel(f"new customers per period,\nshare of the {by}")
     bottom.grid(alpha=0.3)
