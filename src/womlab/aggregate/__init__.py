@@ -15,11 +15,11 @@ from womlab.aggregate.fitting import (
     bass_fit_table,
     fit_bass,
     fit_bass_sales,
-    fit_replicates,
     fit_capped_bass_difference,
+    fit_replicates,
     fit_stock_and_flow,
 )
-from womlab.aggregate.generations import norton_bass, norton_bass_ode
+from womlab.aggregate.generations import generations_difference, mapped_generations, norton_bass, norton_bass_ode
 from womlab.aggregate.markets import (
     SegmentParameters,
     bass_calendar_share,
@@ -80,4 +80,6 @@ __all__ = [
     "segment_curves",
     "norton_bass",
     "norton_bass_ode",
+    "generations_difference",
+    "mapped_generations",
 ]

@@ -14,7 +14,7 @@ q per generation is the usual extension (e.g. Jiang & Jain 2012; cited from memo
 
 :func:`norton_bass_ode` writes the same model as flows between stocks — untapped incremental
 market P_i, customers G_i of generation i — so that each term has a meaning a simulation can
-copy: P_i enters at the Bass hazard h_i = p_i + q_i (1 − P_i / m_i) (0 before τ_i); customers of
+copy: the untapped P_i = m_i (1 − F_i) enters at the Bass hazard h_i = p_i + q_i F_i (0 before τ_i); customers of
 generation i − 1 upgrade at the same h_i; whatever arrives at generation i moves on at once to
 i + 1 with probability F_{i+1} (the share of generation i + 1's potential already reached), so
 late arrivals leapfrog to the newest generation. The ODE is solved with scipy; the test holds
@@ -33,7 +33,7 @@ from scipy.integrate import solve_ivp
 
 from womlab.errors import WomlabError
 
-__all__ = ["norton_bass", "norton_bass_ode"]
+__all__ = ["norton_bass", "norton_bass_ode", "generations_difference", "mapped_generations"]
 
 
 def _bass(t: np.ndarray, p: float, q: float) -> np.ndarray:
@@ -109,23 +109,23 @@ def norton_bass_ode(
     G = launch.size
 
     def flows(time: float, y: np.ndarray) -> np.ndarray:
-        P, C = y[:G], y[G:]
+        F, C = y[:G], y[G:]  # F_i: share of generation i's own potential reached (P_i = m_i (1 - F_i))
         live = launch <= time
-        reached = np.where(live, 1 - P / market, 0.0)  # F_i
+        reached = np.where(live, F, 0.0)
         h = np.where(live, p + q * reached, 0.0)
-        dP = -h * P
+        dF = h * (1 - F)
         dC = np.zeros(G)
         carry = 0.0
         for i in range(G):
-            arriving = h[i] * P[i] + (h[i] * C[i - 1] if i else 0.0) + carry
+            arriving = h[i] * market[i] * (1 - F[i]) + (h[i] * C[i - 1] if i else 0.0) + carry
             onward = reached[i + 1] if i + 1 < G else 0.0
             dC[i] += arriving * (1 - onward)
             carry = arriving * onward
             if i:
                 dC[i - 1] -= h[i] * C[i - 1]
-        return np.concatenate([dP, dC])
+        return np.concatenate([dF, dC])
 
-    y = np.concatenate([market, np.zeros(G)])
+    y = np.zeros(2 * G)
     edges = sorted({float(t.min()), float(t.max()), *(float(x) for x in launch if t.min() < x < t.max())})
     out = np.empty((t.size, G))
     out[t == edges[0]] = y[G:]
@@ -138,3 +138,68 @@ def norton_bass_ode(
         out[inside] = sol.y[G:].T[np.searchsorted(grid, t[inside])]
         y = sol.y[:, -1]
     return out
+
+
+def generations_difference(
+    periods: int,
+    launch: np.ndarray,
+    p: np.ndarray,
+    q: np.ndarray,
+    satisfied: np.ndarray,
+    initial: float,
+    *,
+    time_step: float = 1.0,
+    form: str = "linear",
+) -> np.ndarray:
+    """The mean field of womlab's product runs on the complete network, on the engines' clock.
+
+    Shares x_g of the market on generation g (x₀ not yet a customer); talk about g is s_g·x_g.
+    Per step, from the state at its start: x₀ enters at π(p₁ + q₁ Σ_g s_g x_g), choosing g in
+    proportion to s_g x_g among the launched generations (the newest when no one talks); x_g moves
+    on at π(p_{g+1} + q_{g+1} Σ_{k>g} s_k x_k / Σ_{k≥g} s_k x_k), choosing k > g in proportion to
+    s_k x_k (:mod:`womlab.dynamics.products`). As the step shrinks, with one s for all, it
+    approaches Norton & Bass with the whole market in the first generation's potential and
+    q₁·s as its word of mouth (tested). Returns x_g per period 0..T, shape (T + 1, G).
+    """
+    from womlab.rules import step_probability
+
+    launch, p, q, s = (np.asarray(x, dtype=float) for x in (launch, p, q, satisfied))
+    G, spp = launch.size, int(round(1 / time_step))
+    x = np.zeros(G)
+    x[0] = initial
+    out = np.empty((periods + 1, G))
+    out[0] = x
+    for step in range(1, periods * spp + 1):
+        period = (step + spp - 1) // spp
+        newest = int(np.sum(launch <= period))
+        talk = s * x
+        move = np.zeros((G + 1, G))  # from (0 = not a customer, g) to generation
+        heard = talk[:newest].sum()
+        enter = (1 - x.sum()) * float(step_probability(p[0] + q[0] * heard, time_step, form))
+        move[0, :newest] = enter * (talk[:newest] / heard if heard > 0 else np.eye(newest)[-1])
+        for g in range(newest - 1):
+            newer, current = talk[g + 1 : newest].sum(), talk[g:newest].sum()
+            r = p[g + 1] + (q[g + 1] * newer / current if current > 0 else 0.0)
+            leave = x[g] * float(step_probability(r, time_step, form))
+            share = talk[g + 1 : newest] / newer if newer > 0 else np.eye(newest - g - 1)[0]
+            move[g + 1, g + 1 : newest] = leave * share
+        x = x + move.sum(axis=0) - move[1:].sum(axis=1)
+        if step % spp == 0:
+            out[period] = x
+    return out
+
+
+def mapped_generations(scenario) -> dict[str, np.ndarray]:  # noqa: ANN001 - a Scenario
+    """Launch periods, p, q, satisfied shares and values of a scenario's generations (the first from
+    ``[adoption]``), as :func:`generations_difference` and :func:`norton_bass` take them."""
+    generations = scenario.product.generations(scenario.adoption)
+    return {
+        name: np.array([getattr(g, attr) for g in generations], dtype=float)
+        for name, attr in (
+            ("launch", "launch"),
+            ("p", "external"),
+            ("q", "word_of_mouth"),
+            ("satisfied", "satisfied_share"),
+            ("value", "value_per_period"),
+        )
+    }

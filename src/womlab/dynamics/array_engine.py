@@ -49,6 +49,7 @@ import numpy as np
 
 from womlab import rules
 from womlab.dynamics.markets import market_inputs
+from womlab.dynamics.products import run_products
 from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
 from womlab.dynamics.run_result import RunResult
 from womlab.networks import ReferralNetwork
@@ -341,6 +342,8 @@ def run_array(
     >>> len(r.curve()), int(r.customers[0])
     (21, 5)
     """
+    if scenario.product.active:  # successive product generations: a run of their own (dynamics.products)
+        return run_products(scenario, network, initial, rng)
     adoption, run = scenario.adoption, scenario.run
     n, rule = network.n, adoption.rule
     spp = run.steps_per_period

@@ -146,6 +146,42 @@ class RunResult:
         """Customers as a share of the organisations in the market at each period."""
         return self.customers / np.maximum(self.market_size, 1)
 
+    def product_curves(self) -> pd.DataFrame:
+        """Per period and product generation (``[[product]]`` runs): customers on it, new customers
+        (organisations whose first product it is), upgrades (arrivals from an earlier generation)
+        and value (customers × its value per period); then the portfolio as product ``all``.
+
+        Raises
+        ------
+        ValueError
+            On a run without product generations.
+        """
+        start = self.extra.get("product_start")
+        if start is None:
+            raise ValueError("product curves need a run with product generations ([[product]]); this run has none")
+        names, values = self.extra["product_names"], self.extra["product_values"]
+        rows, G = self.periods + 1, start.shape[1]
+        first = np.where(start >= 0, start, rows).min(axis=1)
+        arrivals = np.zeros((rows, G), dtype=np.int64)
+        new = np.zeros((rows, G), dtype=np.int64)
+        leaving = np.zeros((rows, G), dtype=np.int64)
+        for g in range(G):
+            on = start[:, g] >= 0
+            np.add.at(arrivals[:, g], start[on, g], 1)
+            np.add.at(new[:, g], start[on & (start[:, g] == first), g], 1)
+            later = np.where(start[:, g + 1:] >= 0, start[:, g + 1:], rows).min(axis=1) if g + 1 < G else None
+            if later is not None:
+                gone = on & (later < rows)
+                np.add.at(leaving[:, g], later[gone], 1)
+        customers = np.cumsum(arrivals - leaving, axis=0)
+        frames = [pd.DataFrame({"period": np.arange(rows), "product": names[g], "customers": customers[:, g],
+                                "new_customers": new[:, g], "upgrades": arrivals[:, g] - new[:, g],
+                                "value": customers[:, g] * float(values[g])}) for g in range(G)]
+        frames.append(pd.DataFrame({"period": np.arange(rows), "product": "all", "customers": customers.sum(axis=1),
+                                    "new_customers": new.sum(axis=1), "upgrades": (arrivals - new).sum(axis=1),
+                                    "value": customers @ values.astype(float)}))
+        return pd.concat(frames, ignore_index=True)
+
     def groups(self, by: str) -> tuple[np.ndarray, tuple[str, ...]]:
         """Each organisation's group code and the groups' names: ``by = "segment"`` or ``"region"``.
 

@@ -89,6 +89,7 @@ __all__ = [
     "rate",
     "wom_part",
     "external_part",
+    "upgrade_rate",
     "probability",
     "hazard",
     "talk_weight",
@@ -169,6 +170,28 @@ def rate(rule: int, talking: float, total: float, threshold: float, p: float, q:
     if rule == CAPPED and r > cap:
         return cap
     return r
+
+
+@compiled
+def upgrade_rate(p: float, q: float, newer: float, current: float) -> float:
+    """Rate per period at which a customer of a product generation moves to a later one.
+
+    ``newer``: the talkers of its satisfied customer neighbours on a later generation; ``current``:
+    those on its own generation or later. The rate is p + q·newer/current (p where no neighbour on
+    its generation or later talks): on the complete network newer/current is the share of the
+    generation's customers who have moved on, the F of Norton & Bass's upgrade hazard p + q·F.
+
+    References
+    ----------
+    Norton, J. A. & Bass, F. M. (1987). A diffusion theory model of adoption and substitution for
+    successive generations of high-technology products. Management Science 33(9), 1069–1086.
+
+    Examples
+    --------
+    >>> upgrade_rate(0.02, 0.5, 1.0, 4.0)
+    0.145
+    """
+    return p + q * newer / current if current > 0 else p
 
 
 @compiled

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 from womlab.scenario.fit_spec import PRIOR_DISTRIBUTIONS, FitSpec, Prior
 from womlab.scenario.labels import field_label
-from womlab.scenario.markets import Campaign, Campaigns, Segment, Segments
+from womlab.scenario.markets import Campaign, Campaigns, Product, Products, Segment, Segments
 from womlab.scenario.resources import Estimate, check_resources, estimate_resources
 from womlab.scenario.sections import (
     CLOCKS,
@@ -70,6 +70,8 @@ __all__ = [
     "Segments",
     "Campaign",
     "Campaigns",
+    "Product",
+    "Products",
     "Scenario",
     "SECTIONS",
     "field_type",

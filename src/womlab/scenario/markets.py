@@ -33,7 +33,18 @@ from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, fail, hints, in_unit, non_negative, unknown_field
 from womlab.scenario.sections import no_effect
 
-__all__ = ["Segment", "Segments", "Campaign", "Campaigns", "Opening", "openings", "check_openings", "SHARE_TOLERANCE"]
+__all__ = [
+    "Segment",
+    "Segments",
+    "Campaign",
+    "Campaigns",
+    "Opening",
+    "openings",
+    "check_openings",
+    "Product",
+    "Products",
+    "SHARE_TOLERANCE",
+]
 
 #: How far the segment shares may sum from 1 (rounding in a hand-written file).
 SHARE_TOLERANCE = 1e-6
@@ -416,3 +427,144 @@ no_effect(
     lambda s: _every_segment_sets(s, "talkers"),
     lambda s: "every segment of [segments] sets its own talkers (the distribution still applies)",
 )
+
+
+@dataclass(frozen=True, kw_only=True)
+class Product:
+    """One later product generation (``[[product]]``); the first generation is the ``[adoption]`` one.
+
+    Parameters
+    ----------
+    launch : int
+        The period it is launched in (1..run.periods), after the generation before it.
+    external, word_of_mouth : float
+        Its p (the upgrade hazard's external part) and q (driven by the share of an organisation's
+        talking customer neighbours already on it or later). Default: the ``[adoption]`` values.
+    satisfied_share : float, optional
+        Probability that one of its customers is satisfied (default ``adoption.satisfied_share``).
+    value_per_period : float
+        Value of one of its customers per period (default 1; the first generation's is 1).
+    name : str, optional
+        Default ``generation 2``, ``generation 3``, ...
+    """
+
+    launch: int
+    external: float | None = None
+    word_of_mouth: float | None = None
+    satisfied_share: float | None = None
+    value_per_period: float = 1.0
+    name: str | None = None
+
+
+@dataclass(frozen=True, kw_only=True)
+class Products:
+    """The ``[[product]]`` entries: the second, third, ... generations, in launch order."""
+
+    section: ClassVar[str] = "product"
+    entries: tuple[Product, ...] = ()
+
+    @classmethod
+    def from_table(cls, value: Any, dotted: str = "product") -> Products:
+        if isinstance(value, Products):
+            return value
+        if isinstance(value, Mapping):
+            value = [value]
+        if not isinstance(value, (list, tuple)):
+            raise ScenarioError(
+                f"[[{dotted}]] must be a list of tables (launch, external, word_of_mouth, ...), got {value!r}"
+            )
+        types_of = hints(Product)
+        known = [f.name for f in fields(Product)]
+        entries = []
+        for i, entry in enumerate(value):
+            where = f"{dotted}[{i}]"
+            if not isinstance(entry, Mapping):
+                raise ScenarioError(f"{where} must be a table (launch, external, word_of_mouth, ...), got {entry!r}")
+            kwargs: dict[str, Any] = {}
+            for key, item in entry.items():
+                if key not in known:
+                    unknown_field(f"{where}.{key}", known)
+                kwargs[key] = coerce(item, types_of[key], f"{where}.{key}")
+            if "launch" not in kwargs:
+                raise ScenarioError(f"{where}.launch is required (the period it is launched in, 1..run.periods)")
+            entries.append(Product(**kwargs))
+        return cls(entries=tuple(entries))
+
+    def to_table(self) -> list[dict[str, Any]]:
+        return [
+            {f.name: getattr(p, f.name) for f in fields(Product) if getattr(p, f.name) is not None}
+            for p in self.entries
+        ]
+
+    @property
+    def active(self) -> bool:
+        return bool(self.entries)
+
+    def generations(self, adoption: Any) -> list[Product]:
+        """Every generation, the first from ``[adoption]`` (launched at 0), defaults filled in."""
+        first = Product(
+            launch=0,
+            external=adoption.external,
+            word_of_mouth=adoption.word_of_mouth,
+            satisfied_share=adoption.satisfied_share,
+            value_per_period=1.0,
+            name="generation 1",
+        )
+        out = [first]
+        for i, p in enumerate(self.entries):
+            out.append(
+                Product(
+                    launch=p.launch,
+                    external=adoption.external if p.external is None else p.external,
+                    word_of_mouth=adoption.word_of_mouth if p.word_of_mouth is None else p.word_of_mouth,
+                    satisfied_share=adoption.satisfied_share if p.satisfied_share is None else p.satisfied_share,
+                    value_per_period=p.value_per_period,
+                    name=p.name or f"generation {i + 2}",
+                )
+            )
+        return out
+
+    def check(self, scenario: Any) -> None:
+        if not self.entries:
+            return
+        _discrete_only(scenario, "[[product]] (successive product generations)")
+        T = scenario.run.periods
+        previous = 0
+        for i, p in enumerate(self.entries):
+            where = f"product[{i}]"
+            if not previous < p.launch <= T:
+                fail(
+                    f"{where}.launch",
+                    p.launch,
+                    f"a period after the previous generation's launch ({previous}) and at most run.periods = {T}",
+                )
+            previous = p.launch
+            for name in ("external", "word_of_mouth", "value_per_period"):
+                if getattr(p, name) is not None:
+                    non_negative(f"{where}.{name}", getattr(p, name))
+            if p.satisfied_share is not None:
+                in_unit(f"{where}.satisfied_share", p.satisfied_share)
+        names = [g.name for g in self.generations(scenario.adoption)]
+        if len(set(names)) != len(names):
+            fail("product names", names, "different names for different generations")
+        # what the product run does not combine with yet: one line each, naming the field
+        if scenario.adoption.rule != "share":
+            fail(
+                "adoption.rule",
+                scenario.adoption.rule,
+                "share with [[product]] (generations are run under the share rule only)",
+            )
+        if scenario.run.engine != "array":
+            fail(
+                "run.engine",
+                scenario.run.engine,
+                "array with [[product]] (the Mesa model does not run product generations)",
+            )
+        for active, what in (
+            (scenario.segments.active, "[segments]"),
+            (scenario.campaign.active, "[[campaign]]"),
+            (bool(openings(scenario.market)), "market.opens"),
+            (scenario.referral.active, "a referral programme ([referral])"),
+        ):
+            if active:
+                raise ScenarioError(f"[[product]] cannot be combined with {what} yet; run them apart")

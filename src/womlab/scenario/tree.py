@@ -90,7 +90,7 @@ from typing import Any
 from womlab.errors import ScenarioError, ScenarioWarning
 from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field, utf8_text
 from womlab.scenario.fit_spec import FitSpec, Prior, parse_priors
-from womlab.scenario.markets import Campaigns, Segments, check_openings
+from womlab.scenario.markets import Campaigns, Products, Segments, check_openings
 from womlab.scenario.registry import network_file_facts, network_file_kinds
 from womlab.scenario.sections import (
     Adoption,
@@ -122,6 +122,7 @@ SECTIONS: dict[str, type] = {
     "fit": FitSpec,
     "segments": Segments,
     "campaign": Campaigns,
+    "product": Products,
 }
 _NESTED: dict[tuple[str, str], type] = {
     ("adoption", "talkers_per_customer"): Talkers,
@@ -156,6 +157,7 @@ class Scenario:
     fit: FitSpec = field(default_factory=FitSpec)
     segments: Segments = field(default_factory=Segments)
     campaign: Campaigns = field(default_factory=Campaigns)
+    product: Products = field(default_factory=Products)
 
     def __post_init__(self) -> None:
         if not isinstance(self.seed, int) or self.seed < 0:
