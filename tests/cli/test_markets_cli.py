@@ -31,3 +31,15 @@ def test_run_by_segment_without_segments_is_one_line(tmp_path, monkeypatch, caps
     assert main(["run", "s.toml", "--by", "segment", "--out", "out", "--quiet"]) == 2
     err = [line for line in capsys.readouterr().err.splitlines() if line]
     assert len(err) == 1 and err[0].startswith("womlab: error: --by segment: by = \"segment\" needs segments")
+
+
+def test_run_with_product_generations_writes_per_product_tables(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "s.toml").write_text(BASE.replace("regions = 2\nopens = [{region = 1, period = 4}]\n", "")
+                                     + "[[product]]\nlaunch = 4\nword_of_mouth = 0.5\nvalue_per_period = 2\n")
+    assert main(["run", "s.toml", "--out", "out", "--quiet"]) == 0
+    products = pd.read_csv(tmp_path / "out" / "products.csv")
+    assert set(products["product"]) == {"generation 1", "generation 2", "all"} and len(products) == 3 * 9 * 3
+    summary = pd.read_csv(tmp_path / "out" / "products_summary.csv")
+    assert list(summary.columns) == ["period", "product", "mean", "q05", "q95", "aggregate", "norton_bass", "value"]
+    assert (tmp_path / "out" / "products.png").is_file()

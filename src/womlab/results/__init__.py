@@ -27,7 +27,7 @@ from womlab.results.figures import (
     strategy_colour,
 )
 from womlab.results.fit import fit_figure, overlay_observed
-from womlab.results.groups import group_figure
+from womlab.results.groups import group_figure, product_figure
 from womlab.results.report import sensitivity_table, sweep_figures, sweep_summary, write_report
 from womlab.results.save import (
     check_output_folder,
@@ -74,4 +74,5 @@ __all__ = [
     "save_fit",
     "overlay_observed",
     "group_figure",
+    "product_figure",
 ]

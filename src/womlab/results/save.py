@@ -29,7 +29,7 @@ from womlab.results.figures import (
     seeding_figure,
 )
 from womlab.results.fit import fit_figure
-from womlab.results.groups import group_figure
+from womlab.results.groups import group_figure, product_figure
 from womlab.scenario import Scenario
 from womlab.store import FolderWriter, check_results_folder, manifest
 from womlab.store.folders import file_sha256
@@ -160,6 +160,8 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisati
                command_line: list[str] | None = None, observed: Any = None, by: str | None = None) -> list[Path]:
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
 
+    With product generations (``[[product]]``) also ``products.csv`` (per replicate, period and
+    product), ``products_summary.csv`` and ``products.png`` (:func:`womlab.results.groups.product_figure`).
     With ``by = "segment"`` or ``"region"`` also ``curves_by_<by>.csv``, ``summary_by_<by>.csv``,
     ``metrics_by_<by>.csv`` and ``adoption_by_<by>.png`` (one line per group,
     :func:`womlab.results.groups.group_figure`).
@@ -202,6 +204,10 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisati
     """
     tables = {"curves.csv": batch.curves(), "summary.csv": batch.summary(), "metrics.csv": batch.metrics()}
     figures = {"adoption": lambda: adoption_figure(batch, size=figure_size, observed=observed)} if figure else {}
+    if batch.runs and "product_start" in batch.runs[0].extra:  # product generations
+        tables.update({"products.csv": batch.product_curves(), "products_summary.csv": batch.product_summary()})
+        if figure:
+            figures["products"] = lambda: product_figure(batch, size=figure_size)
     if by is not None:
         try:
             batch.runs[0].groups(by)

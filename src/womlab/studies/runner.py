@@ -27,7 +27,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from womlab.aggregate import aggregate_curve, group_curves
+from womlab.aggregate import aggregate_curve, generations_difference, group_curves, mapped_generations, norton_bass
 from womlab.dynamics import CURVE_COLUMNS, RunResult, engine_for, streams
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
@@ -325,6 +325,43 @@ class Batch:
             given = None if self.network is None else as_network(self.network)
             self._aggregate = aggregate_curve(mapped_with(self.scenario, given))
         return self._aggregate
+
+    def product_curves(self) -> pd.DataFrame:
+        """Product generations (``[[product]]``): one row per replicate, period and product
+        (:meth:`womlab.dynamics.RunResult.product_curves`, with ``all`` for the portfolio)."""
+        frames = [run.product_curves() for run in self.runs]
+        for i, frame in enumerate(frames):
+            frame.insert(0, "replicate", i)
+        return pd.concat(frames, ignore_index=True)
+
+    def product_summary(self) -> pd.DataFrame:
+        """Per period and product: mean, 5 % and 95 % of its customers' share of the market and the
+        mean value, beside the mean-field recursion on the same step (``aggregate``) and the
+        Norton & Bass (1987) closed form (``norton_bass``: the whole market in the first
+        generation's potential, its word of mouth q₁·s₁, a generation launched in period k on sale
+        from time k − 1); the portfolio as product ``all``."""
+        s, n = self.scenario, self.scenario.market.organisations
+        table = self.product_curves()
+        table["share"] = table["customers"] / n
+        grouped = table.groupby(["product", "period"], sort=False)
+        out = grouped.agg(mean=("share", "mean"), value=("value", "mean")).reset_index()
+        out["q05"] = grouped["share"].quantile(0.05).to_numpy()
+        out["q95"] = grouped["share"].quantile(0.95).to_numpy()
+        m = mapped_generations(s)
+        run = s.run
+        x = generations_difference(run.periods, m["launch"], m["p"], m["q"], m["satisfied"], s.n_initial / n,
+                                   time_step=run.time_step, form=run.step_probability)
+        q = m["q"].copy()
+        q[0] *= m["satisfied"][0]
+        market = np.zeros(q.size)
+        market[0] = 1.0
+        closed = norton_bass(np.arange(run.periods + 1.0), np.maximum(m["launch"] - 1, 0), m["p"], q, market)
+        names = list(s.product.generations(s.adoption))
+        columns = {g.name: k for k, g in enumerate(names)}
+        out["aggregate"] = [x[t, columns[p]] if p in columns else x[t].sum() for p, t in zip(out["product"], out["period"])]
+        out["norton_bass"] = [closed[t, columns[p]] if p in columns else closed[t].sum()
+                              for p, t in zip(out["product"], out["period"])]
+        return out[["period", "product", "mean", "q05", "q95", "aggregate", "norton_bass", "value"]]
 
     def group_shares(self, by: str) -> tuple[np.ndarray, tuple[str, ...]]:
         """Customer share of each group per replicate and period: array (R, T + 1, K), and the groups'
