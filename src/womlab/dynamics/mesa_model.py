@@ -97,6 +97,7 @@ except ImportError:  # Mesa <= 3.4
     _MesaScenario = None
 
 from womlab import rules  # noqa: E402
+from womlab.dynamics.markets import market_inputs  # noqa: E402
 from womlab.dynamics.programme import start_programme  # noqa: E402
 from womlab.dynamics.run_result import RunResult  # noqa: E402
 from womlab.dynamics.streams import streams  # noqa: E402
@@ -117,11 +118,13 @@ def _flat_parameters() -> tuple[dict[str, str], dict[str, list[str]]]:
     fields = [
         (section, f.name)
         for section, cls in SECTIONS.items()
-        if section not in _NOT_FLAT_SECTIONS
+        if section not in _NOT_FLAT_SECTIONS and not hasattr(cls, "from_table")
         for f in dataclasses.fields(cls)
         if (section, f.name) not in _NOT_FLAT
     ]
     flat = {"name": "name", "seed": "seed"}
+    # a section with a file form of its own (segments, campaigns) is one parameter, in that form
+    flat.update({section: section for section, cls in SECTIONS.items() if hasattr(cls, "from_table")})
     flat.update({f"{section}_{name}": f"{section}.{name}" for section, name in fields})
     owners: dict[str, list[str]] = {}
     for section, name in fields:
@@ -158,7 +161,10 @@ def flat_parameters(scenario: Scenario) -> dict[str, Any]:
     """
     out: dict[str, Any] = {}
     for key, value in scenario.to_dict().items():
-        if isinstance(value, dict) and key in SECTIONS:
+        if key in SECTIONS and hasattr(SECTIONS[key], "from_table"):
+            if value:
+                out[key] = value
+        elif isinstance(value, dict) and key in SECTIONS:
             out.update({f"{key}_{k}": v for k, v in value.items() if f"{key}_{k}" in FLAT_PARAMETERS})
         elif key in FLAT_PARAMETERS:
             out[key] = value
@@ -250,8 +256,14 @@ class Organisation(FixedAgent):
         self.cell = cell
         self.organisation = organisation
         spec = model.womlab_scenario.adoption.talkers_per_customer
-        self.talkers = float(rules.draw_talkers(spec, 1, model.rng)[0])
+        market = model.market  # segments and calendar (dynamics.markets); None fields without them
+        own = None if market.talkers is None else market.talkers[organisation: organisation + 1]
+        self.talkers = float(rules.draw_talkers(spec, 1, model.rng, own)[0])
         adoption = model.womlab_scenario.adoption
+        self.satisfied_share = (adoption.satisfied_share if market.satisfied_share is None
+                                else float(market.satisfied_share[organisation]))
+        self.word_of_mouth_weight = (1.0 if market.word_of_mouth_weight is None
+                                     else float(market.word_of_mouth_weight[organisation]))
         self.threshold = (
             float(rules.draw_thresholds(adoption.threshold, 1, model.rng)[0]) if adoption.rule == "threshold" else None
         )
@@ -281,6 +293,9 @@ class Organisation(FixedAgent):
     def decide(self) -> None:
         """Compute phase: from the neighbours' state at the start of the step, draw whether to adopt."""
         model = self.model
+        opens_at = model.market.opens_at
+        if opens_at is not None and opens_at[self.organisation] > model.period:
+            return  # its part of the market has not opened: it feels nothing
         if model.complete:
             talking = model.talk_total  # a potential customer's own talk is 0
             total = model.talkers_total - self.talkers
@@ -289,7 +304,7 @@ class Organisation(FixedAgent):
             for other in self.neighbours:
                 talking += other.counted
             total = self.neighbour_talkers
-        probability, external = model.chances(talking, total, self.threshold)
+        probability, external = model.chances(talking, total, self.threshold, organisation=self.organisation)
         rng = model.rng
         self.adopting = bool(rng.random() < probability)
         if not self.adopting:
@@ -319,7 +334,7 @@ class Organisation(FixedAgent):
         self.adoption_period = period
         self.adoption_step = model.step_count
         self.referrer = self._cause
-        self.satisfied = bool(rules.draw_satisfied(model.womlab_scenario.adoption.satisfied_share, 1, model.rng)[0])
+        self.satisfied = bool(rules.draw_satisfied(self.satisfied_share, 1, model.rng)[0])
         self.fresh_until = model.step_count + model.steps_per_period  # newly satisfied for one period
         self.talk = self.counted = model.talk_weight(self)
 
@@ -479,6 +494,10 @@ class ReferralModel(mesa.Model):
         super().__init__(rng=rng)  # model.rng is the dynamics stream itself
         # None without a programme; enrolment has its own stream, model.rng is not advanced
         self.programme = start_programme(scenario, network, self.rng)
+        # segments and the campaign calendar: their own stream too (dynamics.markets)
+        self.market = market_inputs(scenario, network, self.rng)
+        if self.market.opens_at is not None:  # markets that grow: a seed in a part not yet open is left out
+            initial = initial[self.market.opens_at[initial] == 0]
 
         self.womlab_scenario = scenario  # not `scenario`: Mesa 3.5's Model.scenario is its own
         self.network = network
@@ -532,17 +551,23 @@ class ReferralModel(mesa.Model):
         """The agent of organisation ``organisation`` (0..N−1)."""
         return self._by_id[organisation]
 
-    def chances(self, talking: float, total: float, threshold: float | None = None) -> tuple[float, float]:
+    def chances(self, talking: float, total: float, threshold: float | None = None, *,
+                organisation: int | None = None) -> tuple[float, float]:
         """Step probability and external share for a potential customer with T = ``talking``, D = ``total``.
 
-        Straight from :mod:`womlab.rules`; remembered per (T, D) — the formulas are pure
-        functions and most organisations share a few values — except under
-        ``threshold``, where each organisation's own θᵢ enters.
+        Straight from :mod:`womlab.rules`; remembered per (T, D, p, q) — the formulas are
+        pure functions and most organisations share a few values — except under
+        ``threshold``, where each organisation's own θᵢ enters. With segments or a campaign
+        calendar, ``organisation`` gives its own p (this period's) and q.
         """
-        key = (talking, total)
+        rule, p, q, cap = self._rule
+        if organisation is not None and (self.market.external is not None or self.market.external_weight is not None):
+            p = self.market.external_rate(self.period, organisation, p)
+        if organisation is not None and self.market.word_of_mouth_weight is not None:
+            q = q * float(self.market.word_of_mouth_weight[organisation])
+        key = (talking, total, p, q)
         found = self._chances.get(key) if threshold is None else None
         if found is None:
-            rule, p, q, cap = self._rule
             theta = 0.0 if threshold is None else float(threshold)
             t, d = float(talking), float(total)
             rate = rules.rate(rule, t, d, theta, p, q, cap)
@@ -632,6 +657,10 @@ class ReferralModel(mesa.Model):
             adoption_time=np.where(step >= 0, step / run.steps_per_period, np.nan),
             report_every=run.report_every,
             extra={} if self.programme is None else self.programme.record(),
+            segment=self.market.segment,
+            segment_names=self.market.segment_names,
+            value=self.market.value,
+            opens_at=self.market.opens_at,
         )
 
 
