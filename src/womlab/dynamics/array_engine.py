@@ -51,6 +51,7 @@ from womlab import rules
 from womlab.dynamics.markets import market_inputs
 from womlab.dynamics.products import run_products
 from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
+from womlab.dynamics.references import with_references
 from womlab.dynamics.run_result import RunResult
 from womlab.networks import ReferralNetwork
 from womlab.rules import compiled, external_part, hazard, rate, talk_weight
@@ -349,6 +350,7 @@ def run_array(
     spp = run.steps_per_period
     # segments and the campaign calendar (all None without them; drawn from a stream of their own)
     market = market_inputs(scenario, network, rng)
+    market = with_references(scenario, network, initial, rng, market)  # [[reference]]: in the calendar
     external = market.external if external is None else external
     group = market.group if group is None else group
     external_weight = market.external_weight if external_weight is None else external_weight

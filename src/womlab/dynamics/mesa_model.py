@@ -99,6 +99,7 @@ except ImportError:  # Mesa <= 3.4
 from womlab import rules  # noqa: E402
 from womlab.dynamics.markets import market_inputs  # noqa: E402
 from womlab.dynamics.programme import start_programme  # noqa: E402
+from womlab.dynamics.references import with_references  # noqa: E402
 from womlab.dynamics.run_result import RunResult  # noqa: E402
 from womlab.dynamics.streams import streams  # noqa: E402
 from womlab.errors import ScenarioError  # noqa: E402
@@ -496,6 +497,8 @@ class ReferralModel(mesa.Model):
         self.programme = start_programme(scenario, network, self.rng)
         # segments and the campaign calendar: their own stream too (dynamics.markets)
         self.market = market_inputs(scenario, network, self.rng)
+        # reference customers won in a period: written into that calendar (dynamics.references)
+        self.market = with_references(scenario, network, initial, self.rng, self.market)
         if self.market.opens_at is not None:  # markets that grow: a seed in a part not yet open is left out
             initial = initial[self.market.opens_at[initial] == 0]
 

@@ -37,6 +37,7 @@ from womlab.studies.intervals import (
     small_sample_level,
     t_interval,
 )
+from womlab.studies.levers import LEVERS, Lever, LeverStudy, lever_arm, lever_timing, register_lever
 from womlab.studies.metrics import (
     GAP_NAMES,
     METRIC_NAMES,
@@ -94,6 +95,12 @@ __all__ = [
     "continue_paired",
     "levers_off_after",
     "truncate",
+    "LEVERS",
+    "Lever",
+    "LeverStudy",
+    "lever_arm",
+    "lever_timing",
+    "register_lever",
     "Comparison",
     "compare",
     "aggregate_curves",
