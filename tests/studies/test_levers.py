@@ -201,3 +201,11 @@ def test_bad_sections_are_refused_at_load():
         _scenario(reference=[{"period": 17, "count": 2}])
     with pytest.raises(ScenarioError, match=r"levers.next_product"):
         _scenario(levers={"next_product": {}})
+
+
+def test_a_lever_campaign_that_overlaps_the_scenarios_own_is_one_line_naming_the_lever():
+    s = _scenario(campaign=[{"from": 5, "to": 8, "multiplier": 2.0}], levers={"campaign": {"multiplier": 3.0}})
+    with pytest.raises(ScenarioError) as err:
+        lever_timing(s, pulled_at=[4], replicates=1)
+    text = str(err.value)
+    assert text.startswith("levers.campaign pulled at the end of period 4: campaign[1]") and "\n" not in text

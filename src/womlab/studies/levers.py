@@ -362,7 +362,12 @@ def lever_arm(scenario: Scenario, lever: str, period: int, settings: Mapping[str
         fail("levers.pulled_at", period, f"a period between 0 and run.periods - 1 = {T - 1}")
     base = _baseline(scenario)
     changes = spec.changes(scenario, int(period), resolved)
-    return base.replace(changes) if changes else base
+    if not changes:
+        return base
+    try:
+        return base.replace(changes)
+    except ScenarioError as err:  # e.g. the lever's campaign overlaps one of the scenario's own
+        raise ScenarioError(f"{dotted} pulled at the end of period {period}: {err}") from None
 
 
 def _lever(name: str) -> Lever:
@@ -636,9 +641,7 @@ def lever_timing(
     if not isinstance(scenario, Scenario):  # a fit: parameters drawn from its posterior per replicate
         draws, scenario = scenario.posterior_draws(), scenario.scenario()
     spec = scenario.levers
-    names = tuple(spec.names if levers is None else levers)
-    if isinstance(levers, str):
-        names = (levers,)
+    names = tuple(dict.fromkeys((levers,) if isinstance(levers, str) else (spec.names if levers is None else levers)))
     if not names:
         raise ScenarioError(
             f"levers must name at least one lever (a table in [levers] or levers=[...]); allowed: {', '.join(LEVERS)}"
