@@ -199,8 +199,12 @@ def test_bad_sections_are_refused_at_load():
         _scenario(levers={"campaign": {"multiplier": 2.0, "colour": "red"}})
     with pytest.raises(ScenarioError, match=r"reference\[0\].period must be a period between 1 and run.periods = 16"):
         _scenario(reference=[{"period": 17, "count": 2}])
-    with pytest.raises(ScenarioError, match=r"levers.next_product"):
+    with pytest.raises(ScenarioError, match=r"levers.next_product: not available yet"):
         _scenario(levers={"next_product": {}})
+    with pytest.raises(
+        ScenarioError, match=r'market.opens\[0\].period must be a period between 1 and run.periods, or "never"'
+    ):
+        _scenario(market={"regions": 2, "opens": [{"region": 1, "period": "nevr"}]})
 
 
 def test_a_lever_campaign_that_overlaps_the_scenarios_own_is_one_line_naming_the_lever():

@@ -32,7 +32,13 @@ from womlab.errors import ScenarioError
 from womlab.scenario.checks import coerce, fail, unknown_field
 from womlab.scenario.registry import lever_check, lever_names, strategy_names
 
-__all__ = ["LeverSettings", "Levers", "Reference", "References"]
+__all__ = ["LeverSettings", "Levers", "Reference", "References", "NOT_YET"]
+
+#: Levers the practice names that womlab does not pull yet, and why (said when one is asked for).
+NOT_YET = {
+    "next_product": "not available yet (product generations value each generation apart and cannot be combined "
+    "with a programme, campaigns or openings; run womlab run with [[product]] launches instead)",
+}
 
 
 @dataclass(frozen=True)
@@ -88,6 +94,8 @@ class Levers:
                 if not isinstance(item, Mapping):
                     fail(f"{dotted}.{key}", item, "a table of the lever's settings")
                 levers.append(LeverSettings(str(key), tuple((str(k), v) for k, v in item.items())))
+            elif key in NOT_YET:
+                raise ScenarioError(f"{dotted}.{key}: {NOT_YET[key]}; allowed: {', '.join(lever_names())}")
             else:
                 unknown_field(f"{dotted}.{key}", ["pulled_at", "lifetime", *lever_names()])
         return cls(levers=tuple(levers), **kwargs)

@@ -379,6 +379,8 @@ def openings(market: Any) -> tuple[Opening, ...]:
             fail(f"{where}.region", region, "a region code or a region value as given")
         segment = entry.get("segment")
         never = isinstance(entry["period"], str) and entry["period"] == NEVER
+        if isinstance(entry["period"], str) and not never:
+            fail(f"{where}.period", entry["period"], f'a period between 1 and run.periods, or "{NEVER}"')
         out.append(
             Opening(
                 period=None if never else coerce(entry["period"], int, f"{where}.period"),

@@ -58,6 +58,7 @@ from womlab.errors import ScenarioError
 from womlab.networks.given import GivenNetwork, as_network
 from womlab.scenario import Scenario
 from womlab.scenario.checks import coerce, fail, non_negative, unknown_field
+from womlab.scenario.levers import NOT_YET
 from womlab.scenario.markets import openings
 from womlab.scenario.registry import register_lever_name, strategy_names
 from womlab.studies.continuation import continue_paired
@@ -322,12 +323,6 @@ register_lever(
     check=_open_check,
 )
 
-#: Named in the issue but not built here: why, for the one-line error.
-_NOT_BUILT = {
-    "next_product": "not available yet (product generations value each generation apart and cannot be combined "
-    "with a programme, campaigns or openings; run womlab run with [[product]] launches instead)",
-}
-
 
 # ----------------------------------------------------------------------------- the study
 def _baseline(scenario: Scenario) -> Scenario:
@@ -373,7 +368,7 @@ def lever_arm(scenario: Scenario, lever: str, period: int, settings: Mapping[str
 def _lever(name: str) -> Lever:
     if name in LEVERS:
         return LEVERS[name]
-    why = f" ({name}: {_NOT_BUILT[name]})" if name in _NOT_BUILT else ""
+    why = f" ({name}: {NOT_YET[name]})" if name in NOT_YET else ""
     fail("levers", name, f"one of {', '.join(LEVERS)}{why}")
 
 
@@ -626,6 +621,11 @@ def lever_timing(
     ScenarioError
         An unknown lever, a period outside 0..T − 1, a lever whose section the scenario lacks
         (``open_region`` with nothing in ``market.opens``, ``referral`` without a programme).
+
+    References
+    ----------
+    Libai, B., Muller, E. & Peres, R. (2013). Decomposing the value of word-of-mouth seeding
+    programs: acceleration versus expansion. *Journal of Marketing Research* 50(2), 161–176.
 
     Examples
     --------
