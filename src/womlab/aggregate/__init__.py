@@ -4,15 +4,17 @@ Knows the rules and the scenario (below); nothing of networks, seeding, engines 
 ``models`` holds the Bass model (closed form, ODE, difference form), the capped Bass
 difference model (formerly "stock-and-flow") and the micro-to-macro mapping; ``mean_field`` the degree-based
 mean-field model (fed a degree sequence, never a network object it must import);
-``fitting`` the least-squares fits of these curves to network runs or sales data.
+``fitting`` the least-squares fits of these curves to network runs or sales data; ``exact``
+the exact expected adoption on the two-organisation network, the ring and k-regular trees
+(continuous and in the array engine's own step).
 """
 
 from __future__ import annotations
 
+from womlab.aggregate.exact import regular_tree_share, ring_share, two_organisation_share
 from womlab.aggregate.fitting import (
     BassFit,
     StockFlowFit,
-    bass_fit_table,
     fit_bass,
     fit_bass_sales,
     fit_capped_bass_difference,
@@ -58,6 +60,9 @@ __all__ = [
     "stock_and_flow",
     "aggregate_curve",
     "bass_peak_time",
+    "two_organisation_share",
+    "ring_share",
+    "regular_tree_share",
     "degree_classes",
     "degree_mean_field",
     "degree_mean_field_curve",
@@ -66,7 +71,6 @@ __all__ = [
     "fit_bass",
     "fit_bass_sales",
     "fit_replicates",
-    "bass_fit_table",
     "fit_capped_bass_difference",
     "fit_stock_and_flow",
     "SegmentParameters",
