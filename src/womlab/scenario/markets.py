@@ -554,12 +554,6 @@ class Products:
                 scenario.adoption.rule,
                 "share with [[product]] (generations are run under the share rule only)",
             )
-        if scenario.run.engine != "array":
-            fail(
-                "run.engine",
-                scenario.run.engine,
-                "array with [[product]] (the Mesa model does not run product generations)",
-            )
         for active, what in (
             (scenario.segments.active, "[segments]"),
             (scenario.campaign.active, "[[campaign]]"),
