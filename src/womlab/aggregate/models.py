@@ -60,6 +60,7 @@ AGGREGATE_LABELS = {
     "capped_bass_difference": "Bass difference model with a rate ceiling, mapped",
     "degree_mean_field": "degree mean-field model",
     "bass_fitted": "Bass fitted to the network",
+    "segment_model": "segment model (segments, calendar, openings), mapped",
 }
 
 
