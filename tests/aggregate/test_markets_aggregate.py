@@ -158,8 +158,9 @@ def test_one_market_calendar_runs_follow_the_closed_form_on_a_fine_step():
 
 def test_before_a_region_opens_the_open_part_follows_bass_with_a_scaled_q():
     # Derived: under `share` with one segment, a closed region's organisations are neighbours that
-    # never talk, so before it opens the open part (share theta of the market) sees T/D = s theta F_open:
-    # Bass with Q' = q s theta (Bass 1969's difference form on the same step), and the closed part stays 0.
+    # never talk, so before it opens the open part (share theta of the market) sees T/D = s theta F_open
+    # (times N/(N-1), as in mapped_parameters): Bass with Q' = q s theta N/(N-1) (Bass 1969's difference
+    # form on the same step), and the closed part stays 0.
     s = Scenario.from_dict({"market": {"organisations": 10_000, "initial_customers": 0, "regions": 4,
                                        "opens": [{"region": 3, "period": 12}]},
                             "network": {"kind": "random", "mean_degree": 8},
@@ -168,7 +169,7 @@ def test_before_a_region_opens_the_open_part_follows_bass_with_a_scaled_q():
     par = mapped_segments(s)
     F = segment_difference(par.p, par.Q, par.initial, form="linear", opens=par.opens)
     assert par.opens.tolist() == [0, 0, 0, 12]
-    bass = bass_difference(11, 0.01, 0.5 * 0.8 * 0.75, 0.0, form="linear")
+    bass = bass_difference(11, 0.01, 0.5 * 0.8 * 0.75 * 10_000 / 9_999, 0.0, form="linear")  # N/(N-1): not its own neighbour
     assert np.allclose(F[:12, 0], bass, atol=1e-12) and np.all(F[:12, 3] == 0)
     assert F[13, 3] > 0  # it opens, and catches up on the word of mouth already there
     assert F[20, 3] > bass_difference(8, 0.01, 0.4, 0.0, form="linear")[-1]

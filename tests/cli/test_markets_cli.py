@@ -43,3 +43,12 @@ def test_run_with_product_generations_writes_per_product_tables(tmp_path, monkey
     summary = pd.read_csv(tmp_path / "out" / "products_summary.csv")
     assert list(summary.columns) == ["period", "product", "mean", "q05", "q95", "aggregate", "norton_bass", "value"]
     assert (tmp_path / "out" / "products.png").is_file()
+
+
+def test_compare_with_product_generations_writes_them_beside_norton_bass(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "s.toml").write_text(BASE.replace("regions = 2\nopens = [{region = 1, period = 4}]\n", "")
+                                     + "[[product]]\nlaunch = 4\n")
+    assert main(["compare", "s.toml", "--out", "out", "--quiet"]) == 0
+    table = pd.read_csv(tmp_path / "out" / "compare_products.csv")
+    assert {"aggregate", "norton_bass"} <= set(table.columns) and (tmp_path / "out" / "products.png").is_file()

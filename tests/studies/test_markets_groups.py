@@ -58,3 +58,12 @@ def test_by_segment_without_segments_is_refused():
 def test_group_figure_draws_one_line_pair_per_group(batch):
     fig = group_figure(batch, "region")
     assert len(fig.axes[0].lines) == 2 * 3 and len(fig.axes[1].lines) == 2 * 3
+
+
+def test_compare_sets_the_runs_against_the_segment_model():
+    from womlab import compare
+
+    comparison = compare(S, replicates=3)
+    assert comparison.reference == "segment_model"
+    assert np.allclose(comparison.curves["segment_model"], segment_curves(S) @ np.array([0.2, 0.8]))
+    assert "segment_model" in comparison.curve_table().columns

@@ -175,10 +175,11 @@ def mapped_segments(scenario: Scenario) -> SegmentParameters:
     mean-field assumption its neighbours are a random draw from the market, so
 
     * ``share``: T/D ≈ Σ_j θ_j τ̄_j s_j F_j / Σ_j θ_j τ̄_j, hence
-      **Q_kj = w_k q θ_j τ̄_j s_j / Σ_i θ_i τ̄_i**; with one segment Q = q·s, as
-      :func:`womlab.aggregate.mapped_parameters`. On the complete network D excludes the
-      organisation's own talkers: Σ_i θ_i τ̄_i − τ̄_k / N in the denominator, used here.
-    * ``count``: T ≈ k̄ Σ_j θ_j τ̄_j s_j F_j, hence **Q_kj = w_k q k̄ θ_j τ̄_j s_j**.
+      **Q_kj = w_k q θ_j τ̄_j s_j / (Σ_i θ_i τ̄_i − τ̄_k / N)**: its neighbours are drawn from
+      the N − 1 others, so D leaves out its own talkers (the N/(N − 1) of
+      :func:`womlab.aggregate.mapped_parameters`, to which one segment reduces).
+    * ``count``: T ≈ k̄ Σ_j θ_j τ̄_j s_j F_j · N/(N − 1), hence
+      **Q_kj = w_k q k̄ θ_j τ̄_j s_j N/(N − 1)**.
     * other rules: Q is NaN (no Bass counterpart, as for one market).
 
     When a campaign or an opening names a region, the groups are region × segment cells (regions
@@ -209,13 +210,11 @@ def mapped_segments(scenario: Scenario) -> SegmentParameters:
     p = external_by_period(scenario) * e[None, :]
     talk = theta * tau * sat
     if a.rule == "share":
-        denominator = np.full(theta.size, float(np.sum(theta * tau)))
-        if scenario.network.kind == "complete":
-            denominator = denominator - tau / n
+        denominator = np.full(theta.size, float(np.sum(theta * tau))) - tau / n  # itself not among its neighbours
         Q = w[:, None] * a.word_of_mouth * talk[None, :] / denominator[:, None]
     elif a.rule == "count":
         k = float(n - 1) if scenario.network.kind == "complete" else float(scenario.network.mean_degree)
-        Q = w[:, None] * a.word_of_mouth * k * talk[None, :]
+        Q = w[:, None] * a.word_of_mouth * k * talk[None, :] * (n / (n - 1) if n > 1 else 1.0)
     else:
         Q = np.full((theta.size, theta.size), np.nan)
     opens = opening_by_group(scenario)

@@ -37,6 +37,7 @@ from womlab.aggregate.markets import group_curves
 from womlab.errors import WomlabError
 from womlab.rules import step_probability
 from womlab.scenario import Scenario
+from womlab.scenario.markets import openings
 
 __all__ = [
     "AggregateParameters",
@@ -59,6 +60,7 @@ AGGREGATE_LABELS = {
     "capped_bass_difference": "Bass difference model with a rate ceiling, mapped",
     "degree_mean_field": "degree mean-field model",
     "bass_fitted": "Bass fitted to the network",
+    "segment_model": "segment model (segments, calendar, openings), mapped",
 }
 
 
@@ -317,7 +319,7 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
     :mod:`womlab.aggregate.markets` (share and count; NaN for other rules).
     """
     a, run = scenario.adoption, scenario.run
-    if scenario.segments.active or scenario.campaign.active:  # segments, a calendar: the segment model
+    if scenario.segments.active or scenario.campaign.active or openings(scenario.market):  # the segment model
         if a.rule not in ("share", "count"):
             return np.full(run.periods + 1, np.nan)
         return group_curves(scenario)[0][:, 0]

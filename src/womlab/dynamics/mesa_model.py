@@ -526,8 +526,16 @@ class ReferralModel(mesa.Model):
             agent.meet_neighbours()
         self.talkers_total = float(sum(a.talkers for a in organisations))
 
+        # successive product generations (dynamics.products in the array engine): the same rules, per agent
+        self.generations = scenario.product.generations(scenario.adoption) if scenario.product.active else None
+        for agent in organisations:
+            agent.generation = 0
+            agent.product_start = [-1] * (0 if self.generations is None else len(self.generations))
         for i in initial.tolist():
             organisations[i].adopt(0)
+            if self.generations is not None:
+                organisations[i].generation = 1
+                organisations[i].product_start[0] = 0
         self.initial = np.sort(initial).astype(np.int32)
         self.potential = AgentSet([a for a in organisations if not a.customer], random=self.random)
         self.customers = int(initial.size)
@@ -614,6 +622,9 @@ class ReferralModel(mesa.Model):
             return
         self.step_count += 1
         self.period = -(-self.step_count // self.steps_per_period)
+        if self.generations is not None:  # successive product generations ([[product]])
+            self._products_step()
+            return
         if self.womlab_scenario.adoption.rule == "cascade":
             self._refresh_cascade_talk()
         if self.programme is not None:
@@ -638,6 +649,80 @@ class ReferralModel(mesa.Model):
         self.satisfied_customers += sum(1 for a in adopters if a.satisfied)
         self.datacollector.collect(self)
 
+    def _product_record(self) -> dict:
+        """The product generations' record (as :func:`womlab.dynamics.products.run_products` gives it)."""
+        if self.generations is None:
+            return {}
+        spp = self.steps_per_period
+        steps = np.array([a.product_start for a in self._by_id], dtype=np.int64)
+        return {"product_start": np.where(steps >= 0, (steps + spp - 1) // spp, -1).astype(np.int32),
+                "product_names": tuple(g.name for g in self.generations),
+                "product_values": np.array([g.value_per_period for g in self.generations])}
+
+    def _heard(self, agent: Organisation, totals: np.ndarray) -> np.ndarray:
+        """Tᵍ for every generation g (index g − 1): talkers of the agent's satisfied neighbours on it."""
+        if self.complete:
+            heard = totals.copy()
+            if agent.generation > 0 and agent.satisfied:
+                heard[agent.generation - 1] -= agent.talkers
+            return heard
+        heard = np.zeros(totals.size)
+        for other in agent.neighbours:
+            if other.generation > 0 and other.satisfied:
+                heard[other.generation - 1] += other.talkers
+        return heard
+
+    def _products_step(self) -> None:
+        """One step with product generations: entry by word of mouth about any generation, taking
+        what talking neighbours use; upgrades at :func:`womlab.rules.upgrade_rate`; all moves at once
+        (the rules of :mod:`womlab.dynamics.products`, drawn as the Mesa model draws: a fresh uniform
+        per decision)."""
+        gens, rng, agents = self.generations, self.rng, self._by_id
+        newest = sum(1 for g in gens if g.launch <= self.period)
+        share = rules.rule_code("share")
+        totals = np.zeros(len(gens))
+        if self.complete:
+            for a in agents:
+                if a.generation > 0 and a.satisfied:
+                    totals[a.generation - 1] += a.talkers
+        moves = []
+        for agent in agents:
+            g = agent.generation
+            if g == newest and g > 0:
+                continue
+            heard = self._heard(agent, totals)
+            if g == 0:
+                total = self.talkers_total - agent.talkers if self.complete else agent.neighbour_talkers
+                r = rules.rate(share, float(heard.sum()), float(total), 0.0, gens[0].external, gens[0].word_of_mouth,
+                               0.0)
+                options, fallback = heard[:newest], newest
+            else:
+                newer = float(heard[g:].sum())
+                r = rules.upgrade_rate(gens[g].external, gens[g].word_of_mouth, newer, newer + float(heard[g - 1]))
+                options, fallback = heard[g:newest], g + 1
+            if rng.random() >= rules.probability(r, self.time_step, self._form):
+                continue
+            chosen = fallback
+            if options.sum() > 0:
+                goal = rng.random() * options.sum()
+                chosen = (newest - options.size) + 1 + int(np.searchsorted(np.cumsum(options), goal, side="right"))
+                chosen = min(chosen, newest)
+            moves.append((agent, chosen))
+        self.new_customers = 0
+        for agent, chosen in moves:
+            if agent.generation == 0:
+                agent.customer = True
+                agent.adoption_period = self.period
+                agent.adoption_step = self.step_count
+                self.potential.remove(agent)
+                self.new_customers += 1
+            agent.generation = chosen
+            agent.product_start[chosen - 1] = self.step_count
+            agent.satisfied = bool(rules.draw_satisfied(gens[chosen - 1].satisfied_share, 1, rng)[0])
+        self.customers += self.new_customers
+        self.satisfied_customers = sum(1 for a in agents if a.customer and a.satisfied)
+        self.datacollector.collect(self)
+
     def result(self) -> RunResult:
         """The run so far as a :class:`~womlab.dynamics.RunResult` (the same object the array engine returns).
 
@@ -659,7 +744,7 @@ class ReferralModel(mesa.Model):
             engine="mesa",
             adoption_time=np.where(step >= 0, step / run.steps_per_period, np.nan),
             report_every=run.report_every,
-            extra={} if self.programme is None else self.programme.record(),
+            extra=self.programme.record() if self.programme is not None else self._product_record(),
             segment=self.market.segment,
             segment_names=self.market.segment_names,
             value=self.market.value,

@@ -292,8 +292,9 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
 
     Files: ``compare_curves.csv``, ``compare_metrics.csv``, ``compare_gaps.csv``,
     ``compare_fits.csv``, ``compare_replicates.csv`` (per-replicate metrics, fits and
-    gaps to the reference model), ``comparison.png``, ``manifest.json``. Options as
-    :func:`save_batch`.
+    gaps to the reference model), ``comparison.png``, ``manifest.json``; with product
+    generations also ``compare_products.csv`` (each generation beside the mean-field recursion
+    and Norton & Bass) and ``products.png``. Options as :func:`save_batch`.
 
     Raises
     ------
@@ -308,6 +309,11 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
         "compare_replicates.csv": comparison.replicate_table(),
     }
     figures = {"comparison": lambda: comparison_figure(comparison, size=figure_size, observed=observed)} if figure else {}
+    batch = comparison.batch
+    if batch.runs and "product_start" in batch.runs[0].extra:  # product generations beside Norton-Bass
+        tables["compare_products.csv"] = batch.product_summary()
+        if figure:
+            figures["products"] = lambda: product_figure(batch, size=figure_size)
     sf = comparison.stock_flow_fit
     extra = {
         "comparison": comparison.settings,

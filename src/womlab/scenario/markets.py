@@ -569,12 +569,6 @@ class Products:
                 scenario.adoption.rule,
                 "share with [[product]] (generations are run under the share rule only)",
             )
-        if scenario.run.engine != "array":
-            fail(
-                "run.engine",
-                scenario.run.engine,
-                "array with [[product]] (the Mesa model does not run product generations)",
-            )
         for active, what in (
             (scenario.segments.active, "[segments]"),
             (scenario.campaign.active, "[[campaign]]"),
@@ -583,3 +577,55 @@ class Products:
         ):
             if active:
                 raise ScenarioError(f"[[product]] cannot be combined with {what} yet; run them apart")
+
+
+def market_lines(scenario: Any) -> list[tuple[str, str]]:
+    """What ``[segments]``, ``[[campaign]]``, ``market.opens`` and ``[[product]]`` say, as (label, text)
+    rows for ``womlab check``; empty when none is given.
+
+    Examples
+    --------
+    >>> from womlab import Scenario
+    >>> s = Scenario.from_dict({"segments": {"few": {"share": 0.1, "external": 4}, "many": {"share": 0.9}},
+    ...                         "campaign": [{"from": 3, "to": 5, "multiplier": 2, "segment": "many"}]})
+    >>> for label, text in market_lines(s):
+    ...     print(f"{label}: {text}")
+    segments: few 10 % (p x4, q x1), many 90 % (p x1, q x1)
+    campaigns: periods 3-5 p x2 (segment many)
+    """
+    rows = []
+    if scenario.segments.active:
+        parts = []
+        for g in scenario.segments.groups:
+            share = "" if g.share is None else f" {100 * g.share:g} %"
+            parts.append(f"{g.name}{share} (p x{g.external:g}, q x{g.word_of_mouth:g})")
+        rows.append(("segments", ", ".join(parts)))
+    if scenario.campaign.active:
+        parts = []
+        for c in scenario.campaign.entries:
+            what = f"p = {c.external:g}" if c.external is not None else f"p x{c.multiplier:g}"
+            where = f" (region {c.region})" if c.region is not None else f" (segment {c.segment})" if c.segment else ""
+            parts.append(f"periods {c.first}-{c.last} {what}{where}")
+        rows.append(("campaigns", "; ".join(parts)))
+    entries = openings(scenario.market)
+    if entries:
+        rows.append(
+            (
+                "opens later",
+                ", ".join(
+                    f"{'region ' + str(o.region) if o.region is not None else 'segment ' + str(o.segment)} in period {o.period}"
+                    for o in entries
+                ),
+            )
+        )
+    if scenario.product.active:
+        rows.append(
+            (
+                "product generations",
+                ", ".join(
+                    f"{g.name} (period {g.launch}, p {g.external:g}, q {g.word_of_mouth:g})"
+                    for g in scenario.product.generations(scenario.adoption)
+                ),
+            )
+        )
+    return rows
