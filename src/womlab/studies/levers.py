@@ -65,7 +65,7 @@ from womlab.studies.continuation import continue_paired
 from womlab.studies.intervals import bootstrap_interval, t_interval
 from womlab.studies.metrics import discount_factors
 from womlab.studies.presenting import present
-from womlab.studies.programme import programme_economics, roi
+from womlab.studies.programme import check_programme, programme_economics, roi
 
 __all__ = ["Lever", "LEVERS", "register_lever", "lever_arm", "lever_timing", "LeverStudy"]
 
@@ -167,6 +167,7 @@ def _referral_check(s: Scenario, o: Mapping[str, Any], dotted: str) -> None:
             s.referral.enrol,
             f"one of all, share, strategy for {dotted} (the programme the lever starts; the baseline runs without it)",
         )
+    check_programme(s)  # an engine that runs programmes
     non_negative(f"{dotted}.cost", float(o["cost"]))
 
 
