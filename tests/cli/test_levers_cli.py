@@ -69,3 +69,16 @@ def test_levers_without_a_levers_section_is_one_line(tmp_path, monkeypatch, caps
     assert main(["levers", "s.toml", "--out", "out", "--quiet"]) == 2
     err = [line for line in capsys.readouterr().err.splitlines() if line]
     assert len(err) == 1 and "levers must name at least one lever" in err[0], err
+
+
+def test_check_plans_the_levers_study_and_by_roi_runs(tmp_path, monkeypatch, capsys):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "s.toml").write_text(BASE + LEVERS)
+    assert main(["check", "s.toml"]) == 0
+    out = capsys.readouterr().out
+    # the baseline and 3 levers x 3 periods, on 5 replicates
+    assert "levers    3 levers (referral, campaign, open_region) x 3 periods pulled" in out
+    assert "50 runs" in out
+    assert main(["levers", "s.toml", "--out", "out", "--quiet", "--by", "roi"]) == 0
+    best = pd.read_csv(tmp_path / "out" / "levers_best.csv")
+    assert "roi" in best.columns
