@@ -128,6 +128,31 @@ def test_reference_customers_are_won_in_their_period_on_both_discrete_engines():
         assert set(np.flatnonzero(r.adoption_period == 6)).isdisjoint(r.initial)
 
 
+def test_reference_customers_are_chosen_among_those_not_yet_customers():
+    # Late in the curve most hubs are customers already; the entry still wins exactly `count` new
+    # customers in its period, all of them organisations that were not customers before it, and the
+    # run is the run without the entry up to the period before (common random numbers). Arithmetic.
+    for engine in ("array", "mesa"):
+        s = Scenario.from_dict(
+            {
+                "market": {"organisations": 150, "initial_customers": 3},
+                "network": {"kind": "scale_free", "mean_degree": 4},
+                "adoption": {"external": 0.02, "word_of_mouth": 0.6},
+                "run": {"periods": 14, "engine": engine},
+            }
+        )
+        plain = run_one(s, (3,))
+        with_refs = run_one(s.replace("reference", [{"period": 12, "count": 6, "strategy": "hubs"}]), (3,))
+        (chosen,) = with_refs.extra["references"]
+        assert chosen.size == 6, engine
+        assert (with_refs.adoption_period[chosen] == 12).all(), engine
+        assert not ((plain.adoption_period[chosen] >= 0) & (plain.adoption_period[chosen] < 12)).any(), engine
+        early = (plain.adoption_period >= 0) & (plain.adoption_period < 12)
+        assert (with_refs.adoption_period[early] == plain.adoption_period[early]).all(), engine
+        assert ((with_refs.adoption_period >= 0) & (with_refs.adoption_period < 12)).sum() == early.sum(), engine
+        assert "references" not in plain.extra
+
+
 def test_arms_share_network_and_streams_and_the_lever_starts_at_the_period():
     s = _scenario(levers={"campaign": {"periods": 2, "multiplier": 5.0}})
     arm = lever_arm(s, "campaign", 9)

@@ -350,7 +350,8 @@ def run_array(
     spp = run.steps_per_period
     # segments and the campaign calendar (all None without them; drawn from a stream of their own)
     market = market_inputs(scenario, network, rng)
-    market = with_references(scenario, network, initial, rng, market)  # [[reference]]: in the calendar
+    # [[reference]]: customers won in a period, written into the calendar
+    market, references = with_references(scenario, network, initial, rng, market, simulate=run_array)
     external = market.external if external is None else external
     group = market.group if group is None else group
     external_weight = market.external_weight if external_weight is None else external_weight
@@ -405,12 +406,20 @@ def run_array(
         engine="array",
         adoption_time=np.where(adopted, adoption_step / spp, np.nan),
         report_every=run.report_every,
-        extra={} if programme is None else programme.record(),
+        extra=_with_references({} if programme is None else programme.record(), references),
         segment=market.segment,
         segment_names=market.segment_names,
         value=market.value,
         opens_at=market.opens_at,
     )
+
+
+def _with_references(extra: dict, references: tuple[np.ndarray, ...]) -> dict:
+    """``extra`` with the organisations each ``[[reference]]`` entry chose (``references``: a tuple
+    of id arrays, one per entry), when there are any."""
+    if references:
+        extra["references"] = references
+    return extra
 
 
 def _external_table(p: float, periods: int, given: np.ndarray | None) -> np.ndarray:

@@ -62,6 +62,7 @@ parameters), so womlab's scenario is kept as :attr:`ReferralModel.womlab_scenari
 from __future__ import annotations
 
 import bisect
+import copy
 import dataclasses
 import difflib
 import inspect
@@ -492,13 +493,15 @@ class ReferralModel(mesa.Model):
             rng = np.random.default_rng(st.dynamics)
         elif not isinstance(rng, np.random.Generator):
             rng = np.random.default_rng(rng)
+        fresh = copy.deepcopy(rng)  # the stream as it starts, for [[reference]]'s look at the run without it
         super().__init__(rng=rng)  # model.rng is the dynamics stream itself
         # None without a programme; enrolment has its own stream, model.rng is not advanced
         self.programme = start_programme(scenario, network, self.rng)
         # segments and the campaign calendar: their own stream too (dynamics.markets)
         self.market = market_inputs(scenario, network, self.rng)
         # reference customers won in a period: written into that calendar (dynamics.references)
-        self.market = with_references(scenario, network, initial, self.rng, self.market)
+        self.market, self.reference_ids = with_references(scenario, network, initial, fresh, self.market,
+                                                       simulate=run_mesa)
         if self.market.opens_at is not None:  # markets that grow: a seed in a part not yet open is left out
             initial = initial[self.market.opens_at[initial] == 0]
 
@@ -744,7 +747,8 @@ class ReferralModel(mesa.Model):
             engine="mesa",
             adoption_time=np.where(step >= 0, step / run.steps_per_period, np.nan),
             report_every=run.report_every,
-            extra=self.programme.record() if self.programme is not None else self._product_record(),
+            extra={**(self.programme.record() if self.programme is not None else self._product_record()),
+                   **({"references": self.reference_ids} if self.reference_ids else {})},
             segment=self.market.segment,
             segment_names=self.market.segment_names,
             value=self.market.value,

@@ -12,7 +12,7 @@ Two optional sections of a scenario, each in its file form::
 
     [[reference]]                   # organisations the vendor turns into customers (references)
     period = 6                      # in this period (1..run.periods)
-    count = 5                       # this many more, chosen up front by a seeding strategy
+    count = 5                       # this many more, the first a seeding strategy ranks among non-customers
     strategy = "hubs"
 
 A lever pulled at the end of period t acts from period t + 1 on. Which names ``[levers]`` may
@@ -148,9 +148,10 @@ class Levers:
 
 @dataclass(frozen=True, kw_only=True)
 class Reference:
-    """One ``[[reference]]`` entry: ``count`` organisations, chosen up front by the seeding
-    strategy ``strategy`` among those not seeded at period 0, become customers in ``period``
-    (those already customers, or in a part of the market not yet open, stay as they are)."""
+    """One ``[[reference]]`` entry: ``count`` organisations become customers in ``period``: the first
+    in the seeding strategy ``strategy``'s ranking that are not customers by the end of the period
+    before (one in a part of the market not yet open stays as it is; see
+    :mod:`womlab.dynamics.references`)."""
 
     period: int
     count: int

@@ -20,9 +20,9 @@ settings. Built in:
 * ``referral``: the scenario's ``[referral]`` programme, started at t + 1 (for as long as it
   ran from its own start; the baseline has none). Cost: its payments, plus ``cost`` (a
   one-off) at t + 1.
-* ``reference_customers``: ``count`` more customers chosen by the seeding strategy
-  ``strategy`` (default ``hubs``), won in period t + 1 (``[[reference]]``). Cost:
-  ``cost_each`` per organisation at t + 1.
+* ``reference_customers``: ``count`` more customers won in period t + 1, the first that the
+  seeding strategy ``strategy`` (default ``hubs``) ranks among the organisations not customers
+  by then (``[[reference]]``). Cost: ``cost_each`` per organisation at t + 1.
 * ``campaign``: external influence ``external`` (p itself) or ``multiplier`` × p for
   ``periods`` periods from t + 1 (cut at the horizon), on the whole market or on ``region``
   or ``segment`` (``[[campaign]]``). Cost: ``cost_per_period`` in each of its periods.
