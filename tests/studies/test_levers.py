@@ -166,7 +166,7 @@ def test_arms_share_network_and_streams_and_the_lever_starts_at_the_period():
     assert (a.adoption_period[early] == b.adoption_period[early]).all()
 
 
-def test_best_stage_and_crossover():
+def test_best_stage_and_crossover(tmp_path):
     s = _scenario(
         market={"regions": 2, "opens": [{"region": 1, "period": "never"}]},
         network={"kind": "regional", "mean_degree": 6},
@@ -181,6 +181,10 @@ def test_best_stage_and_crossover():
     assert set(stage["stage"]) <= {"before peak", "at peak", "after peak"}
     c = study.crossover()
     assert set(c) >= {"period", "from", "to", "low", "high", "interval"}
+    fig = study.figure(by="roi")
+    assert type(fig).__name__ == "Figure" and len(fig.axes) == 2
+    written = study.save(tmp_path / "levers", figure=False)
+    assert {p.name for p in written} >= {"levers.csv", "levers_best.csv", "levers_crossover.csv", "manifest.json"}
 
 
 def test_register_lever_adds_a_name_the_scenario_accepts():

@@ -304,8 +304,10 @@ def estimate_resources(scenario: Any, command: str = "run", *, replicates: int |
     n, run = s.market.organisations, s.run
     reps = _replicates(s, command, replicates)
     # levers: the baseline and one arm per lever and period pulled, each continued past the horizon
-    # (levers.lifetime more periods, or at least as many again until the market is exhausted)
-    arms = 1 + len(s.levers.names) * len(s.levers.pulled_at or range(run.periods))
+    # (levers.lifetime more periods, or at least as many again until the market is exhausted); an arm
+    # that wins reference customers first runs without them, to see who is a customer by then
+    pulled = len(s.levers.pulled_at or range(run.periods))
+    arms = 1 + len(s.levers.names) * pulled + (pulled if "reference_customers" in s.levers.names else 0)
     variants = {"seeding": len(s.study.compared), "referral": 2, "levers": arms}.get(command, 1)
     runs = reps * variants * (points if command == "sweep" else 1)
     longer = (1.0 + (s.levers.lifetime if s.levers.lifetime is not None else run.periods) / run.periods

@@ -45,6 +45,7 @@ Bass, F. M. (1969). A new product growth for model consumer durables. *Managemen
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
@@ -470,7 +471,9 @@ class LeverStudy:
         m = self._matrix(by)
         rows = []
         for i, t in enumerate(self.pulled_at):
-            means = np.nanmean(m[i], axis=1) if np.isfinite(m[i]).any() else np.full(len(self.levers), np.nan)
+            with warnings.catch_warnings():  # a lever with no cost has no ROI: its mean is NaN, not best
+                warnings.simplefilter("ignore", RuntimeWarning)
+                means = np.nanmean(m[i], axis=1)
             k = int(np.nanargmax(means)) if np.isfinite(means).any() else -1
             top = np.nanmax(np.where(np.isfinite(m[i]), m[i], -np.inf), axis=0)
             wins = (m[i] == top) & np.isfinite(m[i])
@@ -498,7 +501,9 @@ class LeverStudy:
         def statistic(i: np.ndarray) -> np.ndarray:
             i = np.asarray(i)
             sub = m[:, :, i]  # (P, L, ..., R)
-            means = np.nanmean(sub, axis=-1)  # (P, L, ...)
+            with warnings.catch_warnings():  # a lever with no cost has no ROI: its mean is NaN, not best
+                warnings.simplefilter("ignore", RuntimeWarning)
+                means = np.nanmean(sub, axis=-1)  # (P, L, ...)
             best = np.argmax(np.where(np.isfinite(means), means, -np.inf), axis=1)  # (P, ...)
             changed = best != best[0]
             first = np.where(changed.any(axis=0), np.argmax(changed, axis=0), -1)
