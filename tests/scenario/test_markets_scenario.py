@@ -86,3 +86,15 @@ def test_campaign_alone_on_the_continuous_clock_is_refused():
     with pytest.raises(ScenarioError, match=r'\[\[campaign\]\] \(external influence that changes by period\) runs on '
                                             r'run\.clock = "discrete" only'):
         Scenario.from_dict({"run": {"clock": "continuous"}, "campaign": [{"from": 1, "to": 2, "multiplier": 2}]})
+
+
+def test_a_segment_field_can_be_a_sweep_axis():
+    from womlab.scenario import field_type
+
+    assert field_type("segments.influentials.word_of_mouth") is float
+    with pytest.raises(ScenarioError, match=r"segments\.influentials is not a field; name one as segments\.NAME\.FIELD"):
+        field_type("segments.influentials")
+    data = _with(sweep={"replicates": 2, "axes": {"segments.influentials.external": [1.0, 3.0]}})
+    assert Scenario.from_dict(data).sweep.axes[0].name == "segments.influentials.external"
+    point = Scenario.from_dict(tomllib.loads(TOML)).replace("segments.influentials.external", 3.0)
+    assert point.segments.groups[0].external == 3.0 and point.segments.groups[1].share == 0.9
