@@ -41,8 +41,10 @@ BASE = {
     "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.4, "satisfied_share": 0.6},
     "run": {"periods": 40},
 }
-SEGMENTS = {"influentials": {"share": 0.2, "external": 50.0, "talkers": 0.5},
-            "imitators": {"share": 0.8, "external": 0.0}}
+SEGMENTS = {
+    "influentials": {"share": 0.2, "external": 50.0, "talkers": 0.5},
+    "imitators": {"share": 0.8, "external": 0.0},
+}
 KINDS = ("random", "small_world", "regional")
 OPENINGS = (5, 15, 25)
 LAUNCHES = (8, 16, 24)
@@ -61,7 +63,9 @@ def _scenario(**changes) -> womlab.Scenario:
 def _dip(new: np.ndarray) -> tuple[float, int, int]:
     """Depth of the dip (1 − trough / first peak) between the first two peaks of a new-customer curve,
     with the periods of the trough and the second peak; (0, -1, -1) when there is one peak only."""
-    peaks = [t for t in range(len(new)) if (t == 0 or new[t] > new[t - 1]) and (t == len(new) - 1 or new[t] >= new[t + 1])]
+    peaks = [
+        t for t in range(len(new)) if (t == 0 or new[t] > new[t - 1]) and (t == len(new) - 1 or new[t] >= new[t + 1])
+    ]
     if len(peaks) < 2:
         return 0.0, -1, -1
     a, b = peaks[0], max(peaks[1:], key=lambda t: new[t])
@@ -79,10 +83,18 @@ def part_a(replicates: int, jobs: int) -> tuple[pd.DataFrame, dict]:
         curves[kind] = (new, model)
         for what, curve in (("network mean", new), ("segment model", model)):
             depth, trough, second = _dip(curve)
-            rows.append({"network": kind, "curve": what, "first_peak": float(curve[0]), "dip_depth": depth,
-                         "trough_period": trough, "second_peak_period": second,
-                         "second_peak": float(curve[second - 1]) if second > 0 else np.nan,
-                         "rise_after_trough": float(curve[second - 1] / curve[trough - 1] - 1) if second > 0 else 0.0})
+            rows.append(
+                {
+                    "network": kind,
+                    "curve": what,
+                    "first_peak": float(curve[0]),
+                    "dip_depth": depth,
+                    "trough_period": trough,
+                    "second_peak_period": second,
+                    "second_peak": float(curve[second - 1]) if second > 0 else np.nan,
+                    "rise_after_trough": float(curve[second - 1] / curve[trough - 1] - 1) if second > 0 else 0.0,
+                }
+            )
     return pd.DataFrame(rows), curves
 
 
@@ -97,18 +109,25 @@ def part_b(replicates: int, jobs: int) -> tuple[pd.DataFrame, dict]:
         aggregate = batch.aggregate()
         curves[opens] = (np.median(final, axis=0), np.median(current, axis=0), aggregate)
         t50 = womlab.replicate_metrics(final)["t50"]
-        rows.append({"region_3_opens": opens or 0, "t50_final_market_median": float(np.median(t50)),
-                     "share_at_30_median": float(np.median(final[:, 30])),
-                     "share_at_30_aggregate": float(aggregate[30]),
-                     "share_of_current_market_at_opening_median": float(np.median(current[:, opens])) if opens else np.nan})
+        rows.append(
+            {
+                "region_3_opens": opens or 0,
+                "t50_final_market_median": float(np.median(t50)),
+                "share_at_30_median": float(np.median(final[:, 30])),
+                "share_at_30_aggregate": float(aggregate[30]),
+                "share_of_current_market_at_opening_median": float(np.median(current[:, opens])) if opens else np.nan,
+            }
+        )
     return pd.DataFrame(rows), curves
 
 
 def part_c(replicates: int, jobs: int) -> tuple[pd.DataFrame, dict]:
     rows, curves = [], {}
     for launch in LAUNCHES:
-        s = _scenario(product=[{"launch": launch, "external": 0.02, "word_of_mouth": 0.5, "value_per_period": 2.0}],
-                      market={"initial_customers": 10})
+        s = _scenario(
+            product=[{"launch": launch, "external": 0.02, "word_of_mouth": 0.5, "value_per_period": 2.0}],
+            market={"initial_customers": 10},
+        )
         batch = womlab.run_replicates(s, replicates, jobs=jobs)
         table = batch.product_curves()
         value = table[table["product"] == "all"].pivot(index="replicate", columns="period", values="value").to_numpy()
@@ -116,11 +135,17 @@ def part_c(replicates: int, jobs: int) -> tuple[pd.DataFrame, dict]:
         curves[launch] = summary
         total = value[:, 1:].sum(axis=1)
         model = summary[summary["product"] == "generation 2"]["aggregate"].to_numpy()
-        rows.append({"launch": launch, "portfolio_value_mean": float(total.mean()),
-                     "portfolio_value_sd": float(total.std(ddof=1)),
-                     "second_generation_share_at_40_mean": float(
-                         summary[(summary["product"] == "generation 2") & (summary["period"] == 40)]["mean"].iloc[0]),
-                     "second_generation_share_at_40_aggregate": float(model[-1])})
+        rows.append(
+            {
+                "launch": launch,
+                "portfolio_value_mean": float(total.mean()),
+                "portfolio_value_sd": float(total.std(ddof=1)),
+                "second_generation_share_at_40_mean": float(
+                    summary[(summary["product"] == "generation 2") & (summary["period"] == 40)]["mean"].iloc[0]
+                ),
+                "second_generation_share_at_40_aggregate": float(model[-1]),
+            }
+        )
     return pd.DataFrame(rows), curves
 
 
@@ -168,14 +193,21 @@ def figure_c(curves: dict, table: pd.DataFrame) -> Figure:
     for launch, summary in curves.items():
         for product, ls in (("generation 1", "-"), ("generation 2", "--")):
             rows = summary[summary["product"] == product]
-            left.plot(rows["period"], rows["mean"], color=colours[launch], ls=ls, lw=1.8,
-                      label=f"launch {launch}: {product}")
+            left.plot(
+                rows["period"], rows["mean"], color=colours[launch], ls=ls, lw=1.8, label=f"launch {launch}: {product}"
+            )
     left.set_xlabel("period")
     left.set_ylabel("customers on the generation, share of market (mean)")
     left.grid(alpha=0.3)
     left.legend(fontsize=7, frameon=False, ncol=2)
-    right.errorbar(table["launch"], table["portfolio_value_mean"], yerr=2 * table["portfolio_value_sd"] / np.sqrt(REPS[0]),
-                   color="#2c3e50", marker="o", capsize=3)
+    right.errorbar(
+        table["launch"],
+        table["portfolio_value_mean"],
+        yerr=2 * table["portfolio_value_sd"] / np.sqrt(REPS[0]),
+        color="#2c3e50",
+        marker="o",
+        capsize=3,
+    )
     right.set_xlabel("launch period of generation 2")
     right.set_ylabel("portfolio value, periods 1-40 (mean ± 2 SE)")
     right.grid(alpha=0.3)
@@ -204,8 +236,15 @@ def main() -> None:
     figure_a(ca).savefig(out / "figure_a.png", dpi=110)
     figure_b(cb).savefig(out / "figure_b.png", dpi=110)
     figure_c(cc, c).savefig(out / "figure_c.png", dpi=110)
-    manifest = {"replicates": args.replicates, "base": BASE, "segments": SEGMENTS, "openings": OPENINGS,
-                "launches": LAUNCHES, "versions": versions(), "wall_seconds": round(time.perf_counter() - start, 1)}
+    manifest = {
+        "replicates": args.replicates,
+        "base": BASE,
+        "segments": SEGMENTS,
+        "openings": OPENINGS,
+        "launches": LAUNCHES,
+        "versions": versions(),
+        "wall_seconds": round(time.perf_counter() - start, 1),
+    }
     text = json.dumps(manifest, indent=2, default=str)
     atomic_write(out / "manifest.json", lambda tmp: tmp.write_text(text, encoding="utf-8"))
     print(a.to_string(index=False), b.to_string(index=False), c.to_string(index=False), sep="\n\n")

@@ -15,11 +15,14 @@ from womlab.aggregate import bass_share, norton_bass, norton_bass_ode
 T = np.linspace(0, 40, 161)
 
 
-@pytest.mark.parametrize("launch,p,q,m", [
-    ([0.0, 8.0], [0.02, 0.02], [0.4, 0.4], [1000.0, 500.0]),  # Norton & Bass's own case: one p and q
-    ([0.0, 6.0, 14.5], [0.01, 0.03, 0.05], [0.5, 0.35, 0.6], [800.0, 400.0, 300.0]),  # three, own p and q each
-    ([0.0, 0.0], [0.02, 0.01], [0.3, 0.5], [100.0, 100.0]),  # launched together
-])
+@pytest.mark.parametrize(
+    "launch,p,q,m",
+    [
+        ([0.0, 8.0], [0.02, 0.02], [0.4, 0.4], [1000.0, 500.0]),  # Norton & Bass's own case: one p and q
+        ([0.0, 6.0, 14.5], [0.01, 0.03, 0.05], [0.5, 0.35, 0.6], [800.0, 400.0, 300.0]),  # three, own p and q each
+        ([0.0, 0.0], [0.02, 0.01], [0.3, 0.5], [100.0, 100.0]),  # launched together
+    ],
+)
 def test_closed_form_is_the_flows_solved_by_scipy(launch, p, q, m):
     args = [np.array(x) for x in (launch, p, q, m)]
     closed, flows = norton_bass(T, *args), norton_bass_ode(T, *args)
@@ -30,8 +33,9 @@ def test_one_generation_is_bass_and_the_last_takes_everyone():
     S = norton_bass(T, np.array([0.0]), np.array([0.03]), np.array([0.38]), np.array([250.0]))
     assert np.allclose(S[:, 0], 250 * bass_share(T, 0.03, 0.38), atol=1e-9)
     # Norton & Bass (1987): every earlier generation's customers end up on the newest generation
-    S = norton_bass(np.array([200.0]), np.array([0.0, 5.0, 9.0]), np.full(3, 0.03), np.full(3, 0.4),
-                    np.array([300.0, 200.0, 100.0]))
+    S = norton_bass(
+        np.array([200.0]), np.array([0.0, 5.0, 9.0]), np.full(3, 0.03), np.full(3, 0.4), np.array([300.0, 200.0, 100.0])
+    )
     assert np.allclose(S, [[0.0, 0.0, 600.0]], atol=1e-6)
 
 

@@ -40,9 +40,16 @@ def test_calendar_closed_form_matches_scipy_on_a_stepping_calendar():
     p[12:14] = 0.0
     q = 0.35
     F = bass_calendar_share(p, q, 0.01)
-    sol = solve_ivp(lambda t, f: (p[min(int(np.ceil(t - 1e-12)), 20) if t > 0 else 1] + q * f) * (1 - f),
-                    (0, 20), [0.01], t_eval=np.arange(21.0), method="LSODA", rtol=1e-11, atol=1e-13,
-                    max_step=0.01)
+    sol = solve_ivp(
+        lambda t, f: (p[min(int(np.ceil(t - 1e-12)), 20) if t > 0 else 1] + q * f) * (1 - f),
+        (0, 20),
+        [0.01],
+        t_eval=np.arange(21.0),
+        method="LSODA",
+        rtol=1e-11,
+        atol=1e-13,
+        max_step=0.01,
+    )
     assert np.max(np.abs(F - sol.y[0])) < 1e-7
     # and womlab's own segment ODE, with one segment, is the same curve
     assert np.max(np.abs(segment_ode(np.arange(21.0), p[:, None], np.array([[q]]), np.array([0.01]))[:, 0] - F)) < 1e-7
@@ -61,9 +68,13 @@ def test_van_den_bulte_joshi_influentials_follow_bass_and_mixing_reduces_to_bass
 
 
 def test_mapping_of_one_segment_is_the_market_mapping():
-    s = Scenario.from_dict({"adoption": {"word_of_mouth": 0.4, "satisfied_share": 0.7, "rule": "count",
-                                         "talkers_per_customer": 2}, "network": {"kind": "random"},
-                            "segments": {"all": {"share": 1.0}}})
+    s = Scenario.from_dict(
+        {
+            "adoption": {"word_of_mouth": 0.4, "satisfied_share": 0.7, "rule": "count", "talkers_per_customer": 2},
+            "network": {"kind": "random"},
+            "segments": {"all": {"share": 1.0}},
+        }
+    )
     assert mapped_segments(s).Q[0, 0] == pytest.approx(mapped_parameters(s).Q)
 
 
@@ -92,14 +103,16 @@ def test_complete_network_two_segments_follow_the_segment_model():
     # O(1/sqrt(N_k)) noise. Tolerance fixed before looking: 4 standard errors of the mean of R runs,
     # plus 2/N_k for the O(1/N) terms of whole counts.
     n, reps = 20_000, 8
-    s = Scenario.from_dict({
-        "seed": 11,
-        "market": {"organisations": n, "initial_customers": 0},
-        "network": {"kind": "complete"},
-        "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.5},
-        "run": {"periods": 25, "step_probability": "linear"},
-        "segments": TWO_SEGMENTS,
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 11,
+            "market": {"organisations": n, "initial_customers": 0},
+            "network": {"kind": "complete"},
+            "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.5},
+            "run": {"periods": 25, "step_probability": "linear"},
+            "segments": TWO_SEGMENTS,
+        }
+    )
     shares, sizes = _segment_curves(s, reps)
     par = mapped_segments(s)
     expected = segment_difference(par.p, par.Q, par.initial, form="linear")
@@ -113,16 +126,20 @@ def test_complete_network_campaign_calendar_follows_the_aggregate_model():
     # The same law of large numbers, with p stepping up for the imitators in periods 6-9 and for
     # everyone in periods 15-16 (a campaign calendar); tolerance as above, fixed before looking.
     n, reps = 20_000, 8
-    s = Scenario.from_dict({
-        "seed": 12,
-        "market": {"organisations": n, "initial_customers": 0},
-        "network": {"kind": "complete"},
-        "adoption": {"rule": "share", "external": 0.005, "word_of_mouth": 0.3},
-        "run": {"periods": 22, "step_probability": "linear"},
-        "segments": TWO_SEGMENTS,
-        "campaign": [{"from": 6, "to": 9, "external": 0.04, "segment": "imitators"},
-                     {"from": 15, "to": 16, "multiplier": 6}],
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 12,
+            "market": {"organisations": n, "initial_customers": 0},
+            "network": {"kind": "complete"},
+            "adoption": {"rule": "share", "external": 0.005, "word_of_mouth": 0.3},
+            "run": {"periods": 22, "step_probability": "linear"},
+            "segments": TWO_SEGMENTS,
+            "campaign": [
+                {"from": 6, "to": 9, "external": 0.04, "segment": "imitators"},
+                {"from": 15, "to": 16, "multiplier": 6},
+            ],
+        }
+    )
     shares, sizes = _segment_curves(s, reps)
     par = mapped_segments(s)
     expected = segment_difference(par.p, par.Q, par.initial, form="linear")
@@ -139,14 +156,16 @@ def test_one_market_calendar_runs_follow_the_closed_form_on_a_fine_step():
     # form is bass_calendar_share; the runs follow it within 4 SE + 2/N + the step's O(dt) error,
     # bounded here by the gap between the step-0.1 difference model and the closed form.
     n, reps = 20_000, 6
-    s = Scenario.from_dict({
-        "seed": 13,
-        "market": {"organisations": n, "initial_customers": 0},
-        "network": {"kind": "complete"},
-        "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.4},
-        "run": {"periods": 20, "time_step": 0.1},
-        "campaign": [{"from": 3, "to": 6, "external": 0.05}],
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 13,
+            "market": {"organisations": n, "initial_customers": 0},
+            "network": {"kind": "complete"},
+            "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.4},
+            "run": {"periods": 20, "time_step": 0.1},
+            "campaign": [{"from": 3, "to": 6, "external": 0.05}],
+        }
+    )
     shares = np.array([run_one(s, (r,)).share for r in range(reps)])
     par = mapped_segments(s)
     closed = bass_calendar_share(par.p[:, 0], float(par.Q[0, 0]))
@@ -161,15 +180,25 @@ def test_before_a_region_opens_the_open_part_follows_bass_with_a_scaled_q():
     # never talk, so before it opens the open part (share theta of the market) sees T/D = s theta F_open
     # (times N/(N-1), as in mapped_parameters): Bass with Q' = q s theta N/(N-1) (Bass 1969's difference
     # form on the same step), and the closed part stays 0.
-    s = Scenario.from_dict({"market": {"organisations": 10_000, "initial_customers": 0, "regions": 4,
-                                       "opens": [{"region": 3, "period": 12}]},
-                            "network": {"kind": "random", "mean_degree": 8},
-                            "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
-                            "run": {"periods": 30, "step_probability": "linear"}})
+    s = Scenario.from_dict(
+        {
+            "market": {
+                "organisations": 10_000,
+                "initial_customers": 0,
+                "regions": 4,
+                "opens": [{"region": 3, "period": 12}],
+            },
+            "network": {"kind": "random", "mean_degree": 8},
+            "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
+            "run": {"periods": 30, "step_probability": "linear"},
+        }
+    )
     par = mapped_segments(s)
     F = segment_difference(par.p, par.Q, par.initial, form="linear", opens=par.opens)
     assert par.opens.tolist() == [0, 0, 0, 12]
-    bass = bass_difference(11, 0.01, 0.5 * 0.8 * 0.75 * 10_000 / 9_999, 0.0, form="linear")  # N/(N-1): not its own neighbour
+    bass = bass_difference(
+        11, 0.01, 0.5 * 0.8 * 0.75 * 10_000 / 9_999, 0.0, form="linear"
+    )  # N/(N-1): not its own neighbour
     assert np.allclose(F[:12, 0], bass, atol=1e-12) and np.all(F[:12, 3] == 0)
     assert F[13, 3] > 0  # it opens, and catches up on the word of mouth already there
     assert F[20, 3] > bass_difference(8, 0.01, 0.4, 0.0, form="linear")[-1]
@@ -181,13 +210,20 @@ def test_complete_network_market_that_grows_follows_the_aggregate_model():
     # (z = -7 in the first periods, where an SE from 8 runs of small counts is itself unreliable; the
     # same 8 runs without the opening gave z = -4.4); raised to R = 24, seed and tolerance kept.
     n, reps = 20_000, 24
-    s = Scenario.from_dict({
-        "seed": 14,
-        "market": {"organisations": n, "initial_customers": 20, "regions": 2, "opens": [{"region": 1, "period": 10}]},
-        "network": {"kind": "complete"},
-        "adoption": {"rule": "share", "external": 0.005, "word_of_mouth": 0.4},
-        "run": {"periods": 25, "step_probability": "linear"},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 14,
+            "market": {
+                "organisations": n,
+                "initial_customers": 20,
+                "regions": 2,
+                "opens": [{"region": 1, "period": 10}],
+            },
+            "network": {"kind": "complete"},
+            "adoption": {"rule": "share", "external": 0.005, "word_of_mouth": 0.4},
+            "run": {"periods": 25, "step_probability": "linear"},
+        }
+    )
     runs = [run_one(s, (r,)) for r in range(reps)]
     by_region = np.array([[r.customers_by_region()[:, g] / np.sum(r.region == g) for g in range(2)] for r in runs])
     par = mapped_segments(s)

@@ -21,8 +21,14 @@ from womlab.dynamics.array_engine import pick_referrers, run_array
 from womlab.dynamics.markets import market_inputs, segment_counts
 
 SEGMENTS = {
-    "influentials": {"share": 0.15, "external": 3.0, "word_of_mouth": 2.0, "talkers": 3, "satisfied_share": 0.9,
-                     "value_per_period": 4.0},
+    "influentials": {
+        "share": 0.15,
+        "external": 3.0,
+        "word_of_mouth": 2.0,
+        "talkers": 3,
+        "satisfied_share": 0.9,
+        "value_per_period": 4.0,
+    },
     "imitators": {"share": 0.85, "external": 0.5, "satisfied_share": 0.6},
 }
 
@@ -32,12 +38,19 @@ def _scenario(kind: str, n: int = 600, **extra) -> Scenario:
         "seed": 3,
         "market": {"organisations": n, "initial_customers": 5, "regions": 3},
         "network": {"kind": kind, "mean_degree": 6},
-        "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.7,
-                     "talkers_per_customer": 2},
+        "adoption": {
+            "rule": "share",
+            "external": 0.01,
+            "word_of_mouth": 0.5,
+            "satisfied_share": 0.7,
+            "talkers_per_customer": 2,
+        },
         "run": {"periods": 20},
         "segments": SEGMENTS,
-        "campaign": [{"from": 4, "to": 7, "external": 0.05, "segment": "imitators"},
-                     {"from": 12, "to": 13, "multiplier": 4.0}],
+        "campaign": [
+            {"from": 4, "to": 7, "external": 0.05, "segment": "imitators"},
+            {"from": 12, "to": 13, "multiplier": 4.0},
+        ],
     }
     data.update(extra)
     return Scenario.from_dict(data)
@@ -59,6 +72,7 @@ def plain_run(scenario, network, initial, rng):
     adopted[initial] = 0
     referrer = np.full(n, -1, dtype=np.int32)
     hazard = np.zeros(n)
+
     def around(x):  # what each organisation's neighbours hold (integer talkers: sums exact in any order)
         return x.sum() - x if network.complete else network.matrix(np.float64) @ x
 
@@ -82,12 +96,23 @@ def plain_run(scenario, network, initial, rng):
     return adopted, referrer, m
 
 
-@pytest.mark.parametrize("kind,opens", [("random", None), ("regional", None),
-                                        ("regional", [{"region": 2, "period": 6}, {"segment": "influentials", "period": 3}]),
-                                        ("complete", [{"region": 0, "period": 9}])])
+@pytest.mark.parametrize(
+    "kind,opens",
+    [
+        ("random", None),
+        ("regional", None),
+        ("regional", [{"region": 2, "period": 6}, {"segment": "influentials", "period": 3}]),
+        ("complete", [{"region": 0, "period": 9}]),
+    ],
+)
 def test_kernel_with_segments_and_calendar_is_the_plain_loop(kind, opens):
-    s = _scenario(kind, campaign=[{"from": 4, "to": 7, "external": 0.05, "segment": "imitators"},
-                                  {"from": 12, "to": 13, "multiplier": 4.0, "region": 1}])
+    s = _scenario(
+        kind,
+        campaign=[
+            {"from": 4, "to": 7, "external": 0.05, "segment": "imitators"},
+            {"from": 12, "to": 13, "multiplier": 4.0, "region": 1},
+        ],
+    )
     if opens is not None:
         s = s.replace("market.opens", opens)
     grew = []
@@ -123,12 +148,16 @@ def test_segment_inputs_are_as_the_table_says():
 
 def test_neutral_segments_and_campaign_change_nothing():
     # their draws come from a stream of their own: switched on with no effect, every draw is the same
-    base = Scenario.from_dict({"seed": 4, "market": {"organisations": 400, "initial_customers": 4},
-                               "network": {"kind": "small_world", "mean_degree": 6},
-                               "adoption": {"talkers_per_customer": {"distribution": "poisson", "mean": 2}},
-                               "run": {"periods": 15}})
-    neutral = base.replace({"segments": {"all": {"share": 1.0}},
-                            "campaign": [{"from": 3, "to": 9, "multiplier": 1.0}]})
+    base = Scenario.from_dict(
+        {
+            "seed": 4,
+            "market": {"organisations": 400, "initial_customers": 4},
+            "network": {"kind": "small_world", "mean_degree": 6},
+            "adoption": {"talkers_per_customer": {"distribution": "poisson", "mean": 2}},
+            "run": {"periods": 15},
+        }
+    )
+    neutral = base.replace({"segments": {"all": {"share": 1.0}}, "campaign": [{"from": 3, "to": 9, "multiplier": 1.0}]})
     for key in ((0,), (1,)):
         a, b = run_one(base, key), run_one(neutral, key)
         assert np.array_equal(a.adoption_period, b.adoption_period)
@@ -139,11 +168,18 @@ def test_node_file_columns_set_each_organisation(tmp_path):
     ties = tmp_path / "ties.csv"
     ties.write_text("source,target\na,b\nb,c\nc,d\nd,a\n")
     nodes = tmp_path / "nodes.csv"
-    nodes.write_text("id,region,segment,size,external,word_of_mouth\na,n,big,3,2,1\nb,n,small,1,1,0.5\n"
-                     "c,s,small,1,1,0.5\nd,s,big,2,0,1\n")
-    s = Scenario.from_dict({"market": {"initial_customers": 1}, "run": {"periods": 5},
-                            "network": {"kind": "edgelist", "path": str(ties), "nodes_path": str(nodes)},
-                            "segments": {"big": {"word_of_mouth": 2.0}, "small": {"external": 3.0}}})
+    nodes.write_text(
+        "id,region,segment,size,external,word_of_mouth\na,n,big,3,2,1\nb,n,small,1,1,0.5\n"
+        "c,s,small,1,1,0.5\nd,s,big,2,0,1\n"
+    )
+    s = Scenario.from_dict(
+        {
+            "market": {"initial_customers": 1},
+            "run": {"periods": 5},
+            "network": {"kind": "edgelist", "path": str(ties), "nodes_path": str(nodes)},
+            "segments": {"big": {"word_of_mouth": 2.0}, "small": {"external": 3.0}},
+        }
+    )
     net = build_network(s, np.random.default_rng(0))
     m = market_inputs(s, net, np.random.default_rng(np.random.SeedSequence(1)))
     assert m.segment.tolist() == [0, 1, 1, 0]
@@ -164,8 +200,14 @@ Z_MAX, KS_P_MIN = 4.0, 1e-3
 def _outcomes(runs: list) -> tuple[np.ndarray, np.ndarray]:
     """Customers per replicate and period; final customers and word-of-mouth adoptions per segment."""
     curves = np.vstack([r.customers for r in runs]).astype(float)
-    ends = np.array([[np.sum((r.adoption_period >= 0) & (r.segment == k)) for k in range(2)]
-                     + [np.sum((r.referrer >= 0) & (r.segment == k)) for k in range(2)] for r in runs], dtype=float)
+    ends = np.array(
+        [
+            [np.sum((r.adoption_period >= 0) & (r.segment == k)) for k in range(2)]
+            + [np.sum((r.referrer >= 0) & (r.segment == k)) for k in range(2)]
+            for r in runs
+        ],
+        dtype=float,
+    )
     return curves, ends
 
 
@@ -176,8 +218,10 @@ def _within(a: np.ndarray, m: np.ndarray, what: str) -> None:
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("kind,seed,opens", [("complete", 8101, None), ("regional", 8201, None),
-                                            ("regional", 8301, [{"region": 1, "period": 8}])])
+@pytest.mark.parametrize(
+    "kind,seed,opens",
+    [("complete", 8101, None), ("regional", 8201, None), ("regional", 8301, [{"region": 1, "period": 8}])],
+)
 def test_engines_agree_with_two_segments_and_a_calendar(kind, seed, opens):
     # Tolerance basis as in test_engines_agree.py: |z| > 4 has probability 6.3e-5 per comparison;
     # 3 cases x (21 periods + 4 end counts) = 75 comparisons, false-alarm chance below 0.5 %.

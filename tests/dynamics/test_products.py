@@ -24,15 +24,21 @@ from womlab.aggregate import generations_difference, mapped_generations, norton_
 from womlab.dynamics.array_engine import run_array
 from womlab.dynamics.products import product_rng
 
-THREE = [{"launch": 8, "external": 0.02, "word_of_mouth": 0.5, "satisfied_share": 0.7},
-         {"launch": 15, "external": 0.03, "word_of_mouth": 0.6, "value_per_period": 3.0}]
+THREE = [
+    {"launch": 8, "external": 0.02, "word_of_mouth": 0.5, "satisfied_share": 0.7},
+    {"launch": 15, "external": 0.03, "word_of_mouth": 0.6, "value_per_period": 3.0},
+]
 
 
 def _scenario(kind: str, n: int, **extra) -> Scenario:
-    data = {"seed": 6, "market": {"organisations": n, "initial_customers": 5},
-            "network": {"kind": kind, "mean_degree": 6},
-            "adoption": {"external": 0.01, "word_of_mouth": 0.4, "satisfied_share": 0.8, "talkers_per_customer": 2},
-            "run": {"periods": 25}, "product": THREE}
+    data = {
+        "seed": 6,
+        "market": {"organisations": n, "initial_customers": 5},
+        "network": {"kind": kind, "mean_degree": 6},
+        "adoption": {"external": 0.01, "word_of_mouth": 0.4, "satisfied_share": 0.8, "talkers_per_customer": 2},
+        "run": {"periods": 25},
+        "product": THREE,
+    }
     data.update(extra)
     return Scenario.from_dict(data)
 
@@ -70,8 +76,9 @@ def plain_run(scenario, network, initial, rng):
                 continue
             h = heard[:, i]
             if g == 0:
-                entry[i] += rules.hazard(rules.rate(share, h.sum(), total[i], 0.0, gens[0].external,
-                                                    gens[0].word_of_mouth, 0.0), dt, form)
+                entry[i] += rules.hazard(
+                    rules.rate(share, h.sum(), total[i], 0.0, gens[0].external, gens[0].word_of_mouth, 0.0), dt, form
+                )
                 if entry[i] < resist_entry[i]:
                     continue
                 chosen = newest
@@ -80,8 +87,9 @@ def plain_run(scenario, network, initial, rng):
                     chosen = int(np.argmax(cum > u[i, 0] * h.sum())) + 1
             else:
                 newer = h[g:].sum()
-                up[i] += rules.hazard(rules.upgrade_rate(gens[g].external, gens[g].word_of_mouth, newer,
-                                                         newer + h[g - 1]), dt, form)
+                up[i] += rules.hazard(
+                    rules.upgrade_rate(gens[g].external, gens[g].word_of_mouth, newer, newer + h[g - 1]), dt, form
+                )
                 if up[i] < resist_up[i, g - 1]:
                     continue
                 chosen = g + 1
@@ -125,14 +133,20 @@ def test_product_curves_add_up():
 
 def test_complete_network_follows_the_mean_field_recursion():
     n, reps = 20_000, 16
-    s = _scenario("complete", n, seed=21, market={"organisations": n, "initial_customers": 0},
-                  run={"periods": 30, "step_probability": "linear"})
+    s = _scenario(
+        "complete",
+        n,
+        seed=21,
+        market={"organisations": n, "initial_customers": 0},
+        run={"periods": 30, "step_probability": "linear"},
+    )
     runs = [run_one(s, (r,)) for r in range(reps)]
     shares = []
     for r in runs:
         t = r.product_curves()
-        shares.append(np.column_stack([t[t["product"] == f"generation {g}"]["customers"].to_numpy() / n
-                                       for g in (1, 2, 3)]))
+        shares.append(
+            np.column_stack([t[t["product"] == f"generation {g}"]["customers"].to_numpy() / n for g in (1, 2, 3)])
+        )
     shares = np.array(shares)
     m = mapped_generations(s)
     expected = generations_difference(30, m["launch"], m["p"], m["q"], m["satisfied"], 0.0, form="linear")
@@ -142,32 +156,56 @@ def test_complete_network_follows_the_mean_field_recursion():
 
 
 def test_recursion_approaches_norton_bass():
-    launch, p, q, s = np.array([0.0, 12.0, 20.0]), np.array([0.01, 0.02, 0.03]), np.array([0.4, 0.5, 0.6]), np.full(3, 0.8)
+    launch, p, q, s = (
+        np.array([0.0, 12.0, 20.0]),
+        np.array([0.01, 0.02, 0.03]),
+        np.array([0.4, 0.5, 0.6]),
+        np.full(3, 0.8),
+    )
     # generation g launched in period k is on sale from the start of that period: time k - 1
-    closed = norton_bass(np.arange(41.0), np.array([0.0, 11.0, 19.0]), p, np.array([0.4 * 0.8, 0.5, 0.6]),
-                         np.array([1.0, 0.0, 0.0]))
-    errors = [np.abs(generations_difference(40, launch, p, q, s, 0.0, time_step=dt, form="exponential")
-                     - closed).max() for dt in (0.1, 0.01)]
+    closed = norton_bass(
+        np.arange(41.0), np.array([0.0, 11.0, 19.0]), p, np.array([0.4 * 0.8, 0.5, 0.6]), np.array([1.0, 0.0, 0.0])
+    )
+    errors = [
+        np.abs(generations_difference(40, launch, p, q, s, 0.0, time_step=dt, form="exponential") - closed).max()
+        for dt in (0.1, 0.01)
+    ]
     assert errors[1] < 0.005 and errors[0] / errors[1] == pytest.approx(10, rel=0.25)
 
 
-@pytest.mark.parametrize("changes,message", [
-    ({"product": [{"launch": 30}]}, r"product\[0\]\.launch must be a period after the previous generation's launch "
-                                    r"\(0\) and at most run\.periods = 25, got 30"),
-    ({"product": [{"launch": 9}, {"launch": 9}]}, r"product\[1\]\.launch must be a period after the previous "
-                                                  r"generation's launch \(9\)"),
-    ({"product": [{"launch": 9, "word_of_mouth": -0.1}]}, r"product\[0\]\.word_of_mouth must be a finite number >= 0"),
-    ({"adoption": {"rule": "count"}}, r"adoption\.rule must be share with \[\[product\]\]"),
-    ({"run": {"periods": 25, "clock": "continuous"}}, r'\[\[product\]\] \(successive product generations\) runs on '
-                                                       r'run\.clock = "discrete" only'),
-    ({"segments": {"a": {"share": 1.0}}}, r"\[\[product\]\] cannot be combined with \[segments\] yet"),
-])
+@pytest.mark.parametrize(
+    "changes,message",
+    [
+        (
+            {"product": [{"launch": 30}]},
+            r"product\[0\]\.launch must be a period after the previous generation's launch "
+            r"\(0\) and at most run\.periods = 25, got 30",
+        ),
+        (
+            {"product": [{"launch": 9}, {"launch": 9}]},
+            r"product\[1\]\.launch must be a period after the previous "
+            r"generation's launch \(9\)",
+        ),
+        (
+            {"product": [{"launch": 9, "word_of_mouth": -0.1}]},
+            r"product\[0\]\.word_of_mouth must be a finite number >= 0",
+        ),
+        ({"adoption": {"rule": "count"}}, r"adoption\.rule must be share with \[\[product\]\]"),
+        (
+            {"run": {"periods": 25, "clock": "continuous"}},
+            r"\[\[product\]\] \(successive product generations\) runs on "
+            r'run\.clock = "discrete" only',
+        ),
+        ({"segments": {"a": {"share": 1.0}}}, r"\[\[product\]\] cannot be combined with \[segments\] yet"),
+    ],
+)
 def test_bad_product_input_is_one_line(changes, message):
     with pytest.raises(ScenarioError, match=message):
         _scenario("random", 300, **changes)
 
 
 # ---------------------------------------------------------------- the Mesa model agrees (statistical)
+
 
 def _per_generation(runs: list) -> np.ndarray:
     """Customers on each generation at each period, one row per run (periods x generations flattened)."""

@@ -12,13 +12,15 @@ import pytest
 from womlab import Scenario, group_figure, run_replicates
 from womlab.aggregate import segment_curves
 
-S = Scenario.from_dict({
-    "seed": 2,
-    "market": {"organisations": 600, "initial_customers": 6, "regions": 3},
-    "network": {"kind": "regional", "mean_degree": 6},
-    "run": {"periods": 15},
-    "segments": {"few": {"share": 0.2, "word_of_mouth": 2.0, "value_per_period": 5.0}, "many": {"share": 0.8}},
-})
+S = Scenario.from_dict(
+    {
+        "seed": 2,
+        "market": {"organisations": 600, "initial_customers": 6, "regions": 3},
+        "network": {"kind": "regional", "mean_degree": 6},
+        "run": {"periods": 15},
+        "segments": {"few": {"share": 0.2, "word_of_mouth": 2.0, "value_per_period": 5.0}, "many": {"share": 0.8}},
+    }
+)
 
 
 @pytest.fixture(scope="module")

@@ -186,7 +186,9 @@ def mapped_segments(scenario: Scenario) -> SegmentParameters:
     balanced, segments placed independently of regions: cell share = region share × θ_k) with
     the same formulas. Closed organisations are still neighbours (D counts them; they have no
     satisfied talkers), so a part that opens late hears the word of mouth of the whole market.
-    Every open group starts at the market's initial share (initial customers are drawn from the
+    A region named by its value in a node file (text) is not mapped: its campaign or opening is
+    left out of the aggregate model (regions are codes here). Every open group starts at the
+    market's initial share (initial customers are drawn from the
     whole market, and those in a closed part are left out); a closed group starts at 0.
 
     Examples

@@ -31,7 +31,15 @@ from womlab.networks.edgelist import read_node_traits
 from womlab.scenario import Scenario
 from womlab.scenario.markets import opening_period, openings
 
-__all__ = ["MarketInputs", "market_inputs", "opening_periods", "segment_rng", "segment_counts", "campaign_table", "SEGMENT_STREAM"]
+__all__ = [
+    "MarketInputs",
+    "market_inputs",
+    "opening_periods",
+    "segment_rng",
+    "segment_counts",
+    "campaign_table",
+    "SEGMENT_STREAM",
+]
 
 #: Last element of the spawn key of the stream that places organisations in segments
 #: (the dynamics stream's key extended by it; "SEGM" in ASCII).

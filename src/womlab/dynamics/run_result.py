@@ -316,7 +316,8 @@ class RunResult:
         Returns
         -------
         pandas.DataFrame
-            ``id``, ``region`` (code), the attributes, ``customer`` (at the horizon),
+            ``id``, ``region`` (code), with segments ``segment`` and ``value_per_period``, in a
+            market that grows ``opens_in_period``, the attributes, ``customer`` (at the horizon),
             ``initial``, ``adoption_period`` (period 0 for the initial customers; missing
             if never), ``adoption_time`` (NaN if never or not recorded), ``referrer`` (id
             of the satisfied customer whose word of mouth brought it in; missing for
@@ -359,6 +360,12 @@ class RunResult:
         adoption_period = pd.array(np.where(adopted, self.adoption_period, 0), dtype="Int64")
         adoption_period[~adopted] = pd.NA
         columns: dict[str, Any] = {"id": ids, "region": self.region.astype(np.int64)}
+        if self.segment is not None:  # segments ([segments] or a node file's column): name, and value per period
+            columns["segment"] = np.array(self.segment_names, dtype=object)[self.segment]
+        if self.value is not None:
+            columns["value_per_period"] = self.value
+        if self.opens_at is not None:
+            columns["opens_in_period"] = self.opens_at.astype(np.int64)
         if attributes is not None:
             if len(attributes) != n:
                 raise NetworkError(f"attributes has {len(attributes)} rows but the run had {n} organisations")

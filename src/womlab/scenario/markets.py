@@ -96,6 +96,8 @@ class Segments:
     """
 
     section: ClassVar[str] = "segments"
+    #: A sweep axis names a segment's field as ``segments.NAME.FIELD`` (``scenario.field_type``).
+    KEYED_BY_NAME: ClassVar[type] = Segment
     groups: tuple[Segment, ...] = ()
 
     @classmethod
