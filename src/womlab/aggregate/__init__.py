@@ -17,9 +17,21 @@ from womlab.aggregate.fitting import (
     StockFlowFit,
     fit_bass,
     fit_bass_sales,
-    fit_replicates,
     fit_capped_bass_difference,
+    fit_replicates,
     fit_stock_and_flow,
+)
+from womlab.aggregate.generations import generations_difference, mapped_generations, norton_bass, norton_bass_ode
+from womlab.aggregate.markets import (
+    SegmentParameters,
+    bass_calendar_share,
+    external_by_period,
+    group_curves,
+    mapped_segments,
+    segment_curves,
+    segment_difference,
+    segment_ode,
+    van_den_bulte_joshi,
 )
 from womlab.aggregate.mean_field import degree_classes, degree_mean_field, degree_mean_field_curve
 from womlab.aggregate.models import (
@@ -61,4 +73,17 @@ __all__ = [
     "fit_replicates",
     "fit_capped_bass_difference",
     "fit_stock_and_flow",
+    "SegmentParameters",
+    "mapped_segments",
+    "segment_ode",
+    "segment_difference",
+    "van_den_bulte_joshi",
+    "bass_calendar_share",
+    "external_by_period",
+    "group_curves",
+    "segment_curves",
+    "norton_bass",
+    "norton_bass_ode",
+    "generations_difference",
+    "mapped_generations",
 ]

@@ -33,9 +33,11 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.integrate import solve_ivp
 
+from womlab.aggregate.markets import group_curves
 from womlab.errors import WomlabError
 from womlab.rules import step_probability
 from womlab.scenario import Scenario
+from womlab.scenario.markets import openings
 
 __all__ = [
     "AggregateParameters",
@@ -58,6 +60,7 @@ AGGREGATE_LABELS = {
     "capped_bass_difference": "Bass difference model with a rate ceiling, mapped",
     "degree_mean_field": "degree mean-field model",
     "bass_fitted": "Bass fitted to the network",
+    "segment_model": "segment model (segments, calendar, openings), mapped",
 }
 
 
@@ -311,9 +314,15 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
 
     ``share`` and ``count``: the Bass difference equation with the mapped p and Q, or on
     the continuous clock (``run.clock = "continuous"``) the Bass closed form itself;
-    ``capped``: the capped Bass difference model with the mapped slope and cap.
+    ``capped``: the capped Bass difference model with the mapped slope and cap. With ``[segments]``,
+    a ``[[campaign]]`` calendar or ``market.opens``: the segment model of
+    :mod:`womlab.aggregate.markets` (share and count; NaN for other rules).
     """
     a, run = scenario.adoption, scenario.run
+    if scenario.segments.active or scenario.campaign.active or openings(scenario.market):  # the segment model
+        if a.rule not in ("share", "count"):
+            return np.full(run.periods + 1, np.nan)
+        return group_curves(scenario)[0][:, 0]
     par = mapped_parameters(scenario)
     if run.clock == "continuous":
         return bass_share(np.arange(run.periods + 1, dtype=float), par.p, par.Q, par.initial_share)

@@ -34,6 +34,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     from womlab.dynamics.streams import streams
     from womlab.errors import ScenarioError
     from womlab.networks import network_clustering_line
+    from womlab.scenario.markets import market_lines
     from womlab.scenario.registry import network_file_kinds
     from womlab.scenario.resources import check_resources, cores, describe_bytes, machine_memory, usable_jobs
     from womlab.studies import plan, slow_steps
@@ -68,6 +69,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     ]
     if par.cap is not None:
         rows.insert(-3, ("ceiling on the adoption rate (cap)", f"{par.cap:.4g}"))
+    rows[-3:-3] = market_lines(scenario)  # segments, campaigns, openings, product generations
     width = max(len(k) for k, _ in rows)
     print(f"{args.config}: valid")
     for key, value in rows:

@@ -48,18 +48,22 @@ from __future__ import annotations
 import numpy as np
 
 from womlab import rules
+from womlab.dynamics.markets import market_inputs
+from womlab.dynamics.products import run_products
 from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
 from womlab.dynamics.run_result import RunResult
 from womlab.networks import ReferralNetwork
 from womlab.rules import compiled, external_part, hazard, rate, talk_weight
 from womlab.scenario import Scenario
 
-__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER"]
+__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER", "CLOSED"]
 
 #: State code of an organisation that is not (yet) a customer.
 POTENTIAL = 0
 #: State code of a customer.
 CUSTOMER = 1
+#: State code of an organisation whose part of the market has not opened yet (``market.opens``).
+CLOSED = 2
 
 
 @compiled
@@ -140,7 +144,7 @@ def pick_referrers(network: ReferralNetwork, adopters: np.ndarray, talk: np.ndar
 @compiled
 def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, group, external_weight, wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
             q, cap, tau, satisfied, resistance, u_cause, theta, state, adoption_step, referrer, initial, varying,
-            ledger):
+            ledger, opens_at):
     """The whole run, step by step (see the module notes); updates ``state``, ``adoption_step``,
     ``referrer`` and the programme's ``ledger`` in place."""
     n = tau.size
@@ -186,9 +190,26 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
     p_weights, q_weights, thresholds = external_weight.size > 0, wom_weight.size > 0, theta.size > 0
     checked = 0  # customers[checked:] have not had their weight applied yet
 
+    opening = opens_at.size > 0
+
     for step in range(1, steps + 1):
         period = (step + spp - 1) // spp
         boosting = programme and start <= period <= end and exhausted[0] < 0
+
+        # 0. markets that grow: at the first step of a period, the organisations whose part of the
+        # market opens join the potential customers (the list rebuilt, so it stays ascending)
+        if opening and (step - 1) % spp == 0:
+            joined = False
+            for i in range(n):
+                if state[i] == CLOSED and opens_at[i] <= period:
+                    state[i] = POTENTIAL
+                    joined = True
+            if joined:
+                npot = 0
+                for i in range(n):
+                    if state[i] == POTENTIAL:
+                        potential[npot] = i
+                        npot += 1
 
         # 1. weights: apply each changed weight along its row, by its difference
         for c in range(0 if varying else checked, ncust):
@@ -321,12 +342,22 @@ def run_array(
     >>> len(r.curve()), int(r.customers[0])
     (21, 5)
     """
+    if scenario.product.active:  # successive product generations: a run of their own (dynamics.products)
+        return run_products(scenario, network, initial, rng)
     adoption, run = scenario.adoption, scenario.run
     n, rule = network.n, adoption.rule
     spp = run.steps_per_period
+    # segments and the campaign calendar (all None without them; drawn from a stream of their own)
+    market = market_inputs(scenario, network, rng)
+    external = market.external if external is None else external
+    group = market.group if group is None else group
+    external_weight = market.external_weight if external_weight is None else external_weight
+    wom_weight = market.word_of_mouth_weight if wom_weight is None else wom_weight
 
-    tau = np.ascontiguousarray(rules.draw_talkers(adoption.talkers_per_customer, n, rng), dtype=np.float32)
-    would_be_satisfied = np.ascontiguousarray(rules.draw_satisfied(adoption.satisfied_share, n, rng))
+    tau = np.ascontiguousarray(rules.draw_talkers(adoption.talkers_per_customer, n, rng, market.talkers),
+                               dtype=np.float32)
+    satisfied_share = adoption.satisfied_share if market.satisfied_share is None else market.satisfied_share
+    would_be_satisfied = np.ascontiguousarray(rules.draw_satisfied(satisfied_share, n, rng))
     resistance = rng.standard_exponential(n)
     u_cause = rng.random(n)
     theta = rules.draw_thresholds(adoption.threshold, n, rng) if rule == "threshold" else np.zeros(0)
@@ -334,6 +365,10 @@ def run_array(
 
     initial = np.ascontiguousarray(initial, dtype=np.int32)
     state = np.full(n, POTENTIAL, dtype=np.int8)
+    opens_at = np.zeros(0, dtype=np.int32) if market.opens_at is None else market.opens_at
+    if opens_at.size:  # markets that grow: closed until their period; a seed there is left out
+        state[opens_at > 0] = CLOSED
+        initial = np.ascontiguousarray(initial[opens_at[initial] == 0])
     state[initial] = CUSTOMER
     adoption_step = np.full(n, -1, dtype=np.int32)
     adoption_step[initial] = 0
@@ -353,6 +388,7 @@ def run_array(
         np.ascontiguousarray(theta, dtype=np.float64), state, adoption_step, referrer, initial,
         rule == "cascade" or programme is not None,
         idle_ledger() if programme is None else programme.ledger,
+        opens_at,
     )
 
     adopted = adoption_step >= 0
@@ -368,6 +404,10 @@ def run_array(
         adoption_time=np.where(adopted, adoption_step / spp, np.nan),
         report_every=run.report_every,
         extra={} if programme is None else programme.record(),
+        segment=market.segment,
+        segment_names=market.segment_names,
+        value=market.value,
+        opens_at=market.opens_at,
     )
 
 

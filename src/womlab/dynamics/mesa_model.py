@@ -97,6 +97,7 @@ except ImportError:  # Mesa <= 3.4
     _MesaScenario = None
 
 from womlab import rules  # noqa: E402
+from womlab.dynamics.markets import market_inputs  # noqa: E402
 from womlab.dynamics.programme import start_programme  # noqa: E402
 from womlab.dynamics.run_result import RunResult  # noqa: E402
 from womlab.dynamics.streams import streams  # noqa: E402
@@ -117,11 +118,13 @@ def _flat_parameters() -> tuple[dict[str, str], dict[str, list[str]]]:
     fields = [
         (section, f.name)
         for section, cls in SECTIONS.items()
-        if section not in _NOT_FLAT_SECTIONS
+        if section not in _NOT_FLAT_SECTIONS and not hasattr(cls, "from_table")
         for f in dataclasses.fields(cls)
         if (section, f.name) not in _NOT_FLAT
     ]
     flat = {"name": "name", "seed": "seed"}
+    # a section with a file form of its own (segments, campaigns) is one parameter, in that form
+    flat.update({section: section for section, cls in SECTIONS.items() if hasattr(cls, "from_table")})
     flat.update({f"{section}_{name}": f"{section}.{name}" for section, name in fields})
     owners: dict[str, list[str]] = {}
     for section, name in fields:
@@ -158,7 +161,10 @@ def flat_parameters(scenario: Scenario) -> dict[str, Any]:
     """
     out: dict[str, Any] = {}
     for key, value in scenario.to_dict().items():
-        if isinstance(value, dict) and key in SECTIONS:
+        if key in SECTIONS and hasattr(SECTIONS[key], "from_table"):
+            if value:
+                out[key] = value
+        elif isinstance(value, dict) and key in SECTIONS:
             out.update({f"{key}_{k}": v for k, v in value.items() if f"{key}_{k}" in FLAT_PARAMETERS})
         elif key in FLAT_PARAMETERS:
             out[key] = value
@@ -250,8 +256,14 @@ class Organisation(FixedAgent):
         self.cell = cell
         self.organisation = organisation
         spec = model.womlab_scenario.adoption.talkers_per_customer
-        self.talkers = float(rules.draw_talkers(spec, 1, model.rng)[0])
+        market = model.market  # segments and calendar (dynamics.markets); None fields without them
+        own = None if market.talkers is None else market.talkers[organisation: organisation + 1]
+        self.talkers = float(rules.draw_talkers(spec, 1, model.rng, own)[0])
         adoption = model.womlab_scenario.adoption
+        self.satisfied_share = (adoption.satisfied_share if market.satisfied_share is None
+                                else float(market.satisfied_share[organisation]))
+        self.word_of_mouth_weight = (1.0 if market.word_of_mouth_weight is None
+                                     else float(market.word_of_mouth_weight[organisation]))
         self.threshold = (
             float(rules.draw_thresholds(adoption.threshold, 1, model.rng)[0]) if adoption.rule == "threshold" else None
         )
@@ -281,6 +293,9 @@ class Organisation(FixedAgent):
     def decide(self) -> None:
         """Compute phase: from the neighbours' state at the start of the step, draw whether to adopt."""
         model = self.model
+        opens_at = model.market.opens_at
+        if opens_at is not None and opens_at[self.organisation] > model.period:
+            return  # its part of the market has not opened: it feels nothing
         if model.complete:
             talking = model.talk_total  # a potential customer's own talk is 0
             total = model.talkers_total - self.talkers
@@ -289,7 +304,7 @@ class Organisation(FixedAgent):
             for other in self.neighbours:
                 talking += other.counted
             total = self.neighbour_talkers
-        probability, external = model.chances(talking, total, self.threshold)
+        probability, external = model.chances(talking, total, self.threshold, organisation=self.organisation)
         rng = model.rng
         self.adopting = bool(rng.random() < probability)
         if not self.adopting:
@@ -319,7 +334,7 @@ class Organisation(FixedAgent):
         self.adoption_period = period
         self.adoption_step = model.step_count
         self.referrer = self._cause
-        self.satisfied = bool(rules.draw_satisfied(model.womlab_scenario.adoption.satisfied_share, 1, model.rng)[0])
+        self.satisfied = bool(rules.draw_satisfied(self.satisfied_share, 1, model.rng)[0])
         self.fresh_until = model.step_count + model.steps_per_period  # newly satisfied for one period
         self.talk = self.counted = model.talk_weight(self)
 
@@ -479,6 +494,10 @@ class ReferralModel(mesa.Model):
         super().__init__(rng=rng)  # model.rng is the dynamics stream itself
         # None without a programme; enrolment has its own stream, model.rng is not advanced
         self.programme = start_programme(scenario, network, self.rng)
+        # segments and the campaign calendar: their own stream too (dynamics.markets)
+        self.market = market_inputs(scenario, network, self.rng)
+        if self.market.opens_at is not None:  # markets that grow: a seed in a part not yet open is left out
+            initial = initial[self.market.opens_at[initial] == 0]
 
         self.womlab_scenario = scenario  # not `scenario`: Mesa 3.5's Model.scenario is its own
         self.network = network
@@ -504,8 +523,16 @@ class ReferralModel(mesa.Model):
             agent.meet_neighbours()
         self.talkers_total = float(sum(a.talkers for a in organisations))
 
+        # successive product generations (dynamics.products in the array engine): the same rules, per agent
+        self.generations = scenario.product.generations(scenario.adoption) if scenario.product.active else None
+        for agent in organisations:
+            agent.generation = 0
+            agent.product_start = [-1] * (0 if self.generations is None else len(self.generations))
         for i in initial.tolist():
             organisations[i].adopt(0)
+            if self.generations is not None:
+                organisations[i].generation = 1
+                organisations[i].product_start[0] = 0
         self.initial = np.sort(initial).astype(np.int32)
         self.potential = AgentSet([a for a in organisations if not a.customer], random=self.random)
         self.customers = int(initial.size)
@@ -532,17 +559,23 @@ class ReferralModel(mesa.Model):
         """The agent of organisation ``organisation`` (0..N−1)."""
         return self._by_id[organisation]
 
-    def chances(self, talking: float, total: float, threshold: float | None = None) -> tuple[float, float]:
+    def chances(self, talking: float, total: float, threshold: float | None = None, *,
+                organisation: int | None = None) -> tuple[float, float]:
         """Step probability and external share for a potential customer with T = ``talking``, D = ``total``.
 
-        Straight from :mod:`womlab.rules`; remembered per (T, D) — the formulas are pure
-        functions and most organisations share a few values — except under
-        ``threshold``, where each organisation's own θᵢ enters.
+        Straight from :mod:`womlab.rules`; remembered per (T, D, p, q) — the formulas are
+        pure functions and most organisations share a few values — except under
+        ``threshold``, where each organisation's own θᵢ enters. With segments or a campaign
+        calendar, ``organisation`` gives its own p (this period's) and q.
         """
-        key = (talking, total)
+        rule, p, q, cap = self._rule
+        if organisation is not None and (self.market.external is not None or self.market.external_weight is not None):
+            p = self.market.external_rate(self.period, organisation, p)
+        if organisation is not None and self.market.word_of_mouth_weight is not None:
+            q = q * float(self.market.word_of_mouth_weight[organisation])
+        key = (talking, total, p, q)
         found = self._chances.get(key) if threshold is None else None
         if found is None:
-            rule, p, q, cap = self._rule
             theta = 0.0 if threshold is None else float(threshold)
             t, d = float(talking), float(total)
             rate = rules.rate(rule, t, d, theta, p, q, cap)
@@ -586,6 +619,9 @@ class ReferralModel(mesa.Model):
             return
         self.step_count += 1
         self.period = -(-self.step_count // self.steps_per_period)
+        if self.generations is not None:  # successive product generations ([[product]])
+            self._products_step()
+            return
         if self.womlab_scenario.adoption.rule == "cascade":
             self._refresh_cascade_talk()
         if self.programme is not None:
@@ -610,6 +646,80 @@ class ReferralModel(mesa.Model):
         self.satisfied_customers += sum(1 for a in adopters if a.satisfied)
         self.datacollector.collect(self)
 
+    def _product_record(self) -> dict:
+        """The product generations' record (as :func:`womlab.dynamics.products.run_products` gives it)."""
+        if self.generations is None:
+            return {}
+        spp = self.steps_per_period
+        steps = np.array([a.product_start for a in self._by_id], dtype=np.int64)
+        return {"product_start": np.where(steps >= 0, (steps + spp - 1) // spp, -1).astype(np.int32),
+                "product_names": tuple(g.name for g in self.generations),
+                "product_values": np.array([g.value_per_period for g in self.generations])}
+
+    def _heard(self, agent: Organisation, totals: np.ndarray) -> np.ndarray:
+        """Tᵍ for every generation g (index g − 1): talkers of the agent's satisfied neighbours on it."""
+        if self.complete:
+            heard = totals.copy()
+            if agent.generation > 0 and agent.satisfied:
+                heard[agent.generation - 1] -= agent.talkers
+            return heard
+        heard = np.zeros(totals.size)
+        for other in agent.neighbours:
+            if other.generation > 0 and other.satisfied:
+                heard[other.generation - 1] += other.talkers
+        return heard
+
+    def _products_step(self) -> None:
+        """One step with product generations: entry by word of mouth about any generation, taking
+        what talking neighbours use; upgrades at :func:`womlab.rules.upgrade_rate`; all moves at once
+        (the rules of :mod:`womlab.dynamics.products`, drawn as the Mesa model draws: a fresh uniform
+        per decision)."""
+        gens, rng, agents = self.generations, self.rng, self._by_id
+        newest = sum(1 for g in gens if g.launch <= self.period)
+        share = rules.rule_code("share")
+        totals = np.zeros(len(gens))
+        if self.complete:
+            for a in agents:
+                if a.generation > 0 and a.satisfied:
+                    totals[a.generation - 1] += a.talkers
+        moves = []
+        for agent in agents:
+            g = agent.generation
+            if g == newest and g > 0:
+                continue
+            heard = self._heard(agent, totals)
+            if g == 0:
+                total = self.talkers_total - agent.talkers if self.complete else agent.neighbour_talkers
+                r = rules.rate(share, float(heard.sum()), float(total), 0.0, gens[0].external, gens[0].word_of_mouth,
+                               0.0)
+                options, fallback = heard[:newest], newest
+            else:
+                newer = float(heard[g:].sum())
+                r = rules.upgrade_rate(gens[g].external, gens[g].word_of_mouth, newer, newer + float(heard[g - 1]))
+                options, fallback = heard[g:newest], g + 1
+            if rng.random() >= rules.probability(r, self.time_step, self._form):
+                continue
+            chosen = fallback
+            if options.sum() > 0:
+                goal = rng.random() * options.sum()
+                chosen = (newest - options.size) + 1 + int(np.searchsorted(np.cumsum(options), goal, side="right"))
+                chosen = min(chosen, newest)
+            moves.append((agent, chosen))
+        self.new_customers = 0
+        for agent, chosen in moves:
+            if agent.generation == 0:
+                agent.customer = True
+                agent.adoption_period = self.period
+                agent.adoption_step = self.step_count
+                self.potential.remove(agent)
+                self.new_customers += 1
+            agent.generation = chosen
+            agent.product_start[chosen - 1] = self.step_count
+            agent.satisfied = bool(rules.draw_satisfied(gens[chosen - 1].satisfied_share, 1, rng)[0])
+        self.customers += self.new_customers
+        self.satisfied_customers = sum(1 for a in agents if a.customer and a.satisfied)
+        self.datacollector.collect(self)
+
     def result(self) -> RunResult:
         """The run so far as a :class:`~womlab.dynamics.RunResult` (the same object the array engine returns).
 
@@ -631,7 +741,11 @@ class ReferralModel(mesa.Model):
             engine="mesa",
             adoption_time=np.where(step >= 0, step / run.steps_per_period, np.nan),
             report_every=run.report_every,
-            extra={} if self.programme is None else self.programme.record(),
+            extra=self.programme.record() if self.programme is not None else self._product_record(),
+            segment=self.market.segment,
+            segment_names=self.market.segment_names,
+            value=self.market.value,
+            opens_at=self.market.opens_at,
         )
 
 

@@ -70,6 +70,15 @@ class RunResult:
         not record it (Mesa).
     report_every : float
         Default spacing of :meth:`curve` rows (1/n of a period; 1 = the period grid).
+    segment : numpy.ndarray, optional
+        int32 segment code per organisation (``[segments]`` or a node file's ``segment``
+        column), names in ``segment_names``; None without segments.
+    value : numpy.ndarray, optional
+        Value per period of each organisation as a customer (segment value × node ``size``);
+        None: 1 each.
+    opens_at : numpy.ndarray, optional
+        int32 period in which each organisation entered the market (``market.opens``; 0 = from
+        the start); None when the whole market is open from period 0.
     """
 
     periods: int
@@ -84,6 +93,10 @@ class RunResult:
     extra: dict = field(default_factory=dict)
     adoption_time: np.ndarray | None = None
     report_every: float = 1.0
+    segment: np.ndarray | None = None
+    segment_names: tuple[str, ...] = ()
+    value: np.ndarray | None = None
+    opens_at: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -121,8 +134,111 @@ class RunResult:
         np.add.at(counts, (self.adoption_period[adopted], self.region[adopted]), 1)
         return np.cumsum(counts, axis=0)
 
+    @property
+    def market_size(self) -> np.ndarray:
+        """Organisations in the market at each period (all N unless parts open later), int64."""
+        if self.opens_at is None:
+            return np.full(self.periods + 1, self.n, dtype=np.int64)
+        return np.cumsum(np.bincount(self.opens_at, minlength=self.periods + 1)[: self.periods + 1])
+
+    @property
+    def share_of_current_market(self) -> np.ndarray:
+        """Customers as a share of the organisations in the market at each period."""
+        return self.customers / np.maximum(self.market_size, 1)
+
+    def product_curves(self) -> pd.DataFrame:
+        """Per period and product generation (``[[product]]`` runs): customers on it, new customers
+        (organisations whose first product it is), upgrades (arrivals from an earlier generation)
+        and value (customers × its value per period); then the portfolio as product ``all``.
+
+        Raises
+        ------
+        ValueError
+            On a run without product generations.
+        """
+        start = self.extra.get("product_start")
+        if start is None:
+            raise ValueError("product curves need a run with product generations ([[product]]); this run has none")
+        names, values = self.extra["product_names"], self.extra["product_values"]
+        rows, G = self.periods + 1, start.shape[1]
+        first = np.where(start >= 0, start, rows).min(axis=1)
+        arrivals = np.zeros((rows, G), dtype=np.int64)
+        new = np.zeros((rows, G), dtype=np.int64)
+        leaving = np.zeros((rows, G), dtype=np.int64)
+        for g in range(G):
+            on = start[:, g] >= 0
+            np.add.at(arrivals[:, g], start[on, g], 1)
+            np.add.at(new[:, g], start[on & (start[:, g] == first), g], 1)
+            later = np.where(start[:, g + 1:] >= 0, start[:, g + 1:], rows).min(axis=1) if g + 1 < G else None
+            if later is not None:
+                gone = on & (later < rows)
+                np.add.at(leaving[:, g], later[gone], 1)
+        customers = np.cumsum(arrivals - leaving, axis=0)
+        frames = [pd.DataFrame({"period": np.arange(rows), "product": names[g], "customers": customers[:, g],
+                                "new_customers": new[:, g], "upgrades": arrivals[:, g] - new[:, g],
+                                "value": customers[:, g] * float(values[g])}) for g in range(G)]
+        frames.append(pd.DataFrame({"period": np.arange(rows), "product": "all", "customers": customers.sum(axis=1),
+                                    "new_customers": new.sum(axis=1), "upgrades": (arrivals - new).sum(axis=1),
+                                    "value": customers @ values.astype(float)}))
+        return pd.concat(frames, ignore_index=True)
+
+    def groups(self, by: str) -> tuple[np.ndarray, tuple[str, ...]]:
+        """Each organisation's group code and the groups' names: ``by = "segment"`` or ``"region"``.
+
+        Raises
+        ------
+        ValueError
+            For another ``by``, or ``"segment"`` on a run without segments.
+        """
+        if by == "region":
+            k = int(self.region.max()) + 1 if self.n else 0
+            return self.region, tuple(str(r) for r in range(k))
+        if by == "segment":
+            if self.segment is None:
+                raise ValueError('by = "segment" needs segments ([segments], or a node file column segment); '
+                                 "this run has none")
+            return self.segment, self.segment_names
+        raise ValueError(f'by must be "segment" or "region", got {by!r}')
+
+    def curve_by(self, by: str) -> pd.DataFrame:
+        """Per period and group (``by = "segment"`` or ``"region"``): organisations, customers, new
+        customers, satisfied customers, share of the group, and value (customers × value per period).
+
+        Examples
+        --------
+        >>> import numpy as np
+        >>> r = RunResult(periods=2, adoption_period=np.array([0, 1, -1, 2], dtype=np.int32),
+        ...               referrer=np.full(4, -1, dtype=np.int32), satisfied=np.array([1, 1, 0, 0], bool),
+        ...               region=np.array([0, 0, 1, 1], dtype=np.int32), initial=np.array([0]), engine="array")
+        >>> r.curve_by("region")[["period", "group", "customers", "share"]].values.tolist()
+        [[0, '0', 1, 0.5], [0, '1', 0, 0.0], [1, '0', 2, 1.0], [1, '1', 0, 0.0], [2, '0', 2, 1.0], [2, '1', 1, 0.5]]
+        """
+        codes, names = self.groups(by)
+        k, rows = len(names), self.periods + 1
+        adopted = self.adoption_period >= 0
+        new = np.zeros((rows, k), dtype=np.int64)
+        np.add.at(new, (self.adoption_period[adopted], codes[adopted]), 1)
+        sat = np.zeros((rows, k), dtype=np.int64)
+        np.add.at(sat, (self.adoption_period[self.satisfied], codes[self.satisfied]), 1)
+        value = np.zeros((rows, k))
+        np.add.at(value, (self.adoption_period[adopted], codes[adopted]),
+                  1.0 if self.value is None else self.value[adopted])
+        sizes = np.bincount(codes, minlength=k)
+        customers = np.cumsum(new, axis=0)
+        return pd.DataFrame({
+            "period": np.repeat(np.arange(rows), k),
+            "group": np.tile(np.array(names, dtype=object), rows),
+            "organisations": np.tile(sizes, rows),
+            "customers": customers.ravel(),
+            "new_customers": new.ravel(),
+            "satisfied_customers": np.cumsum(sat, axis=0).ravel(),
+            "share": (customers / np.maximum(sizes, 1)).ravel(),
+            "value": np.cumsum(value, axis=0).ravel(),
+        })
+
     def curve(self, every: float | None = None) -> pd.DataFrame:
-        """Table of period, time, customers, new_customers, satisfied_customers.
+        """Table of period, time, customers, new_customers, satisfied_customers (and, when parts
+        of the market open later, market, share_of_current_market, share_of_final_market).
 
         Parameters
         ----------
@@ -142,7 +258,7 @@ class RunResult:
             raise ValueError(f"every must be 1/n of a period for a whole n >= 1, got {every!r}")
         if per == 1:
             t = np.arange(self.periods + 1)
-            return pd.DataFrame(
+            return self._with_market(pd.DataFrame(
                 {
                     "period": t,
                     "time": t.astype(float),
@@ -150,7 +266,7 @@ class RunResult:
                     "new_customers": self.new_customers,
                     "satisfied_customers": self.satisfied_customers,
                 }
-            )
+            ))
         if self.adoption_time is None:
             raise ValueError(f"a report grid finer than one period needs adoption times; the {self.engine} engine keeps none")
         slots = self.periods * per
@@ -161,7 +277,7 @@ class RunResult:
         new = np.bincount(row, minlength=slots + 1)[: slots + 1]
         sat = np.bincount(row[self.satisfied[seen]], minlength=slots + 1)[: slots + 1]
         k = np.arange(slots + 1)
-        return pd.DataFrame(
+        return self._with_market(pd.DataFrame(
             {
                 "period": (k + per - 1) // per,
                 "time": k / per,
@@ -169,7 +285,19 @@ class RunResult:
                 "new_customers": new,
                 "satisfied_customers": np.cumsum(sat),
             }
-        )
+        ))
+
+    def _with_market(self, table: pd.DataFrame) -> pd.DataFrame:
+        """A market that grows (``market.opens``): add the organisations in the market at each row's
+        period (``market``), customers' share of it (``share_of_current_market``) and of the final
+        market (``share_of_final_market``)."""
+        if self.opens_at is None:
+            return table
+        size = self.market_size[table["period"].to_numpy()]
+        table["market"] = size
+        table["share_of_current_market"] = table["customers"] / np.maximum(size, 1)
+        table["share_of_final_market"] = table["customers"] / self.n
+        return table
 
     def to_frame(self, network: ReferralNetwork | None = None, attributes: pd.DataFrame | None = None) -> pd.DataFrame:
         """One row per organisation: who it is and how it became a customer.
@@ -188,7 +316,8 @@ class RunResult:
         Returns
         -------
         pandas.DataFrame
-            ``id``, ``region`` (code), the attributes, ``customer`` (at the horizon),
+            ``id``, ``region`` (code), with segments ``segment`` and ``value_per_period``, in a
+            market that grows ``opens_in_period``, the attributes, ``customer`` (at the horizon),
             ``initial``, ``adoption_period`` (period 0 for the initial customers; missing
             if never), ``adoption_time`` (NaN if never or not recorded), ``referrer`` (id
             of the satisfied customer whose word of mouth brought it in; missing for
@@ -231,6 +360,12 @@ class RunResult:
         adoption_period = pd.array(np.where(adopted, self.adoption_period, 0), dtype="Int64")
         adoption_period[~adopted] = pd.NA
         columns: dict[str, Any] = {"id": ids, "region": self.region.astype(np.int64)}
+        if self.segment is not None:  # segments ([segments] or a node file's column): name, and value per period
+            columns["segment"] = np.array(self.segment_names, dtype=object)[self.segment]
+        if self.value is not None:
+            columns["value_per_period"] = self.value
+        if self.opens_at is not None:
+            columns["opens_in_period"] = self.opens_at.astype(np.int64)
         if attributes is not None:
             if len(attributes) != n:
                 raise NetworkError(f"attributes has {len(attributes)} rows but the run had {n} organisations")

@@ -25,7 +25,12 @@ from womlab.networks.network import ReferralNetwork
 from womlab.networks.tables import from_edge_table
 from womlab.scenario.checks import found_columns, utf8_text
 
-__all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts"]
+__all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts", "read_node_traits", "NODE_TRAITS"]
+
+#: Optional node-file columns that describe an organisation (besides ``id`` and ``region``):
+#: its segment (text) and three numbers >= 0 — ``size`` (a weight for value), ``external`` and
+#: ``word_of_mouth`` (its own multipliers of p and q).
+NODE_TRAITS = ("segment", "size", "external", "word_of_mouth")
 
 def _text(path: str | Path, what: str) -> str:
     """The file's text, or one line saying why it is not UTF-8 text (never its contents)."""
@@ -135,3 +140,45 @@ def _facts(edges: tuple, nodes: tuple | None) -> tuple[int, float, int]:
         warnings.simplefilter("ignore")
         network = read_edgelist(edges[0], None if nodes is None else nodes[0])
     return network.n, (2.0 * network.ties / network.n if network.n else 0.0), network.regions
+
+
+def read_node_traits(nodes_path: str | Path) -> pd.DataFrame:
+    """The node file's optional columns ``segment``, ``size``, ``external``, ``word_of_mouth``, in node order.
+
+    Only the columns present are returned (an empty table when none is); ``segment`` as text,
+    the others as float. Remembered per file version.
+
+    Raises
+    ------
+    NetworkError
+        One line naming the file and the column: an empty cell (with its row; the header is
+        row 1), or a number column holding something other than a finite number >= 0.
+    """
+    p = Path(nodes_path)
+    return _traits(str(p), p.stat().st_size, p.stat().st_mtime_ns).copy()
+
+
+@lru_cache(maxsize=32)
+def _traits(path: str, size: int, mtime: int) -> pd.DataFrame:
+    table = _read_table(path, ("id",), "nodes_path")
+    out = pd.DataFrame(index=range(len(table)))
+    for column in NODE_TRAITS:
+        if column not in table.columns:
+            continue
+        values = table[column].str.strip()
+        empty = values.isna() | (values == "")
+        if empty.any():
+            rows = ", ".join(str(int(r) + 2) for r in np.flatnonzero(empty.to_numpy())[:5])
+            raise NetworkError(f"network.nodes_path {path!r}: column {column!r} has {int(empty.sum())} empty cell(s) "
+                               f"(row {rows}); allowed: a value in every row")
+        if column == "segment":
+            out[column] = values.to_numpy()
+            continue
+        numbers = pd.to_numeric(values, errors="coerce")
+        bad = numbers.isna() | ~np.isfinite(numbers) | (numbers < 0)
+        if bad.any():
+            at = int(np.flatnonzero(bad.to_numpy())[0])
+            raise NetworkError(f"network.nodes_path {path!r}: column {column!r} row {at + 2} must be a finite number "
+                               f">= 0, got {values.iloc[at]!r}")
+        out[column] = numbers.to_numpy(dtype=float)
+    return out

@@ -27,6 +27,7 @@ from womlab.results.figures import (
     strategy_colour,
 )
 from womlab.results.fit import fit_figure, overlay_observed
+from womlab.results.groups import group_figure, product_figure
 from womlab.results.report import sensitivity_table, sweep_figures, sweep_summary, write_report
 from womlab.results.save import (
     check_output_folder,
@@ -72,4 +73,6 @@ __all__ = [
     "fit_figure",
     "save_fit",
     "overlay_observed",
+    "group_figure",
+    "product_figure",
 ]

@@ -17,7 +17,7 @@ from pathlib import Path
 from types import SimpleNamespace
 from typing import Any
 
-from womlab.errors import StoreError
+from womlab.errors import ScenarioError, StoreError
 from womlab.results.figures import (
     FIGURE_FORMATS,
     adoption_figure,
@@ -29,6 +29,7 @@ from womlab.results.figures import (
     seeding_figure,
 )
 from womlab.results.fit import fit_figure
+from womlab.results.groups import group_figure, product_figure
 from womlab.scenario import Scenario
 from womlab.store import FolderWriter, check_results_folder, manifest
 from womlab.store.folders import file_sha256
@@ -156,8 +157,14 @@ def _save(command: str, study: Any, out: str | Path, tables: dict[str, Any], fig
 
 def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisations: str | None = None,
                force: bool = False, figure_format: str = "png", figure_size: tuple[float, float] | None = None,
-               command_line: list[str] | None = None, observed: Any = None) -> list[Path]:
+               command_line: list[str] | None = None, observed: Any = None, by: str | None = None) -> list[Path]:
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
+
+    With product generations (``[[product]]``) also ``products.csv`` (per replicate, period and
+    product), ``products_summary.csv`` and ``products.png`` (:func:`womlab.results.groups.product_figure`).
+    With ``by = "segment"`` or ``"region"`` also ``curves_by_<by>.csv``, ``summary_by_<by>.csv``,
+    ``metrics_by_<by>.csv`` and ``adoption_by_<by>.png`` (one line per group,
+    :func:`womlab.results.groups.group_figure`).
 
     With ``organisations = "parquet"`` (or ``"csv"``) also ``organisations.parquet``
     (``.csv``): one row per replicate and organisation, :meth:`womlab.Batch.organisations`
@@ -183,6 +190,8 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisati
         Recorded in the manifest.
     observed : ObservedSeries, optional
         Observed points overlaid on the figure (:func:`womlab.read_observed`).
+    by : {"segment", "region"}, optional
+        Also write the tables and figure split by group.
 
     Returns the paths written.
 
@@ -190,9 +199,24 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisati
     ------
     StoreError
         If ``out`` is refused (:func:`check_output_folder`) or cannot be written.
+    ScenarioError
+        If ``by = "segment"`` and the runs have no segments (before anything is written).
     """
     tables = {"curves.csv": batch.curves(), "summary.csv": batch.summary(), "metrics.csv": batch.metrics()}
     figures = {"adoption": lambda: adoption_figure(batch, size=figure_size, observed=observed)} if figure else {}
+    if batch.runs and "product_start" in batch.runs[0].extra:  # product generations
+        tables.update({"products.csv": batch.product_curves(), "products_summary.csv": batch.product_summary()})
+        if figure:
+            figures["products"] = lambda: product_figure(batch, size=figure_size)
+    if by is not None:
+        try:
+            batch.runs[0].groups(by)
+        except ValueError as exc:
+            raise ScenarioError(f"--by {by}: {exc}") from None
+        tables.update({f"curves_by_{by}.csv": batch.curves(by=by), f"summary_by_{by}.csv": batch.summary(by=by),
+                       f"metrics_by_{by}.csv": batch.metrics(by=by)})
+        if figure:
+            figures[f"adoption_by_{by}"] = lambda: group_figure(batch, by, size=figure_size)
     return _save("run", batch, out, tables, figures, {}, force=force, figure_format=figure_format,
                  command_line=command_line, float_formats={"curves.csv": None}, organisations=organisations,
                  organisation_table=batch.organisations)
@@ -264,8 +288,9 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
 
     Files: ``compare_curves.csv``, ``compare_metrics.csv``, ``compare_gaps.csv``,
     ``compare_fits.csv``, ``compare_replicates.csv`` (per-replicate metrics, fits and
-    gaps to the reference model), ``comparison.png``, ``manifest.json``. Options as
-    :func:`save_batch`.
+    gaps to the reference model), ``comparison.png``, ``manifest.json``; with product
+    generations also ``compare_products.csv`` (each generation beside the mean-field recursion
+    and Norton & Bass) and ``products.png``. Options as :func:`save_batch`.
 
     Raises
     ------
@@ -280,6 +305,11 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
         "compare_replicates.csv": comparison.replicate_table(),
     }
     figures = {"comparison": lambda: comparison_figure(comparison, size=figure_size, observed=observed)} if figure else {}
+    batch = comparison.batch
+    if batch.runs and "product_start" in batch.runs[0].extra:  # product generations beside Norton-Bass
+        tables["compare_products.csv"] = batch.product_summary()
+        if figure:
+            figures["products"] = lambda: product_figure(batch, size=figure_size)
     sf = comparison.stock_flow_fit
     extra = {
         "comparison": comparison.settings,

@@ -28,6 +28,7 @@ from womlab.rules.adoption import (
     step_probability,
     talk_weight,
     talk_weights,
+    upgrade_rate,
     wom_part,
     word_of_mouth_part,
 )
@@ -52,6 +53,7 @@ __all__ = [
     "draw_satisfied",
     "draw_thresholds",
     "talk_weights",
+    "upgrade_rate",
     "word_of_mouth_part",
     "compiled",
     "check_numba",

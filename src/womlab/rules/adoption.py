@@ -89,6 +89,7 @@ __all__ = [
     "rate",
     "wom_part",
     "external_part",
+    "upgrade_rate",
     "probability",
     "hazard",
     "talk_weight",
@@ -169,6 +170,28 @@ def rate(rule: int, talking: float, total: float, threshold: float, p: float, q:
     if rule == CAPPED and r > cap:
         return cap
     return r
+
+
+@compiled
+def upgrade_rate(p: float, q: float, newer: float, current: float) -> float:
+    """Rate per period at which a customer of a product generation moves to a later one.
+
+    ``newer``: the talkers of its satisfied customer neighbours on a later generation; ``current``:
+    those on its own generation or later. The rate is p + q·newer/current (p where no neighbour on
+    its generation or later talks): on the complete network newer/current is the share of the
+    generation's customers who have moved on, the F of Norton & Bass's upgrade hazard p + q·F.
+
+    References
+    ----------
+    Norton, J. A. & Bass, F. M. (1987). A diffusion theory model of adoption and substitution for
+    successive generations of high-technology products. Management Science 33(9), 1069–1086.
+
+    Examples
+    --------
+    >>> upgrade_rate(0.02, 0.5, 1.0, 4.0)
+    0.145
+    """
+    return p + q * newer / current if current > 0 else p
 
 
 @compiled
@@ -358,17 +381,25 @@ def step_hazard(rate: np.ndarray | float, dt: float, form: str) -> np.ndarray:
     return _steps(rate, dt, form, True)
 
 
-def draw_talkers(talkers: Talkers, n: int, rng: np.random.Generator) -> np.ndarray:
-    """Talkers per organisation (float32), drawn once per run: fixed or Poisson(mean)."""
+def draw_talkers(talkers: Talkers, n: int, rng: np.random.Generator, mean: np.ndarray | None = None) -> np.ndarray:
+    """Talkers per organisation (float32), drawn once per run: fixed or Poisson(mean).
+
+    ``mean`` (one value per organisation: segments) replaces ``talkers.mean``; the
+    distribution stays ``talkers.distribution``.
+    """
+    m = talkers.mean if mean is None else np.asarray(mean, dtype=np.float64)
     if talkers.distribution == "fixed":
-        return np.full(n, talkers.mean, dtype=np.float32)
+        return np.full(n, m, dtype=np.float32) if mean is None else np.asarray(m, dtype=np.float32).copy()
     if talkers.distribution == "poisson":
-        return rng.poisson(talkers.mean, size=n).astype(np.float32)
+        return rng.poisson(m, size=n).astype(np.float32)
     raise ValueError(f"talkers distribution must be fixed or poisson, got {talkers.distribution!r}")
 
 
-def draw_satisfied(satisfied_share: float, n: int, rng: np.random.Generator) -> np.ndarray:
-    """Whether each organisation would be satisfied once a customer (bool), drawn up front."""
+def draw_satisfied(satisfied_share: float | np.ndarray, n: int, rng: np.random.Generator) -> np.ndarray:
+    """Whether each organisation would be satisfied once a customer (bool), drawn up front.
+
+    ``satisfied_share`` is one probability, or one per organisation (segments).
+    """
     return rng.random(n) < satisfied_share
 
 

@@ -13,12 +13,17 @@ See :mod:`womlab.scenario.tree` for the file format.
 
 from __future__ import annotations
 
+from womlab.scenario.fit_spec import PRIOR_DISTRIBUTIONS, FitSpec, Prior
+from womlab.scenario.labels import field_label
+from womlab.scenario.markets import Campaign, Campaigns, Product, Products, Segment, Segments
+from womlab.scenario.resources import Estimate, check_resources, estimate_resources
 from womlab.scenario.sections import (
     CLOCKS,
     CONTINUOUS_RULES,
     ENGINES,
     ENROLMENTS,
     NETWORK_KINDS,
+    NO_EFFECT,
     REWARD_SCHEMES,
     RULES,
     STEP_FORMS,
@@ -34,11 +39,8 @@ from womlab.scenario.sections import (
     Study,
     Talkers,
     Thresholds,
+    no_effect,
 )
-from womlab.scenario.fit_spec import PRIOR_DISTRIBUTIONS, FitSpec, Prior
-from womlab.scenario.labels import field_label
-from womlab.scenario.resources import Estimate, check_resources, estimate_resources
-from womlab.scenario.sections import NO_EFFECT, no_effect
 from womlab.scenario.shipped import demo_names, demo_path, write_demo
 from womlab.scenario.sweep_spec import SWEEP_DESIGNS, Axis, SweepSpec
 from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario, parse_assignment
@@ -64,6 +66,12 @@ __all__ = [
     "Referral",
     "FitSpec",
     "Prior",
+    "Segment",
+    "Segments",
+    "Campaign",
+    "Campaigns",
+    "Product",
+    "Products",
     "Scenario",
     "SECTIONS",
     "field_type",

@@ -86,6 +86,10 @@ class Market:
         Alternative to ``initial_customers``: a share of N, rounded to the nearest whole.
     regions : int
         Number of regions organisations are split into.
+    opens : list of tables, optional
+        Parts of the market that enter later, ``[{region = 3, period = 12}, {segment = "...",
+        period = 5}]`` (:class:`womlab.scenario.markets.Opening`): until then their organisations
+        are not potential customers, feel no influence and are not counted in the market.
     """
 
     section: ClassVar[str] = "market"
@@ -93,6 +97,7 @@ class Market:
     initial_customers: int | None = None
     initial_share: float | None = None
     regions: int = 1
+    opens: tuple[Any, ...] | None = None
 
     def check(self, scenario: ScenarioParts) -> None:
         positive_int("market.organisations", self.organisations)

@@ -182,6 +182,12 @@ def field_type_in(root: type, dotted: str) -> type:
         unknown_field(dotted if len(parts) == 1 else parts[0], top)
     hint: Any = hints(root)[parts[0]]
     for depth in range(1, len(parts)):
+        if getattr(hint, "KEYED_BY_NAME", None) is not None:  # a section keyed by name: segments.NAME.FIELD
+            if depth == len(parts) - 1:
+                raise ScenarioError(f"{dotted} is not a field; name one as {parts[0]}.NAME.FIELD "
+                                    f"({', '.join(n for n in field_names(hint.KEYED_BY_NAME) if n != 'name')})")
+            hint = hint.KEYED_BY_NAME
+            continue
         if not dataclasses.is_dataclass(hint):
             unknown_field(".".join(parts[: depth + 1]), [])
         known = field_names(hint)

@@ -90,6 +90,7 @@ from typing import Any
 from womlab.errors import ScenarioError, ScenarioWarning
 from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field, utf8_text
 from womlab.scenario.fit_spec import FitSpec, Prior, parse_priors
+from womlab.scenario.markets import Campaigns, Products, Segments, check_openings
 from womlab.scenario.registry import network_file_facts, network_file_kinds
 from womlab.scenario.sections import (
     Adoption,
@@ -119,6 +120,9 @@ SECTIONS: dict[str, type] = {
     "referral": Referral,
     "sweep": SweepSpec,
     "fit": FitSpec,
+    "segments": Segments,
+    "campaign": Campaigns,
+    "product": Products,
 }
 _NESTED: dict[tuple[str, str], type] = {
     ("adoption", "talkers_per_customer"): Talkers,
@@ -151,12 +155,16 @@ class Scenario:
     referral: Referral = field(default_factory=Referral)
     sweep: SweepSpec = field(default_factory=SweepSpec)
     fit: FitSpec = field(default_factory=FitSpec)
+    segments: Segments = field(default_factory=Segments)
+    campaign: Campaigns = field(default_factory=Campaigns)
+    product: Products = field(default_factory=Products)
 
     def __post_init__(self) -> None:
         if not isinstance(self.seed, int) or self.seed < 0:
             fail("seed", self.seed, "a whole number >= 0")
         for key in SECTIONS:
             getattr(self, key).check(self)
+        check_openings(self)  # market.opens reads [segments] and [run], checked above
 
     # ------------------------------------------------------------------ construction
     @classmethod
@@ -173,7 +181,9 @@ class Scenario:
         for key, value in data.items():
             if key not in top_known:
                 unknown_field(key, top_known)
-            if key in SECTIONS:
+            if key in SECTIONS and hasattr(SECTIONS[key], "from_table"):  # a section with its own file form
+                kwargs[key] = SECTIONS[key].from_table(value, key)
+            elif key in SECTIONS:
                 kwargs[key] = _build_section(SECTIONS[key], key, value, base_dir)
             else:
                 kwargs[key] = coerce(value, hints(cls)[key], key)
@@ -347,6 +357,9 @@ def _with_changes(data: dict[str, Any], changes: Mapping[str, Any]) -> dict[str,
         parts = dotted.split(".")
         node = data
         for depth, part in enumerate(parts[:-1]):
+            if depth and hasattr(SECTIONS.get(parts[0]), "from_table"):  # checked by its own reader
+                node = node.setdefault(part, {})
+                continue
             known = ["name", "seed", *SECTIONS] if depth == 0 else field_names(_section_type(parts[:depth]))
             if part not in known:
                 unknown_field(".".join(parts[: depth + 1]), known)

@@ -55,12 +55,14 @@ from womlab.aggregate import (
     fit_bass,
     fit_capped_bass_difference,
     fit_replicates,
+    group_curves,
     mapped_parameters,
 )
 from womlab.dynamics import streams
 from womlab.networks import build_network
 from womlab.networks.given import GivenNetwork, as_network, mapped_with
 from womlab.scenario import Scenario
+from womlab.scenario.markets import openings
 from womlab.studies.intervals import bootstrap_interval
 from womlab.studies.metrics import pooled_gaps, pooled_metrics, replicate_gaps, replicate_metrics
 from womlab.studies.presenting import present
@@ -96,7 +98,14 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
             form=run.step_probability) / n,
         "degree_mean_field": degree_mean_field_curve(scenario, network),
     }
+    if _changing_market(scenario):  # segments, a calendar, openings: the segment model on the same step
+        curves["segment_model"] = group_curves(scenario)[0][:, 0]
     return curves
+
+
+def _changing_market(scenario: Scenario) -> bool:
+    return (scenario.adoption.rule in ("share", "count")
+            and (scenario.segments.active or scenario.campaign.active or bool(openings(scenario.market))))
 
 
 @dataclass(eq=False)
@@ -143,10 +152,13 @@ class Comparison:
     def reference(self) -> str:
         """The mapped aggregate curve the headline is measured against: ``bass_difference``
         (same grid and step form as the runs), ``bass_mapped`` (the Bass ODE) on the
-        continuous clock, or ``capped_bass_difference`` for the ``capped`` rule, whose ceiling the
-        Bass curves do not have."""
+        continuous clock, ``capped_bass_difference`` for the ``capped`` rule, whose ceiling the
+        Bass curves do not have, or ``segment_model`` with segments, a campaign calendar or
+        parts of the market opening later (:mod:`womlab.aggregate.markets`)."""
         if self.scenario.adoption.rule == "capped":
             return "capped_bass_difference"
+        if _changing_market(self.scenario):
+            return "segment_model"
         return "bass_mapped" if self.scenario.run.clock == "continuous" else "bass_difference"
 
     def curve_table(self) -> pd.DataFrame:

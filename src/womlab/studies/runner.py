@@ -27,7 +27,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from womlab.aggregate import aggregate_curve
+from womlab.aggregate import aggregate_curve, generations_difference, group_curves, mapped_generations, norton_bass
 from womlab.dynamics import CURVE_COLUMNS, RunResult, engine_for, streams
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
@@ -327,36 +327,115 @@ class Batch:
             self._aggregate = aggregate_curve(mapped_with(self.scenario, given))
         return self._aggregate
 
-    def curves(self) -> pd.DataFrame:
+    def product_curves(self) -> pd.DataFrame:
+        """Product generations (``[[product]]``): one row per replicate, period and product
+        (:meth:`womlab.dynamics.RunResult.product_curves`, with ``all`` for the portfolio)."""
+        frames = [run.product_curves() for run in self.runs]
+        for i, frame in enumerate(frames):
+            frame.insert(0, "replicate", i)
+        return pd.concat(frames, ignore_index=True)
+
+    def product_summary(self) -> pd.DataFrame:
+        """Per period and product: mean, 5 % and 95 % of its customers' share of the market and the
+        mean value, beside the mean-field recursion on the same step (``aggregate``) and the
+        Norton & Bass (1987) closed form (``norton_bass``: the whole market in the first
+        generation's potential, its word of mouth q₁·s₁, a generation launched in period k on sale
+        from time k − 1); the portfolio as product ``all``."""
+        s, n = self.scenario, self.scenario.market.organisations
+        table = self.product_curves()
+        table["share"] = table["customers"] / n
+        grouped = table.groupby(["product", "period"], sort=False)
+        out = grouped.agg(mean=("share", "mean"), value=("value", "mean")).reset_index()
+        out["q05"] = grouped["share"].quantile(0.05).to_numpy()
+        out["q95"] = grouped["share"].quantile(0.95).to_numpy()
+        m = mapped_generations(s)
+        run = s.run
+        x = generations_difference(run.periods, m["launch"], m["p"], m["q"], m["satisfied"], s.n_initial / n,
+                                   time_step=run.time_step, form=run.step_probability)
+        q = m["q"].copy()
+        q[0] *= m["satisfied"][0]
+        market = np.zeros(q.size)
+        market[0] = 1.0
+        closed = norton_bass(np.arange(run.periods + 1.0), np.maximum(m["launch"] - 1, 0), m["p"], q, market)
+        names = list(s.product.generations(s.adoption))
+        columns = {g.name: k for k, g in enumerate(names)}
+        out["aggregate"] = [x[t, columns[p]] if p in columns else x[t].sum() for p, t in zip(out["product"], out["period"])]
+        out["norton_bass"] = [closed[t, columns[p]] if p in columns else closed[t].sum()
+                              for p, t in zip(out["product"], out["period"])]
+        return out[["period", "product", "mean", "q05", "q95", "aggregate", "norton_bass", "value"]]
+
+    def group_shares(self, by: str) -> tuple[np.ndarray, tuple[str, ...]]:
+        """Customer share of each group per replicate and period: array (R, T + 1, K), and the groups'
+        names; ``by = "segment"`` or ``"region"`` (:meth:`womlab.dynamics.RunResult.curve_by`)."""
+        tables = [run.curve_by(by) for run in self.runs]
+        names = tuple(tables[0]["group"].iloc[: len(tables[0]) // (self.scenario.run.periods + 1)])
+        shares = np.stack([t["share"].to_numpy().reshape(-1, len(names)) for t in tables])
+        return shares, names
+
+    def group_aggregate(self, by: str) -> np.ndarray:
+        """The aggregate share per period and group (:func:`womlab.aggregate.group_curves`), shape (T + 1, K)."""
+        given = None if self.network is None else as_network(self.network)
+        scenario = mapped_with(self.scenario, given)
+        k = len(self.runs[0].groups(by)[1])
+        if scenario.adoption.rule not in ("share", "count"):
+            return np.full((scenario.run.periods + 1, k), np.nan)
+        curves, _ = group_curves(scenario, by)
+        if curves.shape[1] != k:  # regions of a network file: alike under the mean field
+            curves = np.repeat(group_curves(scenario)[0], k, axis=1)
+        return curves
+
+    def curves(self, by: str | None = None) -> pd.DataFrame:
         """One row per replicate and report time (``run.report_every``; by default per period):
-        replicate, period, time, customers, new_customers, satisfied_customers."""
+        replicate, period, time, customers, new_customers, satisfied_customers.
+
+        With ``by = "segment"`` or ``"region"``: one row per replicate, period and group, with
+        the group's organisations, customers, new and satisfied customers, share and value
+        (:meth:`womlab.dynamics.RunResult.curve_by`).
+        """
+        if by is not None:
+            frames = [run.curve_by(by) for run in self.runs]
+            for i, frame in enumerate(frames):
+                frame.insert(0, "replicate", i)
+            return pd.concat(frames, ignore_index=True)
         frames = []
         for i, run in enumerate(self.runs):
             c = run.curve(self.scenario.run.report_every)
             c.insert(0, "replicate", i)
             frames.append(c)
-        return pd.concat(frames, ignore_index=True)[["replicate", *CURVE_COLUMNS]]
+        table = pd.concat(frames, ignore_index=True)
+        extra = [c for c in table.columns if c not in ("replicate", *CURVE_COLUMNS)]  # market columns, if any
+        return table[["replicate", *CURVE_COLUMNS, *extra]]
 
-    def summary(self) -> pd.DataFrame:
-        """Per period: mean, sd, q05, q50, q95 of the customer share, and the aggregate prediction."""
-        shares = self.shares()
-        t = np.arange(shares.shape[1])
-        return pd.DataFrame(
-            {
-                "period": t,
-                "time": t.astype(float),
-                "mean": shares.mean(axis=0),
-                "sd": shares.std(axis=0, ddof=1) if len(self.runs) > 1 else np.zeros(t.size),
-                "q05": np.quantile(shares, 0.05, axis=0),
-                "q50": np.quantile(shares, 0.50, axis=0),
-                "q95": np.quantile(shares, 0.95, axis=0),
-                "aggregate": self.aggregate(),
-            }
-        )
+    def summary(self, by: str | None = None) -> pd.DataFrame:
+        """Per period: mean, sd, q05, q50, q95 of the customer share, and the aggregate prediction.
 
-    def metrics(self) -> pd.DataFrame:
+        With ``by = "segment"`` or ``"region"``: per period and group, of each group's share, beside
+        the aggregate model's share of that group (:meth:`group_aggregate`).
+        """
+        if by is not None:
+            shares, names = self.group_shares(by)
+            aggregate = self.group_aggregate(by)
+            frames = []
+            for g, name in enumerate(names):
+                frame = _summary_frame(shares[:, :, g], aggregate[:, g])
+                frame.insert(1, "group", name)
+                frames.append(frame)
+            return pd.concat(frames, ignore_index=True).sort_values(["period", "group"], kind="stable",
+                                                                     ignore_index=True)
+        return _summary_frame(self.shares(), self.aggregate())
+
+    def metrics(self, by: str | None = None) -> pd.DataFrame:
         """t10, t50, t90, peak period, peak new-customer share, final share: network median,
-        90 % interval, aggregate value."""
+        90 % interval, aggregate value; with ``by``, one block of rows per group (column ``group``)."""
+        if by is not None:
+            shares, names = self.group_shares(by)
+            aggregate = self.group_aggregate(by)
+            frames = []
+            for g, name in enumerate(names):
+                frame = metrics_table(shares[:, :, g], aggregate[:, g])
+                frame.insert(0, "group", name)
+                frames.append(frame)
+            return pd.concat(frames, ignore_index=True)
         return metrics_table(self.shares(), self.aggregate())
 
     def organisations(self, replicates: Sequence[int] | None = None) -> pd.DataFrame:
@@ -392,6 +471,23 @@ class Batch:
             table.insert(0, "replicate", r)
             frames.append(table)
         return pd.concat(frames, ignore_index=True)
+
+
+def _summary_frame(shares: np.ndarray, aggregate: np.ndarray) -> pd.DataFrame:
+    """Per period: mean, sd, q05, q50, q95 of ``shares`` (replicates, T + 1) and the aggregate beside them."""
+    t = np.arange(shares.shape[1])
+    return pd.DataFrame(
+        {
+            "period": t,
+            "time": t.astype(float),
+            "mean": shares.mean(axis=0),
+            "sd": shares.std(axis=0, ddof=1) if shares.shape[0] > 1 else np.zeros(t.size),
+            "q05": np.quantile(shares, 0.05, axis=0),
+            "q50": np.quantile(shares, 0.50, axis=0),
+            "q95": np.quantile(shares, 0.95, axis=0),
+            "aggregate": aggregate,
+        }
+    )
 
 
 def run_replicates(
