@@ -91,10 +91,11 @@ CASES = {
         {"periods": 14, "step_probability": "exponential", "time_step": 0.5},
         5,
     ),
-    # Granovetter (1978) thresholds, uniform on (0, 0.6]: a crossing is an infinite rate
+    # Granovetter (1978) thresholds, uniform on (0, 0.6]: once over its threshold an organisation
+    # adopts at rate word_of_mouth = 0.5 per period
     "threshold": (
         {"kind": "small_world", "mean_degree": 8, "rewiring": 0.2},
-        {"rule": "threshold", "external": 0.01, "satisfied_share": 0.9,
+        {"rule": "threshold", "external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.9,
          "threshold": {"distribution": "uniform", "low": 0.0, "high": 0.6}},
         {"periods": 12, "step_probability": "exponential"},
         5,

@@ -251,6 +251,29 @@ class Adoption:
     threshold : Thresholds
         Distribution of the organisations' thresholds (``threshold``), e.g.
         ``{distribution = "uniform", low = 0, high = 1}``.
+
+    Customers who leave (churn):
+
+    churn : float
+        Rate per period at which a satisfied customer leaves (0: customers stay for ever).
+        A customer who leaves is a *former customer*: it no longer talks for the product,
+        is not counted in ``customers``, and does not become a customer again within the
+        horizon.
+    churn_dissatisfied : float, optional
+        The same rate for dissatisfied customers; default ``churn``.
+
+    Customers who warn (negative word of mouth):
+
+    warning : float
+        Strength of the warnings of dissatisfied customers, in the units of
+        ``word_of_mouth`` for the rule in use (a probability per tie under ``cascade``).
+        A potential customer exposed to warnings becomes a *rejecter*, who never adopts
+        within the horizon, at the rule's word-of-mouth rate with ``warning`` in place of q
+        and the warners' talkers in place of the satisfied customers' (0: no warnings).
+    former_warn : bool
+        Former customers warn too (needs ``warning`` > 0).
+    rejecters_warn : bool
+        Rejecters pass the warning on (needs ``warning`` > 0).
     """
 
     section: ClassVar[str] = "adoption"
@@ -261,11 +284,26 @@ class Adoption:
     talkers_per_customer: Talkers = field(default_factory=Talkers)
     cap: float = 0.05
     threshold: Thresholds = field(default_factory=Thresholds)
+    # churn
+    churn: float = 0.0
+    churn_dissatisfied: float | None = None
+    # negative word of mouth
+    warning: float = 0.0
+    former_warn: bool = False
+    rejecters_warn: bool = False
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("adoption.rule", self.rule, RULES)
-        if self.rule == "cascade":
-            in_unit("adoption.word_of_mouth", self.word_of_mouth)  # a probability per tie under cascade
+        for name in ("word_of_mouth", "warning"):
+            value = getattr(self, name)
+            if self.rule == "cascade":
+                in_unit(f"adoption.{name}", value)  # a probability per tie under cascade
+            elif self.rule == "threshold" and value == math.inf:
+                pass  # the instant crossing: the limit of an ever faster rate once over the threshold
+            elif not (math.isfinite(value) and value >= 0):
+                allowed = "a finite number >= 0 (or inf under the threshold rule)" if self.rule != "threshold" else (
+                    "a number >= 0 or inf")
+                fail(f"adoption.{name}", value, allowed)
         th = self.threshold
         one_of("adoption.threshold.distribution", th.distribution, THRESHOLD_DISTRIBUTIONS)
         for name in ("low", "high", "mean"):
@@ -274,12 +312,33 @@ class Adoption:
         if th.low >= th.high:
             fail("adoption.threshold.high", th.high, f"> adoption.threshold.low = {th.low}")
         non_negative("adoption.external", self.external)
-        non_negative("adoption.word_of_mouth", self.word_of_mouth)
         in_unit("adoption.satisfied_share", self.satisfied_share)
         in_unit("adoption.cap", self.cap)
         t = self.talkers_per_customer
         one_of("adoption.talkers_per_customer.distribution", t.distribution, TALKER_DISTRIBUTIONS)
         non_negative("adoption.talkers_per_customer.mean", t.mean)
+        non_negative("adoption.churn", self.churn)
+        if self.churn_dissatisfied is not None:
+            non_negative("adoption.churn_dissatisfied", self.churn_dissatisfied)
+        for name in ("former_warn", "rejecters_warn"):
+            if getattr(self, name) and self.warning == 0:
+                fail(f"adoption.{name}", True, "false while adoption.warning = 0 (only warnings make rejecters, and "
+                     "only warners pass them on); set adoption.warning > 0 or leave it out")
+
+    @property
+    def dissatisfied_churn(self) -> float:
+        """The churn rate of dissatisfied customers: ``churn_dissatisfied``, or ``churn`` when not given."""
+        return self.churn if self.churn_dissatisfied is None else self.churn_dissatisfied
+
+    @property
+    def churns(self) -> bool:
+        """Whether any customer can leave (a churn rate above 0)."""
+        return self.churn > 0 or self.dissatisfied_churn > 0
+
+    @property
+    def warns(self) -> bool:
+        """Whether warnings are on (``warning`` above 0)."""
+        return self.warning > 0
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -344,6 +403,13 @@ class RunSpec:
                     f'adoption.rule = "{rule}" cannot run on run.clock = "continuous": the continuous clock needs '
                     f"word-of-mouth influence at a constant rate per satisfied customer neighbour "
                     f'(rules {", ".join(CONTINUOUS_RULES)}); use run.clock = "discrete"'
+                )
+            if scenario.adoption.warns:
+                raise ScenarioError(
+                    f"adoption.warning = {scenario.adoption.warning!r}: warnings cannot run on run.clock = "
+                    '"continuous": a potential customer who is warned before it adopts never adopts, which makes '
+                    "adoption a race between two spreads that first-passage times do not solve; use "
+                    'run.clock = "discrete" (or adoption.warning = 0)'
                 )
             if scenario.referral.active:
                 raise ScenarioError(
@@ -572,6 +638,10 @@ class Referral:
         adoption period.
     discount_rate : float
         Discount rate per period r: a value or payment in period t counts (1 + r)^−t.
+    referred_churn_multiplier : float, optional
+        Multiplier on the churn rate of the customers the programme brings in (paid
+        referrals): below 1 they stay longer (Schmitt, Skiera & Van den Bulte 2011). Needs
+        churn (``adoption.churn`` or ``adoption.churn_dissatisfied`` above 0). Default 1.
     """
 
     section: ClassVar[str] = "referral"
@@ -592,6 +662,7 @@ class Referral:
     value_per_period: float | None = None
     lifetime_value: float | None = None
     discount_rate: float = 0.0
+    referred_churn_multiplier: float | None = None
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("referral.enrol", self.enrol, ENROLMENTS)
@@ -621,6 +692,17 @@ class Referral:
         for name in ("value_per_period", "lifetime_value"):
             if getattr(self, name) is not None:
                 non_negative(f"referral.{name}", getattr(self, name))
+        if self.referred_churn_multiplier is not None:
+            non_negative("referral.referred_churn_multiplier", self.referred_churn_multiplier)
+            if not scenario.adoption.churns:
+                fail("referral.referred_churn_multiplier", self.referred_churn_multiplier,
+                     "left out while no customer churns (adoption.churn and adoption.churn_dissatisfied are 0); "
+                     "set a churn rate > 0")
+
+    @property
+    def churn_multiplier(self) -> float:
+        """``referred_churn_multiplier``, 1 when not given."""
+        return 1.0 if self.referred_churn_multiplier is None else float(self.referred_churn_multiplier)
 
     @property
     def active(self) -> bool:
