@@ -4,11 +4,13 @@ Knows the rules and the scenario (below); nothing of networks, seeding, engines 
 ``models`` holds the Bass model (closed form, ODE, difference form), the stock-and-flow
 difference model and the micro-to-macro mapping; ``mean_field`` the degree-based
 mean-field model (fed a degree sequence, never a network object it must import);
+``churn`` Bass with churn (ODE and difference form);
 ``fitting`` the least-squares fits of these curves to network runs or sales data.
 """
 
 from __future__ import annotations
 
+from womlab.aggregate.churn import CHURN_CURVE_COLUMNS, bass_churn_difference, bass_churn_ode, expected_stay
 from womlab.aggregate.fitting import (
     BassFit,
     StockFlowFit,
@@ -28,6 +30,7 @@ from womlab.aggregate.models import (
     bass_ode,
     bass_peak_time,
     bass_share,
+    churn_curves,
     mapped_parameters,
     stock_and_flow,
 )
@@ -43,6 +46,11 @@ __all__ = [
     "stock_and_flow",
     "aggregate_curve",
     "bass_peak_time",
+    "CHURN_CURVE_COLUMNS",
+    "bass_churn_ode",
+    "bass_churn_difference",
+    "churn_curves",
+    "expected_stay",
     "degree_classes",
     "degree_mean_field",
     "degree_mean_field_curve",

@@ -8,6 +8,8 @@
   customers as two stocks, talkers = customers × satisfied share × talkers per
   customer, buying = available × min(external + slope × talkers, cap).
 * :func:`mapped_parameters`, the micro-to-macro mapping from a scenario.
+* :func:`churn_curves`: with churn, Bass with churn (:mod:`womlab.aggregate.churn`) mapped
+  from the scenario.
 
 The degree-based mean-field model is in :mod:`womlab.aggregate.mean_field`.
 
@@ -22,8 +24,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 from scipy.integrate import solve_ivp
 
+from womlab.aggregate.churn import CHURN_CURVE_COLUMNS, bass_churn_difference, bass_churn_ode
 from womlab.errors import WomlabError
 from womlab.rules import step_probability
 from womlab.scenario import Scenario
@@ -37,6 +41,7 @@ __all__ = [
     "bass_difference",
     "stock_and_flow",
     "aggregate_curve",
+    "churn_curves",
     "bass_peak_time",
     "AGGREGATE_LABELS",
 ]
@@ -257,9 +262,13 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
 
     ``share`` and ``count``: the Bass difference equation with the mapped p and Q, or on
     the continuous clock (``run.clock = "continuous"``) the Bass closed form itself;
-    ``capped``: the stock-and-flow model with the mapped slope and cap.
+    ``capped``: the stock-and-flow model with the mapped slope and cap. With churn
+    (``adoption.churn`` or ``churn_dissatisfied`` above 0) the installed base of Bass with
+    churn (:func:`churn_curves`; NaN for ``capped``).
     """
     a, run = scenario.adoption, scenario.run
+    if a.churns:
+        return churn_curves(scenario, continuous=run.clock == "continuous")["customers"].to_numpy()
     par = mapped_parameters(scenario)
     if run.clock == "continuous":
         return bass_share(np.arange(run.periods + 1, dtype=float), par.p, par.Q, par.initial_share)
@@ -282,3 +291,33 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
         return customers / n
     return bass_difference(run.periods, par.p, par.Q, par.initial_share, time_step=run.time_step, form=run.step_probability)
 
+
+def churn_curves(scenario: Scenario, *, continuous: bool = False) -> pd.DataFrame:
+    """The aggregate counterpart of a scenario with churn, mapped as
+    :func:`mapped_parameters` maps it (Q_s = Q/s).
+
+    The difference form on the run's own step and step form, or with ``continuous`` the
+    ODE on the period grid. Rules without a Bass counterpart (``threshold``, ``cascade``)
+    and ``capped`` give NaN curves.
+
+    Examples
+    --------
+    >>> from womlab import Scenario
+    >>> s = Scenario.from_dict({"adoption": {"churn": 0.05}, "run": {"periods": 12}})
+    >>> c = churn_curves(s)
+    >>> bool((c["ever_customers"] >= c["customers"]).all()), len(c)
+    (True, 13)
+    """
+    a, run = scenario.adoption, scenario.run
+    par = mapped_parameters(scenario)
+    t = np.arange(run.periods + 1)
+    if a.rule not in ("share", "count"):
+        return pd.DataFrame({"period": t, **{c: np.full(t.size, np.nan) for c in CHURN_CURVE_COLUMNS[1:]}})
+    s = a.satisfied_share
+    q_satisfied = par.Q / s if s > 0 else 0.0
+    common = {"satisfied_share": s, "churn": a.churn, "churn_dissatisfied": a.dissatisfied_churn,
+              "initial_share": par.initial_share}
+    if continuous:
+        return bass_churn_ode(t.astype(float), par.p, q_satisfied, **common)
+    return bass_churn_difference(run.periods, par.p, q_satisfied, time_step=run.time_step, form=run.step_probability,
+                                 **common)

@@ -35,6 +35,16 @@ One step of the kernel:
    (:func:`womlab.dynamics.programme.settle_step`, in adopter-id order).
 4. *Apply.* Adopters become customers (state code, adoption step).
 
+Churn (customers who leave; its own marked block of the kernel, off unless ``adoption.churn``
+or ``adoption.churn_dissatisfied`` is above 0). Each organisation draws one Exp(1) churn
+resistance from the churn stream (:func:`womlab.dynamics.streams.mechanism_rng` with
+:data:`~womlab.dynamics.streams.CHURN_STREAM`), never from the dynamics stream, so that a run
+with churn = 0 is bit for bit the run it always was and churn on or off keeps every other
+draw. A customer that adopted in step a stays :func:`womlab.rules.churn_steps` = k steps
+(geometric, from its churn rate :func:`womlab.rules.churn_rate` turned into a step hazard by
+:func:`womlab.rules.hazard`): it talks up to and through step a + k, and is a *former
+customer* (:data:`FORMER`) at the end of that step; it never adopts again.
+
 Inputs kept general for what comes next. The external rate is given per period and group
 (``external[period, group]``, a campaign calendar; one column and a constant now), and the
 per-organisation multipliers of p and q (``external_weight``, ``wom_weight``: segments;
@@ -50,16 +60,19 @@ import numpy as np
 from womlab import rules
 from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
 from womlab.dynamics.run_result import RunResult
+from womlab.dynamics.streams import CHURN_STREAM, mechanism_rng
 from womlab.networks import ReferralNetwork
-from womlab.rules import compiled, external_part, hazard, rate, talk_weight
+from womlab.rules import churn_rate, churn_steps, compiled, external_part, hazard, rate, talk_weight
 from womlab.scenario import Scenario
 
-__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER"]
+__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER", "FORMER"]
 
 #: State code of an organisation that is not (yet) a customer.
 POTENTIAL = 0
 #: State code of a customer.
 CUSTOMER = 1
+#: State code of a former customer (one who left: churn).
+FORMER = 2
 
 
 @compiled
@@ -140,9 +153,9 @@ def pick_referrers(network: ReferralNetwork, adopters: np.ndarray, talk: np.ndar
 @compiled
 def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, group, external_weight, wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
             q, cap, tau, satisfied, resistance, u_cause, theta, state, adoption_step, referrer, initial, varying,
-            ledger):
+            ledger, churn, churn_dissatisfied, churn_resistance, leave_step):
     """The whole run, step by step (see the module notes); updates ``state``, ``adoption_step``,
-    ``referrer`` and the programme's ``ledger`` in place."""
+    ``referrer``, ``leave_step`` (churn) and the programme's ``ledger`` in place."""
     n = tau.size
     enrolled = ledger[0]
     start, end, multiplier, extra, exhausted = ledger[1], ledger[2], ledger[7], ledger[8], ledger[10]
@@ -185,6 +198,14 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
     uniform_groups = group.size == 0
     p_weights, q_weights, thresholds = external_weight.size > 0, wom_weight.size > 0, theta.size > 0
     checked = 0  # customers[checked:] have not had their weight applied yet
+
+    # ---- churn: set up (nothing happens without a churn resistance per organisation)
+    churning = churn_resistance.size > 0
+    if churning:
+        varying = True  # a customer who leaves stops talking: its weight changes after adoption
+        for i in initial:
+            leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, churn_resistance[i], dt, form, 0)
+    # ---- end churn
 
     for step in range(1, steps + 1):
         period = (step + spp - 1) // spp
@@ -233,6 +254,15 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
                 potential[keep] = i
                 keep += 1
         npot = keep
+
+        # ---- churn: customers whose stay ends in this step are former customers at its end
+        if churning:
+            for c in range(ncust):
+                i = customers[c]
+                if state[i] == CUSTOMER and leave_step[i] == step:
+                    state[i] = FORMER
+        # ---- end churn
+
         if nad == 0:
             continue
 
@@ -272,6 +302,15 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
             adoption_step[i] = step
             customers[ncust] = i
             ncust += 1
+            if churning:  # ---- churn: how long it stays
+                leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, churn_resistance[i], dt, form, step)
+
+
+@compiled
+def _stay(satisfied, churn, churn_dissatisfied, resistance, dt, form, step):  # noqa: ANN001, ANN202
+    """Churn: the step in which a customer that adopted in ``step`` leaves (−1: never)."""
+    k = churn_steps(resistance, hazard(churn_rate(satisfied, churn, churn_dissatisfied, 1.0), dt, form))
+    return -1 if k < 0 else step + k
 
 
 def run_array(
@@ -331,6 +370,9 @@ def run_array(
     u_cause = rng.random(n)
     theta = rules.draw_thresholds(adoption.threshold, n, rng) if rule == "threshold" else np.zeros(0)
     programme = start_programme(scenario, network, rng)  # None without a programme; draws nothing from rng
+    # churn: one Exp(1) per organisation from its own stream (nothing drawn from rng)
+    churn_resistance = mechanism_rng(rng, CHURN_STREAM).standard_exponential(n) if adoption.churns else np.zeros(0)
+    leave_step = np.full(n if adoption.churns else 0, -1, dtype=np.int64)
 
     initial = np.ascontiguousarray(initial, dtype=np.int32)
     state = np.full(n, POTENTIAL, dtype=np.int8)
@@ -353,6 +395,7 @@ def run_array(
         np.ascontiguousarray(theta, dtype=np.float64), state, adoption_step, referrer, initial,
         rule == "cascade" or programme is not None,
         idle_ledger() if programme is None else programme.ledger,
+        float(adoption.churn), float(adoption.dissatisfied_churn), churn_resistance, leave_step,
     )
 
     adopted = adoption_step >= 0
@@ -368,7 +411,16 @@ def run_array(
         adoption_time=np.where(adopted, adoption_step / spp, np.nan),
         report_every=run.report_every,
         extra={} if programme is None else programme.record(),
+        leave_period=_leave_period(leave_step, run.periods, spp) if adoption.churns else None,
+        leave_time=np.where((leave_step >= 0) & (leave_step <= run.periods * spp), leave_step / spp, np.nan)
+        if adoption.churns else None,
     )
+
+
+def _leave_period(leave_step: np.ndarray, periods: int, spp: int) -> np.ndarray:
+    """Churn: the period in which each customer left, −1 if it did not by the horizon."""
+    left = (leave_step >= 0) & (leave_step <= periods * spp)
+    return np.where(left, (leave_step + spp - 1) // spp, -1).astype(np.int32)
 
 
 def _external_table(p: float, periods: int, given: np.ndarray | None) -> np.ndarray:

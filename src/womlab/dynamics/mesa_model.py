@@ -99,7 +99,7 @@ except ImportError:  # Mesa <= 3.4
 from womlab import rules  # noqa: E402
 from womlab.dynamics.programme import start_programme  # noqa: E402
 from womlab.dynamics.run_result import RunResult  # noqa: E402
-from womlab.dynamics.streams import streams  # noqa: E402
+from womlab.dynamics.streams import CHURN_STREAM, mechanism_rng, streams  # noqa: E402
 from womlab.errors import ScenarioError  # noqa: E402
 from womlab.networks import ReferralNetwork, build_network  # noqa: E402
 from womlab.networks.given import GivenNetwork, as_network  # noqa: E402
@@ -218,6 +218,10 @@ class Organisation(FixedAgent):
     counted : float
         The talkers that count this step: ``talk``, boosted while a referral programme
         in which it is enrolled runs.
+    former : bool
+        Whether it was a customer and left (churn); it then neither talks nor adopts again.
+    leave_step : int
+        Churn: the step in which it left, −1 if it has not.
     adoption_period : int
         Period in which it became a customer (0 for initial customers), −1 if not yet.
     adoption_step : int
@@ -257,6 +261,8 @@ class Organisation(FixedAgent):
         )
         self.fresh_until = -1  # under cascade: the last step in which it counts as newly satisfied
         self.customer = False
+        self.former = False
+        self.leave_step = -1
         self.satisfied = False
         self.talk = 0.0
         self.counted = 0.0
@@ -322,6 +328,13 @@ class Organisation(FixedAgent):
         self.satisfied = bool(rules.draw_satisfied(model.womlab_scenario.adoption.satisfied_share, 1, model.rng)[0])
         self.fresh_until = model.step_count + model.steps_per_period  # newly satisfied for one period
         self.talk = self.counted = model.talk_weight(self)
+
+    def leave(self) -> None:
+        """Churn, apply phase: stop being a customer (a former customer, silent from the next step)."""
+        self.customer = False
+        self.former = True
+        self.leave_step = self.model.step_count
+        self.talk = self.counted = 0.0
 
 
 class ReferralModel(mesa.Model):
@@ -479,6 +492,11 @@ class ReferralModel(mesa.Model):
         super().__init__(rng=rng)  # model.rng is the dynamics stream itself
         # None without a programme; enrolment has its own stream, model.rng is not advanced
         self.programme = start_programme(scenario, network, self.rng)
+        # churn: a stream of its own (model.rng is not advanced), one uniform per customer per step
+        adoption = scenario.adoption
+        self.churn_rng = mechanism_rng(self.rng, CHURN_STREAM) if adoption.churns else None
+        self._churn = (float(adoption.churn), float(adoption.dissatisfied_churn))
+        self.former_customers = 0
 
         self.womlab_scenario = scenario  # not `scenario`: Mesa 3.5's Model.scenario is its own
         self.network = network
@@ -514,15 +532,18 @@ class ReferralModel(mesa.Model):
         self.talk_total = 0.0
         self._talking_now: tuple[list[Organisation], list[float]] | None = None
 
+        reporters: dict[str, Any] = {
+            "step": "step_count",
+            "period": "period",
+            "time": lambda m: m.step_count * m.time_step,
+            "customers": "customers",
+            "new_customers": "new_customers",
+            "satisfied_customers": "satisfied_customers",
+        }
+        if self.churn_rng is not None:
+            reporters["former_customers"] = "former_customers"
         self.datacollector = mesa.DataCollector(
-            model_reporters={
-                "step": "step_count",
-                "period": "period",
-                "time": lambda m: m.step_count * m.time_step,
-                "customers": "customers",
-                "new_customers": "new_customers",
-                "satisfied_customers": "satisfied_customers",
-            },
+            model_reporters=reporters,
             agent_reporters=dict(agent_reporters) if agent_reporters else None,
         )
         self.datacollector.collect(self)
@@ -595,6 +616,8 @@ class ReferralModel(mesa.Model):
             self._talking_now = None
         self.potential.do("decide")
         adopters = self.potential.select(lambda a: a.adopting)
+        if self.churn_rng is not None:
+            self._churn_step()
         adopters.do("adopt", self.period)
         if self.programme is not None:  # pay for this step's attributed referrals (ids ascending)
             referred = [a for a in adopters if a.referrer >= 0]
@@ -610,6 +633,23 @@ class ReferralModel(mesa.Model):
         self.satisfied_customers += sum(1 for a in adopters if a.satisfied)
         self.datacollector.collect(self)
 
+    def _churn_step(self) -> None:
+        """Churn: every customer of the start of the step (ids ascending) leaves with the step
+        probability of its churn rate (:func:`womlab.rules.churn_rate`), one fresh uniform each
+        from the churn stream; the departures apply at the end of the step, with the adoptions."""
+        churn, churn_dissatisfied = self._churn
+        leaving = []
+        for agent in self._by_id:
+            if agent.customer:
+                rate = rules.churn_rate(agent.satisfied, churn, churn_dissatisfied, 1.0)
+                if self.churn_rng.random() < rules.probability(rate, self.time_step, self._form):
+                    leaving.append(agent)
+        for agent in leaving:
+            agent.leave()
+        self.customers -= len(leaving)
+        self.satisfied_customers -= sum(1 for a in leaving if a.satisfied)
+        self.former_customers += len(leaving)
+
     def result(self) -> RunResult:
         """The run so far as a :class:`~womlab.dynamics.RunResult` (the same object the array engine returns).
 
@@ -618,9 +658,15 @@ class ReferralModel(mesa.Model):
         the array engine.
         """
         agents = self._by_id
-        customer = np.array([a.customer for a in agents], dtype=bool)
         step = np.array([a.adoption_step for a in agents], dtype=np.int64)
+        customer = step >= 0  # became a customer (with churn it may have left since)
         run = self.womlab_scenario.run
+        churn: dict[str, Any] = {}
+        if self.churn_rng is not None:
+            leave = np.array([a.leave_step for a in agents], dtype=np.int64)
+            spp = run.steps_per_period
+            churn["leave_period"] = np.where(leave >= 0, (leave + spp - 1) // spp, -1).astype(np.int32)
+            churn["leave_time"] = np.where(leave >= 0, leave / spp, np.nan)
         return RunResult(
             periods=run.periods,
             adoption_period=np.array([a.adoption_period for a in agents], dtype=np.int32),
@@ -632,6 +678,7 @@ class ReferralModel(mesa.Model):
             adoption_time=np.where(step >= 0, step / run.steps_per_period, np.nan),
             report_every=run.report_every,
             extra={} if self.programme is None else self.programme.record(),
+            **churn,
         )
 
 

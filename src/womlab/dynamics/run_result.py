@@ -14,6 +14,13 @@ engine: exact times; the array engine: the end of the step) also keep
 period each row's time falls in, and ``new_customers`` counts adoptions since the
 previous row. Every per-period count (``customers``, ``share``, …) stays on the period
 grid, so the T + 1 row rule holds for them whatever the report grid.
+
+Churn. With churn on, an engine also keeps ``leave_period`` (int32 per organisation: the
+period in which the customer left, −1 if it had not by the horizon; ``leave_time`` on the
+finer grid). ``customers`` is then the installed base (customers who have not left), and
+the curve gains ``former_customers`` and ``ever_customers`` (every organisation that was a
+customer at some time up to then). Without churn both are None and the curve is as it
+always was.
 """
 
 from __future__ import annotations
@@ -29,9 +36,11 @@ from womlab.errors import NetworkError
 from womlab.networks.given import organisation_ids
 from womlab.networks.network import ReferralNetwork
 
-__all__ = ["RunResult", "CURVE_COLUMNS", "ORGANISATION_COLUMNS", "to_networkx"]
+__all__ = ["RunResult", "CURVE_COLUMNS", "CHURN_COLUMNS", "ORGANISATION_COLUMNS", "to_networkx"]
 
 CURVE_COLUMNS = ("period", "time", "customers", "new_customers", "satisfied_customers")
+#: Columns a run with churn adds to its curve.
+CHURN_COLUMNS = ("former_customers", "ever_customers")
 
 #: Columns of :meth:`RunResult.to_frame` (a network's node attributes go after ``region``).
 ORGANISATION_COLUMNS = ("id", "region", "customer", "initial", "adoption_period", "adoption_time", "referrer",
@@ -53,7 +62,8 @@ class RunResult:
         int32 per organisation: the satisfied customer whose word of mouth caused its
         adoption, −1 for external influence, initial customers and non-adopters.
     satisfied : numpy.ndarray
-        bool per organisation: satisfied customer at the horizon.
+        bool per organisation: became a satisfied customer by the horizon (with churn, it
+        may have left since; see ``leave_period``).
     region : numpy.ndarray
         int32 region code per organisation.
     initial : numpy.ndarray
@@ -70,6 +80,11 @@ class RunResult:
         not record it (Mesa).
     report_every : float
         Default spacing of :meth:`curve` rows (1/n of a period; 1 = the period grid).
+    leave_period : numpy.ndarray, optional
+        Churn: int32 per organisation, the period in which the customer left, −1 if it did
+        not by the horizon (or never was a customer). None when churn is off.
+    leave_time : numpy.ndarray, optional
+        Churn: float64 per organisation, when it left (NaN: not by the horizon).
     """
 
     periods: int
@@ -84,6 +99,8 @@ class RunResult:
     extra: dict = field(default_factory=dict)
     adoption_time: np.ndarray | None = None
     report_every: float = 1.0
+    leave_period: np.ndarray | None = None
+    leave_time: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -99,14 +116,84 @@ class RunResult:
         return self._per_period()
 
     @property
-    def customers(self) -> np.ndarray:
-        """Customers at the end of each period, int64."""
+    def churns(self) -> bool:
+        """Whether the run had churn (it keeps ``leave_period``)."""
+        return self.leave_period is not None
+
+    def _left_per_period(self, mask: np.ndarray | None = None) -> np.ndarray:
+        if self.leave_period is None:
+            return np.zeros(self.periods + 1, dtype=np.int64)
+        lp = self.leave_period if mask is None else self.leave_period[mask]
+        return np.bincount(lp[lp >= 0], minlength=self.periods + 1)[: self.periods + 1]
+
+    @property
+    def ever_customers(self) -> np.ndarray:
+        """Organisations that were customers at some time up to the end of each period, int64
+        (with churn: the installed base plus the former customers)."""
         return np.cumsum(self.new_customers)
+
+    @property
+    def former_customers(self) -> np.ndarray:
+        """Customers who had left by the end of each period (churn; 0 without), int64."""
+        return np.cumsum(self._left_per_period())
+
+    @property
+    def customers(self) -> np.ndarray:
+        """Customers at the end of each period (with churn: the installed base), int64."""
+        if self.leave_period is None:
+            return np.cumsum(self.new_customers)
+        return self.ever_customers - self.former_customers
 
     @property
     def satisfied_customers(self) -> np.ndarray:
         """Satisfied customers at the end of each period, int64."""
-        return np.cumsum(self._per_period(self.satisfied))
+        if self.leave_period is None:
+            return np.cumsum(self._per_period(self.satisfied))
+        return np.cumsum(self._per_period(self.satisfied)) - np.cumsum(self._left_per_period(self.satisfied))
+
+    @property
+    def ever_share(self) -> np.ndarray:
+        """``ever_customers`` as a share of the market, per period."""
+        return self.ever_customers / self.n
+
+    def lifetimes(self) -> tuple[np.ndarray, np.ndarray]:
+        """Churn: every customer's time as a customer up to the horizon, and whether it left.
+
+        Returns ``(duration, left)`` over the organisations that became customers: the time
+        from adoption to leaving (or to the horizon, where it had not left; censored), in
+        periods, from the adoption and leaving times where the engine keeps them, else from
+        the periods.
+        """
+        adopted = self.adoption_period >= 0
+        if self.leave_period is None:
+            left = np.zeros(int(adopted.sum()), dtype=bool)
+        else:
+            left = self.leave_period[adopted] >= 0
+        if self.adoption_time is not None and self.leave_time is not None:
+            start = self.adoption_time[adopted]
+            end = np.where(left, self.leave_time[adopted], float(self.periods))
+        else:
+            start = self.adoption_period[adopted].astype(float)
+            lp = self.leave_period[adopted] if self.leave_period is not None else np.full(start.size, -1)
+            end = np.where(left, lp, self.periods).astype(float)
+        return end - start, left
+
+    def mean_lifetime(self) -> float:
+        """Churn: mean customer lifetime in periods, censoring-aware: time as a customer summed
+        over every customer up to the horizon, over the number who left (the exponential
+        maximum-likelihood estimate 1/δ̂ with right censoring; Lawless 2003, *Statistical Models
+        and Methods for Lifetime Data*, §2.2). NaN where no customer left.
+
+        Examples
+        --------
+        >>> from womlab import Scenario, run_one
+        >>> s = Scenario.from_dict({"market": {"organisations": 400, "initial_customers": 40},
+        ...                         "adoption": {"churn": 0.1}, "run": {"periods": 30}})
+        >>> 5 < run_one(s, (0,)).mean_lifetime() < 20
+        True
+        """
+        duration, left = self.lifetimes()
+        return float(duration.sum() / left.sum()) if left.any() else float("nan")
 
     @property
     def share(self) -> np.ndarray:
@@ -142,7 +229,7 @@ class RunResult:
             raise ValueError(f"every must be 1/n of a period for a whole n >= 1, got {every!r}")
         if per == 1:
             t = np.arange(self.periods + 1)
-            return pd.DataFrame(
+            table = pd.DataFrame(
                 {
                     "period": t,
                     "time": t.astype(float),
@@ -151,6 +238,10 @@ class RunResult:
                     "satisfied_customers": self.satisfied_customers,
                 }
             )
+            if self.churns:
+                table["former_customers"] = self.former_customers
+                table["ever_customers"] = self.ever_customers
+            return table
         if self.adoption_time is None:
             raise ValueError(f"a report grid finer than one period needs adoption times; the {self.engine} engine keeps none")
         slots = self.periods * per
@@ -161,7 +252,7 @@ class RunResult:
         new = np.bincount(row, minlength=slots + 1)[: slots + 1]
         sat = np.bincount(row[self.satisfied[seen]], minlength=slots + 1)[: slots + 1]
         k = np.arange(slots + 1)
-        return pd.DataFrame(
+        table = pd.DataFrame(
             {
                 "period": (k + per - 1) // per,
                 "time": k / per,
@@ -170,6 +261,20 @@ class RunResult:
                 "satisfied_customers": np.cumsum(sat),
             }
         )
+        if self.churns:
+            if self.leave_time is None:
+                raise ValueError(f"a report grid finer than one period needs leaving times; the {self.engine} engine "
+                                 "keeps none")
+            gone = ~np.isnan(self.leave_time)
+            out = np.ceil(np.round(self.leave_time[gone] * per, 9)).astype(np.int64)
+            former = np.cumsum(np.bincount(out, minlength=slots + 1)[: slots + 1])
+            former_sat = np.cumsum(np.bincount(out[self.satisfied[gone]], minlength=slots + 1)[: slots + 1])
+            table["ever_customers"] = table["customers"]
+            table["customers"] = table["ever_customers"] - former
+            table["satisfied_customers"] = table["satisfied_customers"] - former_sat
+            table["former_customers"] = former
+            table = table[[*CURVE_COLUMNS, *CHURN_COLUMNS]]
+        return table
 
     def to_frame(self, network: ReferralNetwork | None = None, attributes: pd.DataFrame | None = None) -> pd.DataFrame:
         """One row per organisation: who it is and how it became a customer.

@@ -404,6 +404,12 @@ class RunSpec:
                     f"word-of-mouth influence at a constant rate per satisfied customer neighbour "
                     f'(rules {", ".join(CONTINUOUS_RULES)}); use run.clock = "discrete"'
                 )
+            if scenario.adoption.churns:
+                raise ScenarioError(
+                    f"adoption.churn = {scenario.adoption.churn!r}: churn (customers who leave) runs on run.clock = "
+                    '"discrete" only (the event engine keeps adoption times, not stays); use run.clock = "discrete" '
+                    "(or adoption.churn = 0 and adoption.churn_dissatisfied = 0)"
+                )
             if scenario.adoption.warns:
                 raise ScenarioError(
                     f"adoption.warning = {scenario.adoption.warning!r}: warnings cannot run on run.clock = "
