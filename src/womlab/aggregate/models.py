@@ -53,6 +53,8 @@ AGGREGATE_LABELS = {
     "stock_and_flow": "stock-and-flow model, mapped",
     "degree_mean_field": "degree mean-field model",
     "bass_fitted": "Bass fitted to the network",
+    "bass_churn_mapped": "Bass with churn ODE, mapped",
+    "bass_churn_difference": "Bass with churn difference model, mapped",
 }
 
 

@@ -167,6 +167,8 @@ CURVE_STYLES = {
     "stock_and_flow": dict(color="#e67e22", ls=(0, (1, 2)), lw=2.2),
     "degree_mean_field": dict(color="#27ae60", ls="-.", lw=1.6),
     "bass_fitted": dict(color="#8e44ad", ls="-", lw=1.2),
+    "bass_churn_mapped": dict(color=BASS_COLOUR, ls=":", lw=1.4),
+    "bass_churn_difference": dict(color=AGGREGATE_COLOUR, ls="--", lw=1.6),
 }
 
 
@@ -180,8 +182,9 @@ def comparison_figure(comparison, *, title: str | None = None) -> Figure:  # noq
         Defaults to the scenario's name.
     """
     batch = comparison.batch
-    summary = batch.summary()
-    shares = batch.shares()
+    summary = comparison.curve_table()
+    shares = comparison.shares()  # with churn: ever customers
+    churns = batch.scenario.adoption.churns
     t = summary["time"].to_numpy()
     mean = shares.mean(axis=0)
     h = comparison.headline()
@@ -190,10 +193,18 @@ def comparison_figure(comparison, *, title: str | None = None) -> Figure:  # noq
     top, mid, bottom = fig.subplots(3, 1, sharex=True, height_ratios=[3, 2, 2])
     top.fill_between(t, summary["q05"], summary["q95"], color=NETWORK_COLOUR, alpha=0.2, lw=0,
                      label=f"network, 5–95 % of {batch.replicates} runs")
-    top.plot(t, mean, color=NETWORK_COLOUR, lw=2.2, label="network, mean")
+    top.plot(t, mean, color=NETWORK_COLOUR, lw=2.2, label="network, ever customers (mean)" if churns else "network, mean")
     for name, curve in comparison.curves.items():
         top.plot(t, curve, label=AGGREGATE_LABELS.get(name, name), **CURVE_STYLES.get(name, {}))
-    top.set_ylabel("customers, share of market")
+    if churns:  # the installed base below the ever-customer curves, network and models alike
+        top.plot(t, summary["installed_base_mean"], color=NETWORK_COLOUR, lw=1.4, alpha=0.7,
+                 label="network, installed base (mean)")
+        for column in summary.columns:
+            if column.startswith("installed_base_bass"):
+                name = column.removeprefix("installed_base_")
+                top.plot(t, summary[column], **{**CURVE_STYLES.get(name, {}), "alpha": 0.7})
+    top.set_ylabel("ever customers (upper) and installed base,\nshare of market" if churns
+                   else "customers, share of market")
     top.set_ylim(0, 1.02)
     top.grid(alpha=0.3)
     top.legend(loc="lower right", fontsize=7.5, frameon=False)
