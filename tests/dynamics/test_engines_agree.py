@@ -100,8 +100,8 @@ CASES = {
         {"periods": 12, "step_probability": "exponential"},
         5,
     ),
-    # Kempe, Kleinberg & Tardos (2003) independent cascade, one chance per tie over the
-    # period after a customer is satisfied; half-period steps test that "one period"
+    # Kempe, Kleinberg & Tardos (2003) independent cascade, one chance per tie in the step that
+    # ends one period after a customer adopted; half-period steps test that "one period"
     "cascade": (
         {"kind": "random", "mean_degree": 6},
         {"rule": "cascade", "external": 0.01, "word_of_mouth": 0.25, "satisfied_share": 0.8},

@@ -14,9 +14,10 @@ Organisation i adopts at the first step at which its summed step hazard
 (:func:`womlab.rules.hazard`) reaches Eᵢ — the same per-step probabilities as drawing a
 fresh uniform every step, but with a single draw per organisation, so that two variants
 compared on the same streams see the same resistances (common random numbers) whatever
-the state. The ``threshold`` rule's crossing is an infinite hazard, the ``cascade``
-rule's one chance per tie a hazard of −ln(1 − q) per newly satisfied neighbour over the
-period after it became satisfied (both in :mod:`womlab.rules`).
+the state. The ``threshold`` rule's crossing is a rate ``word_of_mouth`` once over the
+threshold (an infinite hazard for ``inf``), the ``cascade`` rule's one chance per tie a
+hazard of −ln(1 − q) per satisfied neighbour in the step that ends one period after that
+neighbour adopted (:func:`womlab.rules.step_adoption_hazard`; both in :mod:`womlab.rules`).
 
 One step of the kernel:
 
@@ -27,9 +28,10 @@ One step of the kernel:
    Only the customers whose weight can have changed are looked at: the last step's
    adopters, or every customer where weights vary after adoption (``cascade``, a programme).
 2. *Hazards.* Every potential customer (a compact list, ascending ids) adds this step's
-   hazard of :func:`womlab.rules.rate` at (Tᵢ, Dᵢ, θᵢ, pᵢ, qᵢ) to its accumulated hazard
+   hazard (:func:`womlab.rules.step_adoption_hazard`: :func:`womlab.rules.hazard` of
+   :func:`womlab.rules.rate` at (Tᵢ, Dᵢ, θᵢ, pᵢ, qᵢ) but under ``cascade``) to its accumulated hazard
    — exactly the arithmetic of the plain loop — and adopts if it reaches Eᵢ.
-3. *Attribution.* External with probability :func:`womlab.rules.external_part`, else a
+3. *Attribution.* External with probability :func:`womlab.rules.step_external_part`, else a
    referrer picked among the neighbours with probability ∝ their weight this step
    (:func:`pick_referrers`); a programme pays for the step's referrals
    (:func:`womlab.dynamics.programme.settle_step`, in adopter-id order).
@@ -62,7 +64,16 @@ from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_p
 from womlab.dynamics.run_result import RunResult
 from womlab.dynamics.streams import CHURN_STREAM, mechanism_rng
 from womlab.networks import ReferralNetwork
-from womlab.rules import churn_rate, churn_steps, compiled, external_part, hazard, rate, talk_weight
+from womlab.rules import (
+    churn_rate,
+    churn_steps,
+    compiled,
+    hazard,
+    rate,
+    step_adoption_hazard,
+    step_external_part,
+    talk_weight,
+)
 from womlab.scenario import Scenario
 
 __all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER", "FORMER"]
@@ -215,7 +226,7 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
         for c in range(0 if varying else checked, ncust):
             i = customers[c]
             talking = satisfied[i] and state[i] == CUSTOMER
-            w = talk_weight(rule, tau[i], talking, adoption_step[i] + spp >= step)
+            w = talk_weight(rule, tau[i], talking, adoption_step[i] + spp == step)  # cascade: its one attempt
             if boosting and talking and enrolled[i]:
                 w = boosted(w, multiplier, extra)
             if w != applied[i]:
@@ -245,8 +256,8 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
                 if p_weights:
                     p *= external_weight[i]
                 qi = q * wom_weight[i] if q_weights else q
-                r = rate(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap)
-                accumulated[i] += hazard(r, dt, form)
+                accumulated[i] += step_adoption_hazard(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap,
+                                                       dt, form)
             if accumulated[i] >= resistance[i]:
                 adopters[nad] = i
                 nad += 1
@@ -276,7 +287,7 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
                 p *= external_weight[i]
             qi = q * wom_weight[i] if q_weights else q
             t = market if complete else exposure[i]
-            ext = external_part(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi)
+            ext = step_external_part(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, dt, form)
             u = u_cause[i]
             if u < ext:
                 continue

@@ -213,8 +213,8 @@ class Organisation(FixedAgent):
         :func:`womlab.rules.draw_thresholds`.
     talk : float
         What it puts into its neighbours' Tᵢ now (:func:`womlab.rules.talk_weight`):
-        ``talkers`` if a satisfied customer, else 0; under ``cascade`` 1 during the
-        period after it became a satisfied customer, else 0.
+        ``talkers`` if a satisfied customer, else 0; under ``cascade`` 1 in the step that
+        ends one period after it became a satisfied customer (its one attempt), else 0.
     counted : float
         The talkers that count this step: ``talk``, boosted while a referral programme
         in which it is enrolled runs.
@@ -259,7 +259,7 @@ class Organisation(FixedAgent):
         self.threshold = (
             float(rules.draw_thresholds(adoption.threshold, 1, model.rng)[0]) if adoption.rule == "threshold" else None
         )
-        self.fresh_until = -1  # under cascade: the last step in which it counts as newly satisfied
+        self.fresh_until = -1  # under cascade: the step of its one attempt, one period after it adopted
         self.customer = False
         self.former = False
         self.leave_step = -1
@@ -326,7 +326,7 @@ class Organisation(FixedAgent):
         self.adoption_step = model.step_count
         self.referrer = self._cause
         self.satisfied = bool(rules.draw_satisfied(model.womlab_scenario.adoption.satisfied_share, 1, model.rng)[0])
-        self.fresh_until = model.step_count + model.steps_per_period  # newly satisfied for one period
+        self.fresh_until = model.step_count + model.steps_per_period  # cascade: its attempt, one period on
         self.talk = self.counted = model.talk_weight(self)
 
     def leave(self) -> None:
@@ -566,22 +566,26 @@ class ReferralModel(mesa.Model):
             rule, p, q, cap = self._rule
             theta = 0.0 if threshold is None else float(threshold)
             t, d = float(talking), float(total)
-            rate = rules.rate(rule, t, d, theta, p, q, cap)
-            found = (rules.probability(rate, self.time_step, self._form), rules.external_part(rule, t, d, theta, p, q))
+            dt, form = self.time_step, self._form
+            found = (rules.step_adoption_probability(rule, t, d, theta, p, q, cap, dt, form),
+                     rules.step_external_part(rule, t, d, theta, p, q, dt, form))
             if threshold is None:
                 self._chances[key] = found
         return found
 
-    def talk_weight(self, agent: Organisation) -> float:
-        """What ``agent`` puts into its neighbours' Tᵢ in the coming step (:func:`womlab.rules.talk_weight`)."""
+    def talk_weight(self, agent: Organisation, step: int | None = None) -> float:
+        """What ``agent`` puts into its neighbours' Tᵢ in ``step`` (default: the coming one;
+        :func:`womlab.rules.talk_weight`)."""
+        step = self.step_count + 1 if step is None else step
         weight = rules.talk_weight(self._rule[0], np.float32(agent.talkers), agent.customer and agent.satisfied,
-                                   agent.fresh_until >= self.step_count + 1)
+                                   agent.fresh_until == step)
         return float(weight)
 
     def _refresh_cascade_talk(self) -> None:
-        """``cascade``: a customer counts in its neighbours' Tᵢ only for the period after it became satisfied."""
-        for agent in self.agents.select(lambda a: a.talk > 0 and a.fresh_until < self.step_count):
-            agent.talk = agent.counted = 0.0
+        """``cascade``: a satisfied customer counts in its neighbours' Tᵢ only in the step of its one
+        attempt, the step that ends one period after it adopted."""
+        for agent in self.agents.select(lambda a: a.talk > 0 or a.fresh_until == self.step_count):
+            agent.talk = agent.counted = self.talk_weight(agent, self.step_count)
 
     def talking_now(self) -> tuple[list[Organisation], list[float]]:
         """Complete network: every organisation whose talk counts now, and the running sum of it."""
