@@ -227,3 +227,23 @@ def test_engines_agree_with_churn() -> None:
     former = [np.vstack([r.former_customers for r in runs]).astype(float) for runs in (a_runs, m_runs)]
     _within(*former, "former customers, by period,")
     assert former[0][:, -1].mean() > 10  # churn did something to compare
+
+
+@pytest.mark.slow
+def test_engines_agree_with_warnings() -> None:
+    # Warnings (issue 16): dissatisfied customers (30 %), former customers and rejecters warn at
+    # strength 0.5 under the count rule, with churn. The array engine draws one Exp(1) rejection
+    # resistance per organisation, the Mesa model a fresh uniform per exposed organisation per step,
+    # both from the warning stream. Customers and rejecters by period (2 × 13 comparisons more, each at
+    # |z| <= 4: a false-alarm chance below 0.2 % for this test, Bonferroni) and KS as above.
+    network = {"kind": "random", "mean_degree": 6}
+    adoption = {"rule": "count", "external": 0.01, "word_of_mouth": 0.12, "satisfied_share": 0.7,
+                "warning": 0.5, "former_warn": True, "rejecters_warn": True, "churn": 0.1}
+    run = {"periods": 12, "step_probability": "exponential"}
+    array = _scenario(network, adoption, run, 5, SEED_ARRAY + 400, "array", organisations=300)
+    mesa = _scenario(network, adoption, run, 5, SEED_MESA + 400, "mesa", organisations=300)
+    _check_agree(array, mesa)
+    rejecters = [np.vstack([r.rejecters for r in run_replicates(s, reps, jobs=2).runs]).astype(float)
+                 for s, reps in ((array, R_ARRAY), (mesa, R_MESA))]
+    _within(*rejecters, "rejecters, by period,")
+    assert rejecters[0][:, -1].mean() > 10  # warnings did something to compare

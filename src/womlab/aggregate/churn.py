@@ -1,4 +1,4 @@
-"""Bass with churn: the aggregate counterpart of customers who leave.
+"""Bass with churn and warnings: the aggregate counterpart of customers who leave and warn.
 
 Everyone talks to everyone, as in :mod:`womlab.aggregate.models`, and customers leave at
 rate δ per period and do not come back. With the installed base split into satisfied
@@ -21,6 +21,16 @@ start of the step leaves with π(δ), both from the stocks at the start of the s
 customer cannot leave in the step it adopted), so it is the mean-field recursion of the
 array engine (Kurtz 1970 on the complete network).
 
+Warnings (negative word of mouth). Potential customers are also lost to rejection, at rate
+Q⁻·X, X the share of warners (dissatisfied customers A_d, and with ``former_warn`` the
+former customers, with ``rejecters_warn`` the rejecters R): dR/dt = Q⁻·X·(potential), the
+potential share being 1 − A_s − A_d − L − R (Goldenberg, Libai, Moldovan & Muller 2007 give
+the agent form; this is its mean field). In the difference form the two clocks compete
+within a step with constant hazards h_a and h_r: a potential customer adopts with
+probability h_a/(h_a + h_r)·(1 − e^{−(h_a + h_r)}) and rejects with h_r/(h_a + h_r)·(the
+same), the competing-risks law (Kalbfleisch & Prentice 2002, *The Statistical Analysis of
+Failure Time Data*, ch. 8) that the engines' two resistances give.
+
 The scenario's mapping is :func:`womlab.aggregate.models.churn_curves`.
 
 The mean time a customer stays, in periods, is dt / (1 − e^{−h}) with h the step hazard of
@@ -33,6 +43,8 @@ Bass, F. M. (1969). A new product growth for model consumer durables. Management
 15(5), 215–227.
 Mahajan, V., Muller, E. & Bass, F. M. (1990). New product diffusion models in marketing: a
 review and directions for research. Journal of Marketing 54(1), 1–26.
+Goldenberg, J., Libai, B., Moldovan, S. & Muller, E. (2007). The NPV of bad news.
+International Journal of Research in Marketing 24, 186–200.
 Kurtz, T. G. (1970). Solutions of ordinary differential equations as limits of pure jump
 Markov processes. Journal of Applied Probability 7(1), 49–58.
 """
@@ -51,14 +63,24 @@ from womlab.rules import form_code, hazard, step_probability
 __all__ = ["CHURN_CURVE_COLUMNS", "bass_churn_ode", "bass_churn_difference", "expected_stay"]
 
 #: Columns of the churn curves: shares of the market per period.
-CHURN_CURVE_COLUMNS = ("period", "customers", "former_customers", "ever_customers")
+CHURN_CURVE_COLUMNS = ("period", "customers", "former_customers", "ever_customers", "rejecters")
 
 
-def _table(t: np.ndarray, a_s: np.ndarray, a_d: np.ndarray, left: np.ndarray) -> pd.DataFrame:
+def _table(t: np.ndarray, a_s: np.ndarray, a_d: np.ndarray, left: np.ndarray, rejecters: np.ndarray) -> pd.DataFrame:
     customers = a_s + a_d
     return pd.DataFrame(
-        {"period": t, "customers": customers, "former_customers": left, "ever_customers": customers + left}
+        {
+            "period": t,
+            "customers": customers,
+            "former_customers": left,
+            "ever_customers": customers + left,
+            "rejecters": rejecters,
+        }
     )
+
+
+def _warners(a_d: float, left: float, rejecters: float, former_warn: bool, rejecters_warn: bool) -> float:
+    return a_d + (left if former_warn else 0.0) + (rejecters if rejecters_warn else 0.0)
 
 
 def _start(initial_share: float, satisfied_share: float) -> tuple[float, float]:
@@ -74,8 +96,11 @@ def bass_churn_ode(
     churn: float = 0.0,
     churn_dissatisfied: float | None = None,
     initial_share: float = 0.0,
+    warning_rate: float = 0.0,
+    former_warn: bool = False,
+    rejecters_warn: bool = False,
 ) -> pd.DataFrame:
-    """Bass with churn as an ODE on the grid ``t`` (``scipy.integrate.solve_ivp``, LSODA).
+    """Bass with churn (and warnings) as an ODE on the grid ``t`` (``scipy.integrate.solve_ivp``, LSODA).
 
     Parameters
     ----------
@@ -91,12 +116,16 @@ def bass_churn_ode(
         δ_s and δ_d per period (δ_d defaults to δ_s).
     initial_share : float
         Customers at t = 0, satisfied in the share s.
+    warning_rate : float
+        Q⁻, the rate of rejection per warner share (0: no warnings).
+    former_warn, rejecters_warn : bool
+        Whether former customers, and rejecters, warn too.
 
     Returns
     -------
     pandas.DataFrame
         ``period`` (= t), ``customers`` (installed base), ``former_customers``,
-        ``ever_customers``, all shares of the market.
+        ``ever_customers``, ``rejecters``, all shares of the market.
 
     Examples
     --------
@@ -110,14 +139,16 @@ def bass_churn_ode(
     d_d = d_s if churn_dissatisfied is None else float(churn_dissatisfied)
 
     def flow(_: float, y: np.ndarray) -> list[float]:
-        a_s, a_d, left = y
-        adopt = (p + q_satisfied * a_s) * (1 - a_s - a_d - left)
-        return [s * adopt - d_s * a_s, (1 - s) * adopt - d_d * a_d, d_s * a_s + d_d * a_d]
+        a_s, a_d, left, rej = y
+        potential = 1 - a_s - a_d - left - rej
+        adopt = (p + q_satisfied * a_s) * potential
+        reject = warning_rate * _warners(a_d, left, rej, former_warn, rejecters_warn) * potential
+        return [s * adopt - d_s * a_s, (1 - s) * adopt - d_d * a_d, d_s * a_s + d_d * a_d, reject]
 
     sol = solve_ivp(
         flow,
         (float(t[0]), float(t[-1])),
-        [*_start(initial_share, s), 0.0],
+        [*_start(initial_share, s), 0.0, 0.0],
         t_eval=t,
         method="LSODA",
         rtol=1e-10,
@@ -125,7 +156,7 @@ def bass_churn_ode(
     )
     if not sol.success:
         raise WomlabError(f"Bass-with-churn ODE did not solve: {sol.message}")
-    return _table(t, sol.y[0], sol.y[1], sol.y[2])
+    return _table(t, sol.y[0], sol.y[1], sol.y[2], sol.y[3])
 
 
 def bass_churn_difference(
@@ -139,13 +170,17 @@ def bass_churn_difference(
     initial_share: float = 0.0,
     time_step: float = 1.0,
     form: str = "exponential",
+    warning_rate: float = 0.0,
+    former_warn: bool = False,
+    rejecters_warn: bool = False,
 ) -> pd.DataFrame:
     """Bass with churn in difference form on the engine's steps, reported on periods 0..T.
 
     Each step, from the stocks at its start: potential customers adopt with probability
     π(p + Q_s·A_s), a share s of them satisfied; satisfied (dissatisfied) customers leave
     with π(δ_s) (π(δ_d)); π is the step probability of :func:`womlab.rules.step_probability`.
-    With δ = 0 this is :func:`womlab.aggregate.models.bass_difference` with Q = s·Q_s.
+    With δ = 0 this is :func:`womlab.aggregate.models.bass_difference` with Q = s·Q_s. With
+    warnings, adoption and rejection compete within the step (module notes).
 
     Parameters and returns as :func:`bass_churn_ode`, plus ``periods``, ``time_step`` and
     ``form`` (``exponential`` or ``linear``).
@@ -161,17 +196,41 @@ def bass_churn_difference(
     d_d = float(churn) if churn_dissatisfied is None else float(churn_dissatisfied)
     leave_s = float(step_probability(float(churn), time_step, form))
     leave_d = float(step_probability(d_d, time_step, form))
+    code = form_code(form)
     a_s, a_d = _start(initial_share, s)
-    left = 0.0
-    out = np.empty((periods + 1, 3))
-    out[0] = a_s, a_d, left
+    left = rej = 0.0
+    out = np.empty((periods + 1, 4))
+    out[0] = a_s, a_d, left, rej
     for period in range(1, periods + 1):
         for _ in range(spp):
-            adopt = (1 - a_s - a_d - left) * float(step_probability(p + q_satisfied * a_s, time_step, form))
+            potential = 1 - a_s - a_d - left - rej
+            if warning_rate > 0:
+                h_a = float(hazard(p + q_satisfied * a_s, time_step, code))
+                x = _warners(a_d, left, rej, former_warn, rejecters_warn)
+                h_r = float(hazard(warning_rate * x, time_step, code))
+                adopt_p, reject_p = _compete(h_a, h_r)
+                adopt, reject = potential * adopt_p, potential * reject_p
+            else:
+                adopt, reject = potential * float(step_probability(p + q_satisfied * a_s, time_step, form)), 0.0
             gone_s, gone_d = a_s * leave_s, a_d * leave_d
             a_s, a_d, left = a_s - gone_s + s * adopt, a_d - gone_d + (1 - s) * adopt, left + gone_s + gone_d
-        out[period] = a_s, a_d, left
-    return _table(np.arange(periods + 1), out[:, 0], out[:, 1], out[:, 2])
+            rej += reject
+        out[period] = a_s, a_d, left, rej
+    return _table(np.arange(periods + 1), out[:, 0], out[:, 1], out[:, 2], out[:, 3])
+
+
+def _compete(h_a: float, h_r: float) -> tuple[float, float]:
+    """Probabilities of adopting and of rejecting in a step with constant hazards h_a and h_r
+    (an infinite hazard wins at once; a tie of two goes to adoption, as in the engines)."""
+    if math.isinf(h_a):
+        return 1.0, 0.0
+    if math.isinf(h_r):
+        return 0.0, 1.0
+    total = h_a + h_r
+    if total <= 0:
+        return 0.0, 0.0
+    either = -math.expm1(-total)
+    return h_a / total * either, h_r / total * either
 
 
 def expected_stay(churn: float, time_step: float = 1.0, form: str = "exponential") -> float:

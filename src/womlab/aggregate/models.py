@@ -53,8 +53,8 @@ AGGREGATE_LABELS = {
     "stock_and_flow": "stock-and-flow model, mapped",
     "degree_mean_field": "degree mean-field model",
     "bass_fitted": "Bass fitted to the network",
-    "bass_churn_mapped": "Bass with churn ODE, mapped",
-    "bass_churn_difference": "Bass with churn difference model, mapped",
+    "bass_churn_mapped": "Bass with churn/warnings ODE, mapped",
+    "bass_churn_difference": "Bass with churn/warnings difference model, mapped",
 }
 
 
@@ -265,11 +265,12 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
     ``share`` and ``count``: the Bass difference equation with the mapped p and Q, or on
     the continuous clock (``run.clock = "continuous"``) the Bass closed form itself;
     ``capped``: the stock-and-flow model with the mapped slope and cap. With churn
-    (``adoption.churn`` or ``churn_dissatisfied`` above 0) the installed base of Bass with
-    churn (:func:`churn_curves`; NaN for ``capped``).
+    (``adoption.churn`` or ``churn_dissatisfied`` above 0) or warnings (``adoption.warning``
+    above 0) the installed base of Bass with churn and warnings (:func:`churn_curves`; NaN
+    for ``capped``).
     """
     a, run = scenario.adoption, scenario.run
-    if a.churns:
+    if a.churns or a.warns:
         return churn_curves(scenario, continuous=run.clock == "continuous")["customers"].to_numpy()
     par = mapped_parameters(scenario)
     if run.clock == "continuous":
@@ -295,8 +296,9 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
 
 
 def churn_curves(scenario: Scenario, *, continuous: bool = False) -> pd.DataFrame:
-    """The aggregate counterpart of a scenario with churn, mapped as
-    :func:`mapped_parameters` maps it (Q_s = Q/s).
+    """The aggregate counterpart of a scenario with churn or warnings, mapped as
+    :func:`mapped_parameters` maps it: Q_s = Q/s, the word of mouth per satisfied-customer
+    share (q under ``share``, q·τ̄·k̄ under ``count``), and Q⁻ the same with ``warning`` for q.
 
     The difference form on the run's own step and step form, or with ``continuous`` the
     ODE on the period grid. Rules without a Bass counterpart (``threshold``, ``cascade``)
@@ -316,9 +318,11 @@ def churn_curves(scenario: Scenario, *, continuous: bool = False) -> pd.DataFram
     if a.rule not in ("share", "count"):
         return pd.DataFrame({"period": t, **{c: np.full(t.size, np.nan) for c in CHURN_CURVE_COLUMNS[1:]}})
     s = a.satisfied_share
-    q_satisfied = par.Q / s if s > 0 else 0.0
+    unit = 1.0 if a.rule == "share" else par.mean_talkers * par.mean_degree  # Q_s = q·unit, Q⁻ = warning·unit
+    q_satisfied = a.word_of_mouth * unit
     common = {"satisfied_share": s, "churn": a.churn, "churn_dissatisfied": a.dissatisfied_churn,
-              "initial_share": par.initial_share}
+              "initial_share": par.initial_share, "warning_rate": a.warning * unit, "former_warn": a.former_warn,
+              "rejecters_warn": a.rejecters_warn}
     if continuous:
         return bass_churn_ode(t.astype(float), par.p, q_satisfied, **common)
     return bass_churn_difference(run.periods, par.p, q_satisfied, time_step=run.time_step, form=run.step_probability,

@@ -62,7 +62,7 @@ import numpy as np
 from womlab import rules
 from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
 from womlab.dynamics.run_result import RunResult
-from womlab.dynamics.streams import CHURN_STREAM, mechanism_rng
+from womlab.dynamics.streams import CHURN_STREAM, WARNING_STREAM, mechanism_rng
 from womlab.networks import ReferralNetwork
 from womlab.rules import (
     churn_rate,
@@ -70,13 +70,17 @@ from womlab.rules import (
     compiled,
     hazard,
     rate,
+    rejects_first,
     step_adoption_hazard,
     step_external_part,
+    step_rejection_hazard,
     talk_weight,
+    warn_weight,
+    warns,
 )
 from womlab.scenario import Scenario
 
-__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER", "FORMER"]
+__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER", "FORMER", "REJECTER"]
 
 #: State code of an organisation that is not (yet) a customer.
 POTENTIAL = 0
@@ -84,6 +88,8 @@ POTENTIAL = 0
 CUSTOMER = 1
 #: State code of a former customer (one who left: churn).
 FORMER = 2
+#: State code of a rejecter (warned off the product: negative word of mouth); never adopts.
+REJECTER = 3
 
 
 @compiled
@@ -164,9 +170,11 @@ def pick_referrers(network: ReferralNetwork, adopters: np.ndarray, talk: np.ndar
 @compiled
 def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, group, external_weight, wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
             q, cap, tau, satisfied, resistance, u_cause, theta, state, adoption_step, referrer, initial, varying,
-            ledger, churn, churn_dissatisfied, churn_resistance, leave_step):
+            ledger, churn, churn_dissatisfied, churn_resistance, leave_step,
+            warning, former_warn, rejecters_warn, reject_resistance, u_warn, rejection_step, warned_by):
     """The whole run, step by step (see the module notes); updates ``state``, ``adoption_step``,
-    ``referrer``, ``leave_step`` (churn) and the programme's ``ledger`` in place."""
+    ``referrer``, ``leave_step`` (churn), ``rejection_step`` and ``warned_by`` (warnings) and the
+    programme's ``ledger`` in place."""
     n = tau.size
     enrolled = ledger[0]
     start, end, multiplier, extra, exhausted = ledger[1], ledger[2], ledger[7], ledger[8], ledger[10]
@@ -218,6 +226,24 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
             leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, churn_resistance[i], dt, form, 0)
     # ---- end churn
 
+    # ---- warnings: set up (nothing happens without a rejection resistance per organisation)
+    warning_on = reject_resistance.size > 0
+    nw = n if warning_on else 0
+    wexposure = np.zeros(0 if complete else nw)  # Wᵢ
+    wmarket = 0.0  # complete network: Wᵢ of every potential customer
+    wapplied = np.zeros(nw, dtype=np.float32)  # what each organisation's weight in Wᵢ is now
+    raccumulated = np.zeros(nw)  # summed rejection step hazard
+    warn_since = np.full(nw, -1, dtype=np.int64)  # the step it began to warn
+    rejecters = np.empty(nw, dtype=np.int32)
+    nrej = 0
+    rejecting = np.empty(nw, dtype=np.int32)
+    wcumulative = np.empty(nw if complete else 0)
+    if warning_on:
+        for i in initial:
+            if not satisfied[i]:
+                warn_since[i] = 0
+    # ---- end warnings
+
     for step in range(1, steps + 1):
         period = (step + spp - 1) // spp
         boosting = programme and start <= period <= end and exhausted[0] < 0
@@ -239,6 +265,20 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
                         exposure[indices[k]] += diff
         checked = ncust
 
+        # ---- warnings: each warner's weight in its neighbours' Wᵢ (dissatisfied customers; former
+        # customers and rejecters where they warn)
+        if warning_on:
+            for c in range(ncust + nrej):
+                i = customers[c] if c < ncust else rejecters[c - ncust]
+                st = state[i]
+                warner = warns(st == CUSTOMER, satisfied[i], st == FORMER, st == REJECTER, former_warn, rejecters_warn)
+                w = warn_weight(rule, tau[i], warner, warn_since[i] + spp == step)
+                if w != wapplied[i]:
+                    wmarket += _apply(indptr, indices, complete, wexposure, i, np.float64(w) - np.float64(wapplied[i]))
+                    wapplied[i] = w
+        nrj = 0
+        # ---- end warnings
+
         # 2. hazards of the potential customers; adopters leave the list, which stays ascending
         nad = 0
         keep = 0
@@ -250,15 +290,27 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
             i = potential[c]
             t = market if complete else exposure[i]
             if t == 0.0 and same_p:
-                accumulated[i] += h0
+                ha = h0
             else:
                 p = external[period, 0 if uniform_groups else group[i]]
                 if p_weights:
                     p *= external_weight[i]
                 qi = q * wom_weight[i] if q_weights else q
-                accumulated[i] += step_adoption_hazard(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap,
-                                                       dt, form)
-            if accumulated[i] >= resistance[i]:
+                ha = step_adoption_hazard(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap, dt, form)
+            accumulated[i] += ha
+            adopts = accumulated[i] >= resistance[i]
+            if warning_on:  # ---- warnings: the rejection clock, competing with adoption
+                wt = wmarket if complete else wexposure[i]
+                if wt != 0.0:
+                    hr = step_rejection_hazard(rule, wt, total[i], theta[i] if thresholds else 0.0, warning, dt, form)
+                    raccumulated[i] += hr
+                    if raccumulated[i] >= reject_resistance[i]:
+                        if not adopts or rejects_first(resistance[i] - (accumulated[i] - ha), ha,
+                                                       reject_resistance[i] - (raccumulated[i] - hr), hr):
+                            rejecting[nrj] = i
+                            nrj += 1
+                            continue
+            if adopts:
                 adopters[nad] = i
                 nad += 1
             else:
@@ -272,7 +324,27 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
                 i = customers[c]
                 if state[i] == CUSTOMER and leave_step[i] == step:
                     state[i] = FORMER
+                    if warning_on and former_warn and warn_since[i] < 0:  # ---- warnings: it begins to warn
+                        warn_since[i] = step
         # ---- end churn
+
+        # ---- warnings: rejections, each attributed to a warning neighbour ∝ its weight this step
+        if warning_on and nrj > 0:
+            if complete:
+                _cumulative(wapplied, wcumulative)
+            for a in range(nrj):
+                i = rejecting[a]
+                state[i] = REJECTER
+                rejection_step[i] = step
+                if complete:
+                    warned_by[i] = _pick_any(wcumulative, u_warn[i])
+                else:
+                    warned_by[i] = _pick(indptr, indices, wapplied, i, u_warn[i])
+                rejecters[nrej] = i
+                nrej += 1
+                if rejecters_warn:
+                    warn_since[i] = step
+        # ---- end warnings
 
         if nad == 0:
             continue
@@ -315,6 +387,19 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
             ncust += 1
             if churning:  # ---- churn: how long it stays
                 leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, churn_resistance[i], dt, form, step)
+            if warning_on and not satisfied[i]:  # ---- warnings: a dissatisfied customer warns from now
+                warn_since[i] = step
+
+
+@compiled
+def _apply(indptr, indices, complete, exposure, i, diff):  # noqa: ANN001, ANN202
+    """Add ``diff`` along organisation i's row of ``exposure``; on the complete network return it
+    (for the market total) instead."""
+    if complete:
+        return diff
+    for k in range(indptr[i], indptr[i + 1]):
+        exposure[indices[k]] += diff
+    return 0.0
 
 
 @compiled
@@ -384,6 +469,15 @@ def run_array(
     # churn: one Exp(1) per organisation from its own stream (nothing drawn from rng)
     churn_resistance = mechanism_rng(rng, CHURN_STREAM).standard_exponential(n) if adoption.churns else np.zeros(0)
     leave_step = np.full(n if adoption.churns else 0, -1, dtype=np.int64)
+    # warnings: one Exp(1) rejection resistance and one uniform (who warned) per organisation, own stream
+    nw = n if adoption.warns else 0
+    reject_resistance, u_warn = np.zeros(0), np.zeros(0)
+    if nw:
+        warn_rng = mechanism_rng(rng, WARNING_STREAM)
+        reject_resistance = warn_rng.standard_exponential(nw)
+        u_warn = warn_rng.random(nw)
+    rejection_step = np.full(nw, -1, dtype=np.int32)
+    warned_by = np.full(nw, -1, dtype=np.int32)
 
     initial = np.ascontiguousarray(initial, dtype=np.int32)
     state = np.full(n, POTENTIAL, dtype=np.int8)
@@ -407,6 +501,8 @@ def run_array(
         rule == "cascade" or programme is not None,
         idle_ledger() if programme is None else programme.ledger,
         float(adoption.churn), float(adoption.dissatisfied_churn), churn_resistance, leave_step,
+        float(adoption.warning), bool(adoption.former_warn), bool(adoption.rejecters_warn), reject_resistance, u_warn,
+        rejection_step, warned_by,
     )
 
     adopted = adoption_step >= 0
@@ -425,6 +521,10 @@ def run_array(
         leave_period=_leave_period(leave_step, run.periods, spp) if adoption.churns else None,
         leave_time=np.where((leave_step >= 0) & (leave_step <= run.periods * spp), leave_step / spp, np.nan)
         if adoption.churns else None,
+        rejection_period=np.where(rejection_step >= 0, (rejection_step + spp - 1) // spp, -1).astype(np.int32)
+        if nw else None,
+        warned_by=warned_by if nw else None,
+        rejection_time=np.where(rejection_step >= 0, rejection_step / spp, np.nan) if nw else None,
     )
 
 

@@ -66,6 +66,7 @@ import dataclasses
 import difflib
 import inspect
 import itertools
+import math
 import multiprocessing
 import re
 from collections.abc import Mapping, Sequence
@@ -99,7 +100,7 @@ except ImportError:  # Mesa <= 3.4
 from womlab import rules  # noqa: E402
 from womlab.dynamics.programme import start_programme  # noqa: E402
 from womlab.dynamics.run_result import RunResult  # noqa: E402
-from womlab.dynamics.streams import CHURN_STREAM, mechanism_rng, streams  # noqa: E402
+from womlab.dynamics.streams import CHURN_STREAM, WARNING_STREAM, mechanism_rng, streams  # noqa: E402
 from womlab.errors import ScenarioError  # noqa: E402
 from womlab.networks import ReferralNetwork, build_network  # noqa: E402
 from womlab.networks.given import GivenNetwork, as_network  # noqa: E402
@@ -222,6 +223,11 @@ class Organisation(FixedAgent):
         Whether it was a customer and left (churn); it then neither talks nor adopts again.
     leave_step : int
         Churn: the step in which it left, −1 if it has not.
+    rejecter : bool
+        Warnings: whether it was warned off the product; it never adopts.
+    warn : float
+        Warnings: what it puts into its neighbours' warning exposure Wᵢ now
+        (:func:`womlab.rules.warn_weight`).
     adoption_period : int
         Period in which it became a customer (0 for initial customers), −1 if not yet.
     adoption_step : int
@@ -263,6 +269,12 @@ class Organisation(FixedAgent):
         self.customer = False
         self.former = False
         self.leave_step = -1
+        self.rejecter = False
+        self.rejecting = False
+        self.rejection_step = -1
+        self.warned_by = -1
+        self.warn = 0.0
+        self.warn_since = -1
         self.satisfied = False
         self.talk = 0.0
         self.counted = 0.0
@@ -298,6 +310,9 @@ class Organisation(FixedAgent):
         probability, external = model.chances(talking, total, self.threshold)
         rng = model.rng
         self.adopting = bool(rng.random() < probability)
+        if model.warn_rng is not None and self._warned(probability, total):  # ---- warnings
+            self.adopting = False
+            return
         if not self.adopting:
             return
         if rng.random() < external:
@@ -317,6 +332,48 @@ class Organisation(FixedAgent):
                 if left < 0:
                     break
 
+    def _warned(self, probability: float, total: float) -> bool:
+        """Warnings, compute phase: whether it becomes a rejecter in this step. Its own uniform from
+        the warning stream against the step probability of :func:`womlab.rules.step_rejection_hazard`;
+        where adoption came too, the earlier of the two within the step wins
+        (:func:`womlab.rules.crossing_fraction`, :func:`womlab.rules.rejects_first`). A rejection
+        is attributed to a warning neighbour ∝ its weight, with one more uniform."""
+        model = self.model
+        warned = model.warn_total if model.complete else sum(other.warn for other in self.neighbours)
+        if warned == 0.0:
+            return False
+        rule = model._rule[0]
+        theta = 0.0 if self.threshold is None else float(self.threshold)
+        a = model.womlab_scenario.adoption
+        h_r = rules.step_rejection_hazard(rule, float(warned), float(total), theta, float(a.warning), model.time_step,
+                                          model._form)
+        wrng = model.warn_rng
+        if not wrng.random() < -math.expm1(-h_r):
+            return False
+        if self.adopting:
+            h_a = -math.log1p(-probability) if probability < 1.0 else math.inf
+            if not rules.rejects_first(rules.crossing_fraction(h_a, wrng.random()), 1.0,
+                                       rules.crossing_fraction(h_r, wrng.random()), 1.0):
+                return False
+        # who warned: a roulette wheel over the warners, slots sized by their weight
+        warners = model.warners_now() if model.complete else [o for o in self.neighbours if o.warn > 0]
+        left = wrng.random() * sum(o.warn for o in warners)
+        for other in warners:
+            self.warned_by = other.organisation
+            left -= other.warn
+            if left < 0:
+                break
+        self.rejecting = True
+        return True
+
+    def reject(self) -> None:
+        """Warnings, apply phase: become a rejecter (warning others from the next step where rejecters warn)."""
+        self.rejecting = False
+        self.rejecter = True
+        self.rejection_step = self.model.step_count
+        if self.model.womlab_scenario.adoption.rejecters_warn:
+            self.warn_since = self.model.step_count
+
     def adopt(self, period: int) -> None:
         """Apply phase: become a customer in ``period`` and draw whether satisfied."""
         model = self.model
@@ -328,6 +385,8 @@ class Organisation(FixedAgent):
         self.satisfied = bool(rules.draw_satisfied(model.womlab_scenario.adoption.satisfied_share, 1, model.rng)[0])
         self.fresh_until = model.step_count + model.steps_per_period  # cascade: its attempt, one period on
         self.talk = self.counted = model.talk_weight(self)
+        if not self.satisfied:  # warnings: a dissatisfied customer warns from now
+            self.warn_since = model.step_count
 
     def leave(self) -> None:
         """Churn, apply phase: stop being a customer (a former customer, silent from the next step)."""
@@ -335,6 +394,8 @@ class Organisation(FixedAgent):
         self.former = True
         self.leave_step = self.model.step_count
         self.talk = self.counted = 0.0
+        if self.warn_since < 0 and self.model.womlab_scenario.adoption.former_warn:
+            self.warn_since = self.model.step_count
 
 
 class ReferralModel(mesa.Model):
@@ -497,6 +558,11 @@ class ReferralModel(mesa.Model):
         self.churn_rng = mechanism_rng(self.rng, CHURN_STREAM) if adoption.churns else None
         self._churn = (float(adoption.churn), float(adoption.dissatisfied_churn))
         self.former_customers = 0
+        # warnings: a stream of their own too
+        self.warn_rng = mechanism_rng(self.rng, WARNING_STREAM) if adoption.warns else None
+        self.warn_total = 0.0
+        self.rejecters = 0
+        self._warners_now: list[Organisation] | None = None
 
         self.womlab_scenario = scenario  # not `scenario`: Mesa 3.5's Model.scenario is its own
         self.network = network
@@ -542,6 +608,8 @@ class ReferralModel(mesa.Model):
         }
         if self.churn_rng is not None:
             reporters["former_customers"] = "former_customers"
+        if self.warn_rng is not None:
+            reporters["rejecters"] = "rejecters"
         self.datacollector = mesa.DataCollector(
             model_reporters=reporters,
             agent_reporters=dict(agent_reporters) if agent_reporters else None,
@@ -618,8 +686,16 @@ class ReferralModel(mesa.Model):
         if self.complete:
             self.talk_total = float(self.agents.agg("counted", sum))
             self._talking_now = None
+        if self.warn_rng is not None:
+            self._refresh_warnings()
         self.potential.do("decide")
         adopters = self.potential.select(lambda a: a.adopting)
+        if self.warn_rng is not None:  # ---- warnings: rejections apply with the adoptions
+            rejecting = self.potential.select(lambda a: a.rejecting)
+            rejecting.do("reject")
+            for agent in rejecting:
+                self.potential.remove(agent)
+            self.rejecters += len(rejecting)
         if self.churn_rng is not None:
             self._churn_step()
         adopters.do("adopt", self.period)
@@ -636,6 +712,27 @@ class ReferralModel(mesa.Model):
         self.customers += self.new_customers
         self.satisfied_customers += sum(1 for a in adopters if a.satisfied)
         self.datacollector.collect(self)
+
+    def _refresh_warnings(self) -> None:
+        """Warnings: every organisation's weight in its neighbours' Wᵢ this step (:func:`womlab.rules.warns`,
+        :func:`womlab.rules.warn_weight`)."""
+        a = self.womlab_scenario.adoption
+        rule, step = self._rule[0], self.step_count
+        for agent in self._by_id:
+            if agent.customer or agent.former or agent.rejecter:
+                warner = rules.warns(agent.customer, agent.satisfied, agent.former, agent.rejecter, a.former_warn,
+                                     a.rejecters_warn)
+                agent.warn = float(rules.warn_weight(rule, np.float32(agent.talkers), warner,
+                                                     agent.warn_since + self.steps_per_period == step))
+        if self.complete:
+            self.warn_total = float(sum(agent.warn for agent in self._by_id))
+        self._warners_now = None
+
+    def warners_now(self) -> list[Organisation]:
+        """Complete network: every organisation whose warning counts now."""
+        if self._warners_now is None:
+            self._warners_now = [agent for agent in self._by_id if agent.warn > 0]
+        return self._warners_now
 
     def _churn_step(self) -> None:
         """Churn: every customer of the start of the step (ids ascending) leaves with the step
@@ -671,6 +768,12 @@ class ReferralModel(mesa.Model):
             spp = run.steps_per_period
             churn["leave_period"] = np.where(leave >= 0, (leave + spp - 1) // spp, -1).astype(np.int32)
             churn["leave_time"] = np.where(leave >= 0, leave / spp, np.nan)
+        if self.warn_rng is not None:
+            rejected = np.array([a.rejection_step for a in agents], dtype=np.int64)
+            spp = run.steps_per_period
+            churn["rejection_period"] = np.where(rejected >= 0, (rejected + spp - 1) // spp, -1).astype(np.int32)
+            churn["warned_by"] = np.array([a.warned_by for a in agents], dtype=np.int32)
+            churn["rejection_time"] = np.where(rejected >= 0, rejected / spp, np.nan)
         return RunResult(
             periods=run.periods,
             adoption_period=np.array([a.adoption_period for a in agents], dtype=np.int32),

@@ -21,6 +21,11 @@ finer grid). ``customers`` is then the installed base (customers who have not le
 the curve gains ``former_customers`` and ``ever_customers`` (every organisation that was a
 customer at some time up to then). Without churn both are None and the curve is as it
 always was.
+
+Warnings (negative word of mouth). With ``adoption.warning`` above 0 an engine also keeps
+``rejection_period`` (int32: the period in which a potential customer was warned off for
+good, −1 if never) and ``warned_by`` (int32: the warner it is attributed to); the curve
+gains ``rejecters``.
 """
 
 from __future__ import annotations
@@ -36,11 +41,13 @@ from womlab.errors import NetworkError
 from womlab.networks.given import organisation_ids
 from womlab.networks.network import ReferralNetwork
 
-__all__ = ["RunResult", "CURVE_COLUMNS", "CHURN_COLUMNS", "ORGANISATION_COLUMNS", "to_networkx"]
+__all__ = ["RunResult", "CURVE_COLUMNS", "CHURN_COLUMNS", "WARNING_COLUMNS", "ORGANISATION_COLUMNS", "to_networkx"]
 
 CURVE_COLUMNS = ("period", "time", "customers", "new_customers", "satisfied_customers")
 #: Columns a run with churn adds to its curve.
 CHURN_COLUMNS = ("former_customers", "ever_customers")
+#: The column a run with warnings adds to its curve.
+WARNING_COLUMNS = ("rejecters",)
 
 #: Columns of :meth:`RunResult.to_frame` (a network's node attributes go after ``region``).
 ORGANISATION_COLUMNS = ("id", "region", "customer", "initial", "adoption_period", "adoption_time", "referrer",
@@ -85,6 +92,14 @@ class RunResult:
         not by the horizon (or never was a customer). None when churn is off.
     leave_time : numpy.ndarray, optional
         Churn: float64 per organisation, when it left (NaN: not by the horizon).
+    rejection_period : numpy.ndarray, optional
+        Warnings: int32 per organisation, the period in which it became a rejecter, −1 if
+        never. None when warnings are off.
+    warned_by : numpy.ndarray, optional
+        Warnings: int32 per organisation, the warner its rejection is attributed to, −1 if
+        it did not reject.
+    rejection_time : numpy.ndarray, optional
+        Warnings: float64 per organisation, when it became a rejecter (NaN: never).
     """
 
     periods: int
@@ -101,6 +116,9 @@ class RunResult:
     report_every: float = 1.0
     leave_period: np.ndarray | None = None
     leave_time: np.ndarray | None = None
+    rejection_period: np.ndarray | None = None
+    warned_by: np.ndarray | None = None
+    rejection_time: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -150,6 +168,19 @@ class RunResult:
         if self.leave_period is None:
             return np.cumsum(self._per_period(self.satisfied))
         return np.cumsum(self._per_period(self.satisfied)) - np.cumsum(self._left_per_period(self.satisfied))
+
+    @property
+    def warns(self) -> bool:
+        """Whether the run had warnings (it keeps ``rejection_period``)."""
+        return self.rejection_period is not None
+
+    @property
+    def rejecters(self) -> np.ndarray:
+        """Warnings: organisations warned off the product by the end of each period (0 without), int64."""
+        if self.rejection_period is None:
+            return np.zeros(self.periods + 1, dtype=np.int64)
+        rp = self.rejection_period
+        return np.cumsum(np.bincount(rp[rp >= 0], minlength=self.periods + 1)[: self.periods + 1])
 
     @property
     def ever_share(self) -> np.ndarray:
@@ -241,6 +272,8 @@ class RunResult:
             if self.churns:
                 table["former_customers"] = self.former_customers
                 table["ever_customers"] = self.ever_customers
+            if self.warns:
+                table["rejecters"] = self.rejecters
             return table
         if self.adoption_time is None:
             raise ValueError(f"a report grid finer than one period needs adoption times; the {self.engine} engine keeps none")
@@ -274,6 +307,13 @@ class RunResult:
             table["satisfied_customers"] = table["satisfied_customers"] - former_sat
             table["former_customers"] = former
             table = table[[*CURVE_COLUMNS, *CHURN_COLUMNS]]
+        if self.warns:
+            if self.rejection_time is None:
+                raise ValueError(f"a report grid finer than one period needs rejection times; the {self.engine} engine "
+                                 "keeps none")
+            gone = ~np.isnan(self.rejection_time)
+            rows = np.ceil(np.round(self.rejection_time[gone] * per, 9)).astype(np.int64)
+            table["rejecters"] = np.cumsum(np.bincount(rows, minlength=slots + 1)[: slots + 1])
         return table
 
     def to_frame(self, network: ReferralNetwork | None = None, attributes: pd.DataFrame | None = None) -> pd.DataFrame:

@@ -22,7 +22,8 @@ It measures the gaps (:mod:`womlab.studies.metrics`), fits effective parameters
 the figure and writes a results folder.
 
 With churn (``adoption.churn`` above 0) the customer curve can fall, so the comparison is
-made on ``ever_customers`` (every organisation that was a customer by then) against Bass with
+made on ``ever_customers`` (with warnings, ``adoption.warning`` above 0, the models are Bass with
+churn and warnings the same way) (every organisation that was a customer by then) against Bass with
 churn (:mod:`womlab.aggregate.churn`): ``bass_churn_mapped`` (its ODE) and
 ``bass_churn_difference`` (its difference form in the run's step, the reference), plus the
 fitted Bass curve; the installed base of runs and models is in :meth:`Comparison.curve_table`
@@ -77,7 +78,7 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
     network stream, exactly as the batch builds it.
     """
     run, market, a = scenario.run, scenario.market, scenario.adoption
-    if a.churns:  # ever customers of Bass with churn (the installed base: installed_base_curves)
+    if a.churns or a.warns:  # ever customers of Bass with churn and warnings (installed base: installed_base_curves)
         return {name: curve["ever_customers"].to_numpy() for name, curve in _churn_models(scenario).items()}
     par = mapped_parameters(scenario)
     t = np.arange(run.periods + 1, dtype=float)
@@ -104,7 +105,7 @@ def _churn_models(scenario: Scenario) -> dict[str, pd.DataFrame]:
 def installed_base_curves(scenario: Scenario) -> dict[str, np.ndarray]:
     """With churn: the installed base (customers who have not left) of each Bass-with-churn
     curve of :func:`aggregate_curves`, as a share on periods 0..T; empty without churn."""
-    if not scenario.adoption.churns:
+    if not (scenario.adoption.churns or scenario.adoption.warns):
         return {}
     return {name: curve["customers"].to_numpy() for name, curve in _churn_models(scenario).items()}
 
@@ -160,7 +161,7 @@ class Comparison:
         (same grid and step form as the runs), ``bass_mapped`` (the Bass ODE) on the
         continuous clock, or ``stock_and_flow`` for the ``capped`` rule, whose ceiling the
         Bass curves do not have."""
-        if self.scenario.adoption.churns:
+        if self.scenario.adoption.churns or self.scenario.adoption.warns:
             return "bass_churn_difference"
         if self.scenario.adoption.rule == "capped":
             return "stock_and_flow"

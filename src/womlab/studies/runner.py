@@ -28,7 +28,7 @@ import numpy as np
 import pandas as pd
 
 from womlab.aggregate import aggregate_curve, churn_curves, expected_stay
-from womlab.dynamics import CHURN_COLUMNS, CURVE_COLUMNS, RunResult, engine_for, streams
+from womlab.dynamics import CHURN_COLUMNS, CURVE_COLUMNS, WARNING_COLUMNS, RunResult, engine_for, streams
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
 from womlab.networks.given import GivenNetwork, as_network, mapped_with, node_attributes
@@ -324,7 +324,8 @@ class Batch:
             c = run.curve(self.scenario.run.report_every)
             c.insert(0, "replicate", i)
             frames.append(c)
-        columns = [*CURVE_COLUMNS, *(CHURN_COLUMNS if self.scenario.adoption.churns else ())]
+        a = self.scenario.adoption
+        columns = [*CURVE_COLUMNS, *(CHURN_COLUMNS if a.churns else ()), *(WARNING_COLUMNS if a.warns else ())]
         return pd.concat(frames, ignore_index=True)[["replicate", *columns]]
 
     def summary(self) -> pd.DataFrame:
