@@ -71,6 +71,7 @@ bench: $(STAMP)
 	$(BIN)/python benchmarks/sweeps.py
 	$(BIN)/python benchmarks/networks.py
 	$(BIN)/python benchmarks/seeding.py
+	$(BIN)/python benchmarks/calibration.py
 
 clean:
 	rm -rf $(VENV) $(NEWEST) $(WHEEL_VENV) dist out

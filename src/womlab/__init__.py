@@ -3,7 +3,8 @@
 Organisations sit on a referral network; satisfied customers talk to their neighbours.
 womlab simulates each organisation (a fast numpy array engine, and a Mesa model as the
 per-agent reference), runs seeded replicates in parallel, and sets the emergent adoption
-curves against the aggregate Bass and stock-and-flow models.
+curves against the aggregate Bass models (closed form, ODE, difference form, and the Bass
+difference model with a ceiling on the adoption rate).
 
 Quick start::
 
@@ -12,6 +13,7 @@ Quick start::
     batch = womlab.run_replicates(s, 20, jobs=2)
     batch.metrics()                    # t10/t50/t90, peak, final share: network vs aggregate
     womlab.adoption_figure(batch).savefig("adoption.png")
+    fit = womlab.fit_observed(s, "observed.csv")   # your own market: ABC-SMC fit, forecast, stage
 """
 
 from __future__ import annotations
@@ -29,27 +31,44 @@ from womlab.aggregate import (
     bass_ode,
     bass_peak_time,
     bass_share,
+    capped_bass_difference,
     degree_classes,
     degree_mean_field,
     degree_mean_field_curve,
     fit_bass,
     fit_bass_sales,
+    fit_capped_bass_difference,
     fit_replicates,
     fit_stock_and_flow,
     mapped_parameters,
     stock_and_flow,
 )
 from womlab.dynamics import RunResult, engine_for, run_events, streams, to_networkx
-from womlab.errors import ClusterError, CompilerError, NetworkError, ScenarioError, StoreError, WomlabError
+from womlab.errors import (
+    ClusterError,
+    CompilerError,
+    NetworkError,
+    ObservedDataError,
+    ScenarioError,
+    ScenarioWarning,
+    StoreError,
+    WomlabError,
+)
 from womlab.networks import ReferralNetwork, build_network, from_edge_table, read_edgelist, read_graph_file
 from womlab.networks.given import as_network
 from womlab.results import (
+    check_output_folder,
+    save_comparison,
+    save_figure,
+    strategy_colour,
     adoption_figure,
     comparison_figure,
+    fit_figure,
     network_snapshot_figure,
     programme_figure,
     referral_tree_figure,
     save_batch,
+    save_fit,
     save_programme,
     save_seeding_study,
     seeding_figure,
@@ -58,12 +77,22 @@ from womlab.results import (
     sweep_summary,
     write_report,
 )
-from womlab.scenario import Scenario, demo_names, load_scenario, write_demo
+from womlab.scenario import (
+    Scenario,
+    check_resources,
+    demo_names,
+    estimate_resources,
+    field_label,
+    load_scenario,
+    write_demo,
+)
 from womlab.seeding import STRATEGIES, choose_seeds
 from womlab.store import ResultsStore
 from womlab.studies import (
     Batch,
     Comparison,
+    Fit,
+    ObservedSeries,
     ProgrammeStudy,
     SeedingStudy,
     SweepStudy,
@@ -75,6 +104,7 @@ from womlab.studies import (
     curve_metrics,
     design_points,
     evaluate_programme,
+    fit_observed,
     generations,
     lift_statistics,
     morris_design,
@@ -84,8 +114,11 @@ from womlab.studies import (
     parallel_choice,
     pooled_metrics,
     programme_economics,
+    plan,
     programme_ratios,
+    read_observed,
     referral_tree_summary,
+    referrals_by_adoption_period,
     register_sweep_study,
     referrals_per_customer,
     replicate_gaps,
@@ -96,6 +129,8 @@ from womlab.studies import (
     run_replicates,
     run_sweep,
     saltelli_design,
+    simulated_series,
+    simulation_based_calibration,
     sobol_indices,
     sweep_studies,
     time_to_share,
@@ -122,6 +157,7 @@ __all__ = [
     "STRATEGIES",
     "Scenario",
     "ScenarioError",
+    "ScenarioWarning",
     "SeedingStudy",
     "StockFlowFit",
     "StoreError",
@@ -137,6 +173,17 @@ __all__ = [
     "bass_peak_time",
     "bass_share",
     "build_network",
+    "capped_bass_difference",
+    "check_output_folder",
+    "check_resources",
+    "estimate_resources",
+    "field_label",
+    "fit_capped_bass_difference",
+    "plan",
+    "referrals_by_adoption_period",
+    "save_comparison",
+    "save_figure",
+    "strategy_colour",
     "choose_seeds",
     "compare",
     "compare_strategies",
@@ -207,6 +254,16 @@ __all__ = [
     "ReferralModel",
     "Organisation",
     "run_mesa",
+    # fitting an observed series
+    "Fit",
+    "ObservedDataError",
+    "ObservedSeries",
+    "fit_figure",
+    "fit_observed",
+    "read_observed",
+    "save_fit",
+    "simulated_series",
+    "simulation_based_calibration",
     # engines and their dispatch
     "engine_for",
     "run_events",

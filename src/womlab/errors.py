@@ -6,7 +6,8 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 
 from __future__ import annotations
 
-__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError", "CompilerError"]
+__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError", "CompilerError",
+           "ObservedDataError", "ScenarioWarning"]
 
 
 class WomlabError(Exception):
@@ -29,6 +30,12 @@ class StoreError(WomlabError):
     """A results folder cannot be written, read or resumed."""
 
 
+class ScenarioWarning(UserWarning):
+    """A scenario is valid but says something that will not happen as written, e.g. a field
+    that has no effect under the chosen rule (``adoption.cap`` with ``rule = "share"``).
+    The ``womlab`` command prints it as ``womlab: warning: ...``; the work goes on."""
+
+
 class ClusterError(WomlabError):
     """A Dask cluster cannot be started or its scheduler cannot be reached."""
 
@@ -40,3 +47,12 @@ class ViewError(WomlabError):
 class CompilerError(WomlabError):
     """numba, which compiles womlab's formulas and engines, is missing, unsupported or cannot
     compile on this machine; the message names the version found and how to get a supported one."""
+
+
+class ObservedDataError(WomlabError, ValueError):
+    """An observed adoption series cannot be used as given.
+
+    The message names the file, the column, the row (the header is row 1) and what is
+    allowed, e.g. ``sales.csv: column 'customers', row 6 (period 4): customers must not
+    fall (the column is cumulative), got 130 after 142``.
+    """

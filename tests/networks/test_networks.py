@@ -137,7 +137,7 @@ def test_edgelist_florentine_families_text_ids_and_cleaning(tmp_path):
 def test_edgelist_errors_name_the_field(tmp_path):
     bad = tmp_path / "bad.csv"
     bad.write_text("from,to\n1,2\n")
-    with pytest.raises(NetworkError, match=r"network.path: .* must have columns source, target; missing"):
+    with pytest.raises(NetworkError, match=r"network.path: .* must be a CSV with columns source,target; missing"):
         read_edgelist(bad)
     good = tmp_path / "ties.csv"
     good.write_text("source,target\n1,2\n2,3\n")

@@ -141,10 +141,10 @@ def test_compare_writes_results_folder_and_cli(tmp_path):
     written = c.save(tmp_path / "api")
     names = {p.name for p in written}
     assert {"compare_curves.csv", "compare_metrics.csv", "compare_gaps.csv", "compare_fits.csv",
-            "compare_replicates.csv", "comparison.png", "compare_manifest.json"} == names
+            "compare_replicates.csv", "comparison.png", "manifest.json"} == names
     gaps = pd.read_csv(tmp_path / "api" / "compare_gaps.csv")
-    assert set(gaps["aggregate"]) == {"bass_mapped", "bass_difference", "stock_and_flow", "degree_mean_field",
-                                      "bass_fitted"}
+    assert set(gaps["aggregate"]) == {"bass_mapped", "bass_difference", "capped_bass_difference",
+                                      "degree_mean_field", "bass_fitted"}
     assert "Q_eff / Q_mapped" in c.summary_text()
 
     (tmp_path / "occupied").write_text("a file")

@@ -38,9 +38,10 @@ def test_generation_and_counts_on_a_hand_made_forest():
     wom = R.word_of_mouth_by_period(FOREST)
     assert wom["adoptions"].tolist() == [1, 3, 1]
     assert wom["word_of_mouth"].tolist() == [1, 2, 1]
-    rep = R.reproduction_by_period(FOREST)
+    rep = R.referrals_by_adoption_period(FOREST)
     # period 0: customer 0 made 2; period 1: customer 1 made 1; period 2: 2, 3, 5 made 1, 0, 0
-    assert rep["reproduction"].tolist()[:3] == pytest.approx([2.0, 1.0, 1 / 3])
+    assert R.reproduction_by_period is R.referrals_by_adoption_period  # the former name still works
+    assert rep["referrals_per_customer"].tolist()[:3] == pytest.approx([2.0, 1.0, 1 / 3])
 
 
 def test_generation_rejects_a_cycle():

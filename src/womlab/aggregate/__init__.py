@@ -1,8 +1,8 @@
 """The aggregate layer: growth when everyone talks to everyone, and fitting it to curves.
 
 Knows the rules and the scenario (below); nothing of networks, seeding, engines or agents.
-``models`` holds the Bass model (closed form, ODE, difference form), the stock-and-flow
-difference model and the micro-to-macro mapping; ``mean_field`` the degree-based
+``models`` holds the Bass model (closed form, ODE, difference form), the capped Bass
+difference model (formerly "stock-and-flow") and the micro-to-macro mapping; ``mean_field`` the degree-based
 mean-field model (fed a degree sequence, never a network object it must import);
 ``churn`` Bass with churn (ODE and difference form);
 ``fitting`` the least-squares fits of these curves to network runs or sales data.
@@ -18,6 +18,7 @@ from womlab.aggregate.fitting import (
     fit_bass,
     fit_bass_sales,
     fit_replicates,
+    fit_capped_bass_difference,
     fit_stock_and_flow,
 )
 from womlab.aggregate.mean_field import degree_classes, degree_mean_field, degree_mean_field_curve
@@ -30,6 +31,7 @@ from womlab.aggregate.models import (
     bass_ode,
     bass_peak_time,
     bass_share,
+    capped_bass_difference,
     churn_curves,
     mapped_parameters,
     stock_and_flow,
@@ -43,6 +45,7 @@ __all__ = [
     "bass_density",
     "bass_ode",
     "bass_difference",
+    "capped_bass_difference",
     "stock_and_flow",
     "aggregate_curve",
     "bass_peak_time",
@@ -60,5 +63,6 @@ __all__ = [
     "fit_bass_sales",
     "fit_replicates",
     "bass_fit_table",
+    "fit_capped_bass_difference",
     "fit_stock_and_flow",
 ]

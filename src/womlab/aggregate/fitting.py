@@ -8,8 +8,8 @@ word-of-mouth strength says how much word of mouth the network "loses" to cluste
 local saturation and degree heterogeneity.
 
 Every fitted curve is the closed form :func:`womlab.aggregate.bass_share` (which handles
-an initial share F₀), or :func:`womlab.aggregate.stock_and_flow` for the stock-and-flow
-fit: the formulas live in :mod:`womlab.aggregate` alone.
+an initial share F₀), or :func:`womlab.aggregate.capped_bass_difference` for the fit of
+the capped Bass difference model: the formulas live in :mod:`womlab.aggregate` alone.
 
 Models
 ------
@@ -37,7 +37,7 @@ import numpy as np
 import pandas as pd
 from scipy.optimize import least_squares
 
-from womlab.aggregate.models import bass_density, bass_share, stock_and_flow
+from womlab.aggregate.models import bass_density, bass_share, capped_bass_difference
 from womlab.errors import WomlabError
 
 __all__ = [
@@ -47,6 +47,7 @@ __all__ = [
     "fit_bass_sales",
     "fit_replicates",
     "bass_fit_table",
+    "fit_capped_bass_difference",
     "fit_stock_and_flow",
 ]
 
@@ -240,6 +241,7 @@ def fit_bass_sales(
     times: np.ndarray | None = None,
     *,
     form: str = "density",
+    start: tuple[float, float, float] | None = None,
 ) -> BassFit:
     """Fit p, Q and the market size m to sales per period.
 
@@ -252,6 +254,9 @@ def fit_bass_sales(
     form : str
         ``density``: sales(t) = m·f(t), f = dF/dt (:func:`womlab.aggregate.bass_density`);
         ``difference``: sales(t) = m·(F(t) − F(t − 1)).
+    start : (p, Q, m), optional
+        Start from this point only (e.g. a previous fit, for bootstrap refits); by default
+        a small grid of starts is tried and the best kept.
 
     Returns
     -------
@@ -285,7 +290,8 @@ def fit_bass_sales(
     scale = max(float(y.max()), 1e-300)
     lower = np.array([_P_BOUNDS[0], _Q_BOUNDS[0], 1.0 - 1e-9])
     upper = np.array([_P_BOUNDS[1], _Q_BOUNDS[1], 1e3])
-    starts = [np.array([p, q, f]) for p in _STARTS_P for q in _STARTS_Q for f in (1.2, 2.0, 5.0)]
+    starts = ([np.array([start[0], start[1], start[2] / total])] if start else
+              [np.array([p, q, f]) for p in _STARTS_P for q in _STARTS_Q for f in (1.2, 2.0, 5.0)])
     res = _best_fit(lambda x: (model(x) - y) / scale, starts, lower, upper)
     rmse = float(np.sqrt(np.mean((model(res.x) - y) ** 2)))
     se = _stderr(res, ("p", "Q", "m"), y.size)
@@ -397,7 +403,7 @@ def _fit_row(name: str, estimate: float, boot: np.ndarray, reps: np.ndarray, map
 
 @dataclass(frozen=True)
 class StockFlowFit:
-    """A fit of the stock-and-flow difference model's slope and cap.
+    """A fit of the capped Bass difference model's slope and cap (:func:`fit_capped_bass_difference`).
 
     Attributes
     ----------
@@ -417,7 +423,7 @@ class StockFlowFit:
     rmse: float
 
 
-def fit_stock_and_flow(
+def fit_capped_bass_difference(
     share: np.ndarray,
     *,
     organisations: int,
@@ -428,7 +434,7 @@ def fit_stock_and_flow(
     form: str = "linear",
     fit_cap: bool = True,
 ) -> StockFlowFit:
-    """Fit the slope (and cap) of :func:`womlab.aggregate.stock_and_flow` to a share curve on periods 0..T.
+    """Fit the slope (and cap) of :func:`womlab.aggregate.capped_bass_difference` to a share curve on periods 0..T.
 
     The external influence, satisfied share and talkers are held at the given values;
     the slope is searched as the Bass-like strength slope·N·s·τ̄ (so the search is well
@@ -439,12 +445,12 @@ def fit_stock_and_flow(
     n = int(organisations)
     per_q = n * satisfied_share * talkers_per_customer
     if per_q <= 0:
-        raise WomlabError("fit_stock_and_flow needs organisations × satisfied share × talkers > 0")
+        raise WomlabError("fit_capped_bass_difference needs organisations × satisfied share × talkers > 0")
 
     def curve(x: np.ndarray) -> np.ndarray:
-        c = stock_and_flow(periods, n, s[0] * n, slope=x[0] / per_q, satisfied_share=satisfied_share,
-                           talkers_per_customer=talkers_per_customer, external=external,
-                           cap=float(x[1]) if fit_cap else None, time_step=time_step, form=form)
+        c = capped_bass_difference(periods, n, s[0] * n, slope=x[0] / per_q, satisfied_share=satisfied_share,
+                                   talkers_per_customer=talkers_per_customer, external=external,
+                                   cap=float(x[1]) if fit_cap else None, time_step=time_step, form=form)
         return c[1:] / n
 
     if fit_cap:
@@ -458,3 +464,7 @@ def fit_stock_and_flow(
         slope=float(res.x[0] / per_q), cap=float(res.x[1]) if fit_cap else None, success=bool(res.success),
         message=str(res.message), nfev=int(res.nfev), rmse=float(np.sqrt(np.mean(res.fun**2))),
     )
+
+
+#: Former name of :func:`fit_capped_bass_difference`, kept so that code written for it keeps working.
+fit_stock_and_flow = fit_capped_bass_difference

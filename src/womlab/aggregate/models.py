@@ -4,9 +4,14 @@
   an ODE solved with scipy (:func:`bass_ode`).
 * Its discrete difference equation, in either step form (:func:`bass_difference`):
   F ← F + (1 − F)·π(p + Q·F), with π the step probability of :mod:`womlab.rules`.
-* The stock-and-flow difference model (:func:`stock_and_flow`): potential customers and
-  customers as two stocks, talkers = customers × satisfied share × talkers per
-  customer, buying = available × min(external + slope × talkers, cap).
+* The capped Bass difference model (:func:`capped_bass_difference`): the Bass difference
+  equation in customer counts, with the adoption rate per period capped at
+  ``adoption.cap`` — talkers = customers × satisfied share × talkers per customer,
+  buying = available × π(min(external + slope × talkers, cap)). Without a cap it is the
+  Bass difference equation itself. This is how Bass diffusion is written as a
+  stock-and-flow model (two stocks, potential customers and customers, and one flow
+  between them; Sterman 2000, ch. 9, from memory); womlab names it by what it computes.
+  Its former name :func:`stock_and_flow` still works.
 * :func:`mapped_parameters`, the micro-to-macro mapping from a scenario.
 * :func:`churn_curves`: with churn, Bass with churn (:mod:`womlab.aggregate.churn`) mapped
   from the scenario.
@@ -17,6 +22,10 @@ References
 ----------
 Bass, F. M. (1969). A new product growth for model consumer durables. Management
 Science 15(5), 215–227.
+
+Sterman, J. D. (2000). Business Dynamics: Systems Thinking and Modeling for a Complex
+World. Irwin/McGraw-Hill. Chapter 9, the Bass diffusion model in stock-and-flow form
+(cited from memory).
 """
 
 from __future__ import annotations
@@ -39,6 +48,7 @@ __all__ = [
     "bass_density",
     "bass_ode",
     "bass_difference",
+    "capped_bass_difference",
     "stock_and_flow",
     "aggregate_curve",
     "churn_curves",
@@ -50,7 +60,7 @@ __all__ = [
 AGGREGATE_LABELS = {
     "bass_mapped": "Bass ODE, mapped p, Q",
     "bass_difference": "Bass difference model, mapped",
-    "stock_and_flow": "stock-and-flow model, mapped",
+    "capped_bass_difference": "Bass difference model with a rate ceiling, mapped",
     "degree_mean_field": "degree mean-field model",
     "bass_fitted": "Bass fitted to the network",
     "bass_churn_mapped": "Bass with churn/warnings ODE, mapped",
@@ -75,7 +85,8 @@ class AggregateParameters:
     mean_talkers : float
         τ̄, mean talkers per organisation.
     slope : float
-        Stock-and-flow slope: buying per potential customer per talker in the market.
+        Slope of the capped Bass difference model: buying per potential customer per
+        talker in the market.
     cap : float or None
         Ceiling on the per-period buying rate (``capped`` rule), else None.
     """
@@ -98,7 +109,7 @@ def _mean_degree(scenario: Scenario) -> float:
 
 
 def mapped_parameters(scenario: Scenario) -> AggregateParameters:
-    """Map a scenario to aggregate Bass and stock-and-flow parameters (mean field).
+    """Map a scenario to aggregate Bass parameters and the capped Bass difference slope (mean field).
 
     Derivation. Let F be the customer share and s the satisfied share, so a share s·F of
     organisations are satisfied customers. Under the mean-field assumption a potential
@@ -111,7 +122,7 @@ def mapped_parameters(scenario: Scenario) -> AggregateParameters:
     * ``count``: λ = p + q·T ≈ p + q·τ̄·k̄·s·F, hence **Q = q·s·τ̄·k̄**; on a random regular
       graph with fixed talkers k̄ = k exactly, and on the complete network k̄ = N − 1.
     * ``capped``: λ = min(p + q·T, cap) ≈ min(p + Q·F, cap) with the ``count`` Q. In
-      stock-and-flow terms talkers = C·s·τ̄ (C customers), and each potential customer
+      customer counts talkers = C·s·τ̄ (C customers), and each potential customer
       meets a share k̄/N of them, so buying = available × min(p + slope·talkers, cap) with
       **slope = q·k̄/N**.
     * ``threshold`` and ``cascade`` have no Bass counterpart (a threshold crossing is all
@@ -185,9 +196,30 @@ def bass_density(t: np.ndarray | float, p: float, Q: float, initial_share: float
     return (1 - f) * (p + Q * f)
 
 
-def bass_peak_time(p: float, Q: float) -> float:
-    """Time of the Bass adoption-rate peak from F(0) = 0: t* = ln(Q/p)/(p + Q) (Bass 1969)."""
-    return float(np.log(Q / p) / (p + Q)) if Q > p > 0 else 0.0
+def bass_peak_time(p: float, Q: float, initial_share: float = 0.0) -> float:
+    """Time of the Bass adoption-rate peak, t* = ln((1 − F₀)·Q / (p + Q·F₀)) / (p + Q).
+
+    The rate (1 − F)(p + Q·F) peaks at F* = (Q − p)/(2Q); solving :func:`bass_share` for
+    F(t*) = F* gives t* above, which is Bass's ln(Q/p)/(p + Q) from F(0) = 0 (Bass 1969)
+    and the logistic's ln((1 − F₀)/F₀)/Q when p = 0. It is 0 when the rate only falls
+    (Q <= p, or F₀ already at or past F*), and infinite when nothing ever happens
+    (p = 0 and F₀ = 0). NaN when Q is NaN (a rule without a Bass counterpart).
+
+    Examples
+    --------
+    >>> round(bass_peak_time(0.03, 0.38), 4)   # ln(0.38/0.03)/0.41
+    6.1926
+    >>> round(bass_peak_time(0.0, 0.5, 0.01), 4)   # ln(99)/0.5
+    9.1902
+    """
+    if Q != Q:
+        return float("nan")
+    if p <= 0 and initial_share <= 0:
+        return float("inf") if Q >= 0 else 0.0
+    if Q <= p:
+        return 0.0
+    x = (1 - initial_share) * Q / (p + Q * initial_share)
+    return float(np.log(x) / (p + Q)) if x > 1 else 0.0
 
 
 def bass_ode(t: np.ndarray, p: float, Q: float, initial_share: float = 0.0, *, rtol: float = 1e-10, atol: float = 1e-12) -> np.ndarray:
@@ -225,7 +257,7 @@ def bass_difference(
     return out
 
 
-def stock_and_flow(
+def capped_bass_difference(
     periods: int,
     organisations: int,
     initial_customers: float,
@@ -238,12 +270,23 @@ def stock_and_flow(
     time_step: float = 1.0,
     form: str = "linear",
 ) -> np.ndarray:
-    """Stock-and-flow difference model; returns customers on periods 0..T.
+    """The Bass difference model in customer counts with a ceiling on the adoption rate; customers on periods 0..T.
 
     Each step: talkers = customers × satisfied_share × talkers_per_customer;
     available = organisations − customers; buying = available × π(min(external +
     slope × talkers, cap)), with π the step probability of the step form; buying moves
-    from the potential-customer stock to the customer stock.
+    from the potential customers to the customers. With ``cap = None`` and
+    slope = Q / (organisations × satisfied_share × talkers_per_customer) this is
+    :func:`bass_difference` in counts (Bass 1969); the cap is the aggregate form of the
+    ``capped`` rule. It is the stock-and-flow form of Bass diffusion (Sterman 2000, ch. 9,
+    from memory), and was called ``stock_and_flow`` before.
+
+    Examples
+    --------
+    >>> c = capped_bass_difference(3, 1000, 10, slope=0.001, satisfied_share=1.0, talkers_per_customer=1.0,
+    ...                            external=0.01, cap=0.02)
+    >>> [round(float(x), 2) for x in c]
+    [10.0, 29.8, 49.2, 68.22]
     """
     spp = int(round(1 / time_step))
     out = np.empty(periods + 1)
@@ -259,12 +302,16 @@ def stock_and_flow(
     return out
 
 
+#: Former name of :func:`capped_bass_difference`, kept so that code written for it keeps working.
+stock_and_flow = capped_bass_difference
+
+
 def aggregate_curve(scenario: Scenario) -> np.ndarray:
     """The aggregate prediction of the customer share on periods 0..T, same step and form.
 
     ``share`` and ``count``: the Bass difference equation with the mapped p and Q, or on
     the continuous clock (``run.clock = "continuous"``) the Bass closed form itself;
-    ``capped``: the stock-and-flow model with the mapped slope and cap. With churn
+    ``capped``: the capped Bass difference model with the mapped slope and cap. With churn
     (``adoption.churn`` or ``churn_dissatisfied`` above 0) or warnings (``adoption.warning``
     above 0) the installed base of Bass with churn and warnings (:func:`churn_curves`; NaN
     for ``capped``).
@@ -279,7 +326,7 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
         return np.full(run.periods + 1, np.nan)
     if a.rule == "capped":
         n = scenario.market.organisations
-        customers = stock_and_flow(
+        customers = capped_bass_difference(
             run.periods,
             n,
             scenario.n_initial,

@@ -3,33 +3,46 @@
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
 from typing import Any
 
-from womlab.cli.common import batch_command, load, print_table
+from womlab.cli.common import batch_command, figure_options, prepare, print_table
 
 __all__ = ["add"]
+
+
+def budget_line(study: Any) -> str | None:
+    """A line saying whether the programme's budget cap bound, and when (None without a cap)."""
+    import numpy as np
+
+    budget = study.scenario.referral.budget
+    if budget is None:
+        return None
+    periods = np.array([r.extra.get("budget_exhausted_period", -1) for r in study.programme])
+    spent = periods >= 0
+    if not spent.any():
+        return f"budget cap {budget:g}: never reached in {len(periods)} replicates"
+    return (f"budget cap {budget:g} bound: spent in {int(spent.sum())} of {len(periods)} replicates (median period "
+            f"{float(np.median(periods[spent])):g}); from then on nothing was paid and the boost stopped")
 
 
 def cmd_referral(args: argparse.Namespace) -> int:
     import time
 
     from womlab.results import save_programme
-    from womlab.studies import evaluate_programme
+    from womlab.studies import evaluate_programme, programme_summary
 
-    scenario = load(args)
-    out = Path(args.out) if args.out else Path("out") / f"{Path(args.config).stem}-referral"
+    scenario, out = prepare(args, "referral")
     start = time.perf_counter()
     study = evaluate_programme(scenario, progress=not args.quiet)
     wall = time.perf_counter() - start
-    written = save_programme(study, out, wall_time=wall)
+    written = save_programme(study, out, wall_time=wall, **figure_options(args))
     ref = scenario.referral
-    value = f"lifetime value {ref.lifetime_value:g}" if ref.lifetime_value is not None else (
-        f"value {1.0 if ref.value_per_period is None else ref.value_per_period:g} per customer per period")
-    print(f"{scenario.name}: referral programme (enrol {ref.enrol}, periods {ref.start}-{ref.last_period(scenario.run.periods)}) "
-          f"vs none, {study.replicates} paired replicates of {scenario.market.organisations} organisations "
-          f"on a {scenario.network.kind} network, {wall:.1f} s")
-    print(f"{value}, discount rate {ref.discount_rate:g} per period")
+    print(f"{scenario.name}: referral programme vs none, {study.replicates} paired replicates of "
+          f"{scenario.market.organisations:,} organisations on a {scenario.network.kind} network, {wall:.1f} s")
+    print(f"programme: {programme_summary(scenario)}; discount rate {ref.discount_rate:g} per period")
+    line = budget_line(study)
+    if line:
+        print(line)
     print_table(study.summary()[["outcome", "estimate", "low", "high"]])
     print(f"wrote {len(written)} files to {out}/")
     return 0
@@ -37,5 +50,4 @@ def cmd_referral(args: argparse.Namespace) -> int:
 
 def add(sub: Any) -> None:
     batch_command(sub, "referral", cmd_referral, "evaluate the scenario's referral programme against no programme",
-                  "scenario TOML file with a [referral] section", "paired replicates (overrides run.replicates)",
-                  "out/<config name>-referral")
+                  "scenario TOML file with a [referral] section", "paired replicates (overrides run.replicates)")

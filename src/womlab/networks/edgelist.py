@@ -2,11 +2,17 @@
 
 Organisation ids are mapped to 0..N−1 and kept as labels. The reader is registered with
 the scenario layer (:func:`womlab.scenario.registry.register_edgelist_reader`) so that a
-scenario takes its market size and mean degree from the file.
+scenario takes its market size, mean degree and number of regions from the files.
+
+A file that is not what it should be gets one line naming the field and the file, and
+never a line of its contents: a binary or UTF-16 file, invalid UTF-8, a file that is not
+a CSV, missing columns (the columns found are named only when they read as column
+names), no ties, only self-loops, or one id written two ways (``1`` and ``01``).
 """
 
 from __future__ import annotations
 
+import io
 import warnings
 from functools import lru_cache
 from pathlib import Path
@@ -17,25 +23,56 @@ import pandas as pd
 from womlab.errors import NetworkError
 from womlab.networks.network import ReferralNetwork
 from womlab.networks.tables import from_edge_table
+from womlab.scenario.checks import found_columns, utf8_text
 
 __all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts"]
 
+def _text(path: str | Path, what: str) -> str:
+    """The file's text, or one line saying why it is not UTF-8 text (never its contents)."""
+    name = Path(path).name
+    try:
+        raw = Path(path).read_bytes()
+    except OSError as exc:
+        raise NetworkError(f"network.{what}: cannot read {name!r}: {exc.strerror}") from None
+    try:
+        return utf8_text(raw, "CSV")
+    except ValueError as exc:
+        raise NetworkError(f"network.{what}: {name!r} {exc}") from None
+
 
 def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.DataFrame:
+    name = Path(path).name
+    expected = f"a CSV with columns {','.join(columns)}"
+    text = _text(path, what)
     try:
-        table = pd.read_csv(path, dtype=str, skipinitialspace=True)
-    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
-        raise NetworkError(f"network.{what}: cannot read {str(path)!r}: {exc}") from None
-    table.columns = [c.strip() for c in table.columns]
+        table = pd.read_csv(io.StringIO(text), dtype=str, skipinitialspace=True)
+    except pd.errors.EmptyDataError:
+        raise NetworkError(f"network.{what}: {name!r} is empty; expected {expected}") from None
+    except (pd.errors.ParserError, ValueError):
+        raise NetworkError(f"network.{what}: {name!r} is not {expected} (its rows do not parse as CSV)") from None
+    table.columns = [str(c).strip() for c in table.columns]
     missing = [c for c in columns if c not in table.columns]
     if missing:
-        raise NetworkError(
-            f"network.{what}: {str(path)!r} must have columns {', '.join(columns)}; "
-            f"missing {', '.join(missing)} (found {', '.join(table.columns)})"
-        )
+        raise NetworkError(f"network.{what}: {name!r} must be {expected}; missing {', '.join(missing)}"
+                           f"{found_columns(list(table.columns))}")
     if table[list(columns)].isna().any().any():
-        raise NetworkError(f"network.{what}: {str(path)!r} has empty cells in {', '.join(columns)}")
+        raise NetworkError(f"network.{what}: {name!r} has empty cells in {', '.join(columns)}")
     return table
+
+
+def _one_spelling(ids: np.ndarray, what: str, path: str | Path) -> None:
+    """Refuse ids that are the same whole number written two ways (``1`` and ``01``)."""
+    unique = pd.unique(np.asarray([str(v).strip() for v in ids], dtype=object))
+    try:
+        numbers = np.array([int(v) for v in unique])
+    except (ValueError, OverflowError):
+        return
+    order = np.argsort(numbers, kind="stable")
+    same = np.flatnonzero(numbers[order][1:] == numbers[order][:-1])
+    if same.size:
+        a, b = sorted((str(unique[order[same[0]]]), str(unique[order[same[0] + 1]])))
+        raise NetworkError(f"network.{what}: {Path(path).name!r} writes one id two ways ({a!r} and {b!r}); "
+                           "write each organisation's id one way")
 
 
 def read_edgelist(path: str | Path, nodes_path: str | Path | None = None) -> ReferralNetwork:
@@ -50,11 +87,26 @@ def read_edgelist(path: str | Path, nodes_path: str | Path | None = None) -> Ref
     Raises
     ------
     NetworkError
-        If a file cannot be read, lacks a column, or a tie names an id the node file lacks.
+        One line naming the field and the file (never its contents): a file that is not
+        UTF-8 CSV text, lacks a column, holds no ties or only self-loops, writes one id two
+        ways, or a tie that names an id the node file lacks.
     """
     ties = _read_table(path, ("source", "target"), "path")
-    nodes = _read_table(nodes_path, ("id", "region"), "nodes_path") if nodes_path is not None else None
-    return from_edge_table(ties, nodes, kind="edgelist", where=(f"network.path {str(path)!r}", f"network.nodes_path {str(nodes_path)!r}"))
+    name = Path(path).name
+    src = ties["source"].str.strip().to_numpy()
+    dst = ties["target"].str.strip().to_numpy()
+    if src.size == 0:
+        raise NetworkError(f"network.path: {name!r} holds no ties (a header and no rows)")
+    if (src == dst).all():
+        raise NetworkError(f"network.path: {name!r} holds only self-loops (ties of an organisation to itself); "
+                           "a referral network needs ties between two organisations")
+    _one_spelling(np.concatenate([src, dst]), "path", path)
+    nodes = None
+    if nodes_path is not None:
+        nodes = _read_table(nodes_path, ("id", "region"), "nodes_path")
+        _one_spelling(nodes["id"].to_numpy(), "nodes_path", nodes_path)
+    where = (f"network.path {name!r}", f"network.nodes_path {Path(nodes_path).name!r}" if nodes_path else "")
+    return from_edge_table(ties, nodes, kind="edgelist", where=where)
 
 
 def count_edgelist_organisations(path: str | Path, nodes_path: str | Path | None = None) -> int:
@@ -65,9 +117,9 @@ def count_edgelist_organisations(path: str | Path, nodes_path: str | Path | None
     return len(pd.unique(np.concatenate([ties["source"].str.strip().to_numpy(), ties["target"].str.strip().to_numpy()])))
 
 
-
-def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float]:
-    """Organisations and mean degree (2·ties / organisations) of an edge list, as :func:`read_edgelist` reads it.
+def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float, int]:
+    """Organisations, mean degree (2·ties / organisations) and regions of an edge list, as
+    :func:`read_edgelist` reads it.
 
     Remembered per file path, size and modification time, so that a scenario changed many
     times (a sweep's points) reads its edge list once.
@@ -78,8 +130,8 @@ def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float
 
 
 @lru_cache(maxsize=32)
-def _facts(edges: tuple, nodes: tuple | None) -> tuple[int, float]:
+def _facts(edges: tuple, nodes: tuple | None) -> tuple[int, float, int]:
     with warnings.catch_warnings():  # dropped loops and duplicates are reported when the network is built
         warnings.simplefilter("ignore")
         network = read_edgelist(edges[0], None if nodes is None else nodes[0])
-    return network.n, (2.0 * network.ties / network.n if network.n else 0.0)
+    return network.n, (2.0 * network.ties / network.n if network.n else 0.0), network.regions

@@ -76,8 +76,8 @@ def read_graph_file(path: str | Path, kind: str = "graphml", *, region: str = "r
     return ReferralNetwork.from_networkx(graph, kind, region=region)
 
 
-def graph_file_facts(kind: str, path: str) -> tuple[int, float]:
-    """Organisations and mean degree (2·ties / organisations) of a graph file, as read.
+def graph_file_facts(kind: str, path: str) -> tuple[int, float, int]:
+    """Organisations, mean degree (2·ties / organisations) and regions of a graph file, as read.
 
     Remembered per file path, size and modification time (a sweep's points read it once).
     """
@@ -86,8 +86,8 @@ def graph_file_facts(kind: str, path: str) -> tuple[int, float]:
 
 
 @lru_cache(maxsize=32)
-def _facts(kind: str, path: str, size: int, mtime: int) -> tuple[int, float]:
+def _facts(kind: str, path: str, size: int, mtime: int) -> tuple[int, float, int]:
     with warnings.catch_warnings():  # dropped loops and duplicates are reported when the network is built
         warnings.simplefilter("ignore")
         network = read_graph_file(path, kind)
-    return network.n, (2.0 * network.ties / network.n if network.n else 0.0)
+    return network.n, (2.0 * network.ties / network.n if network.n else 0.0), network.regions

@@ -15,15 +15,29 @@ layer.
 from __future__ import annotations
 
 from womlab.results.figures import (
+    FIGURE_FORMATS,
     adoption_figure,
     comparison_figure,
     network_snapshot_figure,
+    plain_text,
     programme_figure,
     referral_tree_figure,
+    save_figure,
     seeding_figure,
+    strategy_colour,
 )
+from womlab.results.fit import fit_figure, overlay_observed
 from womlab.results.report import sensitivity_table, sweep_figures, sweep_summary, write_report
-from womlab.results.save import save_batch, save_comparison, save_programme, save_seeding_study
+from womlab.results.save import (
+    check_output_folder,
+    save_batch,
+    save_comparison,
+    save_fit,
+    save_programme,
+    save_seeding_study,
+    sections_in_use,
+)
+from womlab.studies.calibration import Fit
 from womlab.studies.compare import Comparison
 from womlab.studies.presenting import register
 from womlab.studies.sweep import SweepSummary
@@ -31,8 +45,16 @@ from womlab.studies.sweep import SweepSummary
 register(Comparison, "figure", comparison_figure)
 register(Comparison, "save", save_comparison)
 register(SweepSummary, "report", lambda summary: write_report(summary.out, lock=False))  # the sweep holds the lock
+register(Fit, "figure", fit_figure)
+register(Fit, "save", save_fit)
 
 __all__ = [
+    "FIGURE_FORMATS",
+    "check_output_folder",
+    "plain_text",
+    "save_figure",
+    "sections_in_use",
+    "strategy_colour",
     "adoption_figure",
     "comparison_figure",
     "network_snapshot_figure",
@@ -47,4 +69,7 @@ __all__ = [
     "sensitivity_table",
     "sweep_figures",
     "write_report",
+    "fit_figure",
+    "save_fit",
+    "overlay_observed",
 ]

@@ -1,10 +1,13 @@
 """The scenario layer: every parameter of a study, as frozen, validated dataclasses.
 
 The lowest layer of womlab: it imports nothing of womlab but :mod:`womlab.errors`.
-``sections`` holds the sections, ``sweep_spec`` the ``[sweep]`` section, ``tree`` the
-:class:`Scenario` itself (loading, ``replace``), ``checks`` the shared validation wording,
-``registry`` what the layers above hand down (strategy names, the edge-list reader),
-and ``shipped`` the demo scenarios that ship in the package (``demos/*.toml``).
+``sections`` holds the sections (and the fields-without-effect rules, ``NO_EFFECT``),
+``sweep_spec`` the ``[sweep]`` section, ``tree`` the :class:`Scenario` itself (loading,
+``replace``, ``--set``), ``checks`` the shared validation wording, ``registry`` what the
+layers above hand down (strategy names, the edge-list reader), ``resources`` the estimate
+of memory and work before anything runs, ``progress`` how long work reports itself,
+``labels`` the plain label of every field, and ``shipped`` the demo scenarios that ship in
+the package (``demos/*.toml``).
 See :mod:`womlab.scenario.tree` for the file format.
 """
 
@@ -32,11 +35,22 @@ from womlab.scenario.sections import (
     Talkers,
     Thresholds,
 )
+from womlab.scenario.fit_spec import PRIOR_DISTRIBUTIONS, FitSpec, Prior
+from womlab.scenario.labels import field_label
+from womlab.scenario.resources import Estimate, check_resources, estimate_resources
+from womlab.scenario.sections import NO_EFFECT, no_effect
 from womlab.scenario.shipped import demo_names, demo_path, write_demo
 from womlab.scenario.sweep_spec import SWEEP_DESIGNS, Axis, SweepSpec
-from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario
+from womlab.scenario.tree import SECTIONS, Scenario, field_type, load_scenario, parse_assignment
 
 __all__ = [
+    "field_label",
+    "Estimate",
+    "estimate_resources",
+    "check_resources",
+    "NO_EFFECT",
+    "no_effect",
+    "parse_assignment",
     "Market",
     "NetworkSpec",
     "Talkers",
@@ -48,6 +62,8 @@ __all__ = [
     "Axis",
     "SweepSpec",
     "Referral",
+    "FitSpec",
+    "Prior",
     "Scenario",
     "SECTIONS",
     "field_type",
@@ -67,4 +83,5 @@ __all__ = [
     "ENROLMENTS",
     "REWARD_SCHEMES",
     "SWEEP_DESIGNS",
+    "PRIOR_DISTRIBUTIONS",
 ]

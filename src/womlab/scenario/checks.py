@@ -8,7 +8,9 @@ from __future__ import annotations
 
 import dataclasses
 import difflib
+import functools
 import math
+import re
 import types
 import typing
 from typing import Any
@@ -16,7 +18,7 @@ from typing import Any
 from womlab.errors import ScenarioError
 
 __all__ = ["fail", "in_unit", "non_negative", "positive_int", "one_of", "unknown_field", "coerce", "field_names",
-           "hints", "drop_none"]
+           "hints", "drop_none", "utf8_text", "found_columns"]
 
 
 def fail(dotted: str, value: Any, allowed: str) -> typing.NoReturn:
@@ -50,6 +52,7 @@ def field_names(cls: type) -> list[str]:
     return [f.name for f in dataclasses.fields(cls)]
 
 
+@functools.cache  # typing.get_type_hints is most of the cost of Scenario.replace; a class's hints never change
 def hints(cls: type) -> dict[str, Any]:
     return typing.get_type_hints(cls)
 
@@ -107,3 +110,51 @@ def drop_none(value: Any) -> Any:
         return [drop_none(v) for v in value]
     return value
 
+
+
+def utf8_text(raw: bytes, kind: str) -> str:
+    """``raw`` decoded as UTF-8 (a UTF-8 byte-order mark is allowed), or a ValueError saying in one
+    line why it is not UTF-8 text: UTF-16, binary, or an invalid byte (named by position, never by
+    the file's contents). ``kind`` names what the file should be (``TOML``, ``CSV``).
+
+    Examples
+    --------
+    >>> utf8_text(b"\\xef\\xbb\\xbfname = 1", "TOML")
+    'name = 1'
+    >>> utf8_text(b"a\\nb\\xff", "CSV")
+    Traceback (most recent call last):
+    ...
+    ValueError: is not UTF-8 text (byte 0xff at line 2, column 2); save it as UTF-8 CSV
+    """
+    if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        raise ValueError(f"is UTF-16 text; save it as UTF-8 {kind}")
+    if b"\x00" in raw:
+        raise ValueError(f"is not a text file (it holds binary data); expected UTF-8 {kind}")
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        column = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise ValueError(f"is not UTF-8 text (byte 0x{raw[exc.start]:02x} at line {line}, column {column}); "
+                         f"save it as UTF-8 {kind}") from None
+
+
+_COLUMN_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_ .-]{0,39}")
+
+
+def found_columns(columns: list[str]) -> str:
+    """What an error about missing columns may say of the columns found: their names when they read
+    as the header row of a CSV (at least two names, each a short plain word), else only that the
+    first line is not shown — so that a path pointed at some other file (a secrets file, the
+    system's password file) never has its first line echoed.
+
+    Examples
+    --------
+    >>> found_columns(["from", "to"])
+    ' (found from, to)'
+    >>> found_columns(["API_KEY=sk-live-123"])
+    ' (its first line is not shown: it does not read as a header of column names)'
+    """
+    if len(columns) >= 2 and all(_COLUMN_NAME.fullmatch(str(c)) for c in columns):
+        return f" (found {', '.join(map(str, columns))})"
+    return " (its first line is not shown: it does not read as a header of column names)"

@@ -7,10 +7,11 @@ hand it down when they are imported (``import womlab`` imports them all):
 * the names of the seeding strategies (:mod:`womlab.seeding` registers each one with
   :func:`register_strategy_name`), against which ``seeding.strategy``,
   ``study.strategies`` and ``referral.strategy`` are checked;
-* how to read a network file's size and mean degree (:mod:`womlab.networks` registers a
-  reader per file kind — edge list, GraphML, GEXF — with :func:`register_network_file_reader`),
-  which the scenario uses to take ``market.organisations`` and ``network.mean_degree``
-  from the file.
+* how to read a network file's size, mean degree and regions (:mod:`womlab.networks`
+  registers a reader per file kind — edge list, GraphML, GEXF — with
+  :func:`register_network_file_reader`), which the scenario uses to take
+  ``market.organisations``, ``network.mean_degree`` and (with a node file)
+  ``market.regions`` from the file.
 * the names of the studies a sweep point can run (:mod:`womlab.studies.sweep_studies`
   registers each with :func:`register_sweep_study_name`, with the fields that study sets
   itself), against which ``sweep.study`` and the sweep's axes are checked.
@@ -27,7 +28,7 @@ __all__ = ["register_strategy_name", "strategy_names", "register_network_file_re
 
 _STRATEGY_NAMES: set[str] = set()
 _SWEEP_STUDIES: dict[str, dict[str, str]] = {}
-_FILE_READERS: dict[str, Callable[[str, str | None], tuple[int, float]]] = {}
+_FILE_READERS: dict[str, Callable[[str, str | None], tuple]] = {}
 
 
 def register_strategy_name(name: str) -> None:
@@ -40,8 +41,9 @@ def strategy_names() -> tuple[str, ...]:
     return tuple(sorted(_STRATEGY_NAMES))
 
 
-def register_network_file_reader(kind: str, reader: Callable[[str, str | None], tuple[int, float]]) -> None:
-    """Set the function ``(path, nodes_path) -> (organisations, mean degree)`` of network files of ``kind``."""
+def register_network_file_reader(kind: str, reader: Callable[[str, str | None], tuple]) -> None:
+    """Set the function ``(path, nodes_path) -> (organisations, mean degree[, regions])`` of network
+    files of ``kind`` (a reader that gives no regions means one region)."""
     _FILE_READERS[kind] = reader
 
 
@@ -50,20 +52,21 @@ def network_file_kinds() -> tuple[str, ...]:
     return tuple(sorted(_FILE_READERS))
 
 
-def network_file_facts(kind: str, path: str | Path, nodes_path: str | Path | None = None) -> tuple[int, float]:
-    """Organisations and mean degree of a network file, by the reader :mod:`womlab.networks` registered."""
+def network_file_facts(kind: str, path: str | Path, nodes_path: str | Path | None = None) -> tuple[int, float, int]:
+    """Organisations, mean degree and regions of a network file, by the reader :mod:`womlab.networks` registered."""
     if kind not in _FILE_READERS:  # pragma: no cover - `import womlab` registers them
         raise RuntimeError(f"no reader is registered for network files of kind {kind!r}; import womlab")
-    return _FILE_READERS[kind](str(path), None if nodes_path is None else str(nodes_path))
+    facts = tuple(_FILE_READERS[kind](str(path), None if nodes_path is None else str(nodes_path)))
+    return int(facts[0]), float(facts[1]), int(facts[2]) if len(facts) > 2 else 1
 
 
-def register_edgelist_reader(reader: Callable[[str, str | None], tuple[int, float]]) -> None:
-    """Set the function ``(path, nodes_path) -> (organisations, mean degree)`` of edge lists."""
+def register_edgelist_reader(reader: Callable[[str, str | None], tuple]) -> None:
+    """Set the function ``(path, nodes_path) -> (organisations, mean degree, regions)`` of edge lists."""
     register_network_file_reader("edgelist", reader)
 
 
-def edgelist_facts(path: str | Path, nodes_path: str | Path | None) -> tuple[int, float]:
-    """Organisations and mean degree of an edge list, by the reader :mod:`womlab.networks` registered."""
+def edgelist_facts(path: str | Path, nodes_path: str | Path | None) -> tuple[int, float, int]:
+    """Organisations, mean degree and regions of an edge list, by the reader :mod:`womlab.networks` registered."""
     return network_file_facts("edgelist", path, nodes_path)
 
 

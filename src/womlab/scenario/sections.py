@@ -9,14 +9,16 @@ are validated against :mod:`womlab.scenario.registry`.
 from __future__ import annotations
 
 import csv
+import io
 import math
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
 from typing import Any, ClassVar, Protocol
 
 from womlab.errors import ScenarioError
-from womlab.scenario.checks import fail, in_unit, non_negative, one_of, positive_int
+from womlab.scenario.checks import fail, found_columns, in_unit, non_negative, one_of, positive_int, utf8_text
 from womlab.scenario.registry import strategy_names
 
 __all__ = [
@@ -30,6 +32,10 @@ __all__ = [
     "Study",
     "Referral",
     "ScenarioParts",
+    "NoEffect",
+    "NO_EFFECT",
+    "no_effect",
+    "without_effect",
     "NETWORK_KINDS",
     "FILE_KINDS",
     "RULES",
@@ -730,23 +736,28 @@ def _ids_from_file(path: str, column: str) -> tuple[str, ...]:
 
 @lru_cache(maxsize=32)
 def _read_ids(path: str, column: str, mtime: int, size: int) -> tuple[str, ...]:
+    name = Path(path).name
     try:
-        with open(path, newline="", encoding="utf-8-sig") as f:
-            rows = list(csv.reader(f))
-    except (OSError, UnicodeDecodeError, csv.Error) as exc:
-        raise ScenarioError(f"seeding.ids_path: cannot read {path!r}: {exc}") from None
+        text = utf8_text(Path(path).read_bytes(), "CSV")
+        rows = list(csv.reader(io.StringIO(text, newline="")))
+    except OSError as exc:
+        raise ScenarioError(f"seeding.ids_path: cannot read {name!r}: {exc.strerror}") from None
+    except ValueError as exc:
+        raise ScenarioError(f"seeding.ids_path: {name!r} {exc}") from None
+    except csv.Error:
+        raise ScenarioError(f"seeding.ids_path: {name!r} is not a CSV (its rows do not parse)") from None
     header = [h.strip() for h in rows[0]] if rows else []
     if column not in header:
-        raise ScenarioError(
-            f"seeding.ids_path: {path!r} must have a column {column!r} (seeding.ids_column); "
-            f"found {', '.join(header) or 'no columns'}"
+        raise ScenarioError(  # never the file's first line, unless it reads as a CSV header
+            f"seeding.ids_path: {name!r} must have a column {column!r} (seeding.ids_column)"
+            f"{found_columns(header) if header else ' (it is empty)'}"
         )
     at = header.index(column)
     ids = []
     for line, row in enumerate(rows[1:], start=2):
         value = row[at].strip() if at < len(row) else ""
         if not value:
-            raise ScenarioError(f"seeding.ids_path: {path!r} line {line} has no id in column {column!r}; "
+            raise ScenarioError(f"seeding.ids_path: {name!r} line {line} has no id in column {column!r}; "
                                 "allowed: an organisation id on every row")
         ids.append(value)
     return tuple(ids)
@@ -777,3 +788,119 @@ class ScenarioParts(Protocol):
 
     @property
     def referral(self) -> Referral: ...
+
+
+# ----------------------------------------------------------------------------- fields without effect
+@dataclass(frozen=True)
+class NoEffect:
+    """A field that has no effect while ``when(scenario)`` holds, and why (``because(scenario)``).
+
+    ``field`` is a dotted field, or a table (``adoption.threshold``) that covers its fields.
+    """
+
+    field: str
+    when: Callable[[Any], bool]
+    because: Callable[[Any], str]
+
+
+#: Every field-without-effect rule; :func:`no_effect` adds one. A given field that matches a
+#: rule whose ``when`` holds gets a one-line warning (:func:`without_effect`), so that a
+#: value a user set, or a sweep varies, is never silently ignored.
+NO_EFFECT: list[NoEffect] = []
+
+
+def no_effect(field_: str, when: Callable[[Any], bool], because: Callable[[Any], str]) -> None:
+    """Declare that ``field_`` has no effect while ``when(scenario)`` holds, for the reason ``because(scenario)``."""
+    NO_EFFECT.append(NoEffect(field_, when, because))
+
+
+def _value(scenario: Any, dotted: str) -> Any:
+    node = scenario
+    for part in dotted.split("."):
+        node = getattr(node, part, None)
+    return node
+
+
+def without_effect(scenario: Any, given: Iterable[str]) -> list[str]:
+    """One message per given field that has no effect in ``scenario``, in the order given.
+
+    ``given`` holds the dotted fields the user set (in the file, with ``--set`` or through
+    ``Scenario.replace``), so a default never warns.
+    """
+    out = []
+    for dotted in given:
+        for rule in NO_EFFECT:
+            if (dotted == rule.field or dotted.startswith(rule.field + ".")) and rule.when(scenario):
+                value = _value(scenario, dotted)
+                shown = f"{value:g}" if isinstance(value, float) else repr(value)
+                out.append(f"{dotted} = {shown} has no effect: {rule.because(scenario)}")
+                break
+    return out
+
+
+def _uses(scenario: Any, name: str) -> bool:
+    """Whether any part of the scenario chooses organisations with the strategy ``name``."""
+    r = scenario.referral
+    return (scenario.seeding.strategy == name or name in scenario.study.strategies
+            or (r.enrol == "strategy" and r.strategy == name))
+
+
+def _no_one_enrolled(s: Any) -> bool:
+    return s.referral.enrol == "none" or (s.referral.enrol == "share" and s.referral.enrol_share == 0)
+
+
+def _enrolment(s: Any) -> str:
+    if s.referral.enrol == "none":
+        return 'referral.enrol = "none" enrols no one'
+    return 'referral.enrol = "share" with referral.enrol_share = 0 enrols no one'
+
+
+no_effect("adoption.cap", lambda s: s.adoption.rule != "capped",
+          lambda s: f'adoption.rule = "{s.adoption.rule}" (only the capped rule has a ceiling)')
+no_effect("adoption.threshold", lambda s: s.adoption.rule != "threshold",
+          lambda s: f'adoption.rule = "{s.adoption.rule}" (thresholds belong to the threshold rule)')
+_FILE_KINDS = ("edgelist", "graphml", "gexf")
+def _kinds(s: Any) -> set[str]:
+    """The network kinds a scenario runs on: its own, and those a fit chooses among."""
+    fit = getattr(s, "fit", None)
+    return {s.network.kind, *(getattr(fit, "network_kinds", ()) or ())}
+
+
+no_effect("network.rewiring", lambda s: not _kinds(s) & {"small_world", "regional"},
+          lambda s: f'network.kind = "{s.network.kind}" (rewiring shapes small worlds: kinds small_world, regional)')
+no_effect("network.within_region_share", lambda s: not _kinds(s) & {"regional", "regional_blocks"},
+          lambda s: f'network.kind = "{s.network.kind}" (it shapes regions: kinds regional, regional_blocks)')
+no_effect("network.mean_degree", lambda s: s.network.kind == "complete" or s.network.kind in _FILE_KINDS,
+          lambda s: ("every organisation is tied to every other on the complete network" if s.network.kind == "complete"
+                     else "a network file has its own mean degree, read from the file"))
+no_effect("network.path", lambda s: s.network.kind not in _FILE_KINDS,
+          lambda s: f'network.kind = "{s.network.kind}" (a file is read for kinds {", ".join(_FILE_KINDS)} only)')
+no_effect("network.nodes_path", lambda s: s.network.kind != "edgelist",
+          lambda s: f'network.kind = "{s.network.kind}" (a node file is read for kind = "edgelist" only)')
+no_effect("network.region_attribute", lambda s: s.network.kind not in ("graphml", "gexf"),
+          lambda s: f'network.kind = "{s.network.kind}" (it names a GraphML or GEXF node attribute)')
+no_effect("market.regions", lambda s: s.network.kind == "edgelist" and s.network.nodes_path is None,
+          lambda s: "an edge list without network.nodes_path puts every organisation in one region")
+for _name in ("referral.strategy", "referral.enrol_count", "referral.start", "referral.end",
+              "referral.talk_multiplier", "referral.extra_talkers", "referral.scheme", "referral.reward",
+              "referral.bonus", "referral.bonus_threshold", "referral.referred_reward", "referral.budget"):
+    no_effect(_name, _no_one_enrolled, _enrolment)
+no_effect("referral.enrol_share", lambda s: s.referral.enrol != "share",
+          lambda s: f'referral.enrol = "{s.referral.enrol}" (the share applies to enrol = "share")')
+for _name in ("referral.strategy", "referral.enrol_count"):
+    no_effect(_name, lambda s: s.referral.enrol != "strategy",
+              lambda s: f'referral.enrol = "{s.referral.enrol}" (it applies to enrol = "strategy")')
+for _name in ("referral.bonus", "referral.bonus_threshold"):
+    no_effect(_name, lambda s: s.referral.scheme == "linear",
+              lambda s: 'referral.scheme = "linear" pays no bonus (use "bonus" or "both")')
+no_effect("referral.reward", lambda s: s.referral.scheme == "bonus",
+          lambda s: 'referral.scheme = "bonus" pays the bonus only (use "linear" or "both")')
+for _name in ("run.time_step", "run.step_probability"):
+    no_effect(_name, lambda s: s.run.clock == "continuous",
+              lambda s: 'run.clock = "continuous" has no time step (exact adoption times)')
+for _name in ("seeding.betweenness_exact_up_to", "seeding.betweenness_sample"):
+    no_effect(_name, lambda s: not _uses(s, "bridges"), lambda s: "no strategy in use is bridges")
+for _name in ("seeding.greedy_runs", "seeding.greedy_candidates"):
+    no_effect(_name, lambda s: not _uses(s, "greedy"), lambda s: "no strategy in use is greedy")
+for _name in ("seeding.ids", "seeding.ids_path", "seeding.ids_column"):
+    no_effect(_name, lambda s: not _uses(s, "listed"), lambda s: "no strategy in use is listed")

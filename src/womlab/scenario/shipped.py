@@ -25,7 +25,7 @@ def demo_names() -> list[str]:
     Examples
     --------
     >>> demo_names()
-    ['demo', 'referral-demo', 'seeding-demo', 'sweep-demo']
+    ['demo', 'fit-demo', 'referral-demo', 'seeding-demo', 'sweep-demo']
     """
     return sorted(p.stem for p in _folder().glob("*.toml"))
 
@@ -47,6 +47,9 @@ def demo_path(name: str) -> Path:
 def write_demo(name: str, folder: str | Path = ".", *, overwrite: bool = False) -> Path:
     """Write the shipped demo scenario ``name`` into ``folder`` as ``<name>.toml``; returns its path.
 
+    Files the demo reads (its data files, named ``<name>-*.csv`` beside it, such as the fit
+    demo's observed record) are written beside it.
+
     Raises
     ------
     ScenarioError
@@ -62,9 +65,12 @@ def write_demo(name: str, folder: str | Path = ".", *, overwrite: bool = False) 
     ('demo.toml', 12000)
     """
     source = demo_path(name)
-    target = Path(folder) / source.name
-    if target.exists() and not overwrite:
-        raise ScenarioError(f"{str(target)!r} exists; remove it or choose another folder (nothing was written)")
-    target.parent.mkdir(parents=True, exist_ok=True)
-    target.write_text(source.read_text(encoding="utf-8"), encoding="utf-8")
-    return target
+    files = [source, *sorted(source.parent.glob(f"{source.stem}-*.csv"))]
+    targets = [Path(folder) / f.name for f in files]
+    for target in targets:
+        if target.exists() and not overwrite:
+            raise ScenarioError(f"{str(target)!r} exists; remove it or choose another folder (nothing was written)")
+    targets[0].parent.mkdir(parents=True, exist_ok=True)
+    for file, target in zip(files, targets):
+        target.write_bytes(file.read_bytes())
+    return targets[0]

@@ -17,7 +17,7 @@ import numpy as np
 
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork
-from womlab.scenario import Scenario
+from womlab.scenario import Scenario, progress
 from womlab.scenario.registry import register_strategy_name
 
 __all__ = ["STRATEGIES", "strategy", "choose_seeds", "initial_customers", "register_simulator", "default_simulator",
@@ -102,10 +102,26 @@ def choose_seeds(
     options = _OPTIONS[name](scenario) if (name in _OPTIONS and scenario is not None) else {}
     if name in _SIMULATES:
         options["simulate"] = default_simulator() if simulate is None else simulate
-    seeds = np.asarray(func(network, budget, rng, **options), dtype=np.int32)
+    with _stage(name, network, scenario):
+        seeds = np.asarray(func(network, budget, rng, **options), dtype=np.int32)
     if seeds.size != budget or np.unique(seeds).size != budget or (budget and not 0 <= seeds.min() <= seeds.max() < network.n):
         raise RuntimeError(f"seeding strategy {name!r} returned {seeds.size} ids, not {budget} distinct valid ones")
     return seeds
+
+
+def _stage(name: str, network: ReferralNetwork, scenario: Scenario | None):  # noqa: ANN202 - a context manager
+    """Report choosing seeds as a step of its own when it will be slow (sampled betweenness, greedy)."""
+    from contextlib import nullcontext
+
+    from womlab.scenario.resources import strategy_seconds
+
+    if scenario is None or strategy_seconds(name, scenario) < SLOW_STAGE:
+        return nullcontext()
+    return progress.stage(f"{name}: choosing {scenario.n_initial} seeds among {network.n:,} organisations")
+
+
+#: Choosing seeds is reported as a step of its own when the estimate says it takes longer (seconds).
+SLOW_STAGE = 5.0
 
 
 def initial_customers(

@@ -11,11 +11,21 @@ from __future__ import annotations
 
 from typing import Any
 
-from womlab.store.folders import atomic_write, manifest, results_folder, versions
-from womlab.store.sweep_store import STORE_FORMAT, ResultsStore, differences, file_sha256, runs_schema
+from womlab.store.folders import (
+    MANIFEST,
+    FolderWriter,
+    atomic_write,
+    check_results_folder,
+    differences,
+    file_sha256,
+    manifest,
+    results_folder,
+    versions,
+)
+from womlab.store.sweep_store import STORE_FORMAT, ResultsStore, runs_schema
 
-__all__ = ["atomic_write", "manifest", "results_folder", "versions", "ResultsStore", "STORE_FORMAT", "RUNS_SCHEMA",
-           "CURVES_SCHEMA", "runs_schema", "file_sha256", "differences"]
+__all__ = ["atomic_write", "manifest", "results_folder", "versions", "check_results_folder", "FolderWriter", "MANIFEST",
+           "ResultsStore", "STORE_FORMAT", "RUNS_SCHEMA", "CURVES_SCHEMA", "runs_schema", "file_sha256", "differences"]
 
 
 def __getattr__(name: str) -> Any:  # RUNS_SCHEMA / CURVES_SCHEMA without importing pyarrow at import

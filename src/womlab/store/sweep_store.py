@@ -40,7 +40,6 @@ process refuses with one line, or waits up to a timeout (:meth:`ResultsStore.loc
 
 from __future__ import annotations
 
-import hashlib
 import json
 import os
 from collections.abc import Callable, Iterator
@@ -52,7 +51,7 @@ from typing import Any
 import pandas as pd
 
 from womlab.errors import StoreError
-from womlab.store.folders import atomic_write
+from womlab.store.folders import atomic_write, differences, file_sha256  # noqa: F401 - re-exported here too
 
 __all__ = ["ResultsStore", "RUNS_SCHEMA", "CURVES_SCHEMA", "STORE_FORMAT", "LOCK_NAME", "runs_schema", "file_sha256",
            "differences", "RUN_COLUMNS"]
@@ -97,37 +96,6 @@ def __getattr__(name: str) -> Any:  # RUNS_SCHEMA / CURVES_SCHEMA without import
     if name == "CURVES_SCHEMA":
         return _curves_schema()
     raise AttributeError(name)
-
-
-def file_sha256(path: str | Path) -> str:
-    """SHA-256 of a file's bytes, as hex."""
-    h = hashlib.sha256()
-    with open(path, "rb") as f:
-        for block in iter(lambda: f.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
-
-
-def _flatten(value: Any, prefix: str = "") -> dict[str, Any]:
-    if isinstance(value, dict):
-        out: dict[str, Any] = {}
-        for k, v in value.items():
-            out.update(_flatten(v, f"{prefix}{k}."))
-        return out or {prefix[:-1]: {}}
-    return {prefix[:-1]: value}
-
-
-def differences(there: dict, now: dict, limit: int = 6) -> list[str]:
-    """``key: <there> there, <now> now`` for every dotted key whose value differs (at most ``limit``)."""
-    a, b = _flatten(there), _flatten(now)
-    missing = object()
-    out = []
-    for key in sorted(set(a) | set(b)):
-        va, vb = a.get(key, missing), b.get(key, missing)
-        if va != vb:
-            show = lambda v: "(absent)" if v is missing else json.dumps(v)  # noqa: E731
-            out.append(f"{key}: {show(va)} there, {show(vb)} now")
-    return out[:limit] + ([f"... and {len(out) - limit} more"] if len(out) > limit else [])
 
 
 def _now() -> str:

@@ -5,14 +5,26 @@ nothing of files' contents, figures or the command line (above). ``runner`` hold
 replicate batches and paired runs (common random numbers, joblib); ``compare`` the
 network set beside the aggregate models; ``seeding_study`` the paired seeding study;
 ``programme`` a referral programme's economics; ``sweep`` designs and the resumable
-sweep runner; ``sweep_studies`` the registry of what a sweep point runs; ``sensitivity`` Sobol and Morris; ``metrics`` curve statistics and
-intervals; ``referrals`` referral-tree analytics; ``presenting`` the registry through
+sweep runner; ``sweep_studies`` the registry of what a sweep point runs; ``plan`` what
+each command will run on a scenario; ``sensitivity`` Sobol and Morris; ``metrics`` curve
+statistics and intervals; ``referrals`` referral-tree analytics; ``observed`` observed adoption series; ``smc`` the
+ABC-SMC; ``calibration`` fitting, forecasting and staging an observed market; ``presenting`` the registry through
 which a study's result asks :mod:`womlab.results` to draw or write it.
 """
 
 from __future__ import annotations
 
+from womlab.studies.calibration import (
+    Fit,
+    PosteriorDraws,
+    check_observed,
+    fit_observed,
+    simulated_series,
+    simulation_based_calibration,
+)
 from womlab.studies.compare import Comparison, aggregate_curves, compare
+from womlab.studies.observed import ObservedSeries, observed_series, read_observed
+from womlab.studies.plan import plan, programme_summary, slow_steps
 from womlab.studies.metrics import (
     GAP_NAMES,
     METRIC_NAMES,
@@ -43,17 +55,22 @@ from womlab.studies.referrals import (
     referral_counts,
     referral_tree_summary,
     referrals_per_customer,
+    referrals_by_adoption_period,
     reproduction_by_period,
     top_degree_referral_share,
     word_of_mouth_by_period,
 )
 from womlab.studies.runner import Batch, crossover_seconds, parallel_choice, run_one, run_paired, run_replicates
 from womlab.studies.seeding_study import SeedingStudy, compare_strategies, lift_statistics, run_outcomes
+from womlab.studies.smc import abc_smc, effective_sample_size, weighted_quantile
 from womlab.studies.sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
 from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, run_point, run_sweep
 from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_study, sweep_studies, sweep_study
 
 __all__ = [
+    "plan",
+    "programme_summary",
+    "slow_steps",
     "parallel_choice",
     "crossover_seconds",
     "Batch",
@@ -80,6 +97,7 @@ __all__ = [
     "referrals_per_customer",
     "generations",
     "top_degree_referral_share",
+    "referrals_by_adoption_period",
     "reproduction_by_period",
     "referral_tree_summary",
     "discount_factors",
@@ -109,4 +127,16 @@ __all__ = [
     "sobol_indices",
     "morris_design",
     "morris_effects",
+    "Fit",
+    "PosteriorDraws",
+    "fit_observed",
+    "check_observed",
+    "simulated_series",
+    "simulation_based_calibration",
+    "ObservedSeries",
+    "observed_series",
+    "read_observed",
+    "abc_smc",
+    "effective_sample_size",
+    "weighted_quantile",
 ]

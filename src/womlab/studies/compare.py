@@ -8,8 +8,10 @@ aggregate curve womlab computes from the same scenario, on the same grid:
     Q of :func:`womlab.aggregate.mapped_parameters`: the continuous-time model.
 ``bass_difference``
     The Bass difference equation in the run's own step and step form.
-``stock_and_flow``
-    The stock-and-flow difference model with the mapped slope (and cap, ``capped``).
+``capped_bass_difference``
+    The Bass difference model in customer counts with the mapped slope and, under the
+    ``capped`` rule, the ceiling on the adoption rate (:func:`womlab.aggregate.capped_bass_difference`;
+    without a ceiling it coincides with ``bass_difference``).
 ``degree_mean_field``
     The degree-based mean-field model (:func:`womlab.aggregate.degree_mean_field`) on the
     degree sequence of replicate 0's network, in the run's step form: how much of the
@@ -27,7 +29,7 @@ churn and warnings the same way) (every organisation that was a customer by then
 churn (:mod:`womlab.aggregate.churn`): ``bass_churn_mapped`` (its ODE) and
 ``bass_churn_difference`` (its difference form in the run's step, the reference), plus the
 fitted Bass curve; the installed base of runs and models is in :meth:`Comparison.curve_table`
-and the figure. The degree mean-field and stock-and-flow models have no churn, and are left out.
+and the figure. The degree mean-field and capped Bass difference models have no churn, and are left out.
 The fitted Bass curve is fitted to the ever customers, so Q_eff / Q_mapped counts the word of
 mouth lost when customers leave (former customers no longer talk) as well as the network's.
 
@@ -51,13 +53,13 @@ from womlab.aggregate import (
     bass_difference,
     bass_fit_table,
     bass_share,
+    capped_bass_difference,
     churn_curves,
     degree_mean_field_curve,
     fit_bass,
+    fit_capped_bass_difference,
     fit_replicates,
-    fit_stock_and_flow,
     mapped_parameters,
-    stock_and_flow,
 )
 from womlab.dynamics import streams
 from womlab.networks import build_network
@@ -89,10 +91,10 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
         "bass_mapped": bass_share(t, par.p, par.Q, par.initial_share),
         "bass_difference": bass_difference(run.periods, par.p, par.Q, par.initial_share,
                                            time_step=run.time_step, form=run.step_probability),
-        "stock_and_flow": stock_and_flow(run.periods, n, scenario.n_initial, slope=par.slope,
-                                         satisfied_share=a.satisfied_share, talkers_per_customer=par.mean_talkers,
-                                         external=par.p, cap=par.cap, time_step=run.time_step,
-                                         form=run.step_probability) / n,
+        "capped_bass_difference": capped_bass_difference(
+            run.periods, n, scenario.n_initial, slope=par.slope, satisfied_share=a.satisfied_share,
+            talkers_per_customer=par.mean_talkers, external=par.p, cap=par.cap, time_step=run.time_step,
+            form=run.step_probability) / n,
         "degree_mean_field": degree_mean_field_curve(scenario, network),
     }
     return curves
@@ -131,7 +133,7 @@ class Comparison:
     bass_fit : womlab.aggregate.fitting.BassFit
         The Bass fit of the mean network curve.
     stock_flow_fit : womlab.aggregate.fitting.StockFlowFit
-        The stock-and-flow fit (slope and cap) of the mean network curve.
+        The capped Bass difference fit (slope and cap) of the mean network curve.
     """
 
     batch: Batch
@@ -159,12 +161,12 @@ class Comparison:
     def reference(self) -> str:
         """The mapped aggregate curve the headline is measured against: ``bass_difference``
         (same grid and step form as the runs), ``bass_mapped`` (the Bass ODE) on the
-        continuous clock, or ``stock_and_flow`` for the ``capped`` rule, whose ceiling the
+        continuous clock, or ``capped_bass_difference`` for the ``capped`` rule, whose ceiling the
         Bass curves do not have."""
         if self.scenario.adoption.churns or self.scenario.adoption.warns:
             return "bass_churn_difference"
         if self.scenario.adoption.rule == "capped":
-            return "stock_and_flow"
+            return "capped_bass_difference"
         return "bass_mapped" if self.scenario.run.clock == "continuous" else "bass_difference"
 
     def curve_table(self) -> pd.DataFrame:
@@ -231,7 +233,7 @@ class Comparison:
 
         Files: ``compare_curves.csv``, ``compare_metrics.csv``, ``compare_gaps.csv``,
         ``compare_fits.csv``, ``compare_replicates.csv`` (per-replicate metrics, fits and
-        gaps to the :attr:`reference` model), ``comparison.png``, ``compare_manifest.json``
+        gaps to the :attr:`reference` model), ``comparison.png``, ``manifest.json``
         (:func:`womlab.results.save_comparison`).
 
         Raises
@@ -259,7 +261,9 @@ class Comparison:
             f"{s.network.kind} network ({s.adoption.rule} rule), {self.batch.wall_time:.1f} s",
             f"  word of mouth kept   Q_eff / Q_mapped = {h['Q_ratio']:.3f}  (95 % {h['Q_ratio_low']:.3f} to "
             f"{h['Q_ratio_high']:.3f}; Q_eff = {h['Q_eff']:.4g}, Q_mapped = {h['Q_mapped']:.4g}, "
-            f"p_eff = {h['p_eff']:.3g}, m_eff = {h['m_eff']:.3g})",
+            f"p_eff = {h['p_eff']:.3g}, m_eff = {h['m_eff']:.3g}"
+            + (": the fitted curve reaches the whole market)" if h["m_eff"] == 1 else
+               ": the share of the market the fitted curve reaches)"),
             f"  time to 50 %         network {h['t50_network']:.2f}, {h['t50_delay']:+.2f} periods vs the "
             f"{AGGREGATE_LABELS[self.reference]} (95 % {h['t50_delay_low']:+.2f} to {h['t50_delay_high']:+.2f}); degree mean-field "
             f"{h['t50_degree_mean_field']:.2f}",
@@ -267,7 +271,7 @@ class Comparison:
             f"{h['peak_ratio_high']:.3f})",
             f"  largest gap          {h['max_gap']:+.3f} of the market at period {h['time_of_max_gap']:g}; RMSE "
             f"{h['rmse_reference']:.3f} to that model, {h['rmse_degree_mean_field']:.3f} to the degree mean-field",
-            f"  stock-and-flow fit   slope {sf.slope:.4g}, cap {sf.cap:.3g} "
+            f"  capped Bass fit      slope {sf.slope:.4g}, cap {sf.cap:.3g} "
             f"({'converged' if sf.success else 'did not converge'})",
         ]
         return "\n".join(lines)
@@ -322,7 +326,7 @@ def compare(
     ...                         "network": {"kind": "ring", "mean_degree": 4}, "run": {"periods": 30}})
     >>> c = compare(s, 4, bootstrap=50, fit_bootstrap=10)
     >>> sorted(c.curves)
-    ['bass_difference', 'bass_fitted', 'bass_mapped', 'degree_mean_field', 'stock_and_flow']
+    ['bass_difference', 'bass_fitted', 'bass_mapped', 'capped_bass_difference', 'degree_mean_field']
     """
     network = batch.network if network is None and batch is not None else network
     given = None if network is None else as_network(network, scenario.market.organisations)
@@ -339,9 +343,9 @@ def compare(
     fits = bass_fit_table(shares, Q_mapped=par.Q, p_mapped=par.p, bootstrap=fit_bootstrap, seed=seed, level=level,
                           per_replicate=per_rep_fits)
     a, run = scenario.adoption, scenario.run
-    sf = fit_stock_and_flow(shares.mean(axis=0), organisations=scenario.market.organisations,
-                            satisfied_share=a.satisfied_share, talkers_per_customer=par.mean_talkers,
-                            external=par.p, time_step=run.time_step, form=run.step_probability)
+    sf = fit_capped_bass_difference(shares.mean(axis=0), organisations=scenario.market.organisations,
+                                    satisfied_share=a.satisfied_share, talkers_per_customer=par.mean_talkers,
+                                    external=par.p, time_step=run.time_step, form=run.step_probability)
     return Comparison(
         batch=batch,
         curves=curves,

@@ -22,6 +22,7 @@ Schmitt, P., Skiera, B. & Van den Bulte, C. (2011). Referral programs and custom
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -232,6 +233,7 @@ class ProgrammeStudy:
     programme: list[RunResult]
     degrees: list[np.ndarray] = field(default_factory=list)
     bootstrap: int = 2000
+    parameters: str = "fixed (the scenario's own)"
 
     @property
     def replicates(self) -> int:
@@ -263,7 +265,9 @@ class ProgrammeStudy:
         be = self.break_even_period()
         rows.append({"outcome": "break_even_period", "estimate": be, "low": np.nan, "high": np.nan,
                      "interval": "of the mean cumulative curves"})
-        return pd.DataFrame(rows)
+        table = pd.DataFrame(rows)
+        table["parameters"] = self.parameters  # fixed, or drawn from a fit's posterior (intervals include it)
+        return table
 
     def curves(self) -> pd.DataFrame:
         """Per period: mean and 5–95 % band of the customer share, baseline and programme."""
@@ -309,7 +313,7 @@ class ProgrammeStudy:
 
 
 def evaluate_programme(
-    scenario: Scenario,
+    scenario: Scenario | Any,
     replicates: int | None = None,
     *,
     jobs: int | None = None,
@@ -324,8 +328,11 @@ def evaluate_programme(
 
     Parameters
     ----------
-    scenario : Scenario
-        Must have a programme (``referral.enrol`` other than ``none``).
+    scenario : Scenario or Fit
+        Must have a programme (``referral.enrol`` other than ``none``). A fit
+        (:func:`womlab.fit_observed`; ``fit.replace({...})`` adds a programme) stands for its
+        scenario at the posterior, and each replicate draws its parameters from the
+        posterior, the same draw for the baseline and the programme.
     replicates : int, optional
         Defaults to ``scenario.run.replicates``.
     jobs : int, optional
@@ -354,6 +361,9 @@ def evaluate_programme(
     >>> list(study.per_replicate().columns[:3])
     ['replicate', 'customers_baseline', 'customers_programme']
     """
+    draws = None
+    if not isinstance(scenario, Scenario):  # a fit: parameters drawn from its posterior per replicate
+        draws, scenario = scenario.posterior_draws(), scenario.scenario()
     check_programme(scenario)
     replicates = scenario.run.replicates if replicates is None else replicates
     jobs = scenario.run.jobs if jobs is None else jobs
@@ -362,11 +372,14 @@ def evaluate_programme(
     given = None if network is None else as_network(network, scenario.market.organisations)
     baseline = scenario.replace("referral.enrol", "none")
     runs = run_paired({"baseline": baseline, "programme": scenario}, replicates, jobs=jobs, progress=progress,
-                      network=given)
+                      network=given, vary=draws)
     degs = []
     if degrees:
         for r in range(replicates):
+            at = scenario if draws is None else scenario.replace(draws((r,)))
             net = given if given is not None else build_network(
-                scenario, np.random.default_rng(streams(scenario.seed, (r,)).network))
+                at, np.random.default_rng(streams(scenario.seed, (r,)).network))
             degs.append(net.degree())
-    return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs)
+    return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs,
+                          parameters="fixed (the scenario's own)" if draws is None else
+                          "drawn from the fit's posterior per replicate, the same for baseline and programme")

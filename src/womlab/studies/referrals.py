@@ -28,6 +28,7 @@ __all__ = [
     "referrals_per_customer",
     "generations",
     "top_degree_referral_share",
+    "referrals_by_adoption_period",
     "reproduction_by_period",
     "referral_tree_summary",
 ]
@@ -225,20 +226,21 @@ def top_degree_referral_share(
     return pd.DataFrame(rows)
 
 
-def reproduction_by_period(runs: Runs) -> pd.DataFrame:
-    """Effective reproduction number by adoption period, pooled over runs.
+def referrals_by_adoption_period(runs: Runs) -> pd.DataFrame:
+    """Referrals per new customer, by adoption period, pooled over runs.
 
-    R(c) is the mean number of referrals made (by the horizon) by the customers who
-    adopted in period c; period 0 holds the initial customers. Customers who adopt near
-    the horizon have had little time to refer, so the last periods' values are
-    right-censored and fall towards 0 for that reason alone.
+    For each period c: the mean number of referrals made (by the horizon) by the customers
+    who adopted in period c; period 0 holds the initial customers. Customers who adopt
+    near the horizon have had little time to refer, so the last periods' values are
+    right-censored and fall towards 0 for that reason alone. (Epidemiology calls this
+    mean a cohort reproduction number; womlab names it by what it counts.)
 
     Returns
     -------
     pandas.DataFrame
         ``period``, ``customers`` (who adopted in it), ``referrals`` (made by them),
-        ``reproduction`` (their mean; NaN without customers), ``se`` (standard error of
-        that mean across customers).
+        ``referrals_per_customer`` (their mean; NaN without customers), ``se`` (standard
+        error of that mean across customers).
     """
     runs = _as_list(runs)
     T = runs[0].periods
@@ -260,8 +262,12 @@ def reproduction_by_period(runs: Runs) -> pd.DataFrame:
         se = np.sqrt(np.maximum(var, 0) / np.maximum(n_c, 1))
     return pd.DataFrame(
         {"period": np.arange(T + 1), "customers": n_c.astype(np.int64), "referrals": s1.astype(np.int64),
-         "reproduction": mean, "se": se}
+         "referrals_per_customer": mean, "se": se}
     )
+
+
+#: Former name of :func:`referrals_by_adoption_period`, kept so that code written for it keeps working.
+reproduction_by_period = referrals_by_adoption_period
 
 
 def referral_tree_summary(runs: Runs, degrees: np.ndarray | Sequence[np.ndarray] | None = None) -> pd.DataFrame:

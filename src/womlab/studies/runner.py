@@ -33,6 +33,8 @@ from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
 from womlab.networks.given import GivenNetwork, as_network, mapped_with, node_attributes
 from womlab.scenario import Scenario
+from womlab.scenario.progress import bar, doing
+from womlab.scenario.resources import usable_jobs
 from womlab.seeding import initial_customers
 from womlab.studies.metrics import metrics_table
 
@@ -81,6 +83,8 @@ def _run_variants(
         network = build_network(first, np.random.default_rng(st.network))
     out = {}
     for name, scenario in variants.items():
+        if name:
+            doing(name)
         initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
         result = engine_for(scenario)(scenario, network, initial, np.random.default_rng(st.dynamics))
         result.seed, result.spawn_key = scenario.seed, tuple(key)
@@ -88,13 +92,26 @@ def _run_variants(
     return out
 
 
+@dataclass(frozen=True)
+class _Varied:
+    """The variants of one key with that key's changes applied: ``vary(key)`` (a picklable
+    callable) gives dotted field changes that every variant of the key receives alike."""
+
+    variants: Mapping[str, Scenario]
+    vary: Callable[[tuple[int, ...]], Mapping[str, Any]]
+
+    def __call__(self, key: tuple[int, ...]) -> dict[str, Scenario]:
+        changes = self.vary(tuple(key))
+        return {name: s.replace(changes) if changes else s for name, s in self.variants.items()}
+
+
 def _chunk(
-    variants: Mapping[str, Scenario], keys: Sequence[tuple[int, ...]], reduce: Callable[[RunResult], Any] | None = None,
-    network: ReferralNetwork | None = None,
+    variants: Mapping[str, Scenario] | _Varied, keys: Sequence[tuple[int, ...]],
+    reduce: Callable[[RunResult], Any] | None = None, network: ReferralNetwork | None = None,
 ) -> list[tuple[tuple, dict[str, Any]]]:
     out = []
     for key in keys:
-        runs = _run_variants(variants, key, network)
+        runs = _run_variants(variants(key) if isinstance(variants, _Varied) else variants, key, network)
         out.append((key, runs if reduce is None else {name: reduce(r) for name, r in runs.items()}))
     return out
 
@@ -200,10 +217,10 @@ def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int
     (count, result)
         How many items the chunk held and ``func(chunk)``, as chunks finish (in any order).
     """
-    from joblib import Parallel, delayed, effective_n_jobs
+    from joblib import Parallel, delayed
 
     items = list(items)
-    workers = min(effective_n_jobs(jobs), len(items))
+    workers = min(usable_jobs(jobs), len(items))  # never more processes than cores
     mode = _choice["mode"]
     done = 0
     each = np.inf
@@ -264,18 +281,11 @@ def _execute(
     so that only its small return value travels back. ``network``, if given, is the one
     network every run is on (else each key builds its own)."""
     done: dict[tuple, dict[str, RunResult]] = {}
-    bar = None
-    if progress:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(total=len(keys), unit="run", desc="runs", leave=False)
-    for _, chunk in run_chunks(partial(_chunk, variants, reduce=reduce, network=network), keys, jobs):
-        for key, result in chunk:
-            done[key] = result
-        if bar is not None:
-            bar.update(len(chunk))
-    if bar is not None:
-        bar.close()
+    with bar(len(keys), "replicates", unit="replicate", show=progress) as count:
+        for _, chunk in run_chunks(partial(_chunk, variants, reduce=reduce, network=network), keys, jobs):
+            for key, result in chunk:
+                done[key] = result
+            count.update(len(chunk))
     return done
 
 
@@ -482,6 +492,7 @@ def run_paired(
     keys: Iterable[tuple[int, ...]] | None = None,
     reduce: Callable[[RunResult], Any] | None = None,
     network: GivenNetwork | None = None,
+    vary: Callable[[tuple[int, ...]], Mapping[str, Any]] | None = None,
 ) -> dict[str, list[Any]]:
     """Run every variant on the same replicates with common random numbers.
 
@@ -507,6 +518,12 @@ def run_paired(
     network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
         Your own network, for every replicate and variant (see :func:`run_replicates`);
         by default each replicate builds its own from the first variant's ``[network]``.
+    vary : callable, optional
+        A picklable function of the spawn key returning dotted field changes
+        (``{"adoption.word_of_mouth": 0.31}``) that every variant of that key receives
+        alike, inside the worker, before the key's network is built: parameters drawn per
+        replicate (a fit's posterior, :func:`womlab.fit_observed`), still paired across
+        variants.
 
     Returns
     -------
@@ -517,5 +534,6 @@ def run_paired(
     first = next(iter(variants.values()))
     given = None if network is None else as_network(network, first.market.organisations)
     keys = [(r,) for r in range(replicates)] if keys is None else [tuple(k) for k in keys]
-    done = _execute(dict(variants), keys, jobs, progress, reduce, network=given)
+    todo = dict(variants) if vary is None else _Varied(dict(variants), vary)
+    done = _execute(todo, keys, jobs, progress, reduce, network=given)
     return {name: [done[k][name] for k in keys] for name in variants}

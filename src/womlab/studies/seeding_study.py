@@ -175,6 +175,9 @@ class SeedingStudy:
         Seconds the study took.
     snapshot : tuple, optional
         ``(network, {strategy: RunResult})`` of replicate 0, kept for small networks.
+    parameters : str
+        Whether the parameters were fixed or drawn from a fit's posterior per replicate
+        (then every interval includes parameter uncertainty); a column of the table.
     """
 
     scenario: Scenario
@@ -183,6 +186,7 @@ class SeedingStudy:
     shares: dict[str, np.ndarray]
     wall_time: float = 0.0
     snapshot: tuple[ReferralNetwork, dict[str, RunResult]] | None = None
+    parameters: str = "fixed (the scenario's own)"
     _table: pd.DataFrame | None = field(default=None, repr=False)
 
     @property
@@ -209,6 +213,7 @@ class SeedingStudy:
             row["t50_reached"] = int(np.isfinite(g["t50"].to_numpy(dtype=float)).sum())
             row["lift_outcome"] = study.outcome
             row.update(lift_statistics(g[study.outcome].to_numpy(dtype=float), base, index=index))
+            row["parameters"] = self.parameters
             rows.append(row)
         self._table = pd.DataFrame(rows)
         return self._table
@@ -228,7 +233,7 @@ class SeedingStudy:
 
 
 def compare_strategies(
-    scenario: Scenario,
+    scenario: Scenario | Any,
     strategies: list[str] | tuple[str, ...] | None = None,
     replicates: int | None = None,
     jobs: int | None = None,
@@ -241,10 +246,12 @@ def compare_strategies(
 
     Parameters
     ----------
-    scenario : Scenario
+    scenario : Scenario or Fit
         The market, network, rule and run; ``[study]`` gives the defaults below and the
         discount rate, lift outcome and bootstrap resamples; ``[seeding]`` the budget and
-        strategy options.
+        strategy options. A fit (:func:`womlab.fit_observed`) stands for its scenario at the
+        posterior, and each replicate draws its parameters from the posterior
+        (``Fit.posterior_draws``), the same draw for every strategy.
     strategies : list of str, optional
         Defaults to ``study.strategies``; ``random`` is added first when missing.
     replicates : int, optional
@@ -274,6 +281,9 @@ def compare_strategies(
     >>> study.strategies_table()["strategy"].tolist()
     ['random', 'hubs']
     """
+    draws = None
+    if not isinstance(scenario, Scenario):  # a fit: parameters drawn from its posterior per replicate
+        draws, scenario = scenario.posterior_draws(), scenario.scenario()
     if strategies is not None:
         scenario = scenario.replace("study.strategies", list(strategies))
     if replicates is not None:
@@ -287,7 +297,7 @@ def compare_strategies(
         snapshot = scenario.market.organisations <= SNAPSHOT_MAX_ORGANISATIONS and scenario.network.kind != "complete"
     start = time.perf_counter()
     given = None if network is None else as_network(network, scenario.market.organisations)
-    reduced = run_paired(variants, replicates, jobs=jobs, progress=progress, network=given,
+    reduced = run_paired(variants, replicates, jobs=jobs, progress=progress, network=given, vary=draws,
                          reduce=partial(run_outcomes, discount_rate=study.discount_rate, keep_first=snapshot))
     rows = []
     shares = {}
@@ -299,8 +309,11 @@ def compare_strategies(
     kept = None
     if snapshot:
         # replicate 0's network, rebuilt from its own network stream: the one its runs were on
+        first = scenario if draws is None else scenario.replace(draws((0,)))
         network = given if given is not None else build_network(
-            scenario, np.random.default_rng(streams(scenario.seed, (0,)).network))
+            first, np.random.default_rng(streams(scenario.seed, (0,)).network))
         kept = (network, {name: reduced[name][0]["run"] for name in names})
     return SeedingStudy(scenario=scenario, strategies=names, runs=pd.DataFrame(rows), shares=shares,
-                        wall_time=time.perf_counter() - start, snapshot=kept)
+                        wall_time=time.perf_counter() - start, snapshot=kept,
+                        parameters="fixed (the scenario's own)" if draws is None else
+                        "drawn from the fit's posterior per replicate, the same for every strategy")

@@ -726,10 +726,11 @@ def run_sweep(
             at = dict(zip(numbers, scenarios))
             tasks = [[(i, r, at[i]) for i, r in chunk] for chunk in _chunks(pending, workers, chunk_size)]
             bar = None
-            if progress:
-                from tqdm.auto import tqdm
+            if progress:  # a bar on a terminal, a few plain lines when piped
+                from womlab.scenario.progress import bar as progress_bar
 
-                bar = tqdm(total=len(keys), initial=skipped, unit="run", desc=f"sweep ({spec.study})", smoothing=0.1)
+                bar = progress_bar(len(keys), f"sweep ({spec.study})", unit="run", initial=skipped, show=True,
+                                   leave=True)
             try:
                 chosen = {"backend": backend}
                 ran, failed_now = _collect(_results(spec.study, tasks, curves, columns, given, workers, client, chosen),
