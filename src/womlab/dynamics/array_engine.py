@@ -170,7 +170,7 @@ def pick_referrers(network: ReferralNetwork, adopters: np.ndarray, talk: np.ndar
 @compiled
 def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, group, external_weight, wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
             q, cap, tau, satisfied, resistance, u_cause, theta, state, adoption_step, referrer, initial, varying,
-            ledger, churn, churn_dissatisfied, churn_resistance, leave_step,
+            ledger, churn, churn_dissatisfied, referred_churn, churn_resistance, leave_step,
             warning, former_warn, rejecters_warn, reject_resistance, u_warn, rejection_step, warned_by):
     """The whole run, step by step (see the module notes); updates ``state``, ``adoption_step``,
     ``referrer``, ``leave_step`` (churn), ``rejection_step`` and ``warned_by`` (warnings) and the
@@ -223,7 +223,7 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
     if churning:
         varying = True  # a customer who leaves stops talking: its weight changes after adoption
         for i in initial:
-            leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, churn_resistance[i], dt, form, 0)
+            leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, 1.0, churn_resistance[i], dt, form, 0)
     # ---- end churn
 
     # ---- warnings: set up (nothing happens without a rejection resistance per organisation)
@@ -386,7 +386,9 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
             customers[ncust] = i
             ncust += 1
             if churning:  # ---- churn: how long it stays
-                leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, churn_resistance[i], dt, form, step)
+                # a paid referral of a programme churns at referred_churn_multiplier times the rate
+                m = referred_churn if programme and ledger[14][i] else 1.0
+                leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, m, churn_resistance[i], dt, form, step)
             if warning_on and not satisfied[i]:  # ---- warnings: a dissatisfied customer warns from now
                 warn_since[i] = step
 
@@ -403,9 +405,9 @@ def _apply(indptr, indices, complete, exposure, i, diff):  # noqa: ANN001, ANN20
 
 
 @compiled
-def _stay(satisfied, churn, churn_dissatisfied, resistance, dt, form, step):  # noqa: ANN001, ANN202
+def _stay(satisfied, churn, churn_dissatisfied, multiplier, resistance, dt, form, step):  # noqa: ANN001, ANN202
     """Churn: the step in which a customer that adopted in ``step`` leaves (−1: never)."""
-    k = churn_steps(resistance, hazard(churn_rate(satisfied, churn, churn_dissatisfied, 1.0), dt, form))
+    k = churn_steps(resistance, hazard(churn_rate(satisfied, churn, churn_dissatisfied, multiplier), dt, form))
     return -1 if k < 0 else step + k
 
 
@@ -500,7 +502,8 @@ def run_array(
         np.ascontiguousarray(theta, dtype=np.float64), state, adoption_step, referrer, initial,
         rule == "cascade" or programme is not None,
         idle_ledger() if programme is None else programme.ledger,
-        float(adoption.churn), float(adoption.dissatisfied_churn), churn_resistance, leave_step,
+        float(adoption.churn), float(adoption.dissatisfied_churn), float(scenario.referral.churn_multiplier),
+        churn_resistance, leave_step,
         float(adoption.warning), bool(adoption.former_warn), bool(adoption.rejecters_warn), reject_resistance, u_warn,
         rejection_step, warned_by,
     )

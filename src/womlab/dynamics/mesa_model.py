@@ -739,10 +739,13 @@ class ReferralModel(mesa.Model):
         probability of its churn rate (:func:`womlab.rules.churn_rate`), one fresh uniform each
         from the churn stream; the departures apply at the end of the step, with the adoptions."""
         churn, churn_dissatisfied = self._churn
+        paid = None if self.programme is None else self.programme.rewarded  # paid referrals churn at the multiplier
+        multiplier = self.womlab_scenario.referral.churn_multiplier
         leaving = []
         for agent in self._by_id:
             if agent.customer:
-                rate = rules.churn_rate(agent.satisfied, churn, churn_dissatisfied, 1.0)
+                m = multiplier if paid is not None and paid[agent.organisation] else 1.0
+                rate = rules.churn_rate(agent.satisfied, churn, churn_dissatisfied, m)
                 if self.churn_rng.random() < rules.probability(rate, self.time_step, self._form):
                     leaving.append(agent)
         for agent in leaving:

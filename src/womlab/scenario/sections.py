@@ -895,6 +895,19 @@ for _name in ("referral.bonus", "referral.bonus_threshold"):
               lambda s: 'referral.scheme = "linear" pays no bonus (use "bonus" or "both")')
 no_effect("referral.reward", lambda s: s.referral.scheme == "bonus",
           lambda s: 'referral.scheme = "bonus" pays the bonus only (use "linear" or "both")')
+no_effect("adoption.talkers_per_customer", lambda s: s.adoption.rule == "cascade",
+          lambda s: 'adoption.rule = "cascade" (each tie is one chance with probability word_of_mouth; talkers play '
+                    "no part)")
+# churn and warnings: fields of a mechanism that cannot act in the scenario
+no_effect("adoption.churn_dissatisfied", lambda s: s.adoption.satisfied_share == 1,
+          lambda s: "adoption.satisfied_share = 1 (no customer is dissatisfied)")
+no_effect("adoption.warning", lambda s: s.adoption.satisfied_share == 1 and not (s.adoption.former_warn
+                                                                                and s.adoption.churns),
+          lambda s: "adoption.satisfied_share = 1 and no former customer warns (only dissatisfied customers, former "
+                    "customers with former_warn and rejecters with rejecters_warn warn)")
+no_effect("adoption.former_warn", lambda s: not s.adoption.churns,
+          lambda s: "no customer churns (adoption.churn and adoption.churn_dissatisfied are 0), so there are no former "
+                    "customers")
 for _name in ("run.time_step", "run.step_probability"):
     no_effect(_name, lambda s: s.run.clock == "continuous",
               lambda s: 'run.clock = "continuous" has no time step (exact adoption times)')
