@@ -70,13 +70,21 @@ def test_stock_and_flow_cap_binds():
 
 
 def test_mapping_share_and_count():
-    # Mean-field mapping (documented in aggregate.mapped_parameters): share Q = q s; count Q = q s tau k.
+    # Mean-field mapping (documented in aggregate.mapped_parameters): share Q = q s N/(N-1);
+    # count Q = q s tau k N/(N-1); the stock-and-flow slope q k/(N-1), which is q on the complete
+    # network (every talker reaches every potential customer: the exact counterpart).
     base = {"market": {"organisations": 1000}, "network": {"kind": "regular", "mean_degree": 6},
             "adoption": {"word_of_mouth": 0.1, "satisfied_share": 0.5, "talkers_per_customer": 3}}
     share = Scenario.from_dict({**base, "adoption": {**base["adoption"], "rule": "share"}})
     count = Scenario.from_dict({**base, "adoption": {**base["adoption"], "rule": "count"}})
-    assert mapped_parameters(share).Q == pytest.approx(0.05)
-    assert mapped_parameters(count).Q == pytest.approx(0.1 * 0.5 * 3 * 6)
+    assert mapped_parameters(share).Q == pytest.approx(0.05 * 1000 / 999, rel=1e-12)
+    assert mapped_parameters(count).Q == pytest.approx(0.1 * 0.5 * 3 * 6 * 1000 / 999, rel=1e-12)
+    assert mapped_parameters(count).slope == pytest.approx(0.1 * 6 / 999, rel=1e-12)
+    complete = Scenario.from_dict({**base, "network": {"kind": "complete"}, "adoption": {**base["adoption"], "rule": "capped"}})
+    assert mapped_parameters(complete).slope == pytest.approx(0.1, rel=1e-12)
+    # the Bass Q for F = C/N is the slope times all the talkers the market could have, s tau N
+    par = mapped_parameters(complete)
+    assert par.Q == pytest.approx(par.slope * 0.5 * 3 * 1000, rel=1e-12)
 
 
 def test_complete_network_reproduces_the_difference_equation():
@@ -99,5 +107,5 @@ def test_complete_network_reproduces_the_difference_equation():
         expected[t] = f
     se = shares.std(axis=0, ddof=1) / np.sqrt(reps)
     assert np.all(np.abs(shares.mean(axis=0) - expected) <= 4 * se + 2 / n)
-    # and the aggregate curve womlab reports beside it is that recursion up to the N/(N-1) factor
-    assert np.max(np.abs(aggregate_curve(s) - expected)) < 1e-3
+    # and the aggregate curve womlab reports beside it is that recursion, factor N/(N-1) included
+    assert np.max(np.abs(aggregate_curve(s) - expected)) < 1e-12

@@ -104,7 +104,8 @@ def test_check_says_what_each_command_will_run(tmp_path, monkeypatch, capsys):
         '[study]\nstrategies = ["random", "hubs"]\nreplicates = 40\n'
         '[referral]\nenrol = "all"\nend = 12\ntalk_multiplier = 1.6\nreward = 20.0\nbudget = 6000.0\n'
         '[sweep]\nreplicates = 4\n[sweep.axes]\n"adoption.word_of_mouth" = { from = 0.1, to = 0.5, steps = 5 }\n'
-        '"referral.reward" = [10.0, 20.0]\n')
+        '"referral.reward" = [10.0, 20.0]\n'
+        '[fit]\nfree = ["adoption.word_of_mouth"]\nparticles = 50\nsimulations = 700\n')
     assert main(["check", "s.toml"]) == 0
     out = capsys.readouterr().out
     lines = {line.split()[0]: line for line in out.splitlines() if line.startswith("  ")}
@@ -116,6 +117,7 @@ def test_check_says_what_each_command_will_run(tmp_path, monkeypatch, capsys):
     assert "grid design: 10 points x 4 replicates" in out and "40 runs" in out
     assert "enrol all, periods 1-12, word of mouth x1.6, reward 20 per successful referral, budget 6000" in out
     assert "200 runs" in out                                        # programme and baseline, 100 replicates each
+    assert "ABC-SMC over adoption.word_of_mouth: 50 particles" in out and "700 runs" in out  # the budget
 
 
 def test_check_warns_of_slow_strategies(config, capsys):

@@ -75,9 +75,11 @@ def test_summary_stage_scenario_and_draws(small_fit):
     assert {"adoption.external", "adoption.word_of_mouth", "bass_p", "bass_Q"} <= set(summary.index)
     for _, row in summary.iterrows():
         assert row["low_90"] <= row["low_50"] <= row["median"] <= row["high_50"] <= row["high_90"]
-    # share rule: Q = q·s (womlab.mapped_parameters), particle by particle
-    assert summary.loc["bass_Q", "median"] == pytest.approx(0.8 * summary.loc["adoption.word_of_mouth", "median"],
-                                                            rel=1e-9)
+    # share rule: Q = q·s·N/(N − 1) (womlab.mapped_parameters: a potential customer's neighbours
+    # are among the N − 1 others), particle by particle
+    n = s.market.organisations
+    assert summary.loc["bass_Q", "median"] == pytest.approx(
+        0.8 * n / (n - 1) * summary.loc["adoption.word_of_mouth", "median"], rel=1e-9)
     stage = fit.stage().set_index("quantity")
     assert 0 < stage.loc["share_reached", "estimate"] <= 1
     assert 0 <= stage.loc["peak_passed", "estimate"] <= 1

@@ -206,3 +206,27 @@ def test_continuous_clock_compares_with_the_ode_forms():
     ode = degree_mean_field_curve(s, network, form="ode")
     assert abs(c.curves["degree_mean_field"] - ode).max() < 1e-12
     assert c.headline()["rmse_reference"] == c.gaps.set_index("aggregate").loc["bass_mapped", "rmse"]
+    # only the continuous forms: a difference model in a step the runs never took is no prediction
+    assert sorted(c.curves) == ["bass_fitted", "bass_mapped", "degree_mean_field"]
+    assert (c.fits["fitted_form"] == "closed form (ODE)").all()
+
+
+def test_fitted_q_carries_no_bias_of_the_step():
+    # Kurtz (1970): on the complete network the runs follow the Bass difference model in their
+    # own step as N grows, so the word of mouth kept, Q_eff / Q_mapped, is 1 (Bass 1969). Fitted
+    # with the difference form in the run's step (0.25), the 95 % BCa interval of the ratio must
+    # contain 1; the closed form fitted to the same mean curve absorbs the step's own bias and
+    # lies below that interval (seed and check fixed before looking).
+    from womlab import fit_bass, mapped_parameters
+
+    s = Scenario.from_dict({
+        "seed": 3, "market": {"organisations": 4000, "initial_customers": 40}, "network": {"kind": "complete"},
+        "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
+        "run": {"periods": 30, "time_step": 0.25},
+    })
+    c = compare(s, 20, bootstrap=100, fit_bootstrap=100)
+    ratio = c.fits.set_index("parameter").loc["Q_ratio"]
+    assert ratio["fitted_form"] == "difference form, step 0.25, exponential"
+    assert ratio["low"] <= 1.0 <= ratio["high"], ratio.to_dict()
+    closed = fit_bass(c.batch.shares().mean(axis=0)).Q / mapped_parameters(s).Q
+    assert closed < ratio["low"], (closed, ratio.to_dict())

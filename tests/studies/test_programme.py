@@ -10,6 +10,7 @@ import pytest
 from womlab import Scenario, ScenarioError, evaluate_programme, programme_economics, run_paired
 from womlab.cli import main
 from womlab.dynamics.programme import ProgrammeRun
+from womlab.studies.continuation import continue_paired, truncate
 from womlab.studies.programme import customer_values, roi, value_flow
 from womlab.dynamics import RunResult
 from womlab.scenario import Referral
@@ -189,31 +190,87 @@ def test_roi_of_the_bank_case_arithmetic():
     assert e["cost"] == pytest.approx(25.0)
     assert e["roi"] == pytest.approx(0.60)
     assert e["cost_per_incremental_customer"] == pytest.approx(25.0)
-    assert e["expansion"] == pytest.approx(40.0) and e["acceleration"] == 0.0
+    # at the horizon the referred customer (never won by the baseline) is expansion
+    assert e["expansion_at_horizon"] == pytest.approx(40.0) and e["acceleration_at_horizon"] == 0.0
     assert e["break_even_period"] == 2.0
+    assert np.isnan(e["expansion"])  # no continuation given: no whole-life split
+    # continued: the baseline wins organisation 1 in period 5, so in the end it was acceleration,
+    # worth 40 (1.1^-2 - 1.1^-5) at a discount rate of 10 %
+    ref = Referral(enrol="all", lifetime_value=40.0, discount_rate=0.1)
+    c0 = _hand_run([0, 5, 3], [-1, 0, -1], [0] * 7)
+    c1 = _hand_run([0, 2, 3], [-1, 0, -1], [0, 0, 25, 0, 0, 0, 0])
+    e = programme_economics(baseline, programme, ref, continued=(c0, c1))
+    assert e["expansion"] == 0.0 and e["expanded"] == 0 and e["accelerated"] == 1
+    assert e["acceleration"] == pytest.approx(40.0 * (1.1**-2 - 1.1**-5))
+    assert e["incremental_value_lifetime"] == pytest.approx(e["acceleration"]) and e["continued_to"] == 6
 
 
-def test_saturation_makes_the_value_all_acceleration():
-    # Libai, Muller & Peres (2013): with external influence p > 0, no churn and a horizon
-    # long enough for the market to saturate, everyone adopts with or without the
-    # programme, so the programme's value is acceleration; expansion < 1 % of the total.
-    s = _scenario(enrol="all", talk_multiplier=2.0, end=15, reward=1.0, value_per_period=1.0,
-                  discount_rate=0.02).replace({"run.periods": 200, "adoption.external": 0.05})
-    study = evaluate_programme(s, 4, degrees=False)
+def test_complete_network_value_is_all_acceleration_in_the_end_though_not_at_the_horizon():
+    # Libai, Muller & Peres (2013): with external influence p > 0 and a fixed market without
+    # churn, every organisation adopts in the end with or without the programme, so the whole
+    # value of a programme is acceleration: expansion is exactly 0 once the markets are
+    # exhausted. At a 10-period horizon the same runs label more than half of the value
+    # expansion (55.7 % in this set-up): the horizon cuts off the baseline's late adopters.
+    s = Scenario.from_dict({
+        "seed": 5, "market": {"organisations": 1000, "initial_customers": 10}, "network": {"kind": "complete"},
+        "adoption": {"external": 0.01, "word_of_mouth": 0.3, "satisfied_share": 0.8}, "run": {"periods": 10},
+        "referral": {"enrol": "all", "talk_multiplier": 2.0, "reward": 1.0, "value_per_period": 1.0,
+                     "discount_rate": 0.01}})
+    study = evaluate_programme(s, 8, degrees=False)
     table = study.per_replicate()
-    assert (table["customers_baseline"] == 600).all() and (table["customers_programme"] == 600).all()
-    total = table["incremental_value"].sum()
-    assert total > 0
-    assert abs(table["expansion"].sum()) < 0.01 * total
-    assert table["acceleration"].sum() == pytest.approx(total, rel=0.01)
+    assert study.exhausted.all()
+    assert (table["expansion"] == 0).all() and (table["expanded"] == 0).all() and (table["lost"] == 0).all()
+    assert (table["acceleration"] > 0).all()
+    assert table["expansion_at_horizon"].sum() > 0.5 * table["incremental_value"].sum()
+    summary = study.summary().set_index("outcome")
+    assert summary.loc["expansion", "estimate"] == 0.0
+
+
+def test_continuation_repeats_the_run_to_the_horizon_bit_for_bit():
+    # common random numbers: a run continued past the horizon with the programme off is, up to the
+    # horizon, the run made to the horizon (array engine, event engine and Mesa model)
+    base = _scenario(enrol="share", enrol_share=0.5, talk_multiplier=3.0, reward=2.0, lifetime_value=10.0)
+    for engine in ({}, {"run.clock": "continuous"}, {"run.engine": "mesa"}):
+        s = base.replace({"market.organisations": 200, "market.initial_customers": 2})
+        if engine.get("run.clock") == "continuous":
+            s = s.replace("referral.enrol", "none")  # no programme on the continuous clock
+        s = s.replace(engine) if engine else s
+        cont = continue_paired({"arm": s}, 2, lifetime=7)
+        short = run_paired({"arm": s}, 2)["arm"]
+        for long_run, run in zip(cont.runs["arm"], short):
+            cut = truncate(long_run, s.run.periods)
+            assert long_run.periods == s.run.periods + 7
+            np.testing.assert_array_equal(cut.adoption_period, run.adoption_period)
+            np.testing.assert_array_equal(cut.referrer, run.referrer)
+            np.testing.assert_array_equal(cut.satisfied, run.satisfied)
+            for key in ("programme_cost", "programme_paid_referrals"):
+                if key in run.extra:
+                    np.testing.assert_array_equal(cut.extra[key], run.extra[key])
+
+
+def test_programme_is_off_after_the_horizon_in_the_continuation():
+    # the continuation switches the programme off: nothing is paid after the horizon
+    s = _scenario(enrol="all", talk_multiplier=2.0, reward=1.0, value_per_period=1.0)
+    cont = continue_paired({"baseline": s.replace("referral.enrol", "none"), "programme": s}, 2, lifetime=10)
+    for run in cont.runs["programme"]:
+        assert run.extra["programme_cost"][s.run.periods + 1:].sum() == 0.0
 
 
 def test_acceleration_plus_expansion_is_the_incremental_value():
+    # Libai, Muller & Peres (2013): the two parts add up to the programme's value, at the
+    # horizon and on the continuation
     s = _scenario(enrol="share", enrol_share=0.5, talk_multiplier=3.0, reward=2.0, lifetime_value=10.0,
-                  discount_rate=0.01)
+                  discount_rate=0.01, lifetime=15)
     table = evaluate_programme(s, 6).per_replicate()
-    assert np.allclose(table["acceleration"] + table["expansion"], table["incremental_value"])
-    assert (table["expanded"] > 0).any()  # the split is not vacuous at this horizon
+    assert np.allclose(table["acceleration_at_horizon"] + table["expansion_at_horizon"], table["incremental_value"])
+    assert np.allclose(table["acceleration"] + table["expansion"], table["incremental_value_lifetime"])
+    assert (table["expanded_at_horizon"] > 0).any()  # the split is not vacuous at this horizon
+    assert (table["continued_to"] == 40).all()
+
+
+def test_a_negative_lifetime_names_the_field():
+    with pytest.raises(ScenarioError, match=r"referral\.lifetime"):
+        _scenario(enrol="all", lifetime=-1)
 
 
 # ---------------------------------------------------------------- errors and the command

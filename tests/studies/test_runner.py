@@ -178,3 +178,28 @@ def test_crossover_rule():
     with pytest.raises(ScenarioError, match="parallel choice must be one of auto, pool, in-process, got 'fast'"):
         with parallel_choice("fast"):
             pass
+
+
+def test_greedy_scores_seeds_with_the_scenarios_own_engine(monkeypatch):
+    # common practice: a strategy that simulates must simulate the model being studied; on the
+    # continuous clock that is the event engine, so greedy's Monte Carlo runs must be event runs
+    from womlab.dynamics import engines
+
+    calls = {"events": 0, "array": 0}
+    for name in calls:
+        real = engines.ENGINES[name]
+
+        def counted(*args, _real=real, _name=name, **kwargs):
+            calls[_name] += 1
+            return _real(*args, **kwargs)
+
+        monkeypatch.setitem(engines.ENGINES, name, counted)
+    monkeypatch.setattr("womlab.seeding.registry._SIMULATOR", [engines.ENGINES["array"]])
+    s = Scenario.from_dict({
+        "seed": 4, "market": {"organisations": 120, "initial_customers": 2},
+        "network": {"kind": "random", "mean_degree": 4}, "run": {"periods": 8, "clock": "continuous"},
+        "seeding": {"strategy": "greedy", "greedy_runs": 2, "greedy_candidates": 5},
+    })
+    run_one(s, (0,))
+    assert calls["array"] == 0
+    assert calls["events"] > 1  # the run itself, and greedy's Monte Carlo runs

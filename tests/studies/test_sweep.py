@@ -176,7 +176,8 @@ def test_cli_sweep_and_report(tmp_path, capsys):
 # of totals over replicates); lift = mean outcome of a strategy / mean outcome of random seeding on the
 # same replicates (Hinz, Skiera, Barrot & Becker 2011, "Seeding strategies for viral marketing").
 
-from womlab.results.report import sweep_summary, write_report  # noqa: E402
+from womlab.results.report import sweep_summary  # noqa: E402
+from womlab.studies.continuation import continue_paired  # noqa: E402
 from womlab.studies.programme import programme_economics  # noqa: E402
 from womlab.studies.runner import run_paired  # noqa: E402
 from womlab.studies.seeding_study import run_outcomes  # noqa: E402
@@ -209,17 +210,21 @@ def test_a_programme_sweep_stores_the_paired_economics_and_gives_roi_per_point(t
     summary = sweep_summary(tmp_path / "j1").set_index(["point", "outcome"])
     for point, at in enumerate(point_scenarios(s)):
         keys = [(point, r) for r in range(3)]
-        paired = run_paired({"baseline": at.replace("referral.enrol", "none"), "programme": at}, 3, keys=keys)
-        rows = [programme_economics(b, p, at.referral) for b, p in zip(paired["baseline"], paired["programme"])]
+        # the split is whole-life: each pair continued past the horizon (studies.continuation)
+        cont = continue_paired({"baseline": at.replace("referral.enrol", "none"), "programme": at}, 3, keys=keys)
+        paired = cont.at_horizon()
+        rows = [programme_economics(b, p, at.referral, continued=(cb, cp)) for b, p, cb, cp in
+                zip(paired["baseline"], paired["programme"], cont.runs["baseline"], cont.runs["programme"])]
         mine = runs[runs["point"] == point].reset_index(drop=True)
         for name in ("incremental_customers", "incremental_value", "cost", "acceleration", "expansion", "roi"):
             np.testing.assert_array_equal(mine[name].to_numpy(dtype=float), [r[name] for r in rows])
         value, cost = sum(r["incremental_value"] for r in rows), sum(r["cost"] for r in rows)
         roi = summary.loc[(point, "roi")]
         assert roi["estimate"] == pytest.approx((value - cost) / cost, rel=1e-12)
-        assert roi["low"] <= roi["estimate"] <= roi["high"]
+        assert np.isnan(roi["low"]) and np.isnan(roi["high"])  # three replicates: no bootstrap interval
         acc = summary.loc[(point, "acceleration_share")]["estimate"]
-        assert acc == pytest.approx(sum(r["acceleration"] for r in rows) / value, rel=1e-12)
+        lifetime = sum(r["incremental_value_lifetime"] for r in rows)
+        assert acc == pytest.approx(sum(r["acceleration"] for r in rows) / lifetime, rel=1e-12)
     # a larger reward with the invented response costs more per customer here
     assert summary.loc[(1, "cost")]["estimate"] > summary.loc[(0, "cost")]["estimate"]
 
@@ -227,7 +232,7 @@ def test_a_programme_sweep_stores_the_paired_economics_and_gives_roi_per_point(t
 def test_a_seeding_sweep_stores_each_strategy_and_gives_the_lift_against_random(tmp_path):
     s = Scenario.from_dict({**BASE, "study": {"strategies": ["hubs", "fringe"], "outcome": "customer_periods",
                                               "discount_rate": 0.02, "bootstrap": 500},
-                            "sweep": {"study": "seeding", "replicates": 4,
+                            "sweep": {"study": "seeding", "replicates": 5,  # 5: the fewest with an interval
                                       "axes": {"adoption.word_of_mouth": [0.2, 0.5]}}})
     run_sweep(s, tmp_path / "d", 1, progress=False, report=True)
     runs = outcomes(tmp_path / "d")
@@ -235,7 +240,7 @@ def test_a_seeding_sweep_stores_each_strategy_and_gives_the_lift_against_random(
     summary = sweep_summary(tmp_path / "d").set_index(["point", "outcome"])
     for point, at in enumerate(point_scenarios(s)):
         variants = {name: at.replace("seeding.strategy", name) for name in ("random", "hubs", "fringe")}
-        out = run_paired(variants, 4, keys=[(point, r) for r in range(4)],
+        out = run_paired(variants, 5, keys=[(point, r) for r in range(5)],
                          reduce=lambda run: run_outcomes(run, 0.02))
         mine = runs[runs["point"] == point]
         for name in variants:
@@ -449,5 +454,5 @@ def test_a_folder_written_before_studies_is_still_reported(tmp_path):
     manifest_path.write_text(json.dumps(data))
     assert main(["report", str(tmp_path / "old")]) == 0
     assert set(sweep_summary(tmp_path / "old")["outcome"]) >= {"final_share", "t50"}
-    with pytest.raises(StoreError, match="store format 1, this womlab writes format 2"):
+    with pytest.raises(StoreError, match="store format 1, this womlab writes format 3"):
         run_sweep(s, tmp_path / "old", 1, progress=False, report=False)

@@ -4,21 +4,23 @@ Knows the rules and the scenario (below); nothing of networks, seeding, engines 
 ``models`` holds the Bass model (closed form, ODE, difference form), the capped Bass
 difference model (formerly "stock-and-flow") and the micro-to-macro mapping; ``mean_field`` the degree-based
 mean-field model (fed a degree sequence, never a network object it must import);
-``churn`` Bass with churn (ODE and difference form);
-``fitting`` the least-squares fits of these curves to network runs or sales data.
+``churn`` Bass with churn and warnings (ODE and difference form);
+``fitting`` the least-squares fits of these curves to network runs or sales data; ``exact``
+the exact expected adoption on the two-organisation network, the ring and k-regular trees
+(continuous and in the array engine's own step).
 """
 
 from __future__ import annotations
 
 from womlab.aggregate.churn import CHURN_CURVE_COLUMNS, bass_churn_difference, bass_churn_ode, expected_stay
+from womlab.aggregate.exact import regular_tree_share, ring_share, two_organisation_share
 from womlab.aggregate.fitting import (
     BassFit,
     StockFlowFit,
-    bass_fit_table,
     fit_bass,
     fit_bass_sales,
-    fit_replicates,
     fit_capped_bass_difference,
+    fit_replicates,
     fit_stock_and_flow,
 )
 from womlab.aggregate.mean_field import degree_classes, degree_mean_field, degree_mean_field_curve
@@ -54,6 +56,9 @@ __all__ = [
     "bass_churn_difference",
     "churn_curves",
     "expected_stay",
+    "two_organisation_share",
+    "ring_share",
+    "regular_tree_share",
     "degree_classes",
     "degree_mean_field",
     "degree_mean_field_curve",
@@ -62,7 +67,6 @@ __all__ = [
     "fit_bass",
     "fit_bass_sales",
     "fit_replicates",
-    "bass_fit_table",
     "fit_capped_bass_difference",
     "fit_stock_and_flow",
 ]

@@ -77,7 +77,8 @@ class AggregateParameters:
     p : float
         External influence (Bass coefficient of innovation), per period.
     Q : float
-        Aggregate word-of-mouth strength (Bass coefficient of imitation), per period.
+        Aggregate word-of-mouth strength (Bass coefficient of imitation), per period, for
+        the customer share F = C/N.
     initial_share : float
         F(0), the share of the market that are customers at period 0.
     mean_degree : float
@@ -111,20 +112,24 @@ def _mean_degree(scenario: Scenario) -> float:
 def mapped_parameters(scenario: Scenario) -> AggregateParameters:
     """Map a scenario to aggregate Bass parameters and the capped Bass difference slope (mean field).
 
-    Derivation. Let F be the customer share and s the satisfied share, so a share s·F of
-    organisations are satisfied customers. Under the mean-field assumption a potential
-    customer's neighbours are a random draw from the market, so a share s·F of its k
-    neighbours talk, each with τ̄ talkers on average:
+    Derivation. Let C be the number of customers, F = C/N their share and s the satisfied
+    share. Under the mean-field assumption a potential customer's k neighbours are a
+    random draw from the N − 1 *other* organisations, of which C are customers (it is not
+    one itself), so a share s·C/(N − 1) of its neighbours are satisfied customers, each
+    with τ̄ talkers on average:
 
-    * ``share``: λ = p + q·T/D ≈ p + q·(s·F·k·τ̄)/(k·τ̄) = p + q·s·F, hence **Q = q·s**,
-      independent of degree and talkers. On the complete network this is exact up to
-      the factor N/(N − 1) (an organisation is not its own neighbour).
-    * ``count``: λ = p + q·T ≈ p + q·τ̄·k̄·s·F, hence **Q = q·s·τ̄·k̄**; on a random regular
-      graph with fixed talkers k̄ = k exactly, and on the complete network k̄ = N − 1.
+    * ``share``: λ = p + q·T/D ≈ p + q·(s·C/(N − 1)·k·τ̄)/(k·τ̄) = p + q·s·F·N/(N − 1), hence
+      **Q = q·s·N/(N − 1)**, independent of degree and talkers; exact on the complete
+      network.
+    * ``count``: λ = p + q·T ≈ p + q·τ̄·k̄·s·C/(N − 1), hence **Q = q·s·τ̄·k̄·N/(N − 1)**; on
+      the complete network (k̄ = N − 1) this is q·s·τ̄·N, exactly what every potential
+      customer hears from the s·C·τ̄ talkers in the market; on a random regular graph with
+      fixed talkers k̄ = k.
     * ``capped``: λ = min(p + q·T, cap) ≈ min(p + Q·F, cap) with the ``count`` Q. In
-      customer counts talkers = C·s·τ̄ (C customers), and each potential customer
-      meets a share k̄/N of them, so buying = available × min(p + slope·talkers, cap) with
-      **slope = q·k̄/N**.
+      stock-and-flow terms talkers = C·s·τ̄, and each potential customer is a neighbour of
+      a share k̄/(N − 1) of them, so buying = available × min(p + slope·talkers, cap) with
+      **slope = q·k̄/(N − 1)** (q on the complete network: every talker reaches every
+      potential customer). For ``share`` the slope is q/((N − 1)·τ̄), the same Q.
     * ``threshold`` and ``cascade`` have no Bass counterpart (a threshold crossing is all
       or nothing; a cascade customer talks for one period only), so **Q = NaN** and
       :func:`aggregate_curve` is NaN: their runs are shown without an aggregate curve.
@@ -132,9 +137,10 @@ def mapped_parameters(scenario: Scenario) -> AggregateParameters:
     Examples
     --------
     >>> from womlab import Scenario, mapped_parameters
-    >>> s = Scenario.from_dict({"adoption": {"rule": "share", "word_of_mouth": 0.5, "satisfied_share": 0.6}})
-    >>> round(mapped_parameters(s).Q, 6)
-    0.3
+    >>> s = Scenario.from_dict({"market": {"organisations": 1001},
+    ...                         "adoption": {"rule": "share", "word_of_mouth": 0.5, "satisfied_share": 0.6}})
+    >>> round(mapped_parameters(s).Q, 6)   # 0.5 · 0.6 · 1001/1000
+    0.3003
     """
     a, m = scenario.adoption, scenario.market
     n = m.organisations
@@ -142,19 +148,20 @@ def mapped_parameters(scenario: Scenario) -> AggregateParameters:
     tau = a.talkers_per_customer.mean
     s = a.satisfied_share
     q = a.word_of_mouth
+    others = n / (n - 1) if n > 1 else 1.0  # F = C/N, but a potential customer's neighbours are among N − 1
     if a.rule == "share":
-        Q = q * s
+        Q = q * s * others
     elif a.rule in ("threshold", "cascade"):
         Q = float("nan")
     else:
-        Q = q * s * tau * k
+        Q = q * s * tau * k * others
     return AggregateParameters(
         p=a.external,
         Q=Q,
         initial_share=scenario.n_initial / n,
         mean_degree=k,
         mean_talkers=tau,
-        slope=q * k / n if a.rule != "share" else q / (n * max(tau, 1e-300)),
+        slope=q * k / max(n - 1, 1) if a.rule != "share" else q / (max(n - 1, 1) * max(tau, 1e-300)),
         cap=a.cap if a.rule == "capped" else None,
     )
 
@@ -345,7 +352,8 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
 def churn_curves(scenario: Scenario, *, continuous: bool = False) -> pd.DataFrame:
     """The aggregate counterpart of a scenario with churn or warnings, mapped as
     :func:`mapped_parameters` maps it: Q_s = Q/s, the word of mouth per satisfied-customer
-    share (q under ``share``, q·τ̄·k̄ under ``count``), and Q⁻ the same with ``warning`` for q.
+    share (q·N/(N − 1) under ``share``, q·τ̄·k̄·N/(N − 1) under ``count``), and Q⁻ the same with
+    ``warning`` for q.
 
     The difference form on the run's own step and step form, or with ``continuous`` the
     ODE on the period grid. Rules without a Bass counterpart (``threshold``, ``cascade``)
@@ -365,7 +373,10 @@ def churn_curves(scenario: Scenario, *, continuous: bool = False) -> pd.DataFram
     if a.rule not in ("share", "count"):
         return pd.DataFrame({"period": t, **{c: np.full(t.size, np.nan) for c in CHURN_CURVE_COLUMNS[1:]}})
     s = a.satisfied_share
-    unit = 1.0 if a.rule == "share" else par.mean_talkers * par.mean_degree  # Q_s = q·unit, Q⁻ = warning·unit
+    n = scenario.market.organisations
+    others = n / (n - 1) if n > 1 else 1.0  # as in mapped_parameters: neighbours are among the N − 1 others
+    # Q_s = q·unit (Q/s of the mapping), Q⁻ = warning·unit
+    unit = others * (1.0 if a.rule == "share" else par.mean_talkers * par.mean_degree)
     q_satisfied = a.word_of_mouth * unit
     common = {"satisfied_share": s, "churn": a.churn, "churn_dissatisfied": a.dissatisfied_churn,
               "initial_share": par.initial_share, "warning_rate": a.warning * unit, "former_warn": a.former_warn,

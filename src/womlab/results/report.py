@@ -136,7 +136,7 @@ def sensitivity_table(folder: str | Path | ResultsStore) -> pd.DataFrame | None:
     for outcome in summary["outcome"].unique():
         y = _point_means(summary, outcome, len(points))
         if spec.design == "sobol":
-            t = sobol_indices(y, len(names), names=names, rng=scenario.seed)
+            t = sobol_indices(y, len(names), names=names)
         else:
             t = morris_effects(unit_coordinates(scenario, points), y, spec.samples, names=names)
         t.insert(0, "outcome", outcome)
@@ -416,7 +416,8 @@ def _write_report(store: ResultsStore) -> Path:
     if sens is not None:
         title = "Sobol indices" if spec.design == "sobol" else "Morris screening"
         note = ("First-order (Saltelli et al. 2010) and total (Jansen 1999) indices of each statistic's point "
-                "estimate; _se: bootstrap standard errors." if spec.design == "sobol" else
+                "estimate; _se: standard errors from the spread over independent scrambles of the design; an index "
+                "outside [0, 1] is the sampling error of a small base sample (see note)." if spec.design == "sobol" else
                 "Elementary effects per unit of each axis's range (Morris 1991); μ* as in Campolongo et al. 2007.")
         parts.append(f"<h2>{title}</h2><p class='note'>{note}</p>")
         parts.append(_table(sens[sens["outcome"].isin(shown)] if shown else sens))

@@ -650,6 +650,10 @@ class Referral:
         adoption period.
     discount_rate : float
         Discount rate per period r: a value or payment in period t counts (1 + r)^−t.
+    lifetime : int, optional
+        Periods both arms run past the horizon, the programme off, to split its value into
+        acceleration and expansion (:func:`womlab.evaluate_programme`). Default: until the
+        baseline's market is exhausted.
     referred_churn_multiplier : float, optional
         Multiplier on the churn rate of the customers the programme brings in (paid
         referrals): below 1 they stay longer (Schmitt, Skiera & Van den Bulte 2011). Needs
@@ -674,10 +678,15 @@ class Referral:
     value_per_period: float | None = None
     lifetime_value: float | None = None
     discount_rate: float = 0.0
+    lifetime: int | None = None
     referred_churn_multiplier: float | None = None
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("referral.enrol", self.enrol, ENROLMENTS)
+        if self.lifetime is not None and (isinstance(self.lifetime, bool) or not isinstance(self.lifetime, int)
+                                          or self.lifetime < 0):
+            fail("referral.lifetime", self.lifetime, "a whole number of periods >= 0 (leave it out: until the "
+                 "baseline's market is exhausted)")
         in_unit("referral.enrol_share", self.enrol_share)
         n = scenario.market.organisations
         if self.enrol == "strategy":

@@ -1,6 +1,6 @@
 """The results folder of a sweep: Parquet tables that can be resumed.
 
-Layout of a sweep's folder (store format 2)::
+Layout of a sweep's folder (store format 3)::
 
     manifest.json     scenario and sweep spec as run, study, outcome columns, root seed, versions,
                       input files and their SHA-256, the specs the folder has grown through, sessions
@@ -56,7 +56,7 @@ from womlab.store.folders import atomic_write, differences, file_sha256  # noqa:
 __all__ = ["ResultsStore", "RUNS_SCHEMA", "CURVES_SCHEMA", "STORE_FORMAT", "LOCK_NAME", "runs_schema", "file_sha256",
            "differences", "RUN_COLUMNS"]
 
-STORE_FORMAT = 2
+STORE_FORMAT = 3  # 3: a programme sweep's acceleration and expansion are whole-life (on a continuation)
 LOCK_NAME = ".womlab.lock"
 
 RUN_COLUMNS = (("customers", "int"), ("satisfied_customers", "int"), ("final_share", "float"), ("t10", "float"),

@@ -4,11 +4,13 @@ Knows every layer below (dynamics, aggregate, store, seeding, networks, scenario
 nothing of files' contents, figures or the command line (above). ``runner`` holds
 replicate batches and paired runs (common random numbers, joblib); ``compare`` the
 network set beside the aggregate models; ``seeding_study`` the paired seeding study;
+``continuation`` paired runs continued past the horizon with the levers off;
 ``programme`` a referral programme's economics; ``sweep`` designs and the resumable
 sweep runner; ``sweep_studies`` the registry of what a sweep point runs; ``plan`` what
 each command will run on a scenario; ``sensitivity`` Sobol and Morris; ``metrics`` curve
-statistics and intervals; ``referrals`` referral-tree analytics; ``observed`` observed adoption series; ``smc`` the
-ABC-SMC; ``calibration`` fitting, forecasting and staging an observed market; ``presenting`` the registry through
+statistics; ``intervals`` every confidence interval over replicates; ``referrals`` referral-tree analytics;
+``observed`` observed adoption series; ``smc`` the ABC-SMC; ``calibration`` fitting, forecasting and staging an
+observed market; ``continuation`` runs carried past the horizon; ``presenting`` the registry through
 which a study's result asks :mod:`womlab.results` to draw or write it.
 """
 
@@ -22,15 +24,26 @@ from womlab.studies.calibration import (
     simulated_series,
     simulation_based_calibration,
 )
-from womlab.studies.compare import Comparison, aggregate_curves, compare
+from womlab.studies.compare import Comparison, aggregate_curves, bass_fit_table, compare
 from womlab.studies.observed import ObservedSeries, observed_series, read_observed
 from womlab.studies.plan import plan, programme_summary, slow_steps
+from womlab.studies.continuation import Continuation, continue_paired, levers_off_after, truncate
+from womlab.studies.intervals import (
+    FewReplicatesWarning,
+    Interval,
+    bootstrap_interval,
+    median_interval,
+    ratio_standard_error,
+    small_sample_level,
+    t_interval,
+)
 from womlab.studies.metrics import (
     GAP_NAMES,
     METRIC_NAMES,
-    bootstrap_mean_curve,
     curve_gap,
+    curve_gap_array,
     curve_metrics,
+    curve_metrics_array,
     discount_factors,
     mean_interval,
     metrics_table,
@@ -77,9 +90,14 @@ __all__ = [
     "run_one",
     "run_replicates",
     "run_paired",
+    "Continuation",
+    "continue_paired",
+    "levers_off_after",
+    "truncate",
     "Comparison",
     "compare",
     "aggregate_curves",
+    "bass_fit_table",
     "SeedingStudy",
     "compare_strategies",
     "lift_statistics",
@@ -110,7 +128,15 @@ __all__ = [
     "replicate_gaps",
     "pooled_metrics",
     "pooled_gaps",
-    "bootstrap_mean_curve",
+    "curve_metrics_array",
+    "curve_gap_array",
+    "Interval",
+    "FewReplicatesWarning",
+    "t_interval",
+    "bootstrap_interval",
+    "median_interval",
+    "ratio_standard_error",
+    "small_sample_level",
     "METRIC_NAMES",
     "GAP_NAMES",
     "SweepSummary",

@@ -319,7 +319,7 @@ class Fit:
         """The final generation's particles: network kind, each free field, weight, distance."""
         pop = self.smc.final
         frame = pd.DataFrame(self.values(), columns=list(self.names))
-        for j, name in enumerate(self.names):
+        for name in self.names:
             if field_type(name) is int:
                 frame[name] = frame[name].astype(np.int64)
         frame.insert(0, "network_kind", self.kind_of())

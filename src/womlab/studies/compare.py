@@ -7,35 +7,43 @@ aggregate curve womlab computes from the same scenario, on the same grid:
     The Bass ODE (closed form :func:`womlab.aggregate.bass_share`) with the mapped p and
     Q of :func:`womlab.aggregate.mapped_parameters`: the continuous-time model.
 ``bass_difference``
-    The Bass difference equation in the run's own step and step form.
+    The Bass difference equation in the run's own step and step form (discrete clock only).
 ``capped_bass_difference``
     The Bass difference model in customer counts with the mapped slope and, under the
     ``capped`` rule, the ceiling on the adoption rate (:func:`womlab.aggregate.capped_bass_difference`;
-    without a ceiling it coincides with ``bass_difference``).
+    without a ceiling it coincides with ``bass_difference``; discrete clock only).
 ``degree_mean_field``
     The degree-based mean-field model (:func:`womlab.aggregate.degree_mean_field`) on the
-    degree sequence of replicate 0's network, in the run's step form: how much of the
-    gap degree heterogeneity explains; what is left is clustering and local saturation.
+    degree sequence of replicate 0's network, in the run's step form (the ODE on the
+    continuous clock): how much of the gap degree heterogeneity explains; what is left is
+    clustering and local saturation.
 ``bass_fitted``
-    The Bass curve fitted to the mean network curve (:func:`womlab.aggregate.fitting.fit_bass`).
+    The Bass model fitted to the mean network curve (:func:`womlab.aggregate.fitting.fit_bass`):
+    the difference form in the run's own step on the discrete clock, so Q_eff carries no
+    bias of the step; the closed form on the continuous clock.
 
 It measures the gaps (:mod:`womlab.studies.metrics`), fits effective parameters
 (:mod:`womlab.aggregate.fitting`) and returns a :class:`Comparison` that holds the tables, draws
 the figure and writes a results folder.
 
 With churn (``adoption.churn`` above 0) the customer curve can fall, so the comparison is
-made on ``ever_customers`` (with warnings, ``adoption.warning`` above 0, the models are Bass with
-churn and warnings the same way) (every organisation that was a customer by then) against Bass with
-churn (:mod:`womlab.aggregate.churn`): ``bass_churn_mapped`` (its ODE) and
-``bass_churn_difference`` (its difference form in the run's step, the reference), plus the
-fitted Bass curve; the installed base of runs and models is in :meth:`Comparison.curve_table`
-and the figure. The degree mean-field and capped Bass difference models have no churn, and are left out.
-The fitted Bass curve is fitted to the ever customers, so Q_eff / Q_mapped counts the word of
-mouth lost when customers leave (former customers no longer talk) as well as the network's.
+made on ``ever_customers`` (every organisation that was a customer by then) against Bass with
+churn (:mod:`womlab.aggregate.churn`; with warnings, ``adoption.warning`` above 0, Bass with
+churn and warnings): ``bass_churn_mapped`` (its ODE) and ``bass_churn_difference`` (its
+difference form in the run's step, the reference), plus the fitted Bass curve; the installed
+base of runs and models is in :meth:`Comparison.curve_table` and the figure. The degree
+mean-field and capped Bass difference models have neither, and are left out. The fitted Bass
+curve is fitted to the ever customers, so Q_eff / Q_mapped counts the word of mouth lost when
+customers leave (former customers no longer talk) as well as the network's.
 
-The discrete engine is compared with the step-form aggregate curves; a continuous-time
-engine would be compared with the ``ode`` forms (``bass_mapped`` and
-``degree_mean_field_curve(..., form="ode")``).
+The discrete engines are compared with the step-form aggregate curves (and the Bass
+ODE); runs on the continuous clock (exact event times) only with the continuous forms —
+the Bass ODE and the degree mean-field ODE — since a difference model in a step the run
+never took is no prediction of it.
+
+:func:`bass_fit_table` gives the fitted parameters of the mean curve with BCa intervals
+(:func:`womlab.studies.intervals.bootstrap_interval`: replicates resampled whole, each
+resample's mean curve refitted).
 """
 
 from __future__ import annotations
@@ -51,7 +59,6 @@ from womlab.aggregate import (
     BassFit,
     StockFlowFit,
     bass_difference,
-    bass_fit_table,
     bass_share,
     capped_bass_difference,
     churn_curves,
@@ -65,11 +72,12 @@ from womlab.dynamics import streams
 from womlab.networks import build_network
 from womlab.networks.given import GivenNetwork, as_network, mapped_with
 from womlab.scenario import Scenario
+from womlab.studies.intervals import bootstrap_interval
 from womlab.studies.metrics import pooled_gaps, pooled_metrics, replicate_gaps, replicate_metrics
 from womlab.studies.presenting import present
 from womlab.studies.runner import Batch, run_replicates
 
-__all__ = ["Comparison", "compare", "aggregate_curves", "installed_base_curves"]
+__all__ = ["Comparison", "compare", "aggregate_curves", "bass_fit_table", "installed_base_curves"]
 
 
 def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[str, np.ndarray]:
@@ -77,7 +85,8 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
 
     ``network`` (a :class:`~womlab.networks.ReferralNetwork` or a degree sequence) feeds
     the degree mean-field model; by default replicate 0's network is built from its
-    network stream, exactly as the batch builds it.
+    network stream, exactly as the batch builds it. On the continuous clock only the
+    continuous forms: ``bass_mapped`` and ``degree_mean_field`` (its ODE).
     """
     run, market, a = scenario.run, scenario.market, scenario.adoption
     if a.churns or a.warns:  # ever customers of Bass with churn and warnings (installed base: installed_base_curves)
@@ -87,6 +96,9 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
     if network is None:
         network = build_network(scenario, np.random.default_rng(streams(scenario.seed, (0,)).network))
     n = market.organisations
+    if run.clock == "continuous":
+        return {"bass_mapped": bass_share(t, par.p, par.Q, par.initial_share),
+                "degree_mean_field": degree_mean_field_curve(scenario, network, form="ode")}
     curves = {
         "bass_mapped": bass_share(t, par.p, par.Q, par.initial_share),
         "bass_difference": bass_difference(run.periods, par.p, par.Q, par.initial_share,
@@ -127,7 +139,7 @@ class Comparison:
     gaps : pandas.DataFrame
         Gap of the mean network curve to each aggregate curve (:func:`womlab.studies.metrics.pooled_gaps`).
     fits : pandas.DataFrame
-        Fitted Bass parameters with intervals (:func:`womlab.aggregate.fitting.bass_fit_table`).
+        Fitted Bass parameters with intervals (:func:`bass_fit_table`).
     replicate_metrics, replicate_gaps, replicate_fits : pandas.DataFrame
         The same, per replicate.
     bass_fit : womlab.aggregate.fitting.BassFit
@@ -337,12 +349,13 @@ def compare(
     shares = batch.ever_shares() if scenario.adoption.churns else batch.shares()
     par = mapped_parameters(mapped_with(scenario, given))
     curves = aggregate_curves(mapped_with(scenario, given), given)
-    fit = fit_bass(shares.mean(axis=0))
-    curves["bass_fitted"] = fit.share(np.arange(shares.shape[1], dtype=float))
-    per_rep_fits = fit_replicates(shares, market=None if fit.market_fitted else 1.0, start=(fit.p, fit.Q, fit.m))
-    fits = bass_fit_table(shares, Q_mapped=par.Q, p_mapped=par.p, bootstrap=fit_bootstrap, seed=seed, level=level,
-                          per_replicate=per_rep_fits)
     a, run = scenario.adoption, scenario.run
+    step = {} if run.clock == "continuous" else {"time_step": run.time_step, "form": run.step_probability}
+    fit = fit_bass(shares.mean(axis=0), **step)
+    curves["bass_fitted"] = fit.share(np.arange(shares.shape[1], dtype=float))
+    per_rep_fits = fit_replicates(shares, market=None if fit.market_fitted else 1.0, start=(fit.p, fit.Q, fit.m), **step)
+    fits = bass_fit_table(shares, Q_mapped=par.Q, p_mapped=par.p, bootstrap=fit_bootstrap, seed=seed, level=level,
+                          per_replicate=per_rep_fits, **step)
     sf = fit_capped_bass_difference(shares.mean(axis=0), organisations=scenario.market.organisations,
                                     satisfied_share=a.satisfied_share, talkers_per_customer=par.mean_talkers,
                                     external=par.p, time_step=run.time_step, form=run.step_probability)
@@ -360,3 +373,97 @@ def compare(
         settings={"bootstrap": bootstrap, "fit_bootstrap": fit_bootstrap, "bootstrap_seed": seed, "level": level,
                   "degree_mean_field_network": "replicate 0" if given is None else "the network given"},
     )
+
+
+def bass_fit_table(
+    shares: np.ndarray,
+    *,
+    Q_mapped: float | None = None,
+    p_mapped: float | None = None,
+    bootstrap: int = 200,
+    seed: int = 0,
+    level: float = 0.95,
+    saturation: float = 0.95,
+    per_replicate: pd.DataFrame | None = None,
+    time_step: float | None = None,
+    form: str = "linear",
+) -> pd.DataFrame:
+    """Fitted Bass parameters of the mean network curve, with intervals.
+
+    One row per parameter (``p``, ``Q``, ``m``, and ``Q_ratio`` = Q_eff / Q_mapped and
+    ``p_ratio`` when the mapped values are given). Columns:
+
+    * ``estimate``: the fit of the mean curve over replicates (:func:`womlab.aggregate.fit_bass`,
+      the difference form in ``time_step`` and ``form`` when given, else the closed form);
+    * ``low``, ``high``: BCa bootstrap interval at ``level``
+      (:func:`womlab.studies.intervals.bootstrap_interval`: replicates resampled whole, the
+      mean curve refitted from the estimate; ``bootstrap`` resamples, seeded; no interval
+      below five replicates); ``interval`` says how it was made;
+    * ``replicate_median``, ``replicate_low``, ``replicate_high``: the median and the
+      central ``level`` range of the per-replicate fits (the spread of one run);
+    * ``mapped``: the mapped value, where given;
+    * ``converged``: how many of the per-replicate fits reported convergence, and
+      ``estimate_converged`` whether the mean-curve fit did.
+
+    Whether m is fitted is decided once, on the mean curve (``saturation``), and kept for
+    every resample and replicate; a fitted m lies in (0, 1], and its interval is cut there.
+    """
+    shares = np.atleast_2d(np.asarray(shares, dtype=float))
+    r = shares.shape[0]
+    point = fit_bass(shares.mean(axis=0), saturation=saturation, time_step=time_step, form=form)
+    market = None if point.market_fitted else 1.0
+    x0 = (point.p, point.Q, point.m)
+    reps = per_replicate if per_replicate is not None else fit_replicates(
+        shares, market=market, start=x0, time_step=time_step, form=form)
+    cache: dict[tuple[int, ...], tuple[float, float, float]] = {}
+
+    def refit(index: np.ndarray) -> tuple[float, float, float]:
+        key = tuple(sorted(int(i) for i in index))  # the mean curve depends on the multiset only
+        if key not in cache:
+            f = fit_bass(shares[list(key)].mean(axis=0), market=market, start=x0, time_step=time_step, form=form)
+            cache[key] = (f.p, f.Q, f.m)
+        return cache[key]
+
+    def parameter(j: int, scale: float):  # noqa: ANN202
+        def statistic(index: np.ndarray) -> np.ndarray:
+            flat = index.reshape(-1, index.shape[-1])
+            return np.array([refit(i)[j] / scale for i in flat]).reshape(index.shape[:-1])
+        return statistic
+
+    def interval(j: int, scale: float, bounds: tuple[float, float] | None):  # noqa: ANN202
+        # the same seed for every parameter: the same resamples, so each curve is fitted once
+        return bootstrap_interval(parameter(j, scale), r, rng=np.random.default_rng(seed), level=level,
+                                  resamples=bootstrap, bounds=bounds)
+
+    a = (1 - level) / 2
+    mapped = {"p": p_mapped, "Q": Q_mapped, "m": 1.0}
+    estimates = {"p": point.p, "Q": point.Q, "m": point.m}
+    rows = []
+    for j, name in enumerate(("p", "Q", "m")):
+        ci = interval(j, 1.0, (0.0, 1.0) if name == "m" else None)
+        rows.append(_fit_row(name, estimates[name], ci, reps[name].to_numpy(), mapped[name], a))
+    for name, base, j in (("Q_ratio", Q_mapped, 1), ("p_ratio", p_mapped, 0)):
+        if base:
+            ci = interval(j, base, None)
+            rows.append(_fit_row(name, estimates["pQ"[j]] / base, ci, reps["pQ"[j]].to_numpy() / base, 1.0, a))
+    table = pd.DataFrame(rows)
+    table["converged"] = int(reps["success"].sum())
+    table["replicates"] = r
+    table["estimate_converged"] = point.success
+    table["market_fitted"] = point.market_fitted
+    table["fitted_form"] = "closed form (ODE)" if time_step is None else f"difference form, step {time_step:g}, {form}"
+    return table
+
+
+def _fit_row(name: str, estimate: float, ci, reps: np.ndarray, mapped: float | None, a: float) -> dict:  # noqa: ANN001
+    return {
+        "parameter": name,
+        "estimate": float(estimate),
+        "low": ci.low,
+        "high": ci.high,
+        "interval": ci.describe(),
+        "replicate_median": float(np.median(reps)),
+        "replicate_low": float(np.quantile(reps, a)),
+        "replicate_high": float(np.quantile(reps, 1 - a)),
+        "mapped": float("nan") if mapped is None else float(mapped),
+    }

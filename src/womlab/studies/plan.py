@@ -1,7 +1,7 @@
 """What each command will run on a scenario, and roughly how long it will take, before it runs.
 
 :func:`plan` returns one row per command (``run``, ``compare``, ``seeding``, ``referral``,
-``sweep``): what it runs in words (the replicate count that command really uses, the
+``sweep``, ``fit``): what it runs in words (the replicate count that command really uses, the
 strategies, the programme, the sweep's points), its engine runs, workers, peak memory and
 a rough time from :func:`womlab.scenario.resources.estimate_resources`. :func:`slow_steps` names the
 seeding steps that will be slow at this size (sampled betweenness, greedy) with their
@@ -122,6 +122,15 @@ def plan(scenario: Scenario, *, jobs: int | None = None) -> pd.DataFrame:
     else:
         rows.append({"command": "sweep", "what": note, "runs": 0, "workers": 0, "memory": 0.0, "seconds": 0.0,
                      "estimate": "nothing to run"})
+    fit = s.fit
+    if fit.free is None and fit.data_path is None:
+        rows.append({"command": "fit", "what": "no [fit] section", "runs": 0, "workers": 0, "memory": 0.0,
+                     "seconds": 0.0, "estimate": "nothing to run"})
+    else:
+        free = ", ".join(fit.free) if fit.free else "the default free fields"
+        kinds = f", choosing among {', '.join(fit.network_kinds)}" if fit.network_kinds else ""
+        add("fit", f"ABC-SMC over {free}{kinds}: {fit.particles:,} particles, at most {fit.generations} generations "
+                   f"and {fit.simulations:,} simulations (fit.simulations) of {size}")
     return pd.DataFrame(rows)
 
 

@@ -6,9 +6,21 @@
 dynamics streams for both), and compares each pair with :func:`programme_economics`:
 incremental customers at the horizon, incremental discounted value, discounted cost,
 return on investment (ΔValue − Cost) / Cost, cost per incremental customer, and the
-split of ΔValue into acceleration and expansion (Libai, Muller & Peres 2013). How a
-programme runs inside an engine (enrolment, boost, payments, budget) is
+split of the programme's value into acceleration and expansion (Libai, Muller & Peres
+2013). How a programme runs inside an engine (enrolment, boost, payments, budget) is
 :mod:`womlab.dynamics.programme`.
+
+The split is made on a continuation. At the horizon an organisation won with the
+programme and not without it looks like expansion even when the baseline wins it one
+period later; on a complete network with p > 0 and a fixed market, a 10-period horizon
+labelled 56 % of a programme's value expansion where the whole-life answer is 0 %. So both
+arms are run on past the horizon with the programme off
+(:func:`womlab.studies.continuation.continue_paired`: for ``referral.lifetime`` periods,
+or until the baseline's market is exhausted), and ``acceleration``, ``expansion`` and
+``incremental_value_lifetime`` are measured there; the split at the horizon is kept only
+as ``acceleration_at_horizon`` and ``expansion_at_horizon``. Incremental value, cost, ROI
+and break-even stay at the horizon, where the programme is judged; ``roi_lifetime`` is
+the return with the whole-life incremental value.
 
 References
 ----------
@@ -32,9 +44,10 @@ from womlab.errors import ScenarioError
 from womlab.networks import build_network
 from womlab.networks.given import GivenNetwork, as_network
 from womlab.scenario import Referral, Scenario
-from womlab.studies.metrics import discount_factors, mean_interval
+from womlab.studies.continuation import continue_paired
+from womlab.studies.intervals import bootstrap_interval, ratio_standard_error, t_interval
+from womlab.studies.metrics import discount_factors
 from womlab.studies.referrals import referral_tree_summary
-from womlab.studies.runner import run_paired
 
 __all__ = [
     "customer_values",
@@ -98,30 +111,61 @@ def _cost_flow(run: RunResult, referral: Referral) -> np.ndarray:
     return np.asarray(cost, dtype=float) * discount_factors(referral.discount_rate, run.periods)
 
 
-def programme_economics(baseline: RunResult, programme: RunResult, referral: Referral) -> dict:
+def _split(a0: np.ndarray, a1: np.ndarray, v0: np.ndarray, v1: np.ndarray) -> dict[str, float]:
+    """Acceleration and expansion of the value change v1 − v0 (Libai, Muller & Peres 2013)."""
+    both = (a0 >= 0) & (a1 >= 0)
+    only1 = (a1 >= 0) & (a0 < 0)
+    only0 = (a0 >= 0) & (a1 < 0)
+    return {
+        "acceleration": float((v1 - v0)[both].sum()),
+        "expansion": float(v1[only1].sum() - v0[only0].sum()),
+        "accelerated": int(np.sum(both & (a1 < a0))),
+        "delayed": int(np.sum(both & (a1 > a0))),
+        "expanded": int(only1.sum()),
+        "lost": int(only0.sum()),
+    }
+
+
+def programme_economics(
+    baseline: RunResult, programme: RunResult, referral: Referral, *,
+    continued: tuple[RunResult, RunResult] | None = None,
+) -> dict:
     """The economics of one programme run against its paired baseline run.
 
     Parameters
     ----------
     baseline, programme : RunResult
-        The same replicate without and with the programme (same network and draws).
+        The same replicate without and with the programme (same network and draws), to
+        the horizon T.
     referral : Referral
         Supplies the value (per period or lifetime) and the discount rate.
+    continued : (RunResult, RunResult), optional
+        The same pair continued past the horizon with the programme off, to a horizon
+        H ≥ T (:func:`womlab.studies.continuation.continue_paired`); the split into
+        acceleration and expansion is made there. Without it those fields are NaN.
 
     Returns
     -------
     dict
-        ``customers_baseline``, ``customers_programme``, ``incremental_customers`` (at the
-        horizon); ``value_baseline``, ``value_programme``, ``incremental_value``
-        (discounted); ``cost`` (discounted payments), ``cost_undiscounted``,
-        ``paid_referrals``; ``roi``; ``cost_per_incremental_customer`` (NaN unless the
-        programme added customers); ``acceleration`` — the value change of organisations
-        that adopt by the horizon in both runs (``accelerated`` of them earlier with the
-        programme, ``delayed`` later) — and ``expansion`` — the value of those that adopt
-        only with the programme (``expanded``) less that of those that adopt only without
-        it (``lost``); acceleration + expansion = incremental value exactly (Libai,
-        Muller & Peres 2013); ``break_even_period``: first period at which cumulative
-        incremental value reaches cumulative cost (NaN if never, or no cost).
+        At the horizon: ``customers_baseline``, ``customers_programme``,
+        ``incremental_customers``; ``value_baseline``, ``value_programme``,
+        ``incremental_value`` (discounted, to T); ``cost`` (discounted payments),
+        ``cost_undiscounted``, ``paid_referrals``; ``roi``;
+        ``cost_per_incremental_customer`` (NaN unless the programme added customers);
+        ``break_even_period`` (first period at which cumulative incremental value reaches
+        cumulative cost; NaN if never, or no cost); and the split as it looks at the
+        horizon, ``acceleration_at_horizon`` + ``expansion_at_horizon`` =
+        ``incremental_value`` (with ``accelerated_at_horizon``, ``delayed_at_horizon``,
+        ``expanded_at_horizon``, ``lost_at_horizon``).
+
+        On the continuation (each customer valued to its end H; Libai, Muller & Peres
+        2013): ``acceleration`` — the value change of organisations that adopt in both
+        arms (``accelerated`` of them earlier with the programme, ``delayed`` later) — and
+        ``expansion`` — the value of those that adopt only with the programme
+        (``expanded``) less that of those that adopt only without it (``lost``);
+        ``incremental_value_lifetime`` = acceleration + expansion; ``roi_lifetime`` with
+        it; ``continued_to`` = H. With ``value_per_period`` an expansion that lasts is
+        worth more the longer the continuation; accelerations are not.
     """
     if baseline.n != programme.n or baseline.periods != programme.periods:
         raise ValueError("baseline and programme runs must have the same organisations and horizon")
@@ -129,19 +173,15 @@ def programme_economics(baseline: RunResult, programme: RunResult, referral: Ref
     a0, a1 = baseline.adoption_period, programme.adoption_period
     v0 = customer_values(a0, referral, T)
     v1 = customer_values(a1, referral, T)
-    both = (a0 >= 0) & (a1 >= 0)
-    only1 = (a1 >= 0) & (a0 < 0)
-    only0 = (a0 >= 0) & (a1 < 0)
-    delta = v1 - v0
     cost_flow = _cost_flow(programme, referral)
     cost = float(cost_flow.sum())
     inc_customers = int(programme.customers[-1] - baseline.customers[-1])
-    inc_value = float(delta.sum())
+    inc_value = float((v1 - v0).sum())
     net = np.cumsum(value_flow(programme, referral) - value_flow(baseline, referral)) - np.cumsum(cost_flow)
     even = np.flatnonzero((net >= 0) & (np.cumsum(cost_flow) > 0))
     undiscounted = programme.extra.get("programme_cost")
     paid = programme.extra.get("programme_paid_referrals")
-    return {
+    out = {
         "customers_baseline": int(baseline.customers[-1]),
         "customers_programme": int(programme.customers[-1]),
         "incremental_customers": inc_customers,
@@ -153,51 +193,81 @@ def programme_economics(baseline: RunResult, programme: RunResult, referral: Ref
         "paid_referrals": int(np.sum(paid)) if paid is not None else 0,
         "roi": roi(inc_value, cost),
         "cost_per_incremental_customer": cost / inc_customers if inc_customers > 0 else float("nan"),
-        "acceleration": float(delta[both].sum()),
-        "expansion": float(v1[only1].sum() - v0[only0].sum()),
-        "accelerated": int(np.sum(both & (a1 < a0))),
-        "delayed": int(np.sum(both & (a1 > a0))),
-        "expanded": int(only1.sum()),
-        "lost": int(only0.sum()),
         "break_even_period": float(even[0]) if even.size else float("nan"),
     }
+    out.update({f"{k}_at_horizon": v for k, v in _split(a0, a1, v0, v1).items()})
+    if continued is None:
+        out.update(dict.fromkeys(("acceleration", "expansion", "accelerated", "delayed", "expanded", "lost",
+                                  "incremental_value_lifetime", "roi_lifetime", "continued_to"), float("nan")))
+        return out
+    c0, c1 = continued
+    if c0.n != baseline.n or c1.n != baseline.n or c0.periods != c1.periods or c0.periods < T:
+        raise ValueError("the continued runs must have the same organisations and one horizon at or after T")
+    H = c0.periods
+    split = _split(c0.adoption_period, c1.adoption_period, customer_values(c0.adoption_period, referral, H),
+                   customer_values(c1.adoption_period, referral, H))
+    lifetime_value = split["acceleration"] + split["expansion"]
+    out.update(split)
+    out.update({"incremental_value_lifetime": lifetime_value, "roi_lifetime": roi(lifetime_value, cost),
+                "continued_to": H})
+    return out
 
 
-RATIO_NAMES = ("roi", "cost_per_incremental_customer", "acceleration_share")
+RATIO_NAMES = ("roi", "roi_lifetime", "cost_per_incremental_customer", "acceleration_share")
+
+# name: (numerator, denominator, offset, bounds); the ratio is Σ numerator / Σ denominator + offset
+_RATIOS = {
+    "roi": ("incremental_value", "cost", -1.0, None),
+    "roi_lifetime": ("incremental_value_lifetime", "cost", -1.0, None),
+    "cost_per_incremental_customer": ("cost", "incremental_customers", 0.0, (0.0, np.inf)),
+    "acceleration_share": ("acceleration", "incremental_value_lifetime", 0.0, None),
+}
 
 
 def programme_ratios(table: pd.DataFrame, *, bootstrap: int, rng: np.random.Generator) -> list[dict]:
-    """ROI, cost per incremental customer and acceleration share of a programme, as ratios of
-    totals over replicates, each with a percentile bootstrap interval over replicates.
+    """ROI, whole-life ROI, cost per incremental customer and acceleration share of a
+    programme, as ratios of totals over replicates, each with a studentised bootstrap interval.
 
-    ``roi`` = Σ(ΔValue − Cost) / ΣCost, ``cost_per_incremental_customer`` = ΣCost / ΣΔcustomers
-    (NaN unless Σ ΔCustomers > 0), ``acceleration_share`` = Σ acceleration / Σ ΔValue (the
-    part of the incremental value that is customers adopting earlier, Libai, Muller &
-    Peres 2013). ``table`` has one row per replicate with the :func:`programme_economics`
-    columns. With one replicate there is no interval (NaN bounds).
+    ``roi`` = Σ(ΔValue − Cost) / ΣCost at the horizon, ``roi_lifetime`` the same with the
+    whole-life incremental value, ``cost_per_incremental_customer`` = ΣCost / ΣΔcustomers
+    (NaN unless ΣΔcustomers > 0), ``acceleration_share`` = Σ acceleration / Σ whole-life
+    incremental value (the part of the programme's value that is customers adopting
+    earlier, measured on the continuation; Libai, Muller & Peres 2013; NaN without a
+    continuation). ``table`` has one row per replicate with the :func:`programme_economics`
+    columns. Intervals: :func:`womlab.studies.intervals.bootstrap_interval` with the
+    delta-method standard error of a ratio (replicates resampled whole, all four on the
+    same resamples); none below five replicates.
 
     Returns
     -------
     list of dict
         One per ratio: ``outcome``, ``estimate``, ``low``, ``high``, ``interval``.
     """
-    dv, c, dc, acc = (table[k].to_numpy(dtype=float)
-                      for k in ("incremental_value", "cost", "incremental_customers", "acceleration"))
-
-    def ratios(idx: np.ndarray) -> tuple[float, float, float]:
-        cs, vs, ns, accs = c[idx].sum(), dv[idx].sum(), dc[idx].sum(), acc[idx].sum()
-        return roi(vs, cs), (cs / ns if ns > 0 else float("nan")), (accs / vs if vs != 0 else float("nan"))
-
+    seed = int(rng.integers(2**63))
     n = len(table)
-    est = ratios(np.arange(n))
-    boot = np.array([ratios(rng.integers(0, n, n)) for _ in range(bootstrap)]) if n > 1 else np.zeros((0, 3))
     rows = []
-    for j, name in enumerate(RATIO_NAMES):
-        b = boot[:, j]
-        b = b[np.isfinite(b)]
-        lo, hi = (np.quantile(b, [0.025, 0.975]) if b.size else (np.nan, np.nan))
-        rows.append({"outcome": name, "estimate": est[j], "low": float(lo), "high": float(hi),
-                     "interval": f"ratio of totals; percentile bootstrap, {bootstrap} resamples of replicates"})
+    for name, (num, den, offset, bounds) in _RATIOS.items():
+        if num not in table or den not in table:  # a table from before the column existed
+            rows.append({"outcome": name, "estimate": np.nan, "low": np.nan, "high": np.nan,
+                         "interval": f"none: no {num if num not in table else den} column"})
+            continue
+        x, b = (table[k].to_numpy(dtype=float) for k in (num, den))
+        finite = bool(np.isfinite(x).all() and np.isfinite(b).all())
+        est = float(x.sum() / b.sum() + offset) if finite and b.sum() > 0 else float("nan")
+        if not np.isfinite(est):
+            how = "none: undefined (no cost, no incremental customers or no continuation)"
+            rows.append({"outcome": name, "estimate": est, "low": np.nan, "high": np.nan, "interval": how})
+            continue
+
+        def statistic(i: np.ndarray, x: np.ndarray = x, b: np.ndarray = b, offset: float = offset) -> np.ndarray:
+            total = b[i].sum(axis=-1)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                return np.where(total > 0, x[i].sum(axis=-1) / total + offset, np.nan)
+
+        ci = bootstrap_interval(statistic, n, rng=np.random.default_rng(seed), bounds=bounds, resamples=bootstrap,
+                                standard_error=lambda i, x=x, b=b: ratio_standard_error(x[i], b[i]))
+        rows.append({"outcome": name, "estimate": est, "low": ci.low, "high": ci.high,
+                     "interval": f"ratio of totals; {ci.describe()}, {bootstrap} resamples of replicates"})
     return rows
 
 
@@ -226,6 +296,12 @@ class ProgrammeStudy:
         Paired runs, in replicate order (same network and draws per replicate).
     degrees : list of numpy.ndarray
         Degree of each organisation on each replicate's network (for tree statistics).
+    continued_baseline, continued_programme : list of RunResult
+        The same pairs continued past the horizon with the programme off
+        (:func:`womlab.studies.continuation.continue_paired`), where acceleration and
+        expansion are measured; empty when not continued.
+    exhausted : numpy.ndarray, optional
+        bool per replicate: the continuation reached the end of both arms' markets.
     """
 
     scenario: Scenario
@@ -234,6 +310,9 @@ class ProgrammeStudy:
     degrees: list[np.ndarray] = field(default_factory=list)
     bootstrap: int = 2000
     parameters: str = "fixed (the scenario's own)"
+    continued_baseline: list[RunResult] = field(default_factory=list)
+    continued_programme: list[RunResult] = field(default_factory=list)
+    exhausted: np.ndarray | None = None
 
     @property
     def replicates(self) -> int:
@@ -241,7 +320,10 @@ class ProgrammeStudy:
 
     def per_replicate(self) -> pd.DataFrame:
         """One row per replicate: the columns of :func:`programme_economics`."""
-        rows = [programme_economics(b, p, self.scenario.referral) for b, p in zip(self.baseline, self.programme)]
+        ref = self.scenario.referral
+        continued = (list(zip(self.continued_baseline, self.continued_programme)) if self.continued_baseline
+                     else [None] * len(self.programme))
+        rows = [programme_economics(b, p, ref, continued=c) for b, p, c in zip(self.baseline, self.programme, continued)]
         out = pd.DataFrame(rows)
         out.insert(0, "replicate", np.arange(len(rows)))
         return out
@@ -249,17 +331,30 @@ class ProgrammeStudy:
     def summary(self) -> pd.DataFrame:
         """Per outcome: the estimate and its 95 % interval over replicates.
 
-        Totals and counts are means over replicates with a t interval; ``roi``,
-        ``cost_per_incremental_customer`` and ``acceleration_share`` are ratios of totals
-        (:func:`programme_ratios`; resamples seeded from the scenario's seed).
+        Totals and counts are means over replicates with a t interval, cut at their
+        feasible range where it is known (counts and costs ≥ 0, customers in [0, N]).
+        ``roi``, ``roi_lifetime``, ``cost_per_incremental_customer`` and
+        ``acceleration_share`` are ratios of totals over all replicates with studentised
+        bootstrap intervals (:func:`programme_ratios`; resamples seeded from the scenario's
+        seed). The ``interval`` column says how each interval was made, and when it was
+        clipped or is missing (fewer than five replicates for a bootstrap, two for a t
+        interval).
         """
         table = self.per_replicate()
+        n = float(self.scenario.market.organisations)
+        bounds = {"incremental_customers": (-n, n), "customers_baseline": (0.0, n), "customers_programme": (0.0, n),
+                  "cost": (0.0, np.inf), "cost_undiscounted": (0.0, np.inf), "paid_referrals": (0.0, np.inf)}
+        for name in ("accelerated", "expanded", "lost"):
+            bounds[name] = bounds[f"{name}_at_horizon"] = (0.0, n)
         rows = []
         for col in ("incremental_customers", "incremental_value", "cost", "cost_undiscounted", "paid_referrals",
-                    "acceleration", "expansion", "accelerated", "expanded", "lost",
-                    "customers_baseline", "customers_programme"):
-            m, lo, hi = mean_interval(table[col].to_numpy())
-            rows.append({"outcome": col, "estimate": m, "low": lo, "high": hi, "interval": "t, mean over replicates"})
+                    "acceleration", "expansion", "incremental_value_lifetime", "accelerated", "expanded", "lost",
+                    "acceleration_at_horizon", "expansion_at_horizon", "accelerated_at_horizon",
+                    "expanded_at_horizon", "lost_at_horizon", "customers_baseline", "customers_programme"):
+            x = table[col].to_numpy(dtype=float)
+            ci = t_interval(x, bounds=bounds.get(col))
+            rows.append({"outcome": col, "estimate": float(np.nanmean(x)) if np.isfinite(x).any() else float("nan"),
+                         "low": ci.low, "high": ci.high, "interval": f"{ci.describe()}, mean over replicates"})
         rng = np.random.default_rng(np.random.SeedSequence(self.scenario.seed, spawn_key=(ENROLMENT_STREAM, 1)))
         rows += programme_ratios(table, bootstrap=self.bootstrap, rng=rng)
         be = self.break_even_period()
@@ -319,12 +414,15 @@ def evaluate_programme(
     jobs: int | None = None,
     progress: bool = False,
     degrees: bool = True,
+    lifetime: int | None = None,
     network: GivenNetwork | None = None,
 ) -> ProgrammeStudy:
     """Evaluate the scenario's referral programme against no programme, on paired replicates.
 
     The baseline is the same scenario with ``referral.enrol = "none"``; both run through
-    :func:`womlab.studies.run_paired` (common random numbers).
+    :func:`womlab.studies.continuation.continue_paired` (common random numbers): past the
+    horizon with the programme off, for the split into acceleration and expansion, and
+    cut back to the horizon for everything else (the same runs as to the horizon alone).
 
     Parameters
     ----------
@@ -345,6 +443,9 @@ def evaluate_programme(
     network : ReferralNetwork, networkx.Graph or pandas.DataFrame, optional
         Your own network, for every replicate and both arms (see
         :func:`womlab.run_replicates`); it must have ``market.organisations`` organisations.
+    lifetime : int, optional
+        Periods the continuation runs past the horizon; defaults to ``referral.lifetime``,
+        and without it until the baseline's market is exhausted.
 
     Raises
     ------
@@ -371,8 +472,10 @@ def evaluate_programme(
         raise ScenarioError(f"replicates must be a whole number >= 1, got {replicates}")
     given = None if network is None else as_network(network, scenario.market.organisations)
     baseline = scenario.replace("referral.enrol", "none")
-    runs = run_paired({"baseline": baseline, "programme": scenario}, replicates, jobs=jobs, progress=progress,
-                      network=given, vary=draws)
+    lifetime = scenario.referral.lifetime if lifetime is None else lifetime
+    cont = continue_paired({"baseline": baseline, "programme": scenario}, replicates, lifetime=lifetime, jobs=jobs,
+                           progress=progress, network=given, vary=draws)
+    runs = cont.at_horizon()
     degs = []
     if degrees:
         for r in range(replicates):
@@ -381,5 +484,7 @@ def evaluate_programme(
                 at, np.random.default_rng(streams(scenario.seed, (r,)).network))
             degs.append(net.degree())
     return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs,
+                          continued_baseline=cont.runs["baseline"], continued_programme=cont.runs["programme"],
+                          exhausted=cont.exhausted,
                           parameters="fixed (the scenario's own)" if draws is None else
                           "drawn from the fit's posterior per replicate, the same for baseline and programme")

@@ -85,8 +85,9 @@ def _run_variants(
     for name, scenario in variants.items():
         if name:
             doing(name)
-        initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
-        result = engine_for(scenario)(scenario, network, initial, np.random.default_rng(st.dynamics))
+        engine = engine_for(scenario)  # a strategy that simulates (greedy) scores seeds with the run's own engine
+        initial = initial_customers(scenario, network, np.random.default_rng(st.seeding), simulate=engine)
+        result = engine(scenario, network, initial, np.random.default_rng(st.dynamics))
         result.seed, result.spawn_key = scenario.seed, tuple(key)
         out[name] = result
     return out

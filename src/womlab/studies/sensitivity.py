@@ -8,16 +8,28 @@ are checked on functions whose indices are known in closed form.
 Sobol indices. :func:`saltelli_design` draws two independent matrices A and B (the two
 halves of a scrambled Sobol' sequence of dimension 2k, :class:`scipy.stats.qmc.Sobol`)
 and the k matrices AB_i (A with column i taken from B): N (k + 2) points for base
-sample N. :func:`sobol_indices` estimates, with V the variance of f over A and B,
+sample N. The N rows of A (and of B, AB_i) come from :func:`sobol_scrambles` independent
+scrambles of N / m points each, stacked in order. :func:`sobol_indices` estimates, with
+f centred on its mean over A and B (Sobol' & Levitan 1999) and V its variance there,
 
 * first order (Saltelli et al. 2010, Table 2 (b)):
   S_i = (1/N) Σ_j f(B)_j (f(AB_i)_j − f(A)_j) / V
 * total (Jansen 1999; Saltelli et al. 2010, Table 2 (f)):
   S_Ti = (1/2N) Σ_j (f(A)_j − f(AB_i)_j)² / V
 
-and their standard errors by bootstrap over the N rows (Efron & Tibshirani 1993).
-Treating scrambled Sobol' rows as independent overstates the error of a quasi-Monte
-Carlo estimate, so the standard errors are conservative.
+through :func:`scipy.stats.sobol_indices` (its ``saltelli_2010`` estimator) on each of the
+m independent scrambles; the index is the mean of the m estimates and its standard error
+their spread, sd / √m (randomised quasi-Monte Carlo with independent replicates: Owen 1997;
+L'Ecuyer & Lemieux 2002): over 200 independent designs at N = 2^11 the reported standard
+errors matched the real spread of the estimates within 7 % for every index of the Ishigami
+function, and at N = 2^14 within 15 % over 100 designs. A bootstrap over the rows would treat
+scrambled Sobol' points as independent draws and overstate the error four to six times for this
+design (0.0107 against a real spread of 0.0021 for S1 of x1 at N = 2^14;
+``experiments/literature/sobol_errors.py``), about ten times against a single scramble of 2^14
+points. Rows whose output is NaN (a point whose runs never reach a level) are left
+out of the index they belong to, with their A and B partners; a base sample that is then
+no longer a power of 2 is estimated with the same formulas written out here. With a small
+N an index can fall outside [0, 1]; the table's ``note`` says so.
 
 Morris screening. :func:`morris_design` builds r trajectories of k + 1 points on a grid
 of p levels, each moving one input at a time by Δ = p / (2 (p − 1)) (Morris 1991,
@@ -37,6 +49,13 @@ Variance based sensitivity analysis of model output. Design and estimator for th
 sensitivity index. Computer Physics Communications 181, 259–270.
 Jansen, M. J. W. (1999). Analysis of variance designs for model output. Computer
 Physics Communications 117, 35–43.
+Sobol', I. M. & Levitan, Y. L. (1999). On the use of variance reducing multipliers in
+Monte Carlo computations of a global sensitivity index. Computer Physics Communications
+117, 52–61.
+Owen, A. B. (1997). Scrambled net variance for integrals of smooth functions. Annals of
+Statistics 25, 1541–1562.
+L'Ecuyer, P. & Lemieux, C. (2002). Recent advances in randomized quasi-Monte Carlo
+methods. In Modeling Uncertainty, 419–474. Kluwer.
 Morris, M. D. (1991). Factorial sampling plans for preliminary computational
 experiments. Technometrics 33, 161–174.
 Campolongo, F., Cariboni, J., Saltelli, A. (2007). An effective screening design for
@@ -49,13 +68,33 @@ from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
+from scipy import stats
 from scipy.stats import qmc
 
-__all__ = ["saltelli_design", "sobol_indices", "morris_design", "morris_effects"]
+__all__ = ["saltelli_design", "sobol_indices", "sobol_scrambles", "morris_design", "morris_effects", "SOBOL_SCRAMBLES"]
+
+#: Most independent scrambles a Sobol' design is made of (their spread gives the standard errors).
+SOBOL_SCRAMBLES = 8
+
+
+def sobol_scrambles(n: int) -> int:
+    """Independent scrambles m in a base sample of ``n``: min(8, n / 4), at least 1, so that each
+    scramble has at least 4 points (n / m, a power of 2, keeps the Sobol' balance).
+
+    Examples
+    --------
+    >>> [sobol_scrambles(n) for n in (2, 8, 16, 64, 2**14)]
+    [1, 2, 4, 8, 8]
+    """
+    return max(1, min(SOBOL_SCRAMBLES, n // 4))
 
 
 def saltelli_design(n: int, k: int, rng: np.random.Generator) -> np.ndarray:
     """Saltelli's sampling scheme: rows A (n), B (n), then AB_1 .. AB_k (n each).
+
+    A and B are made of :func:`sobol_scrambles` (n) independent scrambles of a Sobol'
+    sequence of dimension 2k, n / m points each, stacked in order (rows of scramble j are
+    j n/m .. (j + 1) n/m − 1 in every block).
 
     Parameters
     ----------
@@ -64,7 +103,7 @@ def saltelli_design(n: int, k: int, rng: np.random.Generator) -> np.ndarray:
     k : int
         Number of inputs.
     rng : numpy.random.Generator
-        Drives the scrambling of the Sobol' sequence.
+        Drives the scrambling of the Sobol' sequences.
 
     Returns
     -------
@@ -81,7 +120,8 @@ def saltelli_design(n: int, k: int, rng: np.random.Generator) -> np.ndarray:
         raise ValueError(f"n must be a power of 2 >= 2, got {n}")
     if k < 1:
         raise ValueError(f"k must be >= 1, got {k}")
-    base = qmc.Sobol(d=2 * k, scramble=True, rng=rng).random(n)
+    m = sobol_scrambles(n)
+    base = np.vstack([qmc.Sobol(d=2 * k, scramble=True, rng=rng).random(n // m) for _ in range(m)])
     a, b = base[:, :k], base[:, k:]
     blocks = [a, b]
     for i in range(k):
@@ -91,13 +131,21 @@ def saltelli_design(n: int, k: int, rng: np.random.Generator) -> np.ndarray:
     return np.vstack(blocks)
 
 
-def _sobol_point(fa: np.ndarray, fb: np.ndarray, fab: np.ndarray) -> tuple[float, float]:
-    variance = np.var(np.concatenate([fa, fb]), ddof=1)
-    if not variance > 0:
+def _indices(fa: np.ndarray, fb: np.ndarray, fab: np.ndarray) -> tuple[float, float]:
+    """First-order and total index from finite rows; NaN with fewer than 2 rows or no variance."""
+    n = fa.size
+    if n < 2 or not np.var(np.concatenate([fa, fb])) > 0:
         return float("nan"), float("nan")
-    first = np.mean(fb * (fab - fa)) / variance
-    total = 0.5 * np.mean((fa - fab) ** 2) / variance
-    return float(first), float(total)
+    if n & (n - 1) == 0:
+        # one output given twice: scipy squeezes a single input and output to a scalar it cannot index
+        two = {"f_A": np.vstack([fa, fa]), "f_B": np.vstack([fb, fb]), "f_AB": np.stack([fab, fab])[None]}
+        res = stats.sobol_indices(func=two, n=n)
+        return float(np.ravel(res.first_order)[0]), float(np.ravel(res.total_order)[0])
+    # filtered rows: scipy needs a power of 2, so its saltelli_2010 estimator, written out
+    mean = np.mean(np.concatenate([fa, fb]))
+    fa, fb, fab = fa - mean, fb - mean, fab - mean
+    variance = np.var(np.concatenate([fa, fb]))
+    return float(np.mean(fb * (fab - fa)) / variance), float(0.5 * np.mean((fa - fab) ** 2) / variance)
 
 
 def sobol_indices(
@@ -105,8 +153,7 @@ def sobol_indices(
     k: int,
     *,
     names: Sequence[str] | None = None,
-    bootstrap: int = 200,
-    rng: np.random.Generator | int = 0,
+    scrambles: int | None = None,
 ) -> pd.DataFrame:
     """First-order and total Sobol indices from outputs on a :func:`saltelli_design`.
 
@@ -119,16 +166,18 @@ def sobol_indices(
         Number of inputs.
     names : sequence of str, optional
         Input names; default ``x1 .. xk``.
-    bootstrap : int
-        Bootstrap resamples for the standard errors (0 for none).
-    rng : Generator or int
-        Seed of the bootstrap.
+    scrambles : int, optional
+        Independent scrambles the design is made of; default :func:`sobol_scrambles` (N),
+        as :func:`saltelli_design` makes it.
 
     Returns
     -------
     pandas.DataFrame
-        One row per input: ``input``, ``S1``, ``S1_se``, ``ST``, ``ST_se``, ``rows`` (the
-        N used).
+        One row per input: ``input``, ``S1``, ``ST`` (means over the scrambles), ``S1_se``,
+        ``ST_se`` (their standard errors from the spread over the scrambles, NaN with one
+        scramble), ``rows`` (the N used),
+        ``scrambles`` and ``note`` (says when an index lies outside [0, 1], which only a
+        small sample's error can do).
 
     Examples
     --------
@@ -142,26 +191,33 @@ def sobol_indices(
     if y.ndim != 1 or y.size % (k + 2):
         raise ValueError(f"y must have N (k + 2) = N x {k + 2} values, got shape {y.shape}")
     n = y.size // (k + 2)
+    m = sobol_scrambles(n) if scrambles is None else int(scrambles)
+    if m < 1 or n % m:
+        raise ValueError(f"scrambles must divide the base sample N = {n}, got {m}")
     names = [f"x{i + 1}" for i in range(k)] if names is None else list(names)
     if len(names) != k:
         raise ValueError(f"names has {len(names)} entries, k = {k}")
-    gen = np.random.default_rng(rng)
     fa, fb = y[:n], y[n : 2 * n]
+    block = np.arange(n) // (n // m)
     rows = []
     for i in range(k):
         fab = y[(2 + i) * n : (3 + i) * n]
         ok = np.isfinite(fa) & np.isfinite(fb) & np.isfinite(fab)
-        a, b, ab = fa[ok], fb[ok], fab[ok]
-        s1, st = _sobol_point(a, b, ab) if ok.sum() > 1 else (float("nan"), float("nan"))
-        se1 = set_ = float("nan")
-        if bootstrap and ok.sum() > 1:
-            draws = np.empty((bootstrap, 2))
-            for j in range(bootstrap):
-                idx = gen.integers(0, a.size, a.size)
-                draws[j] = _sobol_point(a[idx], b[idx], ab[idx])
-            se1, set_ = np.nanstd(draws, axis=0, ddof=1)
-        rows.append({"input": names[i], "S1": s1, "S1_se": float(se1), "ST": st, "ST_se": float(set_),
-                     "rows": int(ok.sum())})
+        se1 = se_t = float("nan")
+        if m == 1:
+            s1, st = _indices(fa[ok], fb[ok], fab[ok])
+        else:
+            per = np.array([_indices(fa[ok & (block == j)], fb[ok & (block == j)], fab[ok & (block == j)])
+                            for j in range(m)])
+            good = np.isfinite(per).all(axis=1)
+            s1, st = per[good].mean(axis=0) if good.any() else (float("nan"), float("nan"))
+            if good.sum() > 1:
+                se1, se_t = per[good].std(axis=0, ddof=1) / np.sqrt(good.sum())
+        outside = [f"{label} = {v:.3g}" for label, v in (("S1", s1), ("ST", st)) if np.isfinite(v) and not 0 <= v <= 1]
+        note = (f"{', '.join(outside)} outside [0, 1]: sampling error of a small base sample (N = {int(ok.sum())})"
+                if outside else "")
+        rows.append({"input": names[i], "S1": float(s1), "S1_se": float(se1), "ST": float(st), "ST_se": float(se_t),
+                     "rows": int(ok.sum()), "scrambles": m, "note": note})
     return pd.DataFrame(rows)
 
 

@@ -56,6 +56,7 @@ import pandas as pd
 
 from womlab.errors import ClusterError, ScenarioError, StoreError
 from womlab.networks import ReferralNetwork
+from womlab.networks.given import as_network
 from womlab.scenario import Axis, Scenario, field_type
 from womlab.scenario.sweep_spec import FIXED_FIELDS, is_path_field
 from womlab.store import STORE_FORMAT, ResultsStore, differences, file_sha256, runs_schema, versions

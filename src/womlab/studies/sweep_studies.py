@@ -22,7 +22,9 @@ Three are built in:
 ``programme``
     The ``[referral]`` programme against the same scenario without it, paired (as
     :func:`womlab.evaluate_programme`): every column of
-    :func:`womlab.studies.programme.programme_economics` per replicate; per point ROI,
+    :func:`womlab.studies.programme.programme_economics` per replicate, acceleration and
+    expansion measured on the pair continued past the horizon with the programme off
+    (:func:`womlab.studies.continuation.continue_paired`); per point ROI, whole-life ROI,
     cost per incremental customer and acceleration share as ratios of totals
     (:func:`womlab.studies.programme.programme_ratios`).
 ``seeding``
@@ -31,8 +33,8 @@ Three are built in:
     :func:`womlab.studies.seeding_study.run_outcomes` per strategy, in columns
     ``outcome[strategy]``; per point the lift of each strategy against random on
     ``study.outcome`` (:func:`womlab.studies.seeding_study.lift_statistics`: ratio of means
-    and mean difference with paired-bootstrap intervals, Wilcoxon p-value, paired and
-    unpaired half-widths).
+    and mean difference with studentised paired-bootstrap intervals, Wilcoxon p-value, paired
+    and unpaired half-widths).
 
 A new study registers itself with :func:`register_sweep_study` when its module is imported
 (``import womlab`` imports every study); its name is then valid in ``sweep.study``.
@@ -40,6 +42,7 @@ A new study registers itself with :func:`register_sweep_study` when its module i
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from functools import partial
@@ -53,6 +56,8 @@ from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork
 from womlab.scenario import Scenario
 from womlab.scenario.registry import register_sweep_study_name
+from womlab.studies.continuation import continue_paired
+from womlab.studies.intervals import FewReplicatesWarning
 from womlab.studies.metrics import curve_metrics, mean_interval
 from womlab.studies.programme import check_programme, programme_economics, programme_ratios
 from womlab.studies.runner import run_paired
@@ -167,7 +172,10 @@ def mean_statistics(table: pd.DataFrame, columns: list[str]) -> list[dict]:
     for name in columns:
         x = table[name].astype("float64").to_numpy(na_value=np.nan)
         x = x[np.isfinite(x)]
-        mean, low, high = mean_interval(x)
+        known = (0.0, 1.0) if name.endswith("share") else None  # a share's interval is cut at [0, 1]
+        with warnings.catch_warnings():  # a point with one run has no interval; `reached` says why
+            warnings.simplefilter("ignore", FewReplicatesWarning)
+            mean, low, high = mean_interval(x, bounds=known)
         rows.append({"outcome": name, "reached": int(x.size), "estimate": mean,
                      "sd": float(x.std(ddof=1)) if x.size > 1 else np.nan, "low": low, "high": high,
                      "interval": "t, mean over replicates"})
@@ -225,8 +233,11 @@ PROGRAMME_OUTCOMES = (
     Outcome("paid_referrals", "int", "paid referrals"),
     Outcome("roi", "float", "return on investment (ΔValue − Cost) / Cost"),
     Outcome("cost_per_incremental_customer", "float", "cost per incremental customer"),
-    Outcome("acceleration", "float", "value from customers adopting earlier"),
-    Outcome("expansion", "float", "value from customers adopting only with the programme"),
+    Outcome("acceleration", "float", "value from customers adopting earlier (whole life)"),
+    Outcome("expansion", "float", "value from customers adopting only with the programme (whole life)"),
+    Outcome("incremental_value_lifetime", "float", "incremental discounted value, whole life"),
+    Outcome("acceleration_at_horizon", "float", "value from earlier adoption, as it looks at the horizon"),
+    Outcome("expansion_at_horizon", "float", "value from adoption only with the programme, as at the horizon"),
     Outcome("accelerated", "int", "customers adopting earlier"),
     Outcome("delayed", "int", "customers adopting later"),
     Outcome("expanded", "int", "customers adopting only with the programme"),
@@ -240,8 +251,11 @@ def run_point_programme(scenario: Scenario, key: tuple[int, int], network: Refer
                         curves: bool) -> tuple[Row, Curve | None]:
     """The ``programme`` study at one key: the programme and its baseline, paired, and their economics."""
     baseline = scenario.replace("referral.enrol", "none")
-    runs = run_paired({"baseline": baseline, "programme": scenario}, 1, keys=[key], network=network)
-    economics = programme_economics(runs["baseline"][0], runs["programme"][0], scenario.referral)
+    cont = continue_paired({"baseline": baseline, "programme": scenario}, 1, keys=[key], network=network,
+                           lifetime=scenario.referral.lifetime)
+    runs = cont.at_horizon()
+    economics = programme_economics(runs["baseline"][0], runs["programme"][0], scenario.referral,
+                                    continued=(cont.runs["baseline"][0], cont.runs["programme"][0]))
     return {o.name: economics[o.name] for o in PROGRAMME_OUTCOMES}, None
 
 
@@ -295,18 +309,18 @@ def seeding_statistics(scenario: Scenario, table: pd.DataFrame, point: int) -> l
     base = table[f"{outcome}[random]"].to_numpy(dtype=float)
     r = base.size
     rows = []
-    index = None
-    if r > 1:
-        rng = np.random.default_rng(np.random.SeedSequence(scenario.seed, spawn_key=(*BOOTSTRAP_KEY, point)))
-        index = rng.integers(0, r, size=(study.bootstrap, r))
-    boot = f"paired bootstrap, {study.bootstrap} resamples of replicates"
+    # one seed per point: every strategy gets the same resamples of the replicates
+    seed = np.random.SeedSequence(scenario.seed, spawn_key=(*BOOTSTRAP_KEY, point))
+    boot = f"studentised paired bootstrap, {study.bootstrap} resamples of replicates"
     for s in study.compared[1:]:
         x = table[f"{outcome}[{s}]"].to_numpy(dtype=float)
-        if index is None:  # one replicate: the estimates, no interval
+        if r < 2:  # one replicate: the estimates, no interval
             lift = {"lift_ratio": float(x.mean() / base.mean()) if base.mean() > 0 else np.nan,
                     "lift_diff": float((x - base).mean())}
         else:
-            lift = lift_statistics(x, base, index=index)
+            with warnings.catch_warnings():  # below five replicates no interval; the table says so
+                warnings.simplefilter("ignore", FewReplicatesWarning)
+                lift = lift_statistics(x, base, rng=np.random.default_rng(seed), resamples=study.bootstrap)
         rows.append({"outcome": f"lift_ratio[{s}]", "estimate": lift["lift_ratio"], "low": lift.get("lift_ratio_low", np.nan),
                      "high": lift.get("lift_ratio_high", np.nan), "interval": f"ratio of means; {boot}"})
         rows.append({"outcome": f"lift_diff[{s}]", "estimate": lift["lift_diff"], "low": lift.get("lift_diff_low", np.nan),
