@@ -81,3 +81,29 @@ def test_mechanism_fields_in_use_do_not_warn():
     assert Scenario.from_dict(former).fields_without_effect() == []
     threshold = {"adoption": {"rule": "threshold", "word_of_mouth": 0.4}}
     assert Scenario.from_dict(threshold).fields_without_effect() == []
+
+
+def test_a_continued_run_cut_back_is_the_run_to_the_horizon():
+    # the engines draw up front, so a run to 30 periods cut back to 20 is the run to 20, churn and
+    # warnings included (the continuation that splits acceleration from expansion relies on it)
+    from womlab.studies.continuation import truncate
+
+    s = Scenario.from_dict(
+        {
+            "seed": 6,
+            "market": {"organisations": 600, "initial_customers": 6},
+            "network": {"kind": "random", "mean_degree": 6},
+            "adoption": {
+                "word_of_mouth": 0.5,
+                "satisfied_share": 0.7,
+                "churn": 0.1,
+                "warning": 0.4,
+                "former_warn": True,
+            },
+            "run": {"periods": 20},
+        }
+    )
+    short, cut = run_one(s, (0,)), truncate(run_one(s.replace("run.periods", 30), (0,)), 20)
+    for name in ("adoption_period", "referrer", "leave_period", "rejection_period", "warned_by"):
+        assert np.array_equal(getattr(short, name), getattr(cut, name)), name
+    assert np.array_equal(short.curve(), cut.curve())

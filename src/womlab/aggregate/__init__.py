@@ -12,7 +12,13 @@ the exact expected adoption on the two-organisation network, the ring and k-regu
 
 from __future__ import annotations
 
-from womlab.aggregate.churn import CHURN_CURVE_COLUMNS, bass_churn_difference, bass_churn_ode, expected_stay
+from womlab.aggregate.churn import (
+    CHURN_CURVE_COLUMNS,
+    bass_churn_difference,
+    bass_churn_ode,
+    expected_stay,
+    geometric_lifetime_value,
+)
 from womlab.aggregate.exact import regular_tree_share, ring_share, two_organisation_share
 from womlab.aggregate.fitting import (
     BassFit,
@@ -56,6 +62,7 @@ __all__ = [
     "bass_churn_difference",
     "churn_curves",
     "expected_stay",
+    "geometric_lifetime_value",
     "two_organisation_share",
     "ring_share",
     "regular_tree_share",

@@ -16,6 +16,7 @@ which a study's result asks :mod:`womlab.results` to draw or write it.
 
 from __future__ import annotations
 
+from womlab.studies.bad_news import value_of_bad_news
 from womlab.studies.calibration import (
     Fit,
     PosteriorDraws,
@@ -81,6 +82,7 @@ from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, r
 from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_study, sweep_studies, sweep_study
 
 __all__ = [
+    "value_of_bad_news",
     "plan",
     "programme_summary",
     "slow_steps",
