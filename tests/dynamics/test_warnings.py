@@ -207,3 +207,17 @@ def test_bad_warning_input_is_one_line_naming_the_field(fields, message):
     with pytest.raises(ScenarioError, match=message) as caught:
         Scenario.from_dict(fields)
     assert "\n" not in str(caught.value)
+
+
+def test_adoption_figure_draws_the_mechanisms_and_their_aggregate_counterparts():
+    from womlab import adoption_figure
+
+    s = scenario({"warning": 0.5, "churn": 0.1}, {"periods": 12})
+    fig = adoption_figure(run_replicates(s, 2))
+    top, bottom = fig.axes[:2]
+    labels = [line.get_label() for line in top.get_lines()]
+    assert "network, ever customers (mean)" in labels and "network, rejecters (mean)" in labels
+    assert any(label.startswith("Bass with churn and warnings, difference model") for label in labels)
+    assert not any(label.startswith("Bass ODE") for label in labels)  # plain Bass has neither mechanism
+    # new customers per period are adoptions: never negative, though the installed base can fall
+    assert min(line.get_ydata().min() for line in bottom.get_lines()) >= 0
