@@ -107,3 +107,30 @@ def test_a_continued_run_cut_back_is_the_run_to_the_horizon():
     for name in ("adoption_period", "referrer", "leave_period", "rejection_period", "warned_by"):
         assert np.array_equal(getattr(short, name), getattr(cut, name)), name
     assert np.array_equal(short.curve(), cut.curve())
+
+
+def test_seeding_study_counts_what_churn_and_warnings_cost():
+    # the customer-periods lost to churn are those from each departure to the horizon (an identity):
+    # staying customers' periods plus the lost ones are the periods every adopter would have counted
+    from womlab import compare_strategies
+    from womlab.studies.seeding_study import run_outcomes
+
+    s = Scenario.from_dict(
+        {
+            "seed": 9,
+            "market": {"organisations": 300, "initial_customers": 3},
+            "network": {"kind": "random", "mean_degree": 6},
+            "adoption": {"word_of_mouth": 0.6, "satisfied_share": 0.7, "churn": 0.1, "warning": 0.4},
+            "run": {"periods": 15},
+            "study": {"strategies": ["random", "hubs"], "replicates": 4},
+        }
+    )
+    r = run_one(s, (0,))
+    out = run_outcomes(r)
+    adopted = r.adoption_period[r.adoption_period >= 0]
+    every = float(np.sum(15 - np.maximum(adopted, 1) + 1))  # periods 1..T from adoption, had nobody left
+    assert out["customer_periods"] + out["customer_periods_lost_to_churn"] == every
+    assert out["former_customers"] == r.former_customers[-1] and out["rejecters"] == r.rejecters[-1]
+    table = compare_strategies(s).strategies_table()
+    for column in ("former_customers_mean", "customer_periods_lost_to_churn_mean", "rejecters_mean"):
+        assert (table[column] > 0).all()
