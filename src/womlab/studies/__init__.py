@@ -62,6 +62,7 @@ from womlab.studies.programme import (
     programme_ratios,
     roi,
     value_flow,
+    with_lifetime_value_from_churn,
 )
 from womlab.studies.referrals import (
     generation,
@@ -83,6 +84,7 @@ from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_stu
 
 __all__ = [
     "value_of_bad_news",
+    "with_lifetime_value_from_churn",
     "plan",
     "programme_summary",
     "slow_steps",

@@ -39,6 +39,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from womlab.aggregate import geometric_lifetime_value
 from womlab.dynamics import ENROLMENT_STREAM, PROGRAMME_ENGINES, RunResult, streams
 from womlab.errors import ScenarioError
 from womlab.networks import build_network
@@ -52,6 +53,7 @@ from womlab.studies.referrals import referral_tree_summary
 __all__ = [
     "customer_values",
     "losses",
+    "with_lifetime_value_from_churn",
     "value_flow",
     "roi",
     "programme_economics",
@@ -96,6 +98,34 @@ def value_flow(run: RunResult, referral: Referral) -> np.ndarray:
     if referral.lifetime_value is not None:
         return referral.lifetime_value * run.new_customers * d
     return _value_per_period(referral) * run.customers * d
+
+
+def with_lifetime_value_from_churn(scenario: Scenario) -> Scenario:
+    """``scenario`` with ``referral.lifetime_value`` derived from churn and the discount rate
+    instead of given: the geometric annuity v·(1 + r)/(1 + r − e^{−δ})
+    (:func:`womlab.aggregate.geometric_lifetime_value`; Gupta & Lehmann 2003), v the
+    ``value_per_period`` (default 1), r the ``discount_rate``, δ ``adoption.churn`` and the
+    run's own step.
+
+    One number for every customer, at the satisfied customers' churn rate: where dissatisfied
+    or referred customers churn at other rates, ``value_per_period`` with churn values each
+    customer only while it stays (:func:`customer_values`), which this leaves aside for a
+    whole-life figure.
+
+    Examples
+    --------
+    >>> s = Scenario.from_dict({"adoption": {"churn": 0.1},
+    ...                         "referral": {"value_per_period": 1.0, "discount_rate": 0.05}})
+    >>> t = with_lifetime_value_from_churn(s)
+    >>> round(t.referral.lifetime_value, 4), t.referral.value_per_period
+    (7.2333, None)
+    """
+    a, ref, run = scenario.adoption, scenario.referral, scenario.run
+    if not a.churns or a.churn == 0:
+        raise ScenarioError(f"adoption.churn must be > 0 to derive referral.lifetime_value from it, got {a.churn!r}")
+    value = geometric_lifetime_value(_value_per_period(ref), a.churn, ref.discount_rate, time_step=run.time_step,
+                                     form=run.step_probability)
+    return scenario.replace({"referral.value_per_period": None, "referral.lifetime_value": value})
 
 
 def losses(run: RunResult, referral: Referral, arm: str) -> dict[str, float]:
