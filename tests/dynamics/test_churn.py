@@ -227,3 +227,16 @@ def test_mesa_churn_draws_leave_every_other_draw_alone():
     c = r.curve()
     assert np.array_equal(c["customers"] + c["former_customers"], c["ever_customers"])
     assert r.former_customers[-1] > 0
+
+
+def test_sweep_run_study_times_adoptions_where_churn_is_on():
+    # with heavy churn the installed base never reaches half the market, yet half the market adopts
+    from womlab.studies.metrics import time_to_share
+    from womlab.studies.sweep_studies import run_point_run
+
+    s = scenario({"churn": 0.3, "word_of_mouth": 0.9}, {"periods": 30})
+    row, _ = run_point_run(s, (0, 0), None, False)
+    r = run_one(s.replace("adoption.churn", 0.3), (0, 0))
+    assert row["t50"] == time_to_share(r.ever_share, 0.5) and np.isfinite(row["t50"])
+    assert np.isnan(time_to_share(r.share, 0.5))
+    assert row["final_share"] == r.share[-1]

@@ -199,10 +199,11 @@ def run_point_run(scenario: Scenario, key: tuple[int, int], network: ReferralNet
                   curves: bool) -> tuple[Row, Curve | None]:
     """The ``run`` study at one key: one run, its adoption outcomes and (if asked) its curve."""
     result = run_paired({"run": scenario}, 1, keys=[key], network=network)["run"][0]
-    m = curve_metrics(result.share)
+    # with churn the installed base can fall: times and the peak are those of adoptions (ever customers)
+    m = curve_metrics(result.ever_share if result.churns else result.share)
     customers, new, satisfied = result.customers, result.new_customers, result.satisfied_customers
     row = {"customers": int(customers[-1]), "satisfied_customers": int(satisfied[-1]),
-           "final_share": m["final_share"], "t10": m["t10"], "t50": m["t50"], "t90": m["t90"],
+           "final_share": float(result.share[-1]), "t10": m["t10"], "t50": m["t50"], "t90": m["t90"],
            "peak_period": int(m["peak_period"]), "peak_new_share": m["peak_new_share"]}
     curve = None
     if curves:
