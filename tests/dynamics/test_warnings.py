@@ -221,3 +221,17 @@ def test_adoption_figure_draws_the_mechanisms_and_their_aggregate_counterparts()
     assert not any(label.startswith("Bass ODE") for label in labels)  # plain Bass has neither mechanism
     # new customers per period are adoptions: never negative, though the installed base can fall
     assert min(line.get_ydata().min() for line in bottom.get_lines()) >= 0
+
+
+def test_organisation_table_records_leaving_and_who_warned():
+    s = scenario({"warning": 0.5, "churn": 0.1}, {"periods": 15})
+    r = run_one(s, (2,))
+    table = r.to_frame()
+    assert list(table.columns)[-3:] == ["leave_period", "rejection_period", "warned_by"]
+    assert int(table["customer"].sum()) == r.customers[-1]  # customers now: those who have not left
+    rejected = table["rejection_period"].notna()
+    assert int(rejected.sum()) == r.rejecters[-1]
+    assert (table.loc[rejected, "warned_by"].to_numpy(dtype=int) == r.warned_by[rejected.to_numpy()]).all()
+    # without the mechanisms the table has its usual columns
+    plain = run_one(scenario(), (2,)).to_frame()
+    assert "leave_period" not in plain.columns and "warned_by" not in plain.columns

@@ -338,7 +338,10 @@ class RunResult:
             if never), ``adoption_time`` (NaN if never or not recorded), ``referrer`` (id
             of the satisfied customer whose word of mouth brought it in; missing for
             external influence, initial customers and non-customers), ``satisfied``, and
-            ``referrals`` (how many organisations it brought in).
+            ``referrals`` (how many organisations it brought in). With churn ``customer`` is
+            whether it is still one at the horizon, and ``leave_period`` follows (missing if it
+            did not leave); with warnings ``rejection_period`` and ``warned_by`` (the id of the
+            warner its rejection is attributed to) follow (missing if it did not reject).
 
         Raises
         ------
@@ -392,6 +395,22 @@ class RunResult:
             "satisfied": self.satisfied & adopted,
             "referrals": np.bincount(self.referrer[referred], minlength=n)[:n],
         })
+        if self.leave_period is not None:  # churn
+            left = self.leave_period >= 0
+            columns["customer"] = adopted & ~left
+            columns["leave_period"] = _with_missing(self.leave_period, left)
+        if self.rejection_period is not None:  # warnings
+            rejected = self.rejection_period >= 0
+            columns["rejection_period"] = _with_missing(self.rejection_period, rejected)
+            by = self.warned_by if self.warned_by is not None else np.full(n, -1)
+            warner_ids = ids[np.where(rejected, by, 0)]
+            if ids.dtype.kind in "iu":
+                warned_by: Any = pd.array(warner_ids, dtype="Int64")
+                warned_by[~rejected] = pd.NA
+            else:
+                warned_by = warner_ids.astype(object)
+                warned_by[~rejected] = None
+            columns["warned_by"] = warned_by
         return pd.DataFrame(columns)
 
     def region_curve(self) -> pd.DataFrame:
@@ -437,7 +456,7 @@ def to_networkx(result: RunResult, network: ReferralNetwork | None = None,
     records = table.to_dict("records")
     for row in records:
         data = {str(k): _plain(v) for k, v in row.items() if k != "id" and not _missing(v)}
-        if row["customer"] and not _missing(row["adoption_time"]):
+        if not _missing(row["adoption_period"]) and not _missing(row["adoption_time"]):  # a customer at some time
             data["start"] = float(row["adoption_time"])
         graph.add_node(_plain(row["id"]), **data)
     for row in records:
@@ -447,6 +466,12 @@ def to_networkx(result: RunResult, network: ReferralNetwork | None = None,
                 edge["start"] = float(row["adoption_time"])
             graph.add_edge(_plain(row["referrer"]), _plain(row["id"]), **edge)
     return graph
+
+
+def _with_missing(values: np.ndarray, present: np.ndarray) -> Any:
+    out = pd.array(np.where(present, values, 0), dtype="Int64")
+    out[~present] = pd.NA
+    return out
 
 
 def _missing(value: Any) -> bool:
