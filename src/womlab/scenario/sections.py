@@ -246,7 +246,10 @@ class Adoption:
     external : float
         External influence p (Bass coefficient of innovation), per period.
     word_of_mouth : float
-        Word-of-mouth influence q, per period (per talker for ``count`` and ``capped``).
+        Word-of-mouth influence q, per period (per talker for ``count`` and ``capped``); under
+        ``threshold`` the rate per period at which an organisation over its threshold adopts
+        (``inf``: in the step it crosses); under ``cascade`` the probability of each tie's one
+        chance, a period after the persuader adopted.
     satisfied_share : float
         Probability that a new customer is satisfied; only satisfied customers talk.
     talkers_per_customer : float or Talkers
