@@ -25,7 +25,9 @@ satisfied share ignored — moves the means by many standard errors.
 The covering set: every network kind, each rule (share, count, capped) on at least two
 kinds and threshold and cascade once each, both step forms, fixed and Poisson talkers, satisfied shares below 1, zero
 initial customers once (external influence alone starts it), time_step = 0.5 once,
-and a referral programme (womlab.dynamics.programme) with a budget once.
+and a referral programme (womlab.dynamics.programme) with a budget once; churn once and
+warnings (with churn, former customers and rejecters warning) once, each test stating its own
+comparisons beside the 205 above.
 """
 
 from __future__ import annotations
