@@ -47,6 +47,16 @@ draw. A customer that adopted in step a stays :func:`womlab.rules.churn_steps` =
 :func:`womlab.rules.hazard`): it talks up to and through step a + k, and is a *former
 customer* (:data:`FORMER`) at the end of that step; it never adopts again.
 
+Warnings (negative word of mouth; its own marked block, off unless ``adoption.warning`` is
+above 0). One Exp(1) rejection resistance and one uniform (who warned) per organisation
+from the warning stream (:data:`~womlab.dynamics.streams.WARNING_STREAM`). Warners
+(:func:`womlab.rules.warns`) fill a second exposure Wᵢ with :func:`womlab.rules.warn_weight`
+as talkers fill Tᵢ; a potential customer with Wᵢ > 0 adds
+:func:`womlab.rules.step_rejection_hazard` to a second accumulated hazard, and where both
+clocks ring in one step :func:`womlab.rules.rejects_first` decides. A rejecter
+(:data:`REJECTER`) leaves the potential list for good; its ``warned_by`` is a warning
+neighbour picked ∝ its weight in Wᵢ.
+
 Inputs kept general for what comes next. The external rate is given per period and group
 (``external[period, group]``, a campaign calendar; one column and a constant now), and the
 per-organisation multipliers of p and q (``external_weight``, ``wom_weight``: segments;
