@@ -82,3 +82,38 @@ def test_value_lost_to_bad_news_grows_with_the_dissatisfied_share():
         assert (table["rejecters"] > 0).all()
         means.append(table["value_lost_share"].mean())
     assert means[0] < means[1] < means[2]
+
+
+def test_lifetime_value_from_churn_in_a_scenario():
+    # referral.lifetime_value_from_churn derives the lifetime value the geometric annuity gives
+    # (Gupta & Lehmann 2003) before the programme is valued; bad input is one line naming the field
+    import pytest
+
+    from womlab import ScenarioError, evaluate_programme
+
+    data = {
+        "seed": 5,
+        "market": {"organisations": 300, "initial_customers": 3},
+        "network": {"kind": "random", "mean_degree": 6},
+        "adoption": {"word_of_mouth": 0.5, "churn": 0.1},
+        "run": {"periods": 10},
+        "referral": {
+            "enrol": "all",
+            "reward": 1.0,
+            "value_per_period": 2.0,
+            "discount_rate": 0.05,
+            "lifetime_value_from_churn": True,
+            "lifetime": 10,
+        },
+    }
+    study = evaluate_programme(Scenario.from_dict(data), 3)
+    assert study.scenario.referral.lifetime_value == pytest.approx(geometric_lifetime_value(2.0, 0.1, 0.05))
+    assert study.scenario.referral.value_per_period is None
+    with pytest.raises(
+        ScenarioError, match=r"referral.lifetime_value_from_churn must be false while adoption.churn = 0"
+    ):
+        Scenario.from_dict({**data, "adoption": {"word_of_mouth": 0.5}})
+    with pytest.raises(
+        ScenarioError, match=r"referral.lifetime_value_from_churn must be false when referral.lifetime_value"
+    ):
+        Scenario.from_dict({**data, "referral": {**data["referral"], "value_per_period": None, "lifetime_value": 9.0}})

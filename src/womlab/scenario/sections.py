@@ -651,6 +651,12 @@ class Referral:
     lifetime_value : float, optional
         Alternative to ``value_per_period``: a customer's whole value, counted at its
         adoption period.
+    lifetime_value_from_churn : bool
+        Derive ``lifetime_value`` instead of giving it: ``value_per_period`` (default 1) as the
+        geometric annuity of ``adoption.churn`` and ``discount_rate``,
+        v·(1 + r)/(1 + r − e^{−δ}) (:func:`womlab.aggregate.geometric_lifetime_value`; Gupta &
+        Lehmann 2003). Needs ``adoption.churn`` above 0; one number for every customer, at the
+        satisfied customers' rate.
     discount_rate : float
         Discount rate per period r: a value or payment in period t counts (1 + r)^−t.
     lifetime : int, optional
@@ -683,6 +689,7 @@ class Referral:
     discount_rate: float = 0.0
     lifetime: int | None = None
     referred_churn_multiplier: float | None = None
+    lifetime_value_from_churn: bool = False
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("referral.enrol", self.enrol, ENROLMENTS)
@@ -722,6 +729,14 @@ class Referral:
                 fail("referral.referred_churn_multiplier", self.referred_churn_multiplier,
                      "left out while no customer churns (adoption.churn and adoption.churn_dissatisfied are 0); "
                      "set a churn rate > 0")
+
+        if self.lifetime_value_from_churn:
+            if self.lifetime_value is not None:
+                fail("referral.lifetime_value_from_churn", True, "false when referral.lifetime_value is given (the "
+                     "lifetime value is either given or derived from churn)")
+            if scenario.adoption.churn <= 0:
+                fail("referral.lifetime_value_from_churn", True, "false while adoption.churn = 0 (a lifetime value "
+                     "derived from churn needs customers who leave); set adoption.churn > 0")
 
     @property
     def churn_multiplier(self) -> float:

@@ -25,7 +25,7 @@ from womlab.dynamics import RunResult
 from womlab.errors import ScenarioError
 from womlab.networks.given import GivenNetwork
 from womlab.scenario import Scenario
-from womlab.studies.programme import customer_values
+from womlab.studies.programme import customer_values, with_lifetime_value_from_churn
 from womlab.studies.runner import run_paired
 
 __all__ = ["value_of_bad_news", "silent"]
@@ -80,6 +80,8 @@ def value_of_bad_news(
     """
     if not scenario.adoption.warns:
         raise ScenarioError("adoption.warning must be > 0 for value_of_bad_news, got 0.0")
+    if scenario.referral.lifetime_value_from_churn:
+        scenario = with_lifetime_value_from_churn(scenario)
     quiet = silent(scenario)
     runs = run_paired({"warned": scenario, "silent": quiet}, replicates, jobs=jobs, network=network)
     rows = []

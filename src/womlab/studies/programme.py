@@ -110,7 +110,10 @@ def with_lifetime_value_from_churn(scenario: Scenario) -> Scenario:
     One number for every customer, at the satisfied customers' churn rate: where dissatisfied
     or referred customers churn at other rates, ``value_per_period`` with churn values each
     customer only while it stays (:func:`customer_values`), which this leaves aside for a
-    whole-life figure.
+    whole-life figure. ``referral.lifetime_value_from_churn = true`` asks for it in a scenario
+    file: :func:`evaluate_programme`, the sweep's ``programme`` study and
+    :func:`womlab.studies.bad_news.value_of_bad_news` apply it first (with parameters drawn
+    from a fit's posterior, at the scenario's own churn rate).
 
     Examples
     --------
@@ -125,7 +128,13 @@ def with_lifetime_value_from_churn(scenario: Scenario) -> Scenario:
         raise ScenarioError(f"adoption.churn must be > 0 to derive referral.lifetime_value from it, got {a.churn!r}")
     value = geometric_lifetime_value(_value_per_period(ref), a.churn, ref.discount_rate, time_step=run.time_step,
                                      form=run.step_probability)
-    return scenario.replace({"referral.value_per_period": None, "referral.lifetime_value": value})
+    return scenario.replace({"referral.value_per_period": None, "referral.lifetime_value": value,
+                             "referral.lifetime_value_from_churn": False})
+
+
+def _valued(scenario: Scenario) -> Scenario:
+    """``scenario`` with its lifetime value derived where ``referral.lifetime_value_from_churn`` asks."""
+    return with_lifetime_value_from_churn(scenario) if scenario.referral.lifetime_value_from_churn else scenario
 
 
 def losses(run: RunResult, referral: Referral, arm: str) -> dict[str, float]:
@@ -544,6 +553,7 @@ def evaluate_programme(
     if not isinstance(scenario, Scenario):  # a fit: parameters drawn from its posterior per replicate
         draws, scenario = scenario.posterior_draws(), scenario.scenario()
     check_programme(scenario)
+    scenario = _valued(scenario)
     replicates = scenario.run.replicates if replicates is None else replicates
     jobs = scenario.run.jobs if jobs is None else jobs
     if replicates < 1:

@@ -59,7 +59,12 @@ from womlab.scenario.registry import register_sweep_study_name
 from womlab.studies.continuation import continue_paired
 from womlab.studies.intervals import FewReplicatesWarning
 from womlab.studies.metrics import curve_metrics, mean_interval
-from womlab.studies.programme import check_programme, programme_economics, programme_ratios
+from womlab.studies.programme import (
+    check_programme,
+    programme_economics,
+    programme_ratios,
+    with_lifetime_value_from_churn,
+)
 from womlab.studies.runner import run_paired
 from womlab.studies.seeding_study import BOOTSTRAP_KEY, lift_statistics, run_outcomes
 from womlab.studies.seeding_study import OUTCOMES as SEEDING_OUTCOMES
@@ -251,6 +256,8 @@ PROGRAMME_BOOTSTRAP = 2000
 def run_point_programme(scenario: Scenario, key: tuple[int, int], network: ReferralNetwork | None,
                         curves: bool) -> tuple[Row, Curve | None]:
     """The ``programme`` study at one key: the programme and its baseline, paired, and their economics."""
+    if scenario.referral.lifetime_value_from_churn:
+        scenario = with_lifetime_value_from_churn(scenario)
     baseline = scenario.replace("referral.enrol", "none")
     cont = continue_paired({"baseline": baseline, "programme": scenario}, 1, keys=[key], network=network,
                            lifetime=scenario.referral.lifetime)
