@@ -64,7 +64,8 @@ def scenario(z: float, organisations: int, seed: int = 2002) -> womlab.Scenario:
             "adoption": {
                 "rule": "threshold",
                 "external": 0.0,
-                "word_of_mouth": 1.0,
+                # the synchronous threshold model of the source: adopt in the step of crossing
+                "word_of_mouth": float("inf"),
                 "satisfied_share": 1.0,
                 "talkers_per_customer": 1,
                 "threshold": {"distribution": "fixed", "mean": PHI},

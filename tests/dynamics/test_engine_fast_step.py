@@ -30,9 +30,9 @@ def plain_run(scenario, network, initial, rng):
     customer = np.zeros(n, dtype=bool)
     customer[initial] = True
     adopted_in[initial] = 0
-    fresh_until = np.full(n, -1, dtype=np.int64)  # cascade: last step of the period after adoption
-    fresh_until[initial] = spp
-    talk = rules.talk_weights(rule, tau, customer & sat, fresh_until >= 1)
+    attempt = np.full(n, -1, dtype=np.int64)  # cascade: the step of the one attempt, a period after adoption
+    attempt[initial] = spp
+    talk = rules.talk_weights(rule, tau, customer & sat, attempt == 1)
     hazard = np.zeros(n)
     programme = start_programme(scenario, network, rng)
     if network.complete:
@@ -42,18 +42,27 @@ def plain_run(scenario, network, initial, rng):
         all_talkers = matrix @ tau.astype(np.float64)
     for step in range(1, run.periods * spp + 1):
         if rule == "cascade":
-            talk = rules.talk_weights(rule, tau, customer & sat, fresh_until >= step)
+            talk = rules.talk_weights(rule, tau, customer & sat, attempt == step)
         period = (step + spp - 1) // spp
         counted = talk if programme is None else programme.talk(talk, customer & sat, period)
         counted = counted.astype(np.float64)
         talking = (counted.sum() - counted) if network.complete else matrix @ counted
         potential = ~customer
         rate = rules.adoption_rate(rule, talking, all_talkers, adoption, theta)
-        hazard += np.where(potential, rules.step_hazard(rate, dt, form), 0.0)
+        if rule == "cascade":  # the external hazard over the step plus the chances that fall in it
+            chances = rules.word_of_mouth_part(rule, talking, all_talkers, adoption.word_of_mouth)
+            external_hazard = rules.step_hazard(np.full(n, adoption.external), dt, form)
+            step_hazard = external_hazard + chances
+        else:
+            step_hazard = rules.step_hazard(rate, dt, form)
+        hazard += np.where(potential, step_hazard, 0.0)
         new = np.flatnonzero(potential & (hazard >= resistance))
         if new.size == 0:
             continue
         ext = rules.external_share(rule, talking[new], all_talkers[new], adoption, None if theta is None else theta[new])
+        if rule == "cascade":
+            total_hazard = step_hazard[new]
+            ext = np.where(total_hazard > 0, external_hazard[new] / np.where(total_hazard > 0, total_hazard, 1.0), 1.0)
         by_wom = u_cause[new] >= ext
         wom = new[by_wom]
         if wom.size:
@@ -63,7 +72,7 @@ def plain_run(scenario, network, initial, rng):
                 programme.settle(period, wom, referrer[wom])
         customer[new] = True
         adopted_in[new] = period
-        fresh_until[new] = step + spp
+        attempt[new] = step + spp
         talk[new] = np.where(sat[new], tau[new], np.float32(0))
     return adopted_in, referrer, customer & sat, programme
 

@@ -25,7 +25,9 @@ satisfied share ignored — moves the means by many standard errors.
 The covering set: every network kind, each rule (share, count, capped) on at least two
 kinds and threshold and cascade once each, both step forms, fixed and Poisson talkers, satisfied shares below 1, zero
 initial customers once (external influence alone starts it), time_step = 0.5 once,
-and a referral programme (womlab.dynamics.programme) with a budget once.
+and a referral programme (womlab.dynamics.programme) with a budget once; churn once and
+warnings (with churn, former customers and rejecters warning) once, each test stating its own
+comparisons beside the 205 above.
 """
 
 from __future__ import annotations
@@ -91,16 +93,17 @@ CASES = {
         {"periods": 14, "step_probability": "exponential", "time_step": 0.5},
         5,
     ),
-    # Granovetter (1978) thresholds, uniform on (0, 0.6]: a crossing is an infinite rate
+    # Granovetter (1978) thresholds, uniform on (0, 0.6]: once over its threshold an organisation
+    # adopts at rate word_of_mouth = 0.5 per period
     "threshold": (
         {"kind": "small_world", "mean_degree": 8, "rewiring": 0.2},
-        {"rule": "threshold", "external": 0.01, "satisfied_share": 0.9,
+        {"rule": "threshold", "external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.9,
          "threshold": {"distribution": "uniform", "low": 0.0, "high": 0.6}},
         {"periods": 12, "step_probability": "exponential"},
         5,
     ),
-    # Kempe, Kleinberg & Tardos (2003) independent cascade, one chance per tie over the
-    # period after a customer is satisfied; half-period steps test that "one period"
+    # Kempe, Kleinberg & Tardos (2003) independent cascade, one chance per tie in the step that
+    # ends one period after a customer adopted; half-period steps test that "one period"
     "cascade": (
         {"kind": "random", "mean_degree": 6},
         {"rule": "cascade", "external": 0.01, "word_of_mouth": 0.25, "satisfied_share": 0.8},
@@ -205,3 +208,44 @@ def test_engines_agree_with_a_referral_programme() -> None:
         for seed, engine in ((SEED_ARRAY + 200, "array"), (SEED_MESA + 200, "mesa"))
     )
     _check_agree(array, mesa)
+
+
+@pytest.mark.slow
+def test_engines_agree_with_churn() -> None:
+    # Churn (issue 16): satisfied customers leave at 0.08 per period, dissatisfied ones at 0.3, on
+    # half-period steps. The array engine draws one Exp(1) churn resistance per organisation, the Mesa
+    # model a fresh uniform per customer per step, both from the churn stream. Installed base and
+    # former customers by period (2 × 15 comparisons more, each at the file's |z| <= 4: a false-alarm
+    # chance below 0.2 % for this test, Bonferroni) and KS on the installed base as above.
+    network = {"kind": "small_world", "mean_degree": 6, "rewiring": 0.2}
+    adoption = {"rule": "share", "external": 0.02, "word_of_mouth": 0.6, "satisfied_share": 0.7,
+                "churn": 0.08, "churn_dissatisfied": 0.3}
+    run = {"periods": 14, "step_probability": "exponential", "time_step": 0.5}
+    array = _scenario(network, adoption, run, 5, SEED_ARRAY + 300, "array", organisations=300)
+    mesa = _scenario(network, adoption, run, 5, SEED_MESA + 300, "mesa", organisations=300)
+    _check_agree(array, mesa)
+    a_runs = run_replicates(array, R_ARRAY, jobs=2).runs
+    m_runs = run_replicates(mesa, R_MESA, jobs=2).runs
+    former = [np.vstack([r.former_customers for r in runs]).astype(float) for runs in (a_runs, m_runs)]
+    _within(*former, "former customers, by period,")
+    assert former[0][:, -1].mean() > 10  # churn did something to compare
+
+
+@pytest.mark.slow
+def test_engines_agree_with_warnings() -> None:
+    # Warnings (issue 16): dissatisfied customers (30 %), former customers and rejecters warn at
+    # strength 0.5 under the count rule, with churn. The array engine draws one Exp(1) rejection
+    # resistance per organisation, the Mesa model a fresh uniform per exposed organisation per step,
+    # both from the warning stream. Customers and rejecters by period (2 × 13 comparisons more, each at
+    # |z| <= 4: a false-alarm chance below 0.2 % for this test, Bonferroni) and KS as above.
+    network = {"kind": "random", "mean_degree": 6}
+    adoption = {"rule": "count", "external": 0.01, "word_of_mouth": 0.12, "satisfied_share": 0.7,
+                "warning": 0.5, "former_warn": True, "rejecters_warn": True, "churn": 0.1}
+    run = {"periods": 12, "step_probability": "exponential"}
+    array = _scenario(network, adoption, run, 5, SEED_ARRAY + 400, "array", organisations=300)
+    mesa = _scenario(network, adoption, run, 5, SEED_MESA + 400, "mesa", organisations=300)
+    _check_agree(array, mesa)
+    rejecters = [np.vstack([r.rejecters for r in run_replicates(s, reps, jobs=2).runs]).astype(float)
+                 for s, reps in ((array, R_ARRAY), (mesa, R_MESA))]
+    _within(*rejecters, "rejecters, by period,")
+    assert rejecters[0][:, -1].mean() > 10  # warnings did something to compare

@@ -99,16 +99,20 @@ def test_threshold_rule_crosses_iff_share_reaches_theta():
     a = Adoption(rule="threshold", external=0.0)
     talking, total = np.array([1.0, 1.0, 1.0]), np.array([2.0, 2.0, 2.0])
     theta = np.array([0.5 - 1e-9, 0.5, 0.5 + 1e-9])
-    assert np.isinf(word_of_mouth_part("threshold", talking, total, 0.3, theta)).tolist() == [True, True, False]
+    # word_of_mouth = inf: the instant crossing (the limit of an ever faster rate once over θ)
+    assert np.isinf(word_of_mouth_part("threshold", talking, total, np.inf, theta)).tolist() == [True, True, False]
+    # a finite word_of_mouth q is the rate per period once over the threshold
+    assert word_of_mouth_part("threshold", talking, total, 0.3, theta).tolist() == [0.3, 0.3, 0.0]
     assert adoption_rate("threshold", talking, total, a, theta)[2] == 0.0
 
 
 @pytest.mark.parametrize("theta,adopts", [(0.5, True), (0.5 + 1e-9, False)])
 def test_threshold_path_b_adopts_iff_theta_at_most_w(theta, adopts):
     # path a-b-c seeded at a, fixed thresholds: b's share is w = 1/2, so b adopts in period 1 iff
-    # theta <= 1/2; then c (share 1) follows in period 2 (Watts 2002 cascade on a path)
+    # theta <= 1/2; then c (share 1) follows in period 2 (Watts 2002 cascade on a path; the instant
+    # crossing, word_of_mouth = inf, each hop one step)
     network, _ = copies(nx.path_graph(3), 1)
-    s = scenario(3, "threshold", 0.3, threshold={"distribution": "fixed", "mean": theta})
+    s = scenario(3, "threshold", np.inf, threshold={"distribution": "fixed", "mean": theta})
     r = run_array(s, network, np.array([0], dtype=np.int32), np.random.default_rng(0))
     assert r.adoption_period.tolist() == ([0, 1, 2] if adopts else [0, -1, -1])
 
@@ -116,11 +120,12 @@ def test_threshold_path_b_adopts_iff_theta_at_most_w(theta, adopts):
 @pytest.mark.parametrize("leaves", [1, 3])
 def test_uniform_thresholds_give_adoption_probability_w(leaves):
     # b tied to a seed and to `leaves` others: w = 1 / (1 + leaves); with θ ~ U(0, 1],
-    # P(b adopts in period 1) = P(θ <= w) = w. 5000 copies; 3 binomial standard errors.
+    # P(b adopts in period 1) = P(θ <= w) = w under the instant crossing (word_of_mouth = inf).
+    # 5000 copies; 3 binomial standard errors.
     k = 5000
     g = nx.star_graph(leaves + 1)  # centre 0 = b, leaf 1 = a (seed), the rest potential customers
     network, m = copies(g, k)
-    s = scenario(network.n, "threshold", 0.3, periods=1)
+    s = scenario(network.n, "threshold", np.inf, periods=1)
     seeds = np.arange(k, dtype=np.int32) * m + 1
     r = run_array(s, network, seeds, np.random.default_rng(77))
     b = r.adoption_period.reshape(k, m)[:, 0] == 1

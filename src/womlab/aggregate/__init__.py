@@ -4,6 +4,7 @@ Knows the rules and the scenario (below); nothing of networks, seeding, engines 
 ``models`` holds the Bass model (closed form, ODE, difference form), the capped Bass
 difference model (formerly "stock-and-flow") and the micro-to-macro mapping; ``mean_field`` the degree-based
 mean-field model (fed a degree sequence, never a network object it must import);
+``churn`` Bass with churn and warnings (ODE and difference form);
 ``fitting`` the least-squares fits of these curves to network runs or sales data; ``exact``
 the exact expected adoption on the two-organisation network, the ring and k-regular trees
 (continuous and in the array engine's own step).
@@ -11,6 +12,13 @@ the exact expected adoption on the two-organisation network, the ring and k-regu
 
 from __future__ import annotations
 
+from womlab.aggregate.churn import (
+    CHURN_CURVE_COLUMNS,
+    bass_churn_difference,
+    bass_churn_ode,
+    expected_stay,
+    geometric_lifetime_value,
+)
 from womlab.aggregate.exact import regular_tree_share, ring_share, two_organisation_share
 from womlab.aggregate.fitting import (
     BassFit,
@@ -44,6 +52,7 @@ from womlab.aggregate.models import (
     bass_peak_time,
     bass_share,
     capped_bass_difference,
+    churn_curves,
     mapped_parameters,
     stock_and_flow,
 )
@@ -60,6 +69,12 @@ __all__ = [
     "stock_and_flow",
     "aggregate_curve",
     "bass_peak_time",
+    "CHURN_CURVE_COLUMNS",
+    "bass_churn_ode",
+    "bass_churn_difference",
+    "churn_curves",
+    "expected_stay",
+    "geometric_lifetime_value",
     "two_organisation_share",
     "ring_share",
     "regular_tree_share",

@@ -13,6 +13,8 @@
   between them; Sterman 2000, ch. 9, from memory); womlab names it by what it computes.
   Its former name :func:`stock_and_flow` still works.
 * :func:`mapped_parameters`, the micro-to-macro mapping from a scenario.
+* :func:`churn_curves`: with churn, Bass with churn (:mod:`womlab.aggregate.churn`) mapped
+  from the scenario.
 
 The degree-based mean-field model is in :mod:`womlab.aggregate.mean_field`.
 
@@ -31,9 +33,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 from scipy.integrate import solve_ivp
 
 from womlab.aggregate.markets import group_curves
+from womlab.aggregate.churn import CHURN_CURVE_COLUMNS, bass_churn_difference, bass_churn_ode
 from womlab.errors import WomlabError
 from womlab.rules import step_probability
 from womlab.scenario import Scenario
@@ -49,6 +53,7 @@ __all__ = [
     "capped_bass_difference",
     "stock_and_flow",
     "aggregate_curve",
+    "churn_curves",
     "bass_peak_time",
     "AGGREGATE_LABELS",
 ]
@@ -61,6 +66,8 @@ AGGREGATE_LABELS = {
     "degree_mean_field": "degree mean-field model",
     "bass_fitted": "Bass fitted to the network",
     "segment_model": "segment model (segments, calendar, openings), mapped",
+    "bass_churn_mapped": "Bass with churn/warnings ODE, mapped",
+    "bass_churn_difference": "Bass with churn/warnings difference model, mapped",
 }
 
 
@@ -316,9 +323,18 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
     the continuous clock (``run.clock = "continuous"``) the Bass closed form itself;
     ``capped``: the capped Bass difference model with the mapped slope and cap. With ``[segments]``,
     a ``[[campaign]]`` calendar or ``market.opens``: the segment model of
-    :mod:`womlab.aggregate.markets` (share and count; NaN for other rules).
+    :mod:`womlab.aggregate.markets` (share and count; NaN for other rules). With churn
+    (``adoption.churn`` or ``churn_dissatisfied`` above 0) or warnings (``adoption.warning``
+    above 0) the installed base of Bass with churn and warnings (:func:`churn_curves`; NaN
+    for ``capped``, and with churn or warnings in a market with segments, a calendar or
+    openings, which no aggregate model here has together).
     """
     a, run = scenario.adoption, scenario.run
+    changing = scenario.segments.active or scenario.campaign.active or bool(openings(scenario.market))
+    if (a.churns or a.warns) and changing:  # no aggregate model has both yet
+        return np.full(run.periods + 1, np.nan)
+    if a.churns or a.warns:
+        return churn_curves(scenario, continuous=run.clock == "continuous")["customers"].to_numpy()
     if scenario.segments.active or scenario.campaign.active or openings(scenario.market):  # the segment model
         if a.rule not in ("share", "count"):
             return np.full(run.periods + 1, np.nan)
@@ -345,3 +361,40 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
         return customers / n
     return bass_difference(run.periods, par.p, par.Q, par.initial_share, time_step=run.time_step, form=run.step_probability)
 
+
+def churn_curves(scenario: Scenario, *, continuous: bool = False) -> pd.DataFrame:
+    """The aggregate counterpart of a scenario with churn or warnings, mapped as
+    :func:`mapped_parameters` maps it: Q_s = Q/s, the word of mouth per satisfied-customer
+    share (q·N/(N − 1) under ``share``, q·τ̄·k̄·N/(N − 1) under ``count``), and Q⁻ the same with
+    ``warning`` for q.
+
+    The difference form on the run's own step and step form, or with ``continuous`` the
+    ODE on the period grid. Rules without a Bass counterpart (``threshold``, ``cascade``)
+    and ``capped`` give NaN curves.
+
+    Examples
+    --------
+    >>> from womlab import Scenario
+    >>> s = Scenario.from_dict({"adoption": {"churn": 0.05}, "run": {"periods": 12}})
+    >>> c = churn_curves(s)
+    >>> bool((c["ever_customers"] >= c["customers"]).all()), len(c)
+    (True, 13)
+    """
+    a, run = scenario.adoption, scenario.run
+    par = mapped_parameters(scenario)
+    t = np.arange(run.periods + 1)
+    if a.rule not in ("share", "count"):
+        return pd.DataFrame({"period": t, **{c: np.full(t.size, np.nan) for c in CHURN_CURVE_COLUMNS[1:]}})
+    s = a.satisfied_share
+    n = scenario.market.organisations
+    others = n / (n - 1) if n > 1 else 1.0  # as in mapped_parameters: neighbours are among the N − 1 others
+    # Q_s = q·unit (Q/s of the mapping), Q⁻ = warning·unit
+    unit = others * (1.0 if a.rule == "share" else par.mean_talkers * par.mean_degree)
+    q_satisfied = a.word_of_mouth * unit
+    common = {"satisfied_share": s, "churn": a.churn, "churn_dissatisfied": a.dissatisfied_churn,
+              "initial_share": par.initial_share, "warning_rate": a.warning * unit, "former_warn": a.former_warn,
+              "rejecters_warn": a.rejecters_warn}
+    if continuous:
+        return bass_churn_ode(t.astype(float), par.p, q_satisfied, **common)
+    return bass_churn_difference(run.periods, par.p, q_satisfied, time_step=run.time_step, form=run.step_probability,
+                                 **common)

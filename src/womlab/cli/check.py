@@ -69,6 +69,16 @@ def cmd_check(args: argparse.Namespace) -> int:
     ]
     if par.cap is not None:
         rows.insert(-3, ("ceiling on the adoption rate (cap)", f"{par.cap:.4g}"))
+    if a.churns:  # customers who leave: the rates and the mean stay they give (womlab.expected_stay)
+        from womlab.aggregate import expected_stay
+
+        stays = [expected_stay(d, run.time_step, run.step_probability) for d in (a.churn, a.dissatisfied_churn)]
+        rows.insert(-3, ("churn per period (satisfied, dissatisfied)", f"{a.churn:.4g}, {a.dissatisfied_churn:.4g}"))
+        rows.insert(-3, ("mean stay in periods (satisfied, dissatisfied)", ", ".join(f"{v:.4g}" for v in stays)))
+    if a.warns:
+        who = ", ".join(["dissatisfied customers", *(["former customers"] if a.former_warn else []),
+                         *(["rejecters"] if a.rejecters_warn else [])])
+        rows.insert(-3, ("warning strength; who warns", f"{a.warning:.4g}; {who}"))
     rows[-3:-3] = market_lines(scenario)  # segments, campaigns, openings, product generations
     width = max(len(k) for k, _ in rows)
     print(f"{args.config}: valid")

@@ -25,7 +25,14 @@ from womlab.dynamics.programme import (
     enrolment_rng,
     start_programme,
 )
-from womlab.dynamics.run_result import CURVE_COLUMNS, ORGANISATION_COLUMNS, RunResult, to_networkx
+from womlab.dynamics.run_result import (
+    CHURN_COLUMNS,
+    CURVE_COLUMNS,
+    ORGANISATION_COLUMNS,
+    WARNING_COLUMNS,
+    RunResult,
+    to_networkx,
+)
 from womlab.dynamics.streams import Streams, streams
 from womlab.seeding import register_simulator
 
@@ -39,6 +46,8 @@ __all__ = [
     "run_events",
     "RunResult",
     "CURVE_COLUMNS",
+    "CHURN_COLUMNS",
+    "WARNING_COLUMNS",
     "ORGANISATION_COLUMNS",
     "to_networkx",
     "Streams",

@@ -14,9 +14,10 @@ Organisation i adopts at the first step at which its summed step hazard
 (:func:`womlab.rules.hazard`) reaches Eᵢ — the same per-step probabilities as drawing a
 fresh uniform every step, but with a single draw per organisation, so that two variants
 compared on the same streams see the same resistances (common random numbers) whatever
-the state. The ``threshold`` rule's crossing is an infinite hazard, the ``cascade``
-rule's one chance per tie a hazard of −ln(1 − q) per newly satisfied neighbour over the
-period after it became satisfied (both in :mod:`womlab.rules`).
+the state. The ``threshold`` rule's crossing is a rate ``word_of_mouth`` once over the
+threshold (an infinite hazard for ``inf``), the ``cascade`` rule's one chance per tie a
+hazard of −ln(1 − q) per satisfied neighbour in the step that ends one period after that
+neighbour adopted (:func:`womlab.rules.step_adoption_hazard`; both in :mod:`womlab.rules`).
 
 One step of the kernel:
 
@@ -27,13 +28,34 @@ One step of the kernel:
    Only the customers whose weight can have changed are looked at: the last step's
    adopters, or every customer where weights vary after adoption (``cascade``, a programme).
 2. *Hazards.* Every potential customer (a compact list, ascending ids) adds this step's
-   hazard of :func:`womlab.rules.rate` at (Tᵢ, Dᵢ, θᵢ, pᵢ, qᵢ) to its accumulated hazard
+   hazard (:func:`womlab.rules.step_adoption_hazard`: :func:`womlab.rules.hazard` of
+   :func:`womlab.rules.rate` at (Tᵢ, Dᵢ, θᵢ, pᵢ, qᵢ) but under ``cascade``) to its accumulated hazard
    — exactly the arithmetic of the plain loop — and adopts if it reaches Eᵢ.
-3. *Attribution.* External with probability :func:`womlab.rules.external_part`, else a
+3. *Attribution.* External with probability :func:`womlab.rules.step_external_part`, else a
    referrer picked among the neighbours with probability ∝ their weight this step
    (:func:`pick_referrers`); a programme pays for the step's referrals
    (:func:`womlab.dynamics.programme.settle_step`, in adopter-id order).
 4. *Apply.* Adopters become customers (state code, adoption step).
+
+Churn (customers who leave; its own marked block of the kernel, off unless ``adoption.churn``
+or ``adoption.churn_dissatisfied`` is above 0). Each organisation draws one Exp(1) churn
+resistance from the churn stream (:func:`womlab.dynamics.streams.mechanism_rng` with
+:data:`~womlab.dynamics.streams.CHURN_STREAM`), never from the dynamics stream, so that a run
+with churn = 0 is bit for bit the run it always was and churn on or off keeps every other
+draw. A customer that adopted in step a stays :func:`womlab.rules.churn_steps` = k steps
+(geometric, from its churn rate :func:`womlab.rules.churn_rate` turned into a step hazard by
+:func:`womlab.rules.hazard`): it talks up to and through step a + k, and is a *former
+customer* (:data:`FORMER`) at the end of that step; it never adopts again.
+
+Warnings (negative word of mouth; its own marked block, off unless ``adoption.warning`` is
+above 0). One Exp(1) rejection resistance and one uniform (who warned) per organisation
+from the warning stream (:data:`~womlab.dynamics.streams.WARNING_STREAM`). Warners
+(:func:`womlab.rules.warns`) fill a second exposure Wᵢ with :func:`womlab.rules.warn_weight`
+as talkers fill Tᵢ; a potential customer with Wᵢ > 0 adds
+:func:`womlab.rules.step_rejection_hazard` to a second accumulated hazard, and where both
+clocks ring in one step :func:`womlab.rules.rejects_first` decides. A rejecter
+(:data:`REJECTER`) leaves the potential list for good; its ``warned_by`` is a warning
+neighbour picked ∝ its weight in Wᵢ.
 
 Inputs kept general for what comes next. The external rate is given per period and group
 (``external[period, group]``, a campaign calendar; one column and a constant now), and the
@@ -53,18 +75,36 @@ from womlab.dynamics.products import run_products
 from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
 from womlab.dynamics.references import with_references
 from womlab.dynamics.run_result import RunResult
+from womlab.dynamics.streams import CHURN_STREAM, WARNING_STREAM, mechanism_rng
 from womlab.networks import ReferralNetwork
-from womlab.rules import compiled, external_part, hazard, rate, talk_weight
+from womlab.rules import (
+    churn_rate,
+    churn_steps,
+    compiled,
+    hazard,
+    rate,
+    rejects_first,
+    step_adoption_hazard,
+    step_external_part,
+    step_rejection_hazard,
+    talk_weight,
+    warn_weight,
+    warns,
+)
 from womlab.scenario import Scenario
 
-__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER", "CLOSED"]
+__all__ = ["run_array", "pick_referrers", "POTENTIAL", "CUSTOMER", "FORMER", "REJECTER", "CLOSED"]
 
 #: State code of an organisation that is not (yet) a customer.
 POTENTIAL = 0
 #: State code of a customer.
 CUSTOMER = 1
+#: State code of a former customer (one who left: churn).
+FORMER = 2
+#: State code of a rejecter (warned off the product: negative word of mouth); never adopts.
+REJECTER = 3
 #: State code of an organisation whose part of the market has not opened yet (``market.opens``).
-CLOSED = 2
+CLOSED = 4
 
 
 @compiled
@@ -145,9 +185,11 @@ def pick_referrers(network: ReferralNetwork, adopters: np.ndarray, talk: np.ndar
 @compiled
 def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, group, external_weight, wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
             q, cap, tau, satisfied, resistance, u_cause, theta, state, adoption_step, referrer, initial, varying,
-            ledger, opens_at):
+            ledger, opens_at, churn, churn_dissatisfied, referred_churn, churn_resistance, leave_step,
+            warning, former_warn, rejecters_warn, reject_resistance, u_warn, rejection_step, warned_by):
     """The whole run, step by step (see the module notes); updates ``state``, ``adoption_step``,
-    ``referrer`` and the programme's ``ledger`` in place."""
+    ``referrer``, ``leave_step`` (churn), ``rejection_step`` and ``warned_by`` (warnings) and the
+    programme's ``ledger`` in place."""
     n = tau.size
     enrolled = ledger[0]
     start, end, multiplier, extra, exhausted = ledger[1], ledger[2], ledger[7], ledger[8], ledger[10]
@@ -192,6 +234,31 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
     checked = 0  # customers[checked:] have not had their weight applied yet
 
     opening = opens_at.size > 0
+    # ---- churn: set up (nothing happens without a churn resistance per organisation)
+    churning = churn_resistance.size > 0
+    if churning:
+        varying = True  # a customer who leaves stops talking: its weight changes after adoption
+        for i in initial:
+            leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, 1.0, churn_resistance[i], dt, form, 0)
+    # ---- end churn
+
+    # ---- warnings: set up (nothing happens without a rejection resistance per organisation)
+    warning_on = reject_resistance.size > 0
+    nw = n if warning_on else 0
+    wexposure = np.zeros(0 if complete else nw)  # Wᵢ
+    wmarket = 0.0  # complete network: Wᵢ of every potential customer
+    wapplied = np.zeros(nw, dtype=np.float32)  # what each organisation's weight in Wᵢ is now
+    raccumulated = np.zeros(nw)  # summed rejection step hazard
+    warn_since = np.full(nw, -1, dtype=np.int64)  # the step it began to warn
+    rejecters = np.empty(nw, dtype=np.int32)
+    nrej = 0
+    rejecting = np.empty(nw, dtype=np.int32)
+    wcumulative = np.empty(nw if complete else 0)
+    if warning_on:
+        for i in initial:
+            if not satisfied[i]:
+                warn_since[i] = 0
+    # ---- end warnings
 
     for step in range(1, steps + 1):
         period = (step + spp - 1) // spp
@@ -216,7 +283,7 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
         for c in range(0 if varying else checked, ncust):
             i = customers[c]
             talking = satisfied[i] and state[i] == CUSTOMER
-            w = talk_weight(rule, tau[i], talking, adoption_step[i] + spp >= step)
+            w = talk_weight(rule, tau[i], talking, adoption_step[i] + spp == step)  # cascade: its one attempt
             if boosting and talking and enrolled[i]:
                 w = boosted(w, multiplier, extra)
             if w != applied[i]:
@@ -229,6 +296,20 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
                         exposure[indices[k]] += diff
         checked = ncust
 
+        # ---- warnings: each warner's weight in its neighbours' Wᵢ (dissatisfied customers; former
+        # customers and rejecters where they warn)
+        if warning_on:
+            for c in range(ncust + nrej):
+                i = customers[c] if c < ncust else rejecters[c - ncust]
+                st = state[i]
+                warner = warns(st == CUSTOMER, satisfied[i], st == FORMER, st == REJECTER, former_warn, rejecters_warn)
+                w = warn_weight(rule, tau[i], warner, warn_since[i] + spp == step)
+                if w != wapplied[i]:
+                    wmarket += _apply(indptr, indices, complete, wexposure, i, np.float64(w) - np.float64(wapplied[i]))
+                    wapplied[i] = w
+        nrj = 0
+        # ---- end warnings
+
         # 2. hazards of the potential customers; adopters leave the list, which stays ascending
         nad = 0
         keep = 0
@@ -240,21 +321,62 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
             i = potential[c]
             t = market if complete else exposure[i]
             if t == 0.0 and same_p:
-                accumulated[i] += h0
+                ha = h0
             else:
                 p = external[period, 0 if uniform_groups else group[i]]
                 if p_weights:
                     p *= external_weight[i]
                 qi = q * wom_weight[i] if q_weights else q
-                r = rate(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap)
-                accumulated[i] += hazard(r, dt, form)
-            if accumulated[i] >= resistance[i]:
+                ha = step_adoption_hazard(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, cap, dt, form)
+            accumulated[i] += ha
+            adopts = accumulated[i] >= resistance[i]
+            if warning_on:  # ---- warnings: the rejection clock, competing with adoption
+                wt = wmarket if complete else wexposure[i]
+                if wt != 0.0:
+                    hr = step_rejection_hazard(rule, wt, total[i], theta[i] if thresholds else 0.0, warning, dt, form)
+                    raccumulated[i] += hr
+                    if raccumulated[i] >= reject_resistance[i]:
+                        if not adopts or rejects_first(resistance[i] - (accumulated[i] - ha), ha,
+                                                       reject_resistance[i] - (raccumulated[i] - hr), hr):
+                            rejecting[nrj] = i
+                            nrj += 1
+                            continue
+            if adopts:
                 adopters[nad] = i
                 nad += 1
             else:
                 potential[keep] = i
                 keep += 1
         npot = keep
+
+        # ---- churn: customers whose stay ends in this step are former customers at its end
+        if churning:
+            for c in range(ncust):
+                i = customers[c]
+                if state[i] == CUSTOMER and leave_step[i] == step:
+                    state[i] = FORMER
+                    if warning_on and former_warn and warn_since[i] < 0:  # ---- warnings: it begins to warn
+                        warn_since[i] = step
+        # ---- end churn
+
+        # ---- warnings: rejections, each attributed to a warning neighbour ∝ its weight this step
+        if warning_on and nrj > 0:
+            if complete:
+                _cumulative(wapplied, wcumulative)
+            for a in range(nrj):
+                i = rejecting[a]
+                state[i] = REJECTER
+                rejection_step[i] = step
+                if complete:
+                    warned_by[i] = _pick_any(wcumulative, u_warn[i])
+                else:
+                    warned_by[i] = _pick(indptr, indices, wapplied, i, u_warn[i])
+                rejecters[nrej] = i
+                nrej += 1
+                if rejecters_warn:
+                    warn_since[i] = step
+        # ---- end warnings
+
         if nad == 0:
             continue
 
@@ -268,7 +390,7 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
                 p *= external_weight[i]
             qi = q * wom_weight[i] if q_weights else q
             t = market if complete else exposure[i]
-            ext = external_part(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi)
+            ext = step_external_part(rule, t, total[i], theta[i] if thresholds else 0.0, p, qi, dt, form)
             u = u_cause[i]
             if u < ext:
                 continue
@@ -294,6 +416,30 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
             adoption_step[i] = step
             customers[ncust] = i
             ncust += 1
+            if churning:  # ---- churn: how long it stays
+                # a paid referral of a programme churns at referred_churn_multiplier times the rate
+                m = referred_churn if programme and ledger[14][i] else 1.0
+                leave_step[i] = _stay(satisfied[i], churn, churn_dissatisfied, m, churn_resistance[i], dt, form, step)
+            if warning_on and not satisfied[i]:  # ---- warnings: a dissatisfied customer warns from now
+                warn_since[i] = step
+
+
+@compiled
+def _apply(indptr, indices, complete, exposure, i, diff):  # noqa: ANN001, ANN202
+    """Add ``diff`` along organisation i's row of ``exposure``; on the complete network return it
+    (for the market total) instead."""
+    if complete:
+        return diff
+    for k in range(indptr[i], indptr[i + 1]):
+        exposure[indices[k]] += diff
+    return 0.0
+
+
+@compiled
+def _stay(satisfied, churn, churn_dissatisfied, multiplier, resistance, dt, form, step):  # noqa: ANN001, ANN202
+    """Churn: the step in which a customer that adopted in ``step`` leaves (−1: never)."""
+    k = churn_steps(resistance, hazard(churn_rate(satisfied, churn, churn_dissatisfied, multiplier), dt, form))
+    return -1 if k < 0 else step + k
 
 
 def run_array(
@@ -365,6 +511,18 @@ def run_array(
     u_cause = rng.random(n)
     theta = rules.draw_thresholds(adoption.threshold, n, rng) if rule == "threshold" else np.zeros(0)
     programme = start_programme(scenario, network, rng)  # None without a programme; draws nothing from rng
+    # churn: one Exp(1) per organisation from its own stream (nothing drawn from rng)
+    churn_resistance = mechanism_rng(rng, CHURN_STREAM).standard_exponential(n) if adoption.churns else np.zeros(0)
+    leave_step = np.full(n if adoption.churns else 0, -1, dtype=np.int64)
+    # warnings: one Exp(1) rejection resistance and one uniform (who warned) per organisation, own stream
+    nw = n if adoption.warns else 0
+    reject_resistance, u_warn = np.zeros(0), np.zeros(0)
+    if nw:
+        warn_rng = mechanism_rng(rng, WARNING_STREAM)
+        reject_resistance = warn_rng.standard_exponential(nw)
+        u_warn = warn_rng.random(nw)
+    rejection_step = np.full(nw, -1, dtype=np.int32)
+    warned_by = np.full(nw, -1, dtype=np.int32)
 
     initial = np.ascontiguousarray(initial, dtype=np.int32)
     state = np.full(n, POTENTIAL, dtype=np.int8)
@@ -392,6 +550,10 @@ def run_array(
         rule == "cascade" or programme is not None,
         idle_ledger() if programme is None else programme.ledger,
         opens_at,
+        float(adoption.churn), float(adoption.dissatisfied_churn), float(scenario.referral.churn_multiplier),
+        churn_resistance, leave_step,
+        float(adoption.warning), bool(adoption.former_warn), bool(adoption.rejecters_warn), reject_resistance, u_warn,
+        rejection_step, warned_by,
     )
 
     adopted = adoption_step >= 0
@@ -411,6 +573,13 @@ def run_array(
         segment_names=market.segment_names,
         value=market.value,
         opens_at=market.opens_at,
+        leave_period=_leave_period(leave_step, run.periods, spp) if adoption.churns else None,
+        leave_time=np.where((leave_step >= 0) & (leave_step <= run.periods * spp), leave_step / spp, np.nan)
+        if adoption.churns else None,
+        rejection_period=np.where(rejection_step >= 0, (rejection_step + spp - 1) // spp, -1).astype(np.int32)
+        if nw else None,
+        warned_by=warned_by if nw else None,
+        rejection_time=np.where(rejection_step >= 0, rejection_step / spp, np.nan) if nw else None,
     )
 
 
@@ -420,6 +589,12 @@ def _with_references(extra: dict, references: tuple[np.ndarray, ...]) -> dict:
     if references:
         extra["references"] = references
     return extra
+
+
+def _leave_period(leave_step: np.ndarray, periods: int, spp: int) -> np.ndarray:
+    """Churn: the period in which each customer left, −1 if it did not by the horizon."""
+    left = (leave_step >= 0) & (leave_step <= periods * spp)
+    return np.where(left, (leave_step + spp - 1) // spp, -1).astype(np.int32)
 
 
 def _external_table(p: float, periods: int, given: np.ndarray | None) -> np.ndarray:

@@ -67,6 +67,7 @@ import dataclasses
 import difflib
 import inspect
 import itertools
+import math
 import multiprocessing
 import re
 from collections.abc import Mapping, Sequence
@@ -102,7 +103,7 @@ from womlab.dynamics.markets import market_inputs  # noqa: E402
 from womlab.dynamics.programme import start_programme  # noqa: E402
 from womlab.dynamics.references import with_references  # noqa: E402
 from womlab.dynamics.run_result import RunResult  # noqa: E402
-from womlab.dynamics.streams import streams  # noqa: E402
+from womlab.dynamics.streams import CHURN_STREAM, WARNING_STREAM, mechanism_rng, streams  # noqa: E402
 from womlab.errors import ScenarioError  # noqa: E402
 from womlab.networks import ReferralNetwork, build_network  # noqa: E402
 from womlab.networks.given import GivenNetwork, as_network  # noqa: E402
@@ -221,11 +222,20 @@ class Organisation(FixedAgent):
         :func:`womlab.rules.draw_thresholds`.
     talk : float
         What it puts into its neighbours' Tᵢ now (:func:`womlab.rules.talk_weight`):
-        ``talkers`` if a satisfied customer, else 0; under ``cascade`` 1 during the
-        period after it became a satisfied customer, else 0.
+        ``talkers`` if a satisfied customer, else 0; under ``cascade`` 1 in the step that
+        ends one period after it became a satisfied customer (its one attempt), else 0.
     counted : float
         The talkers that count this step: ``talk``, boosted while a referral programme
         in which it is enrolled runs.
+    former : bool
+        Whether it was a customer and left (churn); it then neither talks nor adopts again.
+    leave_step : int
+        Churn: the step in which it left, −1 if it has not.
+    rejecter : bool
+        Warnings: whether it was warned off the product; it never adopts.
+    warn : float
+        Warnings: what it puts into its neighbours' warning exposure Wᵢ now
+        (:func:`womlab.rules.warn_weight`).
     adoption_period : int
         Period in which it became a customer (0 for initial customers), −1 if not yet.
     adoption_step : int
@@ -269,8 +279,16 @@ class Organisation(FixedAgent):
         self.threshold = (
             float(rules.draw_thresholds(adoption.threshold, 1, model.rng)[0]) if adoption.rule == "threshold" else None
         )
-        self.fresh_until = -1  # under cascade: the last step in which it counts as newly satisfied
+        self.fresh_until = -1  # under cascade: the step of its one attempt, one period after it adopted
         self.customer = False
+        self.former = False
+        self.leave_step = -1
+        self.rejecter = False
+        self.rejecting = False
+        self.rejection_step = -1
+        self.warned_by = -1
+        self.warn = 0.0
+        self.warn_since = -1
         self.satisfied = False
         self.talk = 0.0
         self.counted = 0.0
@@ -309,6 +327,9 @@ class Organisation(FixedAgent):
         probability, external = model.chances(talking, total, self.threshold, organisation=self.organisation)
         rng = model.rng
         self.adopting = bool(rng.random() < probability)
+        if model.warn_rng is not None and self._warned(probability, total):  # ---- warnings
+            self.adopting = False
+            return
         if not self.adopting:
             return
         if rng.random() < external:
@@ -328,6 +349,48 @@ class Organisation(FixedAgent):
                 if left < 0:
                     break
 
+    def _warned(self, probability: float, total: float) -> bool:
+        """Warnings, compute phase: whether it becomes a rejecter in this step. Its own uniform from
+        the warning stream against the step probability of :func:`womlab.rules.step_rejection_hazard`;
+        where adoption came too, the earlier of the two within the step wins
+        (:func:`womlab.rules.crossing_fraction`, :func:`womlab.rules.rejects_first`). A rejection
+        is attributed to a warning neighbour ∝ its weight, with one more uniform."""
+        model = self.model
+        warned = model.warn_total if model.complete else sum(other.warn for other in self.neighbours)
+        if warned == 0.0:
+            return False
+        rule = model._rule[0]
+        theta = 0.0 if self.threshold is None else float(self.threshold)
+        a = model.womlab_scenario.adoption
+        h_r = rules.step_rejection_hazard(rule, float(warned), float(total), theta, float(a.warning), model.time_step,
+                                          model._form)
+        wrng = model.warn_rng
+        if not wrng.random() < -math.expm1(-h_r):
+            return False
+        if self.adopting:
+            h_a = -math.log1p(-probability) if probability < 1.0 else math.inf
+            if not rules.rejects_first(rules.crossing_fraction(h_a, wrng.random()), 1.0,
+                                       rules.crossing_fraction(h_r, wrng.random()), 1.0):
+                return False
+        # who warned: a roulette wheel over the warners, slots sized by their weight
+        warners = model.warners_now() if model.complete else [o for o in self.neighbours if o.warn > 0]
+        left = wrng.random() * sum(o.warn for o in warners)
+        for other in warners:
+            self.warned_by = other.organisation
+            left -= other.warn
+            if left < 0:
+                break
+        self.rejecting = True
+        return True
+
+    def reject(self) -> None:
+        """Warnings, apply phase: become a rejecter (warning others from the next step where rejecters warn)."""
+        self.rejecting = False
+        self.rejecter = True
+        self.rejection_step = self.model.step_count
+        if self.model.womlab_scenario.adoption.rejecters_warn:
+            self.warn_since = self.model.step_count
+
     def adopt(self, period: int) -> None:
         """Apply phase: become a customer in ``period`` and draw whether satisfied."""
         model = self.model
@@ -337,8 +400,19 @@ class Organisation(FixedAgent):
         self.adoption_step = model.step_count
         self.referrer = self._cause
         self.satisfied = bool(rules.draw_satisfied(self.satisfied_share, 1, model.rng)[0])
-        self.fresh_until = model.step_count + model.steps_per_period  # newly satisfied for one period
+        self.fresh_until = model.step_count + model.steps_per_period  # cascade: its attempt, one period on
         self.talk = self.counted = model.talk_weight(self)
+        if not self.satisfied:  # warnings: a dissatisfied customer warns from now
+            self.warn_since = model.step_count
+
+    def leave(self) -> None:
+        """Churn, apply phase: stop being a customer (a former customer, silent from the next step)."""
+        self.customer = False
+        self.former = True
+        self.leave_step = self.model.step_count
+        self.talk = self.counted = 0.0
+        if self.warn_since < 0 and self.model.womlab_scenario.adoption.former_warn:
+            self.warn_since = self.model.step_count
 
 
 class ReferralModel(mesa.Model):
@@ -504,6 +578,16 @@ class ReferralModel(mesa.Model):
                                                        simulate=run_mesa)
         if self.market.opens_at is not None:  # markets that grow: a seed in a part not yet open is left out
             initial = initial[self.market.opens_at[initial] == 0]
+        # churn: a stream of its own (model.rng is not advanced), one uniform per customer per step
+        adoption = scenario.adoption
+        self.churn_rng = mechanism_rng(self.rng, CHURN_STREAM) if adoption.churns else None
+        self._churn = (float(adoption.churn), float(adoption.dissatisfied_churn))
+        self.former_customers = 0
+        # warnings: a stream of their own too
+        self.warn_rng = mechanism_rng(self.rng, WARNING_STREAM) if adoption.warns else None
+        self.warn_total = 0.0
+        self.rejecters = 0
+        self._warners_now: list[Organisation] | None = None
 
         self.womlab_scenario = scenario  # not `scenario`: Mesa 3.5's Model.scenario is its own
         self.network = network
@@ -547,15 +631,20 @@ class ReferralModel(mesa.Model):
         self.talk_total = 0.0
         self._talking_now: tuple[list[Organisation], list[float]] | None = None
 
+        reporters: dict[str, Any] = {
+            "step": "step_count",
+            "period": "period",
+            "time": lambda m: m.step_count * m.time_step,
+            "customers": "customers",
+            "new_customers": "new_customers",
+            "satisfied_customers": "satisfied_customers",
+        }
+        if self.churn_rng is not None:
+            reporters["former_customers"] = "former_customers"
+        if self.warn_rng is not None:
+            reporters["rejecters"] = "rejecters"
         self.datacollector = mesa.DataCollector(
-            model_reporters={
-                "step": "step_count",
-                "period": "period",
-                "time": lambda m: m.step_count * m.time_step,
-                "customers": "customers",
-                "new_customers": "new_customers",
-                "satisfied_customers": "satisfied_customers",
-            },
+            model_reporters=reporters,
             agent_reporters=dict(agent_reporters) if agent_reporters else None,
         )
         self.datacollector.collect(self)
@@ -584,22 +673,26 @@ class ReferralModel(mesa.Model):
         if found is None:
             theta = 0.0 if threshold is None else float(threshold)
             t, d = float(talking), float(total)
-            rate = rules.rate(rule, t, d, theta, p, q, cap)
-            found = (rules.probability(rate, self.time_step, self._form), rules.external_part(rule, t, d, theta, p, q))
+            dt, form = self.time_step, self._form
+            found = (rules.step_adoption_probability(rule, t, d, theta, p, q, cap, dt, form),
+                     rules.step_external_part(rule, t, d, theta, p, q, dt, form))
             if threshold is None:
                 self._chances[key] = found
         return found
 
-    def talk_weight(self, agent: Organisation) -> float:
-        """What ``agent`` puts into its neighbours' Tᵢ in the coming step (:func:`womlab.rules.talk_weight`)."""
+    def talk_weight(self, agent: Organisation, step: int | None = None) -> float:
+        """What ``agent`` puts into its neighbours' Tᵢ in ``step`` (default: the coming one;
+        :func:`womlab.rules.talk_weight`)."""
+        step = self.step_count + 1 if step is None else step
         weight = rules.talk_weight(self._rule[0], np.float32(agent.talkers), agent.customer and agent.satisfied,
-                                   agent.fresh_until >= self.step_count + 1)
+                                   agent.fresh_until == step)
         return float(weight)
 
     def _refresh_cascade_talk(self) -> None:
-        """``cascade``: a customer counts in its neighbours' Tᵢ only for the period after it became satisfied."""
-        for agent in self.agents.select(lambda a: a.talk > 0 and a.fresh_until < self.step_count):
-            agent.talk = agent.counted = 0.0
+        """``cascade``: a satisfied customer counts in its neighbours' Tᵢ only in the step of its one
+        attempt, the step that ends one period after it adopted."""
+        for agent in self.agents.select(lambda a: a.talk > 0 or a.fresh_until == self.step_count):
+            agent.talk = agent.counted = self.talk_weight(agent, self.step_count)
 
     def talking_now(self) -> tuple[list[Organisation], list[float]]:
         """Complete network: every organisation whose talk counts now, and the running sum of it."""
@@ -635,8 +728,18 @@ class ReferralModel(mesa.Model):
         if self.complete:
             self.talk_total = float(self.agents.agg("counted", sum))
             self._talking_now = None
+        if self.warn_rng is not None:
+            self._refresh_warnings()
         self.potential.do("decide")
         adopters = self.potential.select(lambda a: a.adopting)
+        if self.warn_rng is not None:  # ---- warnings: rejections apply with the adoptions
+            rejecting = self.potential.select(lambda a: a.rejecting)
+            rejecting.do("reject")
+            for agent in rejecting:
+                self.potential.remove(agent)
+            self.rejecters += len(rejecting)
+        if self.churn_rng is not None:
+            self._churn_step()
         adopters.do("adopt", self.period)
         if self.programme is not None:  # pay for this step's attributed referrals (ids ascending)
             referred = [a for a in adopters if a.referrer >= 0]
@@ -726,6 +829,47 @@ class ReferralModel(mesa.Model):
         self.satisfied_customers = sum(1 for a in agents if a.customer and a.satisfied)
         self.datacollector.collect(self)
 
+    def _refresh_warnings(self) -> None:
+        """Warnings: every organisation's weight in its neighbours' Wᵢ this step (:func:`womlab.rules.warns`,
+        :func:`womlab.rules.warn_weight`)."""
+        a = self.womlab_scenario.adoption
+        rule, step = self._rule[0], self.step_count
+        for agent in self._by_id:
+            if agent.customer or agent.former or agent.rejecter:
+                warner = rules.warns(agent.customer, agent.satisfied, agent.former, agent.rejecter, a.former_warn,
+                                     a.rejecters_warn)
+                agent.warn = float(rules.warn_weight(rule, np.float32(agent.talkers), warner,
+                                                     agent.warn_since + self.steps_per_period == step))
+        if self.complete:
+            self.warn_total = float(sum(agent.warn for agent in self._by_id))
+        self._warners_now = None
+
+    def warners_now(self) -> list[Organisation]:
+        """Complete network: every organisation whose warning counts now."""
+        if self._warners_now is None:
+            self._warners_now = [agent for agent in self._by_id if agent.warn > 0]
+        return self._warners_now
+
+    def _churn_step(self) -> None:
+        """Churn: every customer of the start of the step (ids ascending) leaves with the step
+        probability of its churn rate (:func:`womlab.rules.churn_rate`), one fresh uniform each
+        from the churn stream; the departures apply at the end of the step, with the adoptions."""
+        churn, churn_dissatisfied = self._churn
+        paid = None if self.programme is None else self.programme.rewarded  # paid referrals churn at the multiplier
+        multiplier = self.womlab_scenario.referral.churn_multiplier
+        leaving = []
+        for agent in self._by_id:
+            if agent.customer:
+                m = multiplier if paid is not None and paid[agent.organisation] else 1.0
+                rate = rules.churn_rate(agent.satisfied, churn, churn_dissatisfied, m)
+                if self.churn_rng.random() < rules.probability(rate, self.time_step, self._form):
+                    leaving.append(agent)
+        for agent in leaving:
+            agent.leave()
+        self.customers -= len(leaving)
+        self.satisfied_customers -= sum(1 for a in leaving if a.satisfied)
+        self.former_customers += len(leaving)
+
     def result(self) -> RunResult:
         """The run so far as a :class:`~womlab.dynamics.RunResult` (the same object the array engine returns).
 
@@ -734,9 +878,21 @@ class ReferralModel(mesa.Model):
         the array engine.
         """
         agents = self._by_id
-        customer = np.array([a.customer for a in agents], dtype=bool)
         step = np.array([a.adoption_step for a in agents], dtype=np.int64)
+        customer = step >= 0  # became a customer (with churn it may have left since)
         run = self.womlab_scenario.run
+        churn: dict[str, Any] = {}
+        if self.churn_rng is not None:
+            leave = np.array([a.leave_step for a in agents], dtype=np.int64)
+            spp = run.steps_per_period
+            churn["leave_period"] = np.where(leave >= 0, (leave + spp - 1) // spp, -1).astype(np.int32)
+            churn["leave_time"] = np.where(leave >= 0, leave / spp, np.nan)
+        if self.warn_rng is not None:
+            rejected = np.array([a.rejection_step for a in agents], dtype=np.int64)
+            spp = run.steps_per_period
+            churn["rejection_period"] = np.where(rejected >= 0, (rejected + spp - 1) // spp, -1).astype(np.int32)
+            churn["warned_by"] = np.array([a.warned_by for a in agents], dtype=np.int32)
+            churn["rejection_time"] = np.where(rejected >= 0, rejected / spp, np.nan)
         return RunResult(
             periods=run.periods,
             adoption_period=np.array([a.adoption_period for a in agents], dtype=np.int32),
@@ -753,6 +909,7 @@ class ReferralModel(mesa.Model):
             segment_names=self.market.segment_names,
             value=self.market.value,
             opens_at=self.market.opens_at,
+            **churn,
         )
 
 

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from womlab.dynamics.streams import mechanism_rng
 from womlab.networks import ReferralNetwork
 from womlab.rules import compiled
 from womlab.scenario import Referral, Scenario
@@ -52,13 +53,10 @@ def enrolment_rng(rng: np.random.Generator) -> np.random.Generator:
     """The enrolment stream of a run whose dynamics stream is ``rng``.
 
     Derived from ``rng``'s SeedSequence (entropy and spawn key, extended by
-    :data:`ENROLMENT_STREAM`); ``rng`` itself is neither advanced nor spawned from.
+    :data:`ENROLMENT_STREAM`, :func:`womlab.dynamics.streams.mechanism_rng`); ``rng`` itself
+    is neither advanced nor spawned from.
     """
-    seq = rng.bit_generator.seed_seq
-    if not isinstance(seq, np.random.SeedSequence):
-        raise TypeError("the dynamics generator must be seeded from a numpy SeedSequence")
-    child = np.random.SeedSequence(seq.entropy, spawn_key=(*seq.spawn_key, ENROLMENT_STREAM), pool_size=seq.pool_size)
-    return np.random.default_rng(child)
+    return mechanism_rng(rng, ENROLMENT_STREAM)
 
 
 def enrolled_organisations(

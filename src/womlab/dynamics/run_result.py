@@ -14,6 +14,18 @@ engine: exact times; the array engine: the end of the step) also keep
 period each row's time falls in, and ``new_customers`` counts adoptions since the
 previous row. Every per-period count (``customers``, ``share``, …) stays on the period
 grid, so the T + 1 row rule holds for them whatever the report grid.
+
+Churn. With churn on, an engine also keeps ``leave_period`` (int32 per organisation: the
+period in which the customer left, −1 if it had not by the horizon; ``leave_time`` on the
+finer grid). ``customers`` is then the installed base (customers who have not left), and
+the curve gains ``former_customers`` and ``ever_customers`` (every organisation that was a
+customer at some time up to then). Without churn both are None and the curve is as it
+always was.
+
+Warnings (negative word of mouth). With ``adoption.warning`` above 0 an engine also keeps
+``rejection_period`` (int32: the period in which a potential customer was warned off for
+good, −1 if never) and ``warned_by`` (int32: the warner it is attributed to); the curve
+gains ``rejecters``.
 """
 
 from __future__ import annotations
@@ -29,9 +41,13 @@ from womlab.errors import NetworkError
 from womlab.networks.given import organisation_ids
 from womlab.networks.network import ReferralNetwork
 
-__all__ = ["RunResult", "CURVE_COLUMNS", "ORGANISATION_COLUMNS", "to_networkx"]
+__all__ = ["RunResult", "CURVE_COLUMNS", "CHURN_COLUMNS", "WARNING_COLUMNS", "ORGANISATION_COLUMNS", "to_networkx"]
 
 CURVE_COLUMNS = ("period", "time", "customers", "new_customers", "satisfied_customers")
+#: Columns a run with churn adds to its curve.
+CHURN_COLUMNS = ("former_customers", "ever_customers")
+#: The column a run with warnings adds to its curve.
+WARNING_COLUMNS = ("rejecters",)
 
 #: Columns of :meth:`RunResult.to_frame` (a network's node attributes go after ``region``).
 ORGANISATION_COLUMNS = ("id", "region", "customer", "initial", "adoption_period", "adoption_time", "referrer",
@@ -53,7 +69,8 @@ class RunResult:
         int32 per organisation: the satisfied customer whose word of mouth caused its
         adoption, −1 for external influence, initial customers and non-adopters.
     satisfied : numpy.ndarray
-        bool per organisation: satisfied customer at the horizon.
+        bool per organisation: became a satisfied customer by the horizon (with churn, it
+        may have left since; see ``leave_period``).
     region : numpy.ndarray
         int32 region code per organisation.
     initial : numpy.ndarray
@@ -79,6 +96,19 @@ class RunResult:
     opens_at : numpy.ndarray, optional
         int32 period in which each organisation entered the market (``market.opens``; 0 = from
         the start); None when the whole market is open from period 0.
+    leave_period : numpy.ndarray, optional
+        Churn: int32 per organisation, the period in which the customer left, −1 if it did
+        not by the horizon (or never was a customer). None when churn is off.
+    leave_time : numpy.ndarray, optional
+        Churn: float64 per organisation, when it left (NaN: not by the horizon).
+    rejection_period : numpy.ndarray, optional
+        Warnings: int32 per organisation, the period in which it became a rejecter, −1 if
+        never. None when warnings are off.
+    warned_by : numpy.ndarray, optional
+        Warnings: int32 per organisation, the warner its rejection is attributed to, −1 if
+        it did not reject.
+    rejection_time : numpy.ndarray, optional
+        Warnings: float64 per organisation, when it became a rejecter (NaN: never).
     """
 
     periods: int
@@ -97,6 +127,11 @@ class RunResult:
     segment_names: tuple[str, ...] = ()
     value: np.ndarray | None = None
     opens_at: np.ndarray | None = None
+    leave_period: np.ndarray | None = None
+    leave_time: np.ndarray | None = None
+    rejection_period: np.ndarray | None = None
+    warned_by: np.ndarray | None = None
+    rejection_time: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -112,14 +147,97 @@ class RunResult:
         return self._per_period()
 
     @property
-    def customers(self) -> np.ndarray:
-        """Customers at the end of each period, int64."""
+    def churns(self) -> bool:
+        """Whether the run had churn (it keeps ``leave_period``)."""
+        return self.leave_period is not None
+
+    def _left_per_period(self, mask: np.ndarray | None = None) -> np.ndarray:
+        if self.leave_period is None:
+            return np.zeros(self.periods + 1, dtype=np.int64)
+        lp = self.leave_period if mask is None else self.leave_period[mask]
+        return np.bincount(lp[lp >= 0], minlength=self.periods + 1)[: self.periods + 1]
+
+    @property
+    def ever_customers(self) -> np.ndarray:
+        """Organisations that were customers at some time up to the end of each period, int64
+        (with churn: the installed base plus the former customers)."""
         return np.cumsum(self.new_customers)
+
+    @property
+    def former_customers(self) -> np.ndarray:
+        """Customers who had left by the end of each period (churn; 0 without), int64."""
+        return np.cumsum(self._left_per_period())
+
+    @property
+    def customers(self) -> np.ndarray:
+        """Customers at the end of each period (with churn: the installed base), int64."""
+        if self.leave_period is None:
+            return np.cumsum(self.new_customers)
+        return self.ever_customers - self.former_customers
 
     @property
     def satisfied_customers(self) -> np.ndarray:
         """Satisfied customers at the end of each period, int64."""
-        return np.cumsum(self._per_period(self.satisfied))
+        if self.leave_period is None:
+            return np.cumsum(self._per_period(self.satisfied))
+        return np.cumsum(self._per_period(self.satisfied)) - np.cumsum(self._left_per_period(self.satisfied))
+
+    @property
+    def warns(self) -> bool:
+        """Whether the run had warnings (it keeps ``rejection_period``)."""
+        return self.rejection_period is not None
+
+    @property
+    def rejecters(self) -> np.ndarray:
+        """Warnings: organisations warned off the product by the end of each period (0 without), int64."""
+        if self.rejection_period is None:
+            return np.zeros(self.periods + 1, dtype=np.int64)
+        rp = self.rejection_period
+        return np.cumsum(np.bincount(rp[rp >= 0], minlength=self.periods + 1)[: self.periods + 1])
+
+    @property
+    def ever_share(self) -> np.ndarray:
+        """``ever_customers`` as a share of the market, per period."""
+        return self.ever_customers / self.n
+
+    def lifetimes(self) -> tuple[np.ndarray, np.ndarray]:
+        """Churn: every customer's time as a customer up to the horizon, and whether it left.
+
+        Returns ``(duration, left)`` over the organisations that became customers: the time
+        from adoption to leaving (or to the horizon, where it had not left; censored), in
+        periods, from the adoption and leaving times where the engine keeps them, else from
+        the periods.
+        """
+        adopted = self.adoption_period >= 0
+        if self.leave_period is None:
+            left = np.zeros(int(adopted.sum()), dtype=bool)
+        else:
+            left = self.leave_period[adopted] >= 0
+        if self.adoption_time is not None and self.leave_time is not None:
+            start = self.adoption_time[adopted]
+            end = np.where(left, self.leave_time[adopted], float(self.periods))
+        else:
+            start = self.adoption_period[adopted].astype(float)
+            lp = self.leave_period[adopted] if self.leave_period is not None else np.full(start.size, -1)
+            end = np.where(left, lp, self.periods).astype(float)
+        return end - start, left
+
+    def mean_lifetime(self) -> float:
+        """Churn: mean customer lifetime in periods, censoring-aware: time as a customer summed
+        over every customer up to the horizon, over the number who left (the exponential
+        maximum-likelihood estimate 1/δ̂ with right censoring; Lawless 2003, *Statistical Models
+        and Methods for Lifetime Data*, §2.2). NaN where no customer left.
+
+        Examples
+        --------
+        >>> from womlab import Scenario, run_one
+        >>> s = Scenario.from_dict({"market": {"organisations": 400, "initial_customers": 40},
+        ...                         "adoption": {"churn": 0.1}, "run": {"periods": 30}})
+        >>> 5 < run_one(s, (0,)).mean_lifetime() < 20
+        True
+        """
+        duration, left = self.lifetimes()
+        return float(duration.sum() / left.sum()) if left.any() else float("nan")
 
     @property
     def share(self) -> np.ndarray:
@@ -258,7 +376,7 @@ class RunResult:
             raise ValueError(f"every must be 1/n of a period for a whole n >= 1, got {every!r}")
         if per == 1:
             t = np.arange(self.periods + 1)
-            return self._with_market(pd.DataFrame(
+            table = pd.DataFrame(
                 {
                     "period": t,
                     "time": t.astype(float),
@@ -266,7 +384,13 @@ class RunResult:
                     "new_customers": self.new_customers,
                     "satisfied_customers": self.satisfied_customers,
                 }
-            ))
+            )
+            if self.churns:
+                table["former_customers"] = self.former_customers
+                table["ever_customers"] = self.ever_customers
+            if self.warns:
+                table["rejecters"] = self.rejecters
+            return self._with_market(table)
         if self.adoption_time is None:
             raise ValueError(f"a report grid finer than one period needs adoption times; the {self.engine} engine keeps none")
         slots = self.periods * per
@@ -277,7 +401,7 @@ class RunResult:
         new = np.bincount(row, minlength=slots + 1)[: slots + 1]
         sat = np.bincount(row[self.satisfied[seen]], minlength=slots + 1)[: slots + 1]
         k = np.arange(slots + 1)
-        return self._with_market(pd.DataFrame(
+        table = pd.DataFrame(
             {
                 "period": (k + per - 1) // per,
                 "time": k / per,
@@ -285,7 +409,28 @@ class RunResult:
                 "new_customers": new,
                 "satisfied_customers": np.cumsum(sat),
             }
-        ))
+        )
+        if self.churns:
+            if self.leave_time is None:
+                raise ValueError(f"a report grid finer than one period needs leaving times; the {self.engine} engine "
+                                 "keeps none")
+            gone = ~np.isnan(self.leave_time)
+            out = np.ceil(np.round(self.leave_time[gone] * per, 9)).astype(np.int64)
+            former = np.cumsum(np.bincount(out, minlength=slots + 1)[: slots + 1])
+            former_sat = np.cumsum(np.bincount(out[self.satisfied[gone]], minlength=slots + 1)[: slots + 1])
+            table["ever_customers"] = table["customers"]
+            table["customers"] = table["ever_customers"] - former
+            table["satisfied_customers"] = table["satisfied_customers"] - former_sat
+            table["former_customers"] = former
+            table = table[[*CURVE_COLUMNS, *CHURN_COLUMNS]]
+        if self.warns:
+            if self.rejection_time is None:
+                raise ValueError(f"a report grid finer than one period needs rejection times; the {self.engine} engine "
+                                 "keeps none")
+            gone = ~np.isnan(self.rejection_time)
+            rows = np.ceil(np.round(self.rejection_time[gone] * per, 9)).astype(np.int64)
+            table["rejecters"] = np.cumsum(np.bincount(rows, minlength=slots + 1)[: slots + 1])
+        return self._with_market(table)
 
     def _with_market(self, table: pd.DataFrame) -> pd.DataFrame:
         """A market that grows (``market.opens``): add the organisations in the market at each row's
@@ -322,7 +467,10 @@ class RunResult:
             if never), ``adoption_time`` (NaN if never or not recorded), ``referrer`` (id
             of the satisfied customer whose word of mouth brought it in; missing for
             external influence, initial customers and non-customers), ``satisfied``, and
-            ``referrals`` (how many organisations it brought in).
+            ``referrals`` (how many organisations it brought in). With churn ``customer`` is
+            whether it is still one at the horizon, and ``leave_period`` follows (missing if it
+            did not leave); with warnings ``rejection_period`` and ``warned_by`` (the id of the
+            warner its rejection is attributed to) follow (missing if it did not reject).
 
         Raises
         ------
@@ -382,6 +530,22 @@ class RunResult:
             "satisfied": self.satisfied & adopted,
             "referrals": np.bincount(self.referrer[referred], minlength=n)[:n],
         })
+        if self.leave_period is not None:  # churn
+            left = self.leave_period >= 0
+            columns["customer"] = adopted & ~left
+            columns["leave_period"] = _with_missing(self.leave_period, left)
+        if self.rejection_period is not None:  # warnings
+            rejected = self.rejection_period >= 0
+            columns["rejection_period"] = _with_missing(self.rejection_period, rejected)
+            by = self.warned_by if self.warned_by is not None else np.full(n, -1)
+            warner_ids = ids[np.where(rejected, by, 0)]
+            if ids.dtype.kind in "iu":
+                warned_by: Any = pd.array(warner_ids, dtype="Int64")
+                warned_by[~rejected] = pd.NA
+            else:
+                warned_by = warner_ids.astype(object)
+                warned_by[~rejected] = None
+            columns["warned_by"] = warned_by
         return pd.DataFrame(columns)
 
     def region_curve(self) -> pd.DataFrame:
@@ -427,7 +591,7 @@ def to_networkx(result: RunResult, network: ReferralNetwork | None = None,
     records = table.to_dict("records")
     for row in records:
         data = {str(k): _plain(v) for k, v in row.items() if k != "id" and not _missing(v)}
-        if row["customer"] and not _missing(row["adoption_time"]):
+        if not _missing(row["adoption_period"]) and not _missing(row["adoption_time"]):  # a customer at some time
             data["start"] = float(row["adoption_time"])
         graph.add_node(_plain(row["id"]), **data)
     for row in records:
@@ -437,6 +601,12 @@ def to_networkx(result: RunResult, network: ReferralNetwork | None = None,
                 edge["start"] = float(row["adoption_time"])
             graph.add_edge(_plain(row["referrer"]), _plain(row["id"]), **edge)
     return graph
+
+
+def _with_missing(values: np.ndarray, present: np.ndarray) -> Any:
+    out = pd.array(np.where(present, values, 0), dtype="Int64")
+    out[~present] = pd.NA
+    return out
 
 
 def _missing(value: Any) -> bool:

@@ -25,7 +25,8 @@ from pathlib import Path
 import numpy as np
 from matplotlib.figure import Figure
 
-from womlab.aggregate import AGGREGATE_LABELS, bass_share, mapped_parameters
+from womlab.aggregate import AGGREGATE_LABELS, bass_share, churn_curves, mapped_parameters
+from womlab.networks.given import as_network, mapped_with
 from womlab.results.fit import overlay_observed
 from womlab.studies.referrals import referrals_by_adoption_period, referrals_per_customer, word_of_mouth_by_period
 
@@ -162,8 +163,27 @@ def adoption_figure(batch, *, title: str | None = None, size: tuple[float, float
     else:
         agg_name = "Bass difference model"
         agg_label = f"{agg_name} (step {s.run.time_step:g})"
+    a = s.adoption
+    mechanisms = a.churns or a.warns
+    if mechanisms:  # Bass with churn and/or warnings: installed base (and ever customers with churn)
+        agg_name = "Bass with " + " and ".join(w for w, on in (("churn", a.churns), ("warnings", a.warns)) if on)
+        agg_label = f"{agg_name}, difference model (step {s.run.time_step:g}), customers"
     top.plot(t, aggregate, color=AGGREGATE_COLOUR, lw=1.6, ls="--", label=agg_label)
-    if s.adoption.rule not in ("capped", "threshold", "cascade") and not continuous:
+    new_network, new_aggregate = np.diff(shares, axis=1), np.diff(aggregate)
+    if mechanisms and s.adoption.rule in ("share", "count"):
+        models = churn_curves(mapped_with(s, None if batch.network is None else as_network(batch.network)))
+        if a.churns:
+            ever = batch.ever_shares()
+            top.plot(t, ever.mean(axis=0), color=NETWORK_COLOUR, lw=1.2, alpha=0.7,
+                     label="network, ever customers (mean)")
+            top.plot(t, models["ever_customers"], color=AGGREGATE_COLOUR, lw=1.2, ls="--", alpha=0.7,
+                     label=f"{agg_name}, ever customers")
+            new_network, new_aggregate = np.diff(ever, axis=1), np.diff(models["ever_customers"].to_numpy())
+        if a.warns:
+            rejecters = np.vstack([r.rejecters for r in batch.runs]) / s.market.organisations
+            top.plot(t, rejecters.mean(axis=0), color="#7f8c8d", lw=1.4, label="network, rejecters (mean)")
+            top.plot(t, models["rejecters"], color="#7f8c8d", lw=1.2, ls="--", label=f"{agg_name}, rejecters")
+    if s.adoption.rule not in ("capped", "threshold", "cascade") and not continuous and not mechanisms:
         top.plot(fine, bass_share(fine, par.p, par.Q, par.initial_share), color=BASS_COLOUR, lw=1.2, ls=":",
                  label=f"Bass ODE, p = {par.p:.3g}, Q = {par.Q:.3g}")
     top.set_ylabel("customers, share of market")
@@ -172,12 +192,12 @@ def adoption_figure(batch, *, title: str | None = None, size: tuple[float, float
     _legend_beside(top)
     top.set_title(title_text(title or s.name), fontsize=11)
 
-    new = np.diff(shares, axis=1)
+    new = new_network  # with churn: adoptions (new ever customers), not the change in the installed base
     tn = t[1:]
     bottom.fill_between(tn, np.quantile(new, 0.05, axis=0), np.quantile(new, 0.95, axis=0),
                         color=NETWORK_COLOUR, alpha=0.2, lw=0, label="network, 5–95 %")
     bottom.plot(tn, new.mean(axis=0), color=NETWORK_COLOUR, lw=2, label="network, mean")
-    bottom.plot(tn, np.diff(aggregate), color=AGGREGATE_COLOUR, lw=1.6, ls="--", label=agg_name)
+    bottom.plot(tn, new_aggregate, color=AGGREGATE_COLOUR, lw=1.6, ls="--", label=agg_name)
     bottom.set_xlabel("period")
     bottom.set_ylabel("new customers per period,\nshare of market")
     bottom.grid(alpha=0.3)
@@ -290,6 +310,8 @@ CURVE_STYLES = {
     "capped_bass_difference": dict(color="#e67e22", ls=(0, (1, 2)), lw=2.2),
     "degree_mean_field": dict(color="#27ae60", ls="-.", lw=1.6),
     "bass_fitted": dict(color="#8e44ad", ls="-", lw=1.2),
+    "bass_churn_mapped": dict(color=BASS_COLOUR, ls=":", lw=1.4),
+    "bass_churn_difference": dict(color=AGGREGATE_COLOUR, ls="--", lw=1.6),
 }
 
 
@@ -312,8 +334,9 @@ def comparison_figure(comparison, *, title: str | None = None, size: tuple[float
         Observed points to overlay (:func:`womlab.results.fit.overlay_observed`).
     """
     batch = comparison.batch
-    summary = batch.summary()
-    shares = batch.shares()
+    summary = comparison.curve_table()
+    shares = comparison.shares()  # with churn: ever customers
+    churns = batch.scenario.adoption.churns
     t = summary["time"].to_numpy()
     mean = shares.mean(axis=0)
     h = comparison.headline()
@@ -323,14 +346,23 @@ def comparison_figure(comparison, *, title: str | None = None, size: tuple[float
     top, mid, bottom = fig.subplots(3, 1, sharex=True, height_ratios=[3, 2, 2])
     top.fill_between(t, summary["q05"], summary["q95"], color=NETWORK_COLOUR, alpha=0.2, lw=0,
                      label=f"network, 5–95 % of {batch.replicates} runs")
-    top.plot(t, mean, color=NETWORK_COLOUR, lw=2.2, label=f"network, mean of {batch.replicates} runs")
+    mean_label = "network, ever customers, mean" if churns else "network, mean"
+    top.plot(t, mean, color=NETWORK_COLOUR, lw=2.2, label=f"{mean_label} of {batch.replicates} runs")
     for group in groups:
         name = group[0]
         labels = [AGGREGATE_LABELS.get(g, g) for g in group]
         label = labels[0] if len(group) == 1 else " = ".join(labels) + " (these coincide)"
         top.plot(t, comparison.curves[name], label="\n".join(textwrap.wrap(label, 48, break_on_hyphens=False)),
                  **CURVE_STYLES.get(name, {}))
-    top.set_ylabel("customers, share of market")
+    if churns:  # the installed base below the ever-customer curves, network and models alike
+        top.plot(t, summary["installed_base_mean"], color=NETWORK_COLOUR, lw=1.4, alpha=0.7,
+                 label="network, installed base (mean)")
+        for column in summary.columns:
+            if column.startswith("installed_base_bass"):
+                name = column.removeprefix("installed_base_")
+                top.plot(t, summary[column], **{**CURVE_STYLES.get(name, {}), "alpha": 0.7})
+    top.set_ylabel("ever customers (upper) and installed base,\nshare of market" if churns
+                   else "customers, share of market")
     top.set_ylim(0, 1.02)
     top.grid(alpha=0.3)
     _legend_beside(top)

@@ -16,21 +16,29 @@ Each rule gives a potential customer i a rate λᵢ per period from the talkers 
     "linear"`` and a step of one period this is the per-period probability itself.
 
 ``threshold``
-    λᵢ = p + ∞·[Tᵢ > 0 and Tᵢ / Dᵢ ≥ θᵢ]: the organisation adopts in the step in which the
-    talker-weighted share of its neighbours that are satisfied customers reaches its own
-    threshold θᵢ, drawn once per run (:func:`draw_thresholds`), and otherwise feels only
-    external influence (Granovetter 1978; Watts 2002). An infinite rate is an infinite step
-    hazard, so engines using Exp(1) resistances adopt it at once.
+    λᵢ = p + q·[Tᵢ > 0 and Tᵢ / Dᵢ ≥ θᵢ]: once the talker-weighted share of its neighbours
+    that are satisfied customers reaches its own threshold θᵢ, drawn once per run
+    (:func:`draw_thresholds`), the organisation adopts at rate q per period (plus p); below
+    it, it feels only external influence (Granovetter 1978; Watts 2002). The crossing has a
+    time scale of its own, 1/q periods on average, so the curve converges as the step
+    shrinks. ``word_of_mouth = inf`` is the limit of an ever faster crossing: an infinite
+    step hazard, so the organisation adopts in the step in which it crosses (the
+    synchronous threshold model of Watts 2002, each hop one step; its time scale is then
+    the step's).
 ``cascade``
     Independent cascade (Kempe, Kleinberg & Tardos 2003): a customer who has just become
-    satisfied has one chance, during the period after, to persuade each potential-customer
-    neighbour, with probability q (so ``word_of_mouth`` is a probability in [0, 1]). Its
-    talkers play no part: it counts 1 in Tᵢ for that one period (:func:`talk_weights`), and
-    λᵢ = p + (−ln(1 − q))·nᵢ with nᵢ the number of such newly satisfied neighbours. With the
-    exponential step the hazard over the period is −ln(1 − q) per neighbour, and
-    exp(−Σ hazards) = Π(1 − q): exactly independent chances, one per tie, for any time step.
-    (With the ``linear`` step the probability is min(1, λ·dt) as for every rule, which is
-    not the cascade; use ``exponential``, the default.)
+    satisfied has one chance to persuade each potential-customer neighbour, with
+    probability q (so ``word_of_mouth`` is a probability in [0, 1]), and that chance comes
+    at a defined time: one period after it became a customer, in the step that ends then,
+    whatever the time step (as in the discrete independent cascade, where the persuader
+    tries in the period after it adopted). Its talkers play no part: it counts 1 in Tᵢ in
+    that one step (:func:`talk_weights`), and the step's hazard is the external part
+    plus (−ln(1 − q))·nᵢ, nᵢ the number of neighbours whose chance falls in the step
+    (:func:`step_adoption_hazard`): exp(−Σ) = Π(1 − q), exactly one independent chance per
+    tie. With p = 0 every adoption falls on the period grid and a run is the same for every
+    time step; with p > 0 external adoptions fall between, and their chances one period
+    after them. (:func:`rate` gives p + (−ln(1 − q))·nᵢ, the hazard per period that a
+    one-period step integrates.)
 
 A step of length dt turns a rate into a probability, ``exponential``: 1 − exp(−λ·dt)
 (the default), or ``linear``: min(1, λ·dt).
@@ -55,6 +63,27 @@ At adoption an organisation is satisfied with probability ``satisfied_share``; o
 satisfied customers talk. Since satisfaction does not depend on timing, engines may draw
 it up front, once per organisation per run (:func:`draw_satisfied`).
 
+Customers who leave (churn). A customer leaves at rate δᵢ per period (:func:`churn_rate`:
+``churn`` if satisfied, ``churn_dissatisfied`` if not, times the programme's
+``referred_churn_multiplier`` for a paid referral), from the step after it adopted; a step
+turns the rate into a probability as for adoption (:func:`churn_steps`: the number of
+steps a customer stays is geometric, P(stays more than j steps) = exp(−j·h), h the step
+hazard, so its mean is dt / (1 − e^{−δ·dt}) periods under the exponential step: 1/δ as
+the step shrinks, 1/(1 − e^{−δ}) for one-period steps). A former customer does not talk
+and does not adopt again within the horizon.
+
+Customers who warn (negative word of mouth). Warners — dissatisfied customers, and with
+``former_warn`` former customers, with ``rejecters_warn`` rejecters (:func:`warns`) — put
+what a talker would put into a second exposure Wᵢ (:func:`warn_weight`), and a potential
+customer becomes a rejecter at rate ρᵢ = the rule's word-of-mouth part with ``warning`` in
+place of q and Wᵢ in place of Tᵢ (:func:`rejection_rate`; under ``cascade`` one chance per
+new warner, one period after it began to warn). Adoption and rejection are competing
+risks: two independent clocks, and where both ring in one step the one whose crossing
+came first within the step wins, the step's hazards taken as constant over it
+(:func:`rejects_first`, :func:`crossing_fraction`). A rejection records who warned: a
+warner picked in proportion to its weight in Wᵢ. The design is that of Goldenberg,
+Libai, Moldovan & Muller (2007).
+
 Attribution. When an organisation adopts, its cause is drawn in proportion to the parts
 of its rate: external with probability p / (p + w), where w is the uncapped
 word-of-mouth part, otherwise one satisfied-customer neighbour j with probability
@@ -70,6 +99,8 @@ Watts, D. J. (2002). A simple model of global cascades on random networks. PNAS 
 5766–5771.
 Kempe, D., Kleinberg, J. & Tardos, É. (2003). Maximizing the spread of influence through a
 social network. Proc. KDD 2003, 137–146.
+Goldenberg, J., Libai, B., Moldovan, S. & Muller, E. (2007). The NPV of bad news.
+International Journal of Research in Marketing 24, 186–200.
 """
 
 from __future__ import annotations
@@ -102,6 +133,18 @@ __all__ = [
     "draw_thresholds",
     "talk_weights",
     "word_of_mouth_part",
+    "step_adoption_hazard",
+    "step_external_part",
+    "step_adoption_probability",
+    "churn_rate",
+    "churn_steps",
+    "warns",
+    "warn_weight",
+    "rejection_rate",
+    "step_rejection_hazard",
+    "rejects_first",
+    "crossing_fraction",
+    "rejection_rates",
 ]
 
 #: Rule name → the integer code the compiled formulas take (the order of ``scenario.RULES``).
@@ -137,8 +180,8 @@ def _share_of(talking: float, total: float) -> float:
 @compiled
 def wom_part(rule: int, talking: float, total: float, threshold: float, q: float) -> float:
     """The uncapped word-of-mouth rate of one organisation: q·T/D (``share``), q·T (``count``,
-    ``capped``), −ln(1 − q)·n (``cascade``, T = n newly satisfied neighbours), ∞ where T > 0
-    and T/D ≥ θ else 0 (``threshold``).
+    ``capped``), −ln(1 − q)·n (``cascade``, T = n newly satisfied neighbours), q where T > 0
+    and T/D ≥ θ else 0 (``threshold``; q = ∞ the instant crossing).
 
     Examples
     --------
@@ -148,7 +191,7 @@ def wom_part(rule: int, talking: float, total: float, threshold: float, q: float
     if rule == SHARE:
         return q * _share_of(talking, total)
     if rule == THRESHOLD:
-        return math.inf if talking > 0 and _share_of(talking, total) >= threshold else 0.0
+        return q if talking > 0 and _share_of(talking, total) >= threshold else 0.0
     if rule == CASCADE:
         if talking > 0:
             return -math.log1p(-q) * talking if q < 1.0 else math.inf  # q = 1: certain persuasion
@@ -226,11 +269,189 @@ def hazard(rate: float, dt: float, form: int) -> float:
 @compiled
 def talk_weight(rule: int, talkers: np.float32, satisfied_customer: bool, fresh: bool) -> np.float32:
     """What one organisation puts into its neighbours' Tᵢ at the start of a step (float32):
-    its talkers τ if a satisfied customer, else 0; under ``cascade`` 1 during the period
-    after it became a satisfied customer (``fresh``), else 0."""
+    its talkers τ if a satisfied customer, else 0; under ``cascade`` 1 in the step of its
+    persuasion attempt, the one that ends a period after it became a customer (``fresh``),
+    else 0."""
     if rule == CASCADE:
         return np.float32(1.0) if satisfied_customer and fresh else np.float32(0.0)
     return np.float32(talkers) if satisfied_customer else np.float32(0.0)
+
+
+@compiled
+def step_adoption_hazard(
+    rule: int, talking: float, total: float, threshold: float, p: float, q: float, cap: float, dt: float, form: int
+) -> float:
+    """Integrated hazard of adopting within one step of length ``dt`` (what the engines add up).
+
+    Every rule but ``cascade``: :func:`hazard` of :func:`rate`. ``cascade``: the external part
+    over the step, :func:`hazard` of p, plus −ln(1 − q) for each neighbour whose one chance
+    falls in this step (``talking`` of them): the chance comes at a defined time, whatever
+    the step.
+
+    Examples
+    --------
+    >>> c = RULE_CODES["cascade"]
+    >>> round(step_adoption_hazard(c, 2.0, 0.0, 0.0, 0.0, 0.5, 1.0, 0.1, FORM_CODES["exponential"]), 6)
+    1.386294
+    """
+    if rule == CASCADE:
+        return hazard(p, dt, form) + wom_part(rule, talking, total, threshold, q)
+    return hazard(rate(rule, talking, total, threshold, p, q, cap), dt, form)
+
+
+@compiled
+def step_external_part(
+    rule: int, talking: float, total: float, threshold: float, p: float, q: float, dt: float, form: int
+) -> float:
+    """Probability that an adoption in a step of length ``dt`` is caused by external influence.
+
+    :func:`external_part` for every rule but ``cascade``, whose chances are not spread over
+    time: there the external hazard of the step against the chances' (1 where both are 0,
+    0 where a chance is certain)."""
+    if rule == CASCADE:
+        h = hazard(p, dt, form)
+        s = h + wom_part(rule, talking, total, threshold, q)
+        return h / s if s > 0 else 1.0
+    return external_part(rule, talking, total, threshold, p, q)
+
+
+@compiled
+def step_adoption_probability(
+    rule: int, talking: float, total: float, threshold: float, p: float, q: float, cap: float, dt: float, form: int
+) -> float:
+    """Probability of adopting within one step: 1 − exp(−:func:`step_adoption_hazard`); for every
+    rule but ``cascade`` computed as :func:`probability` of :func:`rate` (the same number)."""
+    if rule == CASCADE:
+        return -math.expm1(-step_adoption_hazard(rule, talking, total, threshold, p, q, cap, dt, form))
+    return probability(rate(rule, talking, total, threshold, p, q, cap), dt, form)
+
+
+# ----------------------------------------------------------------------------- churn
+@compiled
+def churn_rate(satisfied: bool, churn: float, churn_dissatisfied: float, multiplier: float) -> float:
+    """δᵢ, the rate per period at which a customer leaves: ``churn`` if satisfied, else
+    ``churn_dissatisfied``, times ``multiplier`` (the programme's ``referred_churn_multiplier``
+    for a paid referral, else 1).
+
+    Examples
+    --------
+    >>> churn_rate(False, 0.02, 0.1, 0.5)
+    0.05
+    """
+    return (churn if satisfied else churn_dissatisfied) * multiplier
+
+
+@compiled
+def churn_steps(resistance: float, step_hazard: float) -> int:
+    """How many steps a customer stays: the least k ≥ 1 with k·h ≥ E, h the step hazard of its
+    churn rate (:func:`hazard`) and E its Exp(1) churn resistance; −1 (never) when h = 0.
+
+    P(k > j) = P(E > j·h) = exp(−j·h): the geometric law of a per-step probability
+    1 − exp(−h), so the mean stay is 1 / (1 − exp(−h)) steps.
+
+    Examples
+    --------
+    >>> churn_steps(1.0, 0.3), churn_steps(0.2, math.inf), churn_steps(5.0, 0.0)
+    (4, 1, -1)
+    """
+    if step_hazard <= 0.0:
+        return -1
+    x = resistance / step_hazard
+    if x >= 4e18:  # beyond any horizon (and any whole number of steps)
+        return -1
+    k = math.ceil(x)
+    return k if k >= 1 else 1
+
+
+# ----------------------------------------------------------------------------- warnings
+@compiled
+def warns(
+    customer: bool, satisfied: bool, former: bool, rejecter: bool, former_warn: bool, rejecters_warn: bool
+) -> bool:
+    """Whether an organisation warns its neighbours now: a dissatisfied customer always; a
+    former customer with ``former_warn``; a rejecter with ``rejecters_warn``."""
+    if customer:
+        return not satisfied
+    if former:
+        return former_warn
+    if rejecter:
+        return rejecters_warn
+    return False
+
+
+@compiled
+def warn_weight(rule: int, talkers: np.float32, warning_now: bool, fresh: bool) -> np.float32:
+    """What one warner puts into its neighbours' warning exposure Wᵢ at the start of a step
+    (float32): as a talker puts into Tᵢ (:func:`talk_weight`), its talkers τ while it warns;
+    under ``cascade`` 1 in the step one period after it began to warn (``fresh``)."""
+    return talk_weight(rule, talkers, warning_now, fresh)
+
+
+@compiled
+def rejection_rate(rule: int, warned: float, total: float, threshold: float, warning: float) -> float:
+    """ρᵢ, the rate per period at which a potential customer becomes a rejecter: the rule's
+    word-of-mouth part (:func:`wom_part`) with ``warning`` for q and Wᵢ for Tᵢ — warning·W/D
+    (``share``), warning·W (``count``, ``capped``: no cap), −ln(1 − warning)·n (``cascade``),
+    ``warning`` once W/D ≥ θᵢ (``threshold``, its own θᵢ).
+
+    Examples
+    --------
+    >>> rejection_rate(RULE_CODES["share"], 1.0, 4.0, 0.0, 0.2)
+    0.05
+    """
+    return wom_part(rule, warned, total, threshold, warning)
+
+
+@compiled
+def step_rejection_hazard(
+    rule: int, warned: float, total: float, threshold: float, warning: float, dt: float, form: int
+) -> float:
+    """Integrated hazard of becoming a rejecter within one step: :func:`hazard` of
+    :func:`rejection_rate`; under ``cascade`` −ln(1 − warning) per new warner whose chance
+    falls in the step."""
+    if rule == CASCADE:
+        return wom_part(rule, warned, total, threshold, warning)
+    return hazard(rejection_rate(rule, warned, total, threshold, warning), dt, form)
+
+
+@compiled
+def rejects_first(adopt_left: float, adopt_hazard: float, reject_left: float, reject_hazard: float) -> bool:
+    """Both clocks rang in one step: whether the rejection came first.
+
+    ``adopt_left`` (``reject_left``) is what was left of the Exp(1) resistance at the start
+    of the step, ``adopt_hazard`` (``reject_hazard``) the step's hazard; with the hazard
+    constant over the step, each crossing comes at the fraction left / hazard of it (0 for
+    an infinite hazard). The earlier wins; a tie goes to adoption.
+
+    Examples
+    --------
+    >>> rejects_first(0.5, 1.0, 0.1, 1.0), rejects_first(0.1, 1.0, 0.5, 1.0)
+    (True, False)
+    """
+    fa = adopt_left / adopt_hazard if adopt_hazard < math.inf else 0.0
+    fr = reject_left / reject_hazard if reject_hazard < math.inf else 0.0
+    return fr < fa
+
+
+@compiled
+def crossing_fraction(step_hazard: float, u: float) -> float:
+    """Where in a step an Exp(1) clock rang, given that it rang in the step: the fraction of
+    the step's (constant) hazard h used, drawn from a uniform ``u``.
+
+    The rest of the resistance at the start of the step is Exp(1) (memorylessness); given
+    that it is at most h its distribution function is (1 − e^{−x}) / (1 − e^{−h}), so the
+    crossing is x = −ln(1 − u·(1 − e^{−h})) and the fraction x / h (0 for h = ∞). An engine
+    that draws a fresh uniform per step (the Mesa model) uses this to settle
+    :func:`rejects_first` with the law the resistances give.
+
+    Examples
+    --------
+    >>> round(crossing_fraction(1e-9, 0.25), 6), crossing_fraction(math.inf, 0.7)
+    (0.25, 0.0)
+    """
+    if step_hazard == math.inf:
+        return 0.0
+    return -math.log1p(u * math.expm1(-step_hazard)) / step_hazard
 
 
 # ----------------------------------------------------------------------------- the same, over arrays
@@ -347,6 +568,29 @@ def external_share(
     return out.reshape(shape)
 
 
+@compiled
+def _rejection_loop(rule, warned, total, threshold, warning, out):  # noqa: ANN001, ANN202
+    for k in range(out.size):
+        out[k] = rejection_rate(rule, warned[k], total[k], threshold[k], warning)
+
+
+def rejection_rates(
+    rule: str, warned: np.ndarray, total: np.ndarray, warning: float, threshold: np.ndarray | None = None
+) -> np.ndarray:
+    """ρᵢ per potential customer (:func:`rejection_rate` over arrays): the rate of becoming a
+    rejecter from the warners' weights Wᵢ (``warned``) and all neighbours' talkers Dᵢ.
+
+    Examples
+    --------
+    >>> rejection_rates("count", np.array([0.0, 2.0]), np.array([4.0, 4.0]), 0.1).tolist()
+    [0.0, 0.2]
+    """
+    shape, (w, d, th) = _flat(warned, total, _threshold_or_zero(rule, threshold))
+    out = np.empty(w.size)
+    _rejection_loop(rule_code(rule), w, d, th, float(warning), out)
+    return out.reshape(shape)
+
+
 def _steps(rates: np.ndarray | float, dt: float, form: str, as_hazard: bool) -> np.ndarray:
     code = form_code(form)
     shape, (r,) = _flat(rates)
@@ -430,9 +674,14 @@ def talk_weights(rule: str, tau: np.ndarray, satisfied_customer: np.ndarray, fre
     :func:`talk_weight` over arrays).
 
     Every rule but ``cascade``: its talkers τ if it is a satisfied customer, else 0.
-    ``cascade``: 1 during the period after it became a satisfied customer (``fresh``), else 0.
+    ``cascade``: 1 in the step of its persuasion attempt, one period after it became a
+    customer (``fresh``), else 0.
     """
-    given = [np.asarray(tau, dtype=np.float32), np.asarray(satisfied_customer, dtype=bool), np.asarray(fresh, dtype=bool)]
+    given = [
+        np.asarray(tau, dtype=np.float32),
+        np.asarray(satisfied_customer, dtype=bool),
+        np.asarray(fresh, dtype=bool),
+    ]
     shape = np.broadcast_shapes(*(a.shape for a in given))
     flat = [_flat_copy(a, shape, a.dtype.type) for a in given]
     out = np.empty(shape, dtype=np.float32)

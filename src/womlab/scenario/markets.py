@@ -576,6 +576,8 @@ class Products:
             (scenario.campaign.active, "[[campaign]]"),
             (bool(openings(scenario.market)), "market.opens"),
             (scenario.referral.active, "a referral programme ([referral])"),
+            (scenario.adoption.churns, "churn (adoption.churn, adoption.churn_dissatisfied)"),
+            (scenario.adoption.warns, "warnings (adoption.warning)"),
         ):
             if active:
                 raise ScenarioError(f"[[product]] cannot be combined with {what} yet; run them apart")

@@ -252,7 +252,10 @@ class Adoption:
     external : float
         External influence p (Bass coefficient of innovation), per period.
     word_of_mouth : float
-        Word-of-mouth influence q, per period (per talker for ``count`` and ``capped``).
+        Word-of-mouth influence q, per period (per talker for ``count`` and ``capped``); under
+        ``threshold`` the rate per period at which an organisation over its threshold adopts
+        (``inf``: in the step it crosses); under ``cascade`` the probability of each tie's one
+        chance, a period after the persuader adopted.
     satisfied_share : float
         Probability that a new customer is satisfied; only satisfied customers talk.
     talkers_per_customer : float or Talkers
@@ -263,6 +266,29 @@ class Adoption:
     threshold : Thresholds
         Distribution of the organisations' thresholds (``threshold``), e.g.
         ``{distribution = "uniform", low = 0, high = 1}``.
+
+    Customers who leave (churn):
+
+    churn : float
+        Rate per period at which a satisfied customer leaves (0: customers stay for ever).
+        A customer who leaves is a *former customer*: it no longer talks for the product,
+        is not counted in ``customers``, and does not become a customer again within the
+        horizon.
+    churn_dissatisfied : float, optional
+        The same rate for dissatisfied customers; default ``churn``.
+
+    Customers who warn (negative word of mouth):
+
+    warning : float
+        Strength of the warnings of dissatisfied customers, in the units of
+        ``word_of_mouth`` for the rule in use (a probability per tie under ``cascade``).
+        A potential customer exposed to warnings becomes a *rejecter*, who never adopts
+        within the horizon, at the rule's word-of-mouth rate with ``warning`` in place of q
+        and the warners' talkers in place of the satisfied customers' (0: no warnings).
+    former_warn : bool
+        Former customers warn too (needs ``warning`` > 0).
+    rejecters_warn : bool
+        Rejecters pass the warning on (needs ``warning`` > 0).
     """
 
     section: ClassVar[str] = "adoption"
@@ -273,11 +299,26 @@ class Adoption:
     talkers_per_customer: Talkers = field(default_factory=Talkers)
     cap: float = 0.05
     threshold: Thresholds = field(default_factory=Thresholds)
+    # churn
+    churn: float = 0.0
+    churn_dissatisfied: float | None = None
+    # negative word of mouth
+    warning: float = 0.0
+    former_warn: bool = False
+    rejecters_warn: bool = False
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("adoption.rule", self.rule, RULES)
-        if self.rule == "cascade":
-            in_unit("adoption.word_of_mouth", self.word_of_mouth)  # a probability per tie under cascade
+        for name in ("word_of_mouth", "warning"):
+            value = getattr(self, name)
+            if self.rule == "cascade":
+                in_unit(f"adoption.{name}", value)  # a probability per tie under cascade
+            elif self.rule == "threshold" and value == math.inf:
+                pass  # the instant crossing: the limit of an ever faster rate once over the threshold
+            elif not (math.isfinite(value) and value >= 0):
+                allowed = "a finite number >= 0 (or inf under the threshold rule)" if self.rule != "threshold" else (
+                    "a number >= 0 or inf")
+                fail(f"adoption.{name}", value, allowed)
         th = self.threshold
         one_of("adoption.threshold.distribution", th.distribution, THRESHOLD_DISTRIBUTIONS)
         for name in ("low", "high", "mean"):
@@ -286,12 +327,33 @@ class Adoption:
         if th.low >= th.high:
             fail("adoption.threshold.high", th.high, f"> adoption.threshold.low = {th.low}")
         non_negative("adoption.external", self.external)
-        non_negative("adoption.word_of_mouth", self.word_of_mouth)
         in_unit("adoption.satisfied_share", self.satisfied_share)
         in_unit("adoption.cap", self.cap)
         t = self.talkers_per_customer
         one_of("adoption.talkers_per_customer.distribution", t.distribution, TALKER_DISTRIBUTIONS)
         non_negative("adoption.talkers_per_customer.mean", t.mean)
+        non_negative("adoption.churn", self.churn)
+        if self.churn_dissatisfied is not None:
+            non_negative("adoption.churn_dissatisfied", self.churn_dissatisfied)
+        for name in ("former_warn", "rejecters_warn"):
+            if getattr(self, name) and self.warning == 0:
+                fail(f"adoption.{name}", True, "false while adoption.warning = 0 (only warnings make rejecters, and "
+                     "only warners pass them on); set adoption.warning > 0 or leave it out")
+
+    @property
+    def dissatisfied_churn(self) -> float:
+        """The churn rate of dissatisfied customers: ``churn_dissatisfied``, or ``churn`` when not given."""
+        return self.churn if self.churn_dissatisfied is None else self.churn_dissatisfied
+
+    @property
+    def churns(self) -> bool:
+        """Whether any customer can leave (a churn rate above 0)."""
+        return self.churn > 0 or self.dissatisfied_churn > 0
+
+    @property
+    def warns(self) -> bool:
+        """Whether warnings are on (``warning`` above 0)."""
+        return self.warning > 0
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -356,6 +418,19 @@ class RunSpec:
                     f'adoption.rule = "{rule}" cannot run on run.clock = "continuous": the continuous clock needs '
                     f"word-of-mouth influence at a constant rate per satisfied customer neighbour "
                     f'(rules {", ".join(CONTINUOUS_RULES)}); use run.clock = "discrete"'
+                )
+            if scenario.adoption.churns:
+                raise ScenarioError(
+                    f"adoption.churn = {scenario.adoption.churn!r}: churn (customers who leave) runs on run.clock = "
+                    '"discrete" only (the event engine keeps adoption times, not stays); use run.clock = "discrete" '
+                    "(or adoption.churn = 0 and adoption.churn_dissatisfied = 0)"
+                )
+            if scenario.adoption.warns:
+                raise ScenarioError(
+                    f"adoption.warning = {scenario.adoption.warning!r}: warnings cannot run on run.clock = "
+                    '"continuous": a potential customer who is warned before it adopts never adopts, which makes '
+                    "adoption a race between two spreads that first-passage times do not solve; use "
+                    'run.clock = "discrete" (or adoption.warning = 0)'
                 )
             if scenario.referral.active:
                 raise ScenarioError(
@@ -582,12 +657,22 @@ class Referral:
     lifetime_value : float, optional
         Alternative to ``value_per_period``: a customer's whole value, counted at its
         adoption period.
+    lifetime_value_from_churn : bool
+        Derive ``lifetime_value`` instead of giving it: ``value_per_period`` (default 1) as the
+        geometric annuity of ``adoption.churn`` and ``discount_rate``,
+        v·(1 + r)/(1 + r − e^{−δ}) (:func:`womlab.aggregate.geometric_lifetime_value`; Gupta &
+        Lehmann 2003). Needs ``adoption.churn`` above 0; one number for every customer, at the
+        satisfied customers' rate.
     discount_rate : float
         Discount rate per period r: a value or payment in period t counts (1 + r)^−t.
     lifetime : int, optional
         Periods both arms run past the horizon, the programme off, to split its value into
         acceleration and expansion (:func:`womlab.evaluate_programme`). Default: until the
         baseline's market is exhausted.
+    referred_churn_multiplier : float, optional
+        Multiplier on the churn rate of the customers the programme brings in (paid
+        referrals): below 1 they stay longer (Schmitt, Skiera & Van den Bulte 2011). Needs
+        churn (``adoption.churn`` or ``adoption.churn_dissatisfied`` above 0). Default 1.
     """
 
     section: ClassVar[str] = "referral"
@@ -609,6 +694,8 @@ class Referral:
     lifetime_value: float | None = None
     discount_rate: float = 0.0
     lifetime: int | None = None
+    referred_churn_multiplier: float | None = None
+    lifetime_value_from_churn: bool = False
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("referral.enrol", self.enrol, ENROLMENTS)
@@ -642,6 +729,25 @@ class Referral:
         for name in ("value_per_period", "lifetime_value"):
             if getattr(self, name) is not None:
                 non_negative(f"referral.{name}", getattr(self, name))
+        if self.referred_churn_multiplier is not None:
+            non_negative("referral.referred_churn_multiplier", self.referred_churn_multiplier)
+            if not scenario.adoption.churns:
+                fail("referral.referred_churn_multiplier", self.referred_churn_multiplier,
+                     "left out while no customer churns (adoption.churn and adoption.churn_dissatisfied are 0); "
+                     "set a churn rate > 0")
+
+        if self.lifetime_value_from_churn:
+            if self.lifetime_value is not None:
+                fail("referral.lifetime_value_from_churn", True, "false when referral.lifetime_value is given (the "
+                     "lifetime value is either given or derived from churn)")
+            if scenario.adoption.churn <= 0:
+                fail("referral.lifetime_value_from_churn", True, "false while adoption.churn = 0 (a lifetime value "
+                     "derived from churn needs customers who leave); set adoption.churn > 0")
+
+    @property
+    def churn_multiplier(self) -> float:
+        """``referred_churn_multiplier``, 1 when not given."""
+        return 1.0 if self.referred_churn_multiplier is None else float(self.referred_churn_multiplier)
 
     @property
     def active(self) -> bool:
@@ -822,6 +928,19 @@ for _name in ("referral.bonus", "referral.bonus_threshold"):
               lambda s: 'referral.scheme = "linear" pays no bonus (use "bonus" or "both")')
 no_effect("referral.reward", lambda s: s.referral.scheme == "bonus",
           lambda s: 'referral.scheme = "bonus" pays the bonus only (use "linear" or "both")')
+no_effect("adoption.talkers_per_customer", lambda s: s.adoption.rule == "cascade",
+          lambda s: 'adoption.rule = "cascade" (each tie is one chance with probability word_of_mouth; talkers play '
+                    "no part)")
+# churn and warnings: fields of a mechanism that cannot act in the scenario
+no_effect("adoption.churn_dissatisfied", lambda s: s.adoption.satisfied_share == 1,
+          lambda s: "adoption.satisfied_share = 1 (no customer is dissatisfied)")
+no_effect("adoption.warning", lambda s: s.adoption.satisfied_share == 1 and not (s.adoption.former_warn
+                                                                                and s.adoption.churns),
+          lambda s: "adoption.satisfied_share = 1 and no former customer warns (only dissatisfied customers, former "
+                    "customers with former_warn and rejecters with rejecters_warn warn)")
+no_effect("adoption.former_warn", lambda s: not s.adoption.churns,
+          lambda s: "no customer churns (adoption.churn and adoption.churn_dissatisfied are 0), so there are no former "
+                    "customers")
 for _name in ("run.time_step", "run.step_probability"):
     no_effect(_name, lambda s: s.run.clock == "continuous",
               lambda s: 'run.clock = "continuous" has no time step (exact adoption times)')

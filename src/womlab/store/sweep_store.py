@@ -215,7 +215,23 @@ class ResultsStore:
         if p.exists() and not p.is_dir():
             raise StoreError(f"--out {str(p)!r} exists and is not a folder")
         if p.is_dir() and not self.exists() and any(f.name != LOCK_NAME for f in p.iterdir()):
+            if self._lock_held():  # another process is starting a sweep here: locked() says so in one line
+                return
             raise StoreError(f"--out {str(p)!r} is not empty and holds no sweep manifest; use a new or empty folder")
+
+    def _lock_held(self) -> bool:
+        """Whether another process holds the folder's lock now (a sweep being started or run)."""
+        from filelock import FileLock, Timeout
+
+        if not (self.path / LOCK_NAME).exists():
+            return False
+        lock = FileLock(str(self.path / LOCK_NAME), timeout=0)
+        try:
+            lock.acquire()
+        except (Timeout, OSError):
+            return True
+        lock.release()
+        return False
 
     def create(self, manifest: dict[str, Any], points: pd.DataFrame) -> None:
         """Start a new sweep in the (empty, locked) folder: ``points.parquet``, then the manifest.

@@ -16,6 +16,7 @@ which a study's result asks :mod:`womlab.results` to draw or write it.
 
 from __future__ import annotations
 
+from womlab.studies.bad_news import value_of_bad_news
 from womlab.studies.calibration import (
     Fit,
     PosteriorDraws,
@@ -62,6 +63,7 @@ from womlab.studies.programme import (
     programme_ratios,
     roi,
     value_flow,
+    with_lifetime_value_from_churn,
 )
 from womlab.studies.referrals import (
     generation,
@@ -82,6 +84,8 @@ from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, r
 from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_study, sweep_studies, sweep_study
 
 __all__ = [
+    "value_of_bad_news",
+    "with_lifetime_value_from_churn",
     "plan",
     "programme_summary",
     "slow_steps",

@@ -26,6 +26,16 @@ It measures the gaps (:mod:`womlab.studies.metrics`), fits effective parameters
 (:mod:`womlab.aggregate.fitting`) and returns a :class:`Comparison` that holds the tables, draws
 the figure and writes a results folder.
 
+With churn (``adoption.churn`` above 0) the customer curve can fall, so the comparison is
+made on ``ever_customers`` (every organisation that was a customer by then) against Bass with
+churn (:mod:`womlab.aggregate.churn`; with warnings, ``adoption.warning`` above 0, Bass with
+churn and warnings): ``bass_churn_mapped`` (its ODE) and ``bass_churn_difference`` (its
+difference form in the run's step, the reference), plus the fitted Bass curve; the installed
+base of runs and models is in :meth:`Comparison.curve_table` and the figure. The degree
+mean-field and capped Bass difference models have neither, and are left out. The fitted Bass
+curve is fitted to the ever customers, so Q_eff / Q_mapped counts the word of mouth lost when
+customers leave (former customers no longer talk) as well as the network's.
+
 The discrete engines are compared with the step-form aggregate curves (and the Bass
 ODE); runs on the continuous clock (exact event times) only with the continuous forms —
 the Bass ODE and the degree mean-field ODE — since a difference model in a step the run
@@ -51,6 +61,7 @@ from womlab.aggregate import (
     bass_difference,
     bass_share,
     capped_bass_difference,
+    churn_curves,
     degree_mean_field_curve,
     fit_bass,
     fit_capped_bass_difference,
@@ -68,7 +79,7 @@ from womlab.studies.metrics import pooled_gaps, pooled_metrics, replicate_gaps, 
 from womlab.studies.presenting import present
 from womlab.studies.runner import Batch, run_replicates
 
-__all__ = ["Comparison", "compare", "aggregate_curves", "bass_fit_table"]
+__all__ = ["Comparison", "compare", "aggregate_curves", "bass_fit_table", "installed_base_curves"]
 
 
 def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[str, np.ndarray]:
@@ -80,6 +91,8 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
     continuous forms: ``bass_mapped`` and ``degree_mean_field`` (its ODE).
     """
     run, market, a = scenario.run, scenario.market, scenario.adoption
+    if a.churns or a.warns:  # ever customers of Bass with churn and warnings (installed base: installed_base_curves)
+        return {name: curve["ever_customers"].to_numpy() for name, curve in _churn_models(scenario).items()}
     par = mapped_parameters(scenario)
     t = np.arange(run.periods + 1, dtype=float)
     if network is None:
@@ -106,6 +119,18 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
 def _changing_market(scenario: Scenario) -> bool:
     return (scenario.adoption.rule in ("share", "count")
             and (scenario.segments.active or scenario.campaign.active or bool(openings(scenario.market))))
+
+
+def _churn_models(scenario: Scenario) -> dict[str, pd.DataFrame]:
+    return {"bass_churn_mapped": churn_curves(scenario, continuous=True), "bass_churn_difference": churn_curves(scenario)}
+
+
+def installed_base_curves(scenario: Scenario) -> dict[str, np.ndarray]:
+    """With churn: the installed base (customers who have not left) of each Bass-with-churn
+    curve of :func:`aggregate_curves`, as a share on periods 0..T; empty without churn."""
+    if not (scenario.adoption.churns or scenario.adoption.warns):
+        return {}
+    return {name: curve["customers"].to_numpy() for name, curve in _churn_models(scenario).items()}
 
 
 @dataclass(eq=False)
@@ -148,13 +173,21 @@ class Comparison:
     def scenario(self) -> Scenario:
         return self.batch.scenario
 
+    def shares(self) -> np.ndarray:
+        """The network curves compared, per replicate and period: the customer share, or with
+        churn the ever-customer share (:meth:`womlab.studies.Batch.ever_shares`)."""
+        return self.batch.ever_shares() if self.scenario.adoption.churns else self.batch.shares()
+
     @property
     def reference(self) -> str:
         """The mapped aggregate curve the headline is measured against: ``bass_difference``
         (same grid and step form as the runs), ``bass_mapped`` (the Bass ODE) on the
         continuous clock, ``capped_bass_difference`` for the ``capped`` rule, whose ceiling the
-        Bass curves do not have, or ``segment_model`` with segments, a campaign calendar or
-        parts of the market opening later (:mod:`womlab.aggregate.markets`)."""
+        Bass curves do not have, ``segment_model`` with segments, a campaign calendar or
+        parts of the market opening later (:mod:`womlab.aggregate.markets`), or
+        ``bass_churn_difference`` with churn or warnings."""
+        if self.scenario.adoption.churns or self.scenario.adoption.warns:
+            return "bass_churn_difference"
         if self.scenario.adoption.rule == "capped":
             return "capped_bass_difference"
         if _changing_market(self.scenario):
@@ -164,9 +197,21 @@ class Comparison:
     def curve_table(self) -> pd.DataFrame:
         """Per period: the network's mean, sd, q05, q50, q95 and every aggregate curve."""
         summary = self.batch.summary().drop(columns=["aggregate"])
+        if self.scenario.adoption.churns:  # the statistics of the curves compared; the installed base beside
+            shares = self.shares()
+            installed = self.batch.shares()
+            summary["mean"], summary["sd"] = shares.mean(axis=0), shares.std(axis=0, ddof=1) if len(shares) > 1 else 0.0
+            for q in ("q05", "q50", "q95"):
+                summary[q] = np.quantile(shares, int(q[1:]) / 100, axis=0)
+            summary["installed_base_mean"] = installed.mean(axis=0)
+            for name, curve in installed_base_curves(mapped_with(self.scenario, self._given())).items():
+                summary[f"installed_base_{name}"] = curve
         for name, curve in self.curves.items():
             summary[name] = curve
         return summary
+
+    def _given(self):  # noqa: ANN202
+        return None if self.batch.network is None else as_network(self.batch.network)
 
     def headline(self) -> dict[str, float]:
         """The numbers a summary leads with.
@@ -191,14 +236,16 @@ class Comparison:
             "t50_delay": float(m.loc["t50", "network"] - m.loc["t50", ref]),
             "t50_delay_low": float(m.loc["t50", "network_low"] - m.loc["t50", ref]),
             "t50_delay_high": float(m.loc["t50", "network_high"] - m.loc["t50", ref]),
-            "t50_degree_mean_field": float(m.loc["t50", "degree_mean_field"]),
+            "t50_degree_mean_field": float(m.loc["t50", "degree_mean_field"]) if "degree_mean_field" in m.columns
+            else float("nan"),
             "peak_ratio": float(m.loc["peak_new_share", "network"] / m.loc["peak_new_share", ref]),
             "peak_ratio_low": float(m.loc["peak_new_share", "network_low"] / m.loc["peak_new_share", ref]),
             "peak_ratio_high": float(m.loc["peak_new_share", "network_high"] / m.loc["peak_new_share", ref]),
             "max_gap": float(g.loc[ref, "gap_at_max"]),
             "time_of_max_gap": float(g.loc[ref, "time_of_max_gap"]),
             "rmse_reference": float(g.loc[ref, "rmse"]),
-            "rmse_degree_mean_field": float(g.loc["degree_mean_field", "rmse"]),
+            "rmse_degree_mean_field": float(g.loc["degree_mean_field", "rmse"]) if "degree_mean_field" in g.index
+            else float("nan"),
         }
         return out
 
@@ -312,7 +359,7 @@ def compare(
         batch = run_replicates(scenario, replicates, jobs=jobs, progress=progress, network=given)
         batch.network = network  # as given (a graph keeps its node attributes)
     seed = scenario.seed if seed is None else seed
-    shares = batch.shares()
+    shares = batch.ever_shares() if scenario.adoption.churns else batch.shares()
     par = mapped_parameters(mapped_with(scenario, given))
     curves = aggregate_curves(mapped_with(scenario, given), given)
     a, run = scenario.adoption, scenario.run

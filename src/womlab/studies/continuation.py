@@ -91,6 +91,19 @@ def truncate(run: RunResult, periods: int) -> RunResult:
             value = -1
         extra[key] = value
     time = None if run.adoption_time is None else np.where(late, np.nan, run.adoption_time)
+    mechanisms: dict[str, Any] = {}
+    if run.leave_period is not None:  # churn: a departure after the new horizon has not happened
+        gone_late = run.leave_period > periods
+        mechanisms["leave_period"] = np.where(gone_late, -1, run.leave_period).astype(run.leave_period.dtype)
+        if run.leave_time is not None:
+            mechanisms["leave_time"] = np.where(gone_late, np.nan, run.leave_time)
+    if run.rejection_period is not None:  # warnings: nor a rejection
+        rejected_late = run.rejection_period > periods
+        mechanisms["rejection_period"] = np.where(rejected_late, -1, run.rejection_period).astype(np.int32)
+        if run.warned_by is not None:
+            mechanisms["warned_by"] = np.where(rejected_late, -1, run.warned_by).astype(np.int32)
+        if run.rejection_time is not None:
+            mechanisms["rejection_time"] = np.where(rejected_late, np.nan, run.rejection_time)
     return replace(
         run,
         periods=periods,
@@ -99,15 +112,18 @@ def truncate(run: RunResult, periods: int) -> RunResult:
         satisfied=run.satisfied & ~late,
         extra=extra,
         adoption_time=time,
+        **mechanisms,
     )
 
 
 def _exhausted(run: RunResult, since: int, external: float) -> bool:
-    if external > 0:  # every organisation in the market is a customer (a part never opened is not in it)
-        won = run.adoption_period >= 0
-        if run.opens_at is not None:
-            won |= run.opens_at > run.periods
-        return bool(won.all())
+    if external > 0:  # everyone in the market adopted (or, with warnings, was warned off for good)
+        done = run.adoption_period >= 0
+        if run.rejection_period is not None:
+            done |= run.rejection_period >= 0
+        if run.opens_at is not None:  # a part never opened is not in the market
+            done |= run.opens_at > run.periods
+        return bool(done.all())
     return not bool((run.adoption_period > since).any())
 
 

@@ -54,8 +54,13 @@ def programme_summary(scenario: Scenario) -> str:
     if r.referred_reward:
         parts.append(f"{r.referred_reward:g} to each referred customer")
     parts.append(f"budget {r.budget:g}" if r.budget is not None else "no budget cap")
-    parts.append(f"lifetime value {r.lifetime_value:g}" if r.lifetime_value is not None else
-                 f"value {1.0 if r.value_per_period is None else r.value_per_period:g} per customer per period")
+    v = 1.0 if r.value_per_period is None else r.value_per_period
+    if r.lifetime_value_from_churn:
+        parts.append(f"lifetime value from churn ({v:g} per period, churn {scenario.adoption.churn:g}, "
+                     f"discount {r.discount_rate:g})")
+    else:
+        parts.append(f"lifetime value {r.lifetime_value:g}" if r.lifetime_value is not None else
+                     f"value {v:g} per customer per period")
     return ", ".join(parts)
 
 

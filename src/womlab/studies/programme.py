@@ -39,6 +39,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from womlab.aggregate import geometric_lifetime_value
 from womlab.dynamics import ENROLMENT_STREAM, PROGRAMME_ENGINES, RunResult, streams
 from womlab.errors import ScenarioError
 from womlab.networks import build_network
@@ -51,6 +52,8 @@ from womlab.studies.referrals import referral_tree_summary
 
 __all__ = [
     "customer_values",
+    "losses",
+    "with_lifetime_value_from_churn",
     "value_flow",
     "roi",
     "programme_economics",
@@ -65,13 +68,16 @@ def _value_per_period(referral: Referral) -> float:
     return 1.0 if referral.value_per_period is None else referral.value_per_period
 
 
-def customer_values(adoption_period: np.ndarray, referral: Referral, periods: int) -> np.ndarray:
+def customer_values(adoption_period: np.ndarray, referral: Referral, periods: int,
+                    leave_period: np.ndarray | None = None) -> np.ndarray:
     """Discounted value of each organisation as a customer, to the horizon (0 if it never adopts).
 
     With ``value_per_period`` v a customer that adopts in period a is worth
     v · Σₜ₌ₐᵀ (1 + r)^−t (it counts in every period in which it is a customer, the
     discounted customer-periods of the seeding study times v); with ``lifetime_value`` L
-    it is worth L · (1 + r)^−a.
+    it is worth L · (1 + r)^−a. With churn (``leave_period``, −1 = stayed) value accrues only
+    while a customer: one that leaves in period ℓ counts in periods a..ℓ − 1, v · Σₜ₌ₐ^{ℓ−1}
+    (1 + r)^−t (a given ``lifetime_value`` is a whole life, and is not cut).
     """
     ap = np.asarray(adoption_period)
     d = discount_factors(referral.discount_rate, periods)
@@ -79,7 +85,11 @@ def customer_values(adoption_period: np.ndarray, referral: Referral, periods: in
         per_period = referral.lifetime_value * d
     else:
         per_period = _value_per_period(referral) * np.cumsum(d[::-1])[::-1]  # Σ_{t=a}^{T} d_t
-    return np.where(ap >= 0, per_period[np.maximum(ap, 0)], 0.0)
+    value = np.where(ap >= 0, per_period[np.maximum(ap, 0)], 0.0)
+    if leave_period is not None and referral.lifetime_value is None:
+        lp = np.asarray(leave_period)
+        value = value - np.where(lp >= 0, per_period[np.maximum(lp, 0)], 0.0)  # Σ_{t=ℓ}^{T} d_t no longer earned
+    return value
 
 
 def value_flow(run: RunResult, referral: Referral) -> np.ndarray:
@@ -88,6 +98,71 @@ def value_flow(run: RunResult, referral: Referral) -> np.ndarray:
     if referral.lifetime_value is not None:
         return referral.lifetime_value * run.new_customers * d
     return _value_per_period(referral) * run.customers * d
+
+
+def with_lifetime_value_from_churn(scenario: Scenario) -> Scenario:
+    """``scenario`` with ``referral.lifetime_value`` derived from churn and the discount rate
+    instead of given: the geometric annuity v·(1 + r)/(1 + r − e^{−δ})
+    (:func:`womlab.aggregate.geometric_lifetime_value`; Gupta & Lehmann 2003), v the
+    ``value_per_period`` (default 1), r the ``discount_rate``, δ ``adoption.churn`` and the
+    run's own step.
+
+    One number for every customer, at the satisfied customers' churn rate: where dissatisfied
+    or referred customers churn at other rates, ``value_per_period`` with churn values each
+    customer only while it stays (:func:`customer_values`), which this leaves aside for a
+    whole-life figure. ``referral.lifetime_value_from_churn = true`` asks for it in a scenario
+    file: :func:`evaluate_programme`, the sweep's ``programme`` study and
+    :func:`womlab.studies.bad_news.value_of_bad_news` apply it first (with parameters drawn
+    from a fit's posterior, at the scenario's own churn rate).
+
+    Examples
+    --------
+    >>> s = Scenario.from_dict({"adoption": {"churn": 0.1},
+    ...                         "referral": {"value_per_period": 1.0, "discount_rate": 0.05}})
+    >>> t = with_lifetime_value_from_churn(s)
+    >>> round(t.referral.lifetime_value, 4), t.referral.value_per_period
+    (7.2333, None)
+    """
+    a, ref, run = scenario.adoption, scenario.referral, scenario.run
+    if not a.churns or a.churn == 0:
+        raise ScenarioError(f"adoption.churn must be > 0 to derive referral.lifetime_value from it, got {a.churn!r}")
+    value = geometric_lifetime_value(_value_per_period(ref), a.churn, ref.discount_rate, time_step=run.time_step,
+                                     form=run.step_probability)
+    return scenario.replace({"referral.value_per_period": None, "referral.lifetime_value": value,
+                             "referral.lifetime_value_from_churn": False})
+
+
+def _valued(scenario: Scenario) -> Scenario:
+    """``scenario`` with its lifetime value derived where ``referral.lifetime_value_from_churn`` asks."""
+    return with_lifetime_value_from_churn(scenario) if scenario.referral.lifetime_value_from_churn else scenario
+
+
+def losses(run: RunResult, referral: Referral, arm: str) -> dict[str, float]:
+    """Customers lost to churn and to warnings in one run, and the value churn cost.
+
+    ``former_<arm>``: customers who had left by the horizon; ``value_lost_to_churn_<arm>``:
+    what they would have earned, at ``value_per_period``, from leaving to the horizon
+    (discounted; 0 with a ``lifetime_value``, which is a whole life); ``rejecters_<arm>``:
+    organisations warned off for good. The value warnings cost needs a run without them:
+    :func:`womlab.studies.bad_news.value_of_bad_news`. Zeros where the mechanism is off.
+
+    Examples
+    --------
+    >>> from womlab import Scenario, run_one
+    >>> s = Scenario.from_dict({"market": {"organisations": 300, "initial_customers": 30},
+    ...                         "adoption": {"churn": 0.2}, "run": {"periods": 10}})
+    >>> out = losses(run_one(s), s.referral, "baseline")
+    >>> out["former_baseline"] > 0, out["value_lost_to_churn_baseline"] > 0, out["rejecters_baseline"]
+    (True, True, 0)
+    """
+    lost = 0.0
+    former = int(run.former_customers[-1])
+    if run.leave_period is not None and referral.lifetime_value is None:
+        d = discount_factors(referral.discount_rate, run.periods)
+        rest = _value_per_period(referral) * np.cumsum(d[::-1])[::-1]
+        lp = run.leave_period
+        lost = float(rest[lp[lp >= 0]].sum())
+    return {f"former_{arm}": former, f"value_lost_to_churn_{arm}": lost, f"rejecters_{arm}": int(run.rejecters[-1])}
 
 
 def roi(incremental_value: float, cost: float) -> float:
@@ -171,8 +246,8 @@ def programme_economics(
         raise ValueError("baseline and programme runs must have the same organisations and horizon")
     T = baseline.periods
     a0, a1 = baseline.adoption_period, programme.adoption_period
-    v0 = customer_values(a0, referral, T)
-    v1 = customer_values(a1, referral, T)
+    v0 = customer_values(a0, referral, T, baseline.leave_period)
+    v1 = customer_values(a1, referral, T, programme.leave_period)
     cost_flow = _cost_flow(programme, referral)
     cost = float(cost_flow.sum())
     inc_customers = int(programme.customers[-1] - baseline.customers[-1])
@@ -196,6 +271,8 @@ def programme_economics(
         "break_even_period": float(even[0]) if even.size else float("nan"),
     }
     out.update({f"{k}_at_horizon": v for k, v in _split(a0, a1, v0, v1).items()})
+    out.update(losses(baseline, referral, "baseline"))
+    out.update(losses(programme, referral, "programme"))
     if continued is None:
         out.update(dict.fromkeys(("acceleration", "expansion", "accelerated", "delayed", "expanded", "lost",
                                   "incremental_value_lifetime", "roi_lifetime", "continued_to"), float("nan")))
@@ -204,8 +281,9 @@ def programme_economics(
     if c0.n != baseline.n or c1.n != baseline.n or c0.periods != c1.periods or c0.periods < T:
         raise ValueError("the continued runs must have the same organisations and one horizon at or after T")
     H = c0.periods
-    split = _split(c0.adoption_period, c1.adoption_period, customer_values(c0.adoption_period, referral, H),
-                   customer_values(c1.adoption_period, referral, H))
+    split = _split(c0.adoption_period, c1.adoption_period,
+                   customer_values(c0.adoption_period, referral, H, c0.leave_period),
+                   customer_values(c1.adoption_period, referral, H, c1.leave_period))
     lifetime_value = split["acceleration"] + split["expansion"]
     out.update(split)
     out.update({"incremental_value_lifetime": lifetime_value, "roi_lifetime": roi(lifetime_value, cost),
@@ -346,11 +424,14 @@ class ProgrammeStudy:
                   "cost": (0.0, np.inf), "cost_undiscounted": (0.0, np.inf), "paid_referrals": (0.0, np.inf)}
         for name in ("accelerated", "expanded", "lost"):
             bounds[name] = bounds[f"{name}_at_horizon"] = (0.0, n)
+        for name in self._loss_columns():
+            bounds[name] = (0.0, n) if not name.startswith("value") else (0.0, np.inf)
         rows = []
         for col in ("incremental_customers", "incremental_value", "cost", "cost_undiscounted", "paid_referrals",
                     "acceleration", "expansion", "incremental_value_lifetime", "accelerated", "expanded", "lost",
                     "acceleration_at_horizon", "expansion_at_horizon", "accelerated_at_horizon",
-                    "expanded_at_horizon", "lost_at_horizon", "customers_baseline", "customers_programme"):
+                    "expanded_at_horizon", "lost_at_horizon", "customers_baseline", "customers_programme",
+                    *self._loss_columns()):
             x = table[col].to_numpy(dtype=float)
             ci = t_interval(x, bounds=bounds.get(col))
             rows.append({"outcome": col, "estimate": float(np.nanmean(x)) if np.isfinite(x).any() else float("nan"),
@@ -363,6 +444,12 @@ class ProgrammeStudy:
         table = pd.DataFrame(rows)
         table["parameters"] = self.parameters  # fixed, or drawn from a fit's posterior (intervals include it)
         return table
+
+    def _loss_columns(self) -> tuple[str, ...]:
+        """Churn and warnings: customers lost to each and the value churn cost, per arm (only where on)."""
+        a = self.scenario.adoption
+        names = (("former", "value_lost_to_churn") if a.churns else ()) + (("rejecters",) if a.warns else ())
+        return tuple(f"{name}_{arm}" for name in names for arm in ("baseline", "programme"))
 
     def curves(self) -> pd.DataFrame:
         """Per period: mean and 5–95 % band of the customer share, baseline and programme."""
@@ -466,6 +553,7 @@ def evaluate_programme(
     if not isinstance(scenario, Scenario):  # a fit: parameters drawn from its posterior per replicate
         draws, scenario = scenario.posterior_draws(), scenario.scenario()
     check_programme(scenario)
+    scenario = _valued(scenario)
     replicates = scenario.run.replicates if replicates is None else replicates
     jobs = scenario.run.jobs if jobs is None else jobs
     if replicates < 1:

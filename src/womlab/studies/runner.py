@@ -27,8 +27,16 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from womlab.aggregate import aggregate_curve, generations_difference, group_curves, mapped_generations, norton_bass
-from womlab.dynamics import CURVE_COLUMNS, RunResult, engine_for, streams
+from womlab.aggregate import (
+    aggregate_curve,
+    churn_curves,
+    expected_stay,
+    generations_difference,
+    group_curves,
+    mapped_generations,
+    norton_bass,
+)
+from womlab.dynamics import CHURN_COLUMNS, CURVE_COLUMNS, WARNING_COLUMNS, RunResult, engine_for, streams
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork, build_network
 from womlab.networks.given import GivenNetwork, as_network, mapped_with, node_attributes
@@ -406,8 +414,10 @@ class Batch:
             c.insert(0, "replicate", i)
             frames.append(c)
         table = pd.concat(frames, ignore_index=True)
-        extra = [c for c in table.columns if c not in ("replicate", *CURVE_COLUMNS)]  # market columns, if any
-        return table[["replicate", *CURVE_COLUMNS, *extra]]
+        a = self.scenario.adoption
+        columns = [*CURVE_COLUMNS, *(CHURN_COLUMNS if a.churns else ()), *(WARNING_COLUMNS if a.warns else ())]
+        extra = [c for c in table.columns if c not in ("replicate", *columns)]  # market columns, if any
+        return table[["replicate", *columns, *extra]]
 
     def summary(self, by: str | None = None) -> pd.DataFrame:
         """Per period: mean, sd, q05, q50, q95 of the customer share, and the aggregate prediction.
@@ -427,9 +437,23 @@ class Batch:
                                                                      ignore_index=True)
         return _summary_frame(self.shares(), self.aggregate())
 
+    def ever_shares(self) -> np.ndarray:
+        """Share of the market that was a customer at some time (``ever_customers``) per
+        replicate and period: array (R, T + 1); :meth:`shares` without churn."""
+        return np.vstack([r.ever_share for r in self.runs])
+
     def metrics(self, by: str | None = None) -> pd.DataFrame:
         """t10, t50, t90, peak period, peak new-customer share, final share: network median,
-        90 % interval, aggregate value; with ``by``, one block of rows per group (column ``group``)."""
+        90 % interval, aggregate value; with ``by``, one block of rows per group (column ``group``).
+
+        With churn the customer curve can fall, so these are measured on ``ever_customers``
+        (every organisation that was a customer by then; its new customers are the
+        adoptions) against the aggregate model's ever-customers curve, ``final_share``
+        included; two rows follow: ``installed_base``, the share that are customers at the
+        horizon, and ``mean_lifetime``, the mean time a customer stays in periods
+        (:meth:`womlab.RunResult.mean_lifetime`, censoring-aware), against
+        :func:`womlab.aggregate.expected_stay` where both kinds of customer churn alike.
+        """
         if by is not None:
             shares, names = self.group_shares(by)
             aggregate = self.group_aggregate(by)
@@ -439,7 +463,27 @@ class Batch:
                 frame.insert(0, "group", name)
                 frames.append(frame)
             return pd.concat(frames, ignore_index=True)
-        return metrics_table(self.shares(), self.aggregate())
+        if not self.scenario.adoption.churns:
+            return metrics_table(self.shares(), self.aggregate())
+        scenario = self.scenario
+        given = None if self.network is None else as_network(self.network)
+        agg = churn_curves(mapped_with(scenario, given))
+        a, run = scenario.adoption, scenario.run
+        if np.isnan(self.aggregate()).all():  # segments, a calendar or openings: no aggregate model has churn too
+            agg = agg * np.nan
+        table = metrics_table(self.ever_shares(), agg["ever_customers"].to_numpy())
+        same = a.churn == a.dissatisfied_churn and not np.isnan(agg["customers"].iloc[-1])
+        extra = []
+        for name, values, aggregate in (
+            ("installed_base", self.shares()[:, -1], float(agg["customers"].iloc[-1])),
+            ("mean_lifetime", np.array([r.mean_lifetime() for r in self.runs]),
+             expected_stay(a.churn, run.time_step, run.step_probability) if same else float("nan")),
+        ):
+            col = pd.Series(values)
+            extra.append({"metric": name, "network_median": col.median(), "network_q05": col.quantile(0.05),
+                          "network_q95": col.quantile(0.95), "runs_reaching": int(col.notna().sum()),
+                          "aggregate": aggregate})
+        return pd.concat([table, pd.DataFrame(extra)], ignore_index=True)
 
     def organisations(self, replicates: Sequence[int] | None = None) -> pd.DataFrame:
         """Per-organisation results: one row per replicate and organisation.

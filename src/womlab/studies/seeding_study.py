@@ -64,6 +64,8 @@ __all__ = [
 ]
 
 OUTCOMES = ("customers", "t50", "peak_period", "customer_periods")
+#: Outcomes a run adds where churn (the first two) or warnings (the last) are on.
+LOSS_OUTCOMES = ("former_customers", "customer_periods_lost_to_churn", "rejecters")
 SNAPSHOT_MAX_ORGANISATIONS = 600
 BOOTSTRAP_KEY = (2**32 - 1, 0)  # spawn key of the bootstrap stream: no replicate uses it
 
@@ -83,14 +85,23 @@ def run_outcomes(result: RunResult, discount_rate: float = 0.0, keep_first: bool
     """
     customers = result.customers
     share = result.share
-    m = curve_metrics(share)
+    m = curve_metrics(result.ever_share if result.churns else share)  # with churn: t50 and peak of adoptions
+    d = discount_factors(discount_rate, customers.size - 1)
     out = {
         "customers": int(customers[-1]),
         "t50": m["t50"],
         "peak_period": int(m["peak_period"]),
-        "customer_periods": float(np.sum(customers[1:] * discount_factors(discount_rate, customers.size - 1)[1:])),
+        "customer_periods": float(np.sum(customers[1:] * d[1:])),  # with churn: only while customers
         "share": share.astype(np.float32),
     }
+    if result.churns:  # customers lost to churn, and the discounted customer-periods they no longer count
+        rest = np.cumsum(d[::-1])[::-1]
+        rest[0] -= d[0]  # customer-periods count from period 1
+        lp = result.leave_period
+        out["former_customers"] = int(result.former_customers[-1])
+        out["customer_periods_lost_to_churn"] = float(rest[lp[lp >= 0]].sum())
+    if result.warns:
+        out["rejecters"] = int(result.rejecters[-1])
     if keep_first and tuple(result.spawn_key) == (0,):
         out["run"] = result
     return out
@@ -226,14 +237,16 @@ class SeedingStudy:
         s = self.scenario
         n, periods = s.market.organisations, s.run.periods
         bounds = {"customers": (0.0, float(n)), "peak_period": (1.0, float(periods)),
-                  "customer_periods": (0.0, float(n * periods))}
+                  "customer_periods": (0.0, float(n * periods)), "former_customers": (0.0, float(n)),
+                  "customer_periods_lost_to_churn": (0.0, float(n * periods)), "rejecters": (0.0, float(n))}
         wide = {name: g.sort_values("replicate") for name, g in self.runs.groupby("strategy", sort=False)}
         base = wide["random"][study.outcome].to_numpy(dtype=float)
         rows = []
         for name in self.strategies:
             g = wide[name]
             row: dict[str, Any] = {"strategy": name, "replicates": len(g)}
-            for outcome in ("customers", "peak_period", "customer_periods"):
+            losses = tuple(k for k in LOSS_OUTCOMES if k in g.columns)  # churn and warnings, where on
+            for outcome in ("customers", "peak_period", "customer_periods", *losses):
                 x = g[outcome].to_numpy(dtype=float)
                 ci = t_interval(x, bounds=bounds[outcome])
                 row[f"{outcome}_mean"] = float(x.mean())
@@ -339,7 +352,7 @@ def compare_strategies(
         shares[name] = np.vstack([o["share"] for o in reduced[name]])
         for r, o in enumerate(reduced[name]):
             rows.append({"replicate": r, "strategy": name, **{k: o[k] for k in OUTCOMES},
-                         "final_share": float(o["share"][-1])})
+                         "final_share": float(o["share"][-1]), **{k: o[k] for k in LOSS_OUTCOMES if k in o}})
     kept = None
     if snapshot:
         # replicate 0's network, rebuilt from its own network stream: the one its runs were on

@@ -59,7 +59,12 @@ from womlab.scenario.registry import register_sweep_study_name
 from womlab.studies.continuation import continue_paired
 from womlab.studies.intervals import FewReplicatesWarning
 from womlab.studies.metrics import curve_metrics, mean_interval
-from womlab.studies.programme import check_programme, programme_economics, programme_ratios
+from womlab.studies.programme import (
+    check_programme,
+    programme_economics,
+    programme_ratios,
+    with_lifetime_value_from_churn,
+)
 from womlab.studies.runner import run_paired
 from womlab.studies.seeding_study import BOOTSTRAP_KEY, lift_statistics, run_outcomes
 from womlab.studies.seeding_study import OUTCOMES as SEEDING_OUTCOMES
@@ -199,10 +204,11 @@ def run_point_run(scenario: Scenario, key: tuple[int, int], network: ReferralNet
                   curves: bool) -> tuple[Row, Curve | None]:
     """The ``run`` study at one key: one run, its adoption outcomes and (if asked) its curve."""
     result = run_paired({"run": scenario}, 1, keys=[key], network=network)["run"][0]
-    m = curve_metrics(result.share)
+    # with churn the installed base can fall: times and the peak are those of adoptions (ever customers)
+    m = curve_metrics(result.ever_share if result.churns else result.share)
     customers, new, satisfied = result.customers, result.new_customers, result.satisfied_customers
     row = {"customers": int(customers[-1]), "satisfied_customers": int(satisfied[-1]),
-           "final_share": m["final_share"], "t10": m["t10"], "t50": m["t50"], "t90": m["t90"],
+           "final_share": float(result.share[-1]), "t10": m["t10"], "t50": m["t50"], "t90": m["t90"],
            "peak_period": int(m["peak_period"]), "peak_new_share": m["peak_new_share"]}
     curve = None
     if curves:
@@ -250,6 +256,8 @@ PROGRAMME_BOOTSTRAP = 2000
 def run_point_programme(scenario: Scenario, key: tuple[int, int], network: ReferralNetwork | None,
                         curves: bool) -> tuple[Row, Curve | None]:
     """The ``programme`` study at one key: the programme and its baseline, paired, and their economics."""
+    if scenario.referral.lifetime_value_from_churn:
+        scenario = with_lifetime_value_from_churn(scenario)
     baseline = scenario.replace("referral.enrol", "none")
     cont = continue_paired({"baseline": baseline, "programme": scenario}, 1, keys=[key], network=network,
                            lifetime=scenario.referral.lifetime)
