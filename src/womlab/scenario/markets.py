@@ -617,7 +617,8 @@ def market_lines(scenario: Any) -> list[tuple[str, str]]:
             (
                 "opens later",
                 ", ".join(
-                    f"{'region ' + str(o.region) if o.region is not None else 'segment ' + str(o.segment)} in period {o.period}"
+                    f"{'region ' + str(o.region) if o.region is not None else 'segment ' + str(o.segment)} "
+                    + ("never (unless a lever opens it)" if o.period is None else f"in period {o.period}")
                     for o in entries
                 ),
             )
