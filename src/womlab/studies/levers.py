@@ -529,12 +529,14 @@ class LeverStudy:
 
     def stage(self) -> pd.DataFrame:
         """The baseline's stage at each period pulled: ``share_reached`` (mean customer share at
-        the end of the period), ``new_customers`` (mean that period), ``stage`` (``before peak``,
+        the end of the period), ``share_of_open_market`` (of the organisations in the market then,
+        which differs when parts of it open later or never), ``new_customers`` (mean that period), ``stage`` (``before peak``,
         ``at peak`` or ``after peak`` of the mean new customers per period, ``peak_period``),
         and the aggregate model's inflection period (``aggregate_peak_period``: the period of
         most new customers in :func:`womlab.aggregate_curve`, NaN where the rule has none)."""
         shares = np.vstack([r.share for r in self.baseline])
         mean = shares.mean(axis=0)
+        open_share = np.vstack([r.share_of_current_market for r in self.baseline]).mean(axis=0)
         new = np.diff(mean, prepend=mean[0])
         peak = int(np.argmax(new[1:]) + 1)
         agg = aggregate_curve(_baseline(self.scenario))
@@ -547,6 +549,7 @@ class LeverStudy:
                 {
                     "pulled_at": t,
                     "share_reached": float(mean[t]),
+                    "share_of_open_market": float(open_share[t]),
                     "new_customers": float(new[t]),
                     "stage": where,
                     "peak_period": peak,
