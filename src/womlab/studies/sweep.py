@@ -42,6 +42,8 @@ in which it joined the folder). Anything else that differs is refused, naming it
 
 from __future__ import annotations
 
+import gc
+
 import hashlib
 import math
 import time
@@ -549,11 +551,18 @@ def _connect(scheduler: str | None, cluster: str | None, processes: bool, securi
                 local.close()
             raise ClusterError(f"cannot start a local Dask cluster ({cluster}): {exc}") from None
         return client, local, f"dask LocalCluster ({cluster}, {'processes' if processes else 'threads'}, TLS)", n
+    # A client that failed to start is closed when it is garbage-collected; if that happens while
+    # another client starts its event-loop thread, the two wait on each other (seen in the suite).
+    # Collect such leftovers here, at a safe point, and again right after a failure.
+    gc.collect()
+    reason = None
     try:
         client = Client(scheduler, timeout=timeout, security=security)
     except Exception as exc:  # noqa: BLE001 - malformed, unreachable or refusing: one line
         reason = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise ClusterError(f"cannot reach the scheduler at {scheduler} within {timeout:g} s: {reason[:200]}") from None
+    if reason is not None:
+        gc.collect()  # outside the handler, so the failed client is no longer held by the traceback
+        raise ClusterError(f"cannot reach the scheduler at {scheduler} within {timeout:g} s: {reason[:200]}")
     return client, None, f"dask scheduler {scheduler}", max(1, sum(client.nthreads().values()))
 
 
