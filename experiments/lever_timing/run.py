@@ -35,8 +35,11 @@ from womlab.store import atomic_write
 
 KINDS = {
     "random": {"network.kind": "random"},
-    "regional, strongly clustered": {"network.kind": "regional", "network.within_region_share": 0.95,
-                                     "network.rewiring": 0.05},
+    "regional, strongly clustered": {
+        "network.kind": "regional",
+        "network.within_region_share": 0.95,
+        "network.rewiring": 0.05,
+    },
     "scale_free": {"network.kind": "scale_free"},
 }
 CRITERIA = ("incremental_value", "incremental_value_lifetime", "roi")
@@ -50,15 +53,21 @@ def figure(studies: dict[str, womlab.LeverStudy]) -> Figure:
         table = study.table()
         for name in study.levers:
             rows = table[table["lever"] == name]
-            top.fill_between(rows["pulled_at"], rows["incremental_value_low"], rows["incremental_value_high"],
-                             color=LEVER_COLOURS[name], alpha=0.15, lw=0)
-            top.plot(rows["pulled_at"], rows["incremental_value"], "o-", ms=3, lw=1.6, color=LEVER_COLOURS[name],
-                     label=name)
+            top.fill_between(
+                rows["pulled_at"],
+                rows["incremental_value_low"],
+                rows["incremental_value_high"],
+                color=LEVER_COLOURS[name],
+                alpha=0.15,
+                lw=0,
+            )
+            top.plot(
+                rows["pulled_at"], rows["incremental_value"], "o-", ms=3, lw=1.6, color=LEVER_COLOURS[name], label=name
+            )
         cross = study.crossover("incremental_value")
         curve = study.curve()
         bottom.plot(curve["period"], curve["share"], color="#1f5f8b", lw=2)
-        bottom.fill_between(curve["period"], curve["share_q05"], curve["share_q95"], color="#1f5f8b", alpha=0.18,
-                            lw=0)
+        bottom.fill_between(curve["period"], curve["share_q05"], curve["share_q95"], color="#1f5f8b", alpha=0.18, lw=0)
         peak = int(study.stage()["peak_period"].iloc[0])
         bottom.axvline(peak, color="#1f5f8b", ls=":", lw=1.2)
         for ax in (top, bottom):
@@ -75,16 +84,20 @@ def figure(studies: dict[str, womlab.LeverStudy]) -> Figure:
             top.set_ylabel("incremental discounted value to the horizon")
             bottom.set_ylabel("baseline customer share")
             top.legend(fontsize=8, frameon=False)
-    fig.suptitle("Which lever, when (invented levers-demo market; dashed: crossover, shaded: its 95 % interval)",
-                 fontsize=11)
+    fig.suptitle(
+        "Which lever, when (invented levers-demo market; dashed: crossover, shaded: its 95 % interval)", fontsize=11
+    )
     return fig
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--out", default="out/experiments/lever_timing",
-                        help="folder for levers.csv, crossover.csv, best.csv, levers.png (default %(default)s; the "
-                             "tracked results are experiments/lever_timing/results)")
+    parser.add_argument(
+        "--out",
+        default="out/experiments/lever_timing",
+        help="folder for levers.csv, crossover.csv, best.csv, levers.png (default %(default)s; the "
+        "tracked results are experiments/lever_timing/results)",
+    )
     parser.add_argument("--jobs", type=int, default=None, help="worker processes (default run.jobs)")
     parser.add_argument("--replicates", type=int, default=None, help="paired replicates (default run.replicates)")
     args = parser.parse_args()
@@ -102,8 +115,15 @@ def main() -> None:
         for by in CRITERIA:
             c = study.crossover(by)
             at = stage.loc[int(c["period"]), "share_reached"] if np.isfinite(c["period"]) else np.nan
-            crossings.append({"network": kind, **c, "share_reached_at_crossover": at,
-                              "peak_period": int(stage["peak_period"].iloc[0]), "replicates": study.replicates})
+            crossings.append(
+                {
+                    "network": kind,
+                    **c,
+                    "share_reached_at_crossover": at,
+                    "peak_period": int(stage["peak_period"].iloc[0]),
+                    "replicates": study.replicates,
+                }
+            )
         best = study.best()
         best.insert(0, "network", kind)
         bests.append(best)

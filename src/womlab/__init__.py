@@ -126,8 +126,6 @@ from womlab.studies import (
     design_points,
     evaluate_programme,
     fit_observed,
-    value_of_bad_news,
-    with_lifetime_value_from_churn,
     generations,
     lever_timing,
     lift_statistics,
@@ -162,6 +160,8 @@ from womlab.studies import (
     sweep_studies,
     time_to_share,
     top_degree_referral_share,
+    value_of_bad_news,
+    with_lifetime_value_from_churn,
     word_of_mouth_by_period,
 )
 
