@@ -40,3 +40,13 @@ def own_network(graph: nx.Graph, edges: pd.DataFrame) -> pd.DataFrame:
 def demos(folder: Path) -> Path:
     names: list[str] = womlab.demo_names()
     return womlab.write_demo(names[0], folder, overwrite=True)
+
+
+def levers(out: Path) -> pd.DataFrame:
+    s: womlab.Scenario = womlab.load_scenario("levers-demo")
+    study: womlab.LeverStudy = womlab.lever_timing(s, ["campaign", "open_region"], range(0, 30, 6), 4, jobs=1)
+    fig: matplotlib.figure.Figure = study.figure(by="roi")
+    fig.savefig(out / "levers.png")
+    best: pd.DataFrame = study.best()
+    assert not best.empty
+    return study.table()

@@ -34,7 +34,7 @@ from scipy.integrate import solve_ivp
 from womlab.errors import WomlabError
 from womlab.rules import step_probability
 from womlab.scenario import Scenario
-from womlab.scenario.markets import openings
+from womlab.scenario.markets import opening_period, openings
 
 __all__ = [
     "SegmentParameters",
@@ -162,7 +162,7 @@ def opening_by_group(scenario: Scenario) -> np.ndarray:
     out = np.zeros(cells.weights.size, dtype=np.int64)
     for o in openings(scenario.market):
         hit = _matches(cells, scenario, o.region, o.segment)
-        out[hit] = np.maximum(out[hit], o.period)
+        out[hit] = np.maximum(out[hit], opening_period(o, scenario.run.periods))
     return out
 
 

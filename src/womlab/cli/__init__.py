@@ -17,13 +17,13 @@ import sys
 import typing
 import warnings
 
-from womlab.cli import check, compare, fit, init, referral, run, seeding, sweep, view
+from womlab.cli import check, compare, fit, init, levers, referral, run, seeding, sweep, view
 from womlab.errors import WomlabError
 
 __all__ = ["main", "build_parser", "COMMANDS"]
 
 #: The command modules, in the order ``womlab --help`` lists them (check first: try it before a run).
-COMMANDS = (check, run, seeding, referral, compare, sweep, fit, init, view)
+COMMANDS = (check, run, seeding, referral, levers, compare, sweep, fit, init, view)
 
 
 class _Parser(argparse.ArgumentParser):

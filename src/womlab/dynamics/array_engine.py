@@ -73,6 +73,7 @@ from womlab import rules
 from womlab.dynamics.markets import market_inputs
 from womlab.dynamics.products import run_products
 from womlab.dynamics.programme import boosted, idle_ledger, settle_step, start_programme
+from womlab.dynamics.references import with_references
 from womlab.dynamics.run_result import RunResult
 from womlab.dynamics.streams import CHURN_STREAM, WARNING_STREAM, mechanism_rng
 from womlab.networks import ReferralNetwork
@@ -495,6 +496,8 @@ def run_array(
     spp = run.steps_per_period
     # segments and the campaign calendar (all None without them; drawn from a stream of their own)
     market = market_inputs(scenario, network, rng)
+    # [[reference]]: customers won in a period, written into the calendar
+    market, references = with_references(scenario, network, initial, rng, market, simulate=run_array)
     external = market.external if external is None else external
     group = market.group if group is None else group
     external_weight = market.external_weight if external_weight is None else external_weight
@@ -565,7 +568,7 @@ def run_array(
         engine="array",
         adoption_time=np.where(adopted, adoption_step / spp, np.nan),
         report_every=run.report_every,
-        extra={} if programme is None else programme.record(),
+        extra=_with_references({} if programme is None else programme.record(), references),
         segment=market.segment,
         segment_names=market.segment_names,
         value=market.value,
@@ -578,6 +581,14 @@ def run_array(
         warned_by=warned_by if nw else None,
         rejection_time=np.where(rejection_step >= 0, rejection_step / spp, np.nan) if nw else None,
     )
+
+
+def _with_references(extra: dict, references: tuple[np.ndarray, ...]) -> dict:
+    """``extra`` with the organisations each ``[[reference]]`` entry chose (``references``: a tuple
+    of id arrays, one per entry), when there are any."""
+    if references:
+        extra["references"] = references
+    return extra
 
 
 def _leave_period(leave_step: np.ndarray, periods: int, spp: int) -> np.ndarray:

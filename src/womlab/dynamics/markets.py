@@ -29,7 +29,7 @@ from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork
 from womlab.networks.edgelist import read_node_traits
 from womlab.scenario import Scenario
-from womlab.scenario.markets import openings
+from womlab.scenario.markets import opening_period, openings
 
 __all__ = [
     "MarketInputs",
@@ -214,7 +214,7 @@ def opening_periods(scenario: Scenario, network: ReferralNetwork, segment: np.nd
             members = network.region == _region_code(o.region, network, f"market.opens[{i}].region")
         else:
             members = segment == scenario.segments.code(o.segment, f"market.opens[{i}].segment")
-        out[members] = np.maximum(out[members], o.period)
+        out[members] = np.maximum(out[members], opening_period(o, scenario.run.periods))
     return out
 
 

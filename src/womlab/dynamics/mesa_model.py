@@ -62,6 +62,7 @@ parameters), so womlab's scenario is kept as :attr:`ReferralModel.womlab_scenari
 from __future__ import annotations
 
 import bisect
+import copy
 import dataclasses
 import difflib
 import inspect
@@ -100,6 +101,7 @@ except ImportError:  # Mesa <= 3.4
 from womlab import rules  # noqa: E402
 from womlab.dynamics.markets import market_inputs  # noqa: E402
 from womlab.dynamics.programme import start_programme  # noqa: E402
+from womlab.dynamics.references import with_references  # noqa: E402
 from womlab.dynamics.run_result import RunResult  # noqa: E402
 from womlab.dynamics.streams import CHURN_STREAM, WARNING_STREAM, mechanism_rng, streams  # noqa: E402
 from womlab.errors import ScenarioError  # noqa: E402
@@ -565,11 +567,15 @@ class ReferralModel(mesa.Model):
             rng = np.random.default_rng(st.dynamics)
         elif not isinstance(rng, np.random.Generator):
             rng = np.random.default_rng(rng)
+        fresh = copy.deepcopy(rng)  # the stream as it starts, for [[reference]]'s look at the run without it
         super().__init__(rng=rng)  # model.rng is the dynamics stream itself
         # None without a programme; enrolment has its own stream, model.rng is not advanced
         self.programme = start_programme(scenario, network, self.rng)
         # segments and the campaign calendar: their own stream too (dynamics.markets)
         self.market = market_inputs(scenario, network, self.rng)
+        # reference customers won in a period: written into that calendar (dynamics.references)
+        self.market, self.reference_ids = with_references(scenario, network, initial, fresh, self.market,
+                                                       simulate=run_mesa)
         if self.market.opens_at is not None:  # markets that grow: a seed in a part not yet open is left out
             initial = initial[self.market.opens_at[initial] == 0]
         # churn: a stream of its own (model.rng is not advanced), one uniform per customer per step
@@ -897,7 +903,8 @@ class ReferralModel(mesa.Model):
             engine="mesa",
             adoption_time=np.where(step >= 0, step / run.steps_per_period, np.nan),
             report_every=run.report_every,
-            extra=self.programme.record() if self.programme is not None else self._product_record(),
+            extra={**(self.programme.record() if self.programme is not None else self._product_record()),
+                   **({"references": self.reference_ids} if self.reference_ids else {})},
             segment=self.market.segment,
             segment_names=self.market.segment_names,
             value=self.market.value,

@@ -28,6 +28,7 @@ from womlab.results.figures import (
 )
 from womlab.results.fit import fit_figure, overlay_observed
 from womlab.results.groups import group_figure, product_figure
+from womlab.results.levers import lever_figure, save_levers
 from womlab.results.report import sensitivity_table, sweep_figures, sweep_summary, write_report
 from womlab.results.save import (
     check_output_folder,
@@ -40,6 +41,7 @@ from womlab.results.save import (
 )
 from womlab.studies.calibration import Fit
 from womlab.studies.compare import Comparison
+from womlab.studies.levers import LeverStudy
 from womlab.studies.presenting import register
 from womlab.studies.sweep import SweepSummary
 
@@ -48,6 +50,8 @@ register(Comparison, "save", save_comparison)
 register(SweepSummary, "report", lambda summary: write_report(summary.out, lock=False))  # the sweep holds the lock
 register(Fit, "figure", fit_figure)
 register(Fit, "save", save_fit)
+register(LeverStudy, "figure", lever_figure)
+register(LeverStudy, "save", save_levers)
 
 __all__ = [
     "FIGURE_FORMATS",
@@ -75,4 +79,6 @@ __all__ = [
     "overlay_observed",
     "group_figure",
     "product_figure",
+    "lever_figure",
+    "save_levers",
 ]

@@ -54,6 +54,8 @@ OUTPUTS: dict[str, tuple[str, ...]] = {
             "holdout.csv", "fit.{fmt}"),
     "referral": ("programme_summary.csv", "programme_runs.csv", "programme_curves.csv", "programme_cumulative.csv",
                  "referral_tree.csv", "programme.{fmt}", "referral_tree.{fmt}"),
+    "levers": ("levers.csv", "levers_best.csv", "levers_crossover.csv", "levers_stage.csv", "levers_runs.csv",
+               "levers_curve.csv", "levers.{fmt}"),
 }
 _NOT_RESULTS = (("run", "jobs"), ("run", "replicates"), ("study", "replicates"))
 #: Forms of the optional per-organisation file of a results folder.
@@ -75,6 +77,8 @@ def sections_in_use(scenario: Scenario, command: str) -> tuple[str, ...]:
         used.append("referral")
     if command == "fit":
         used.append("fit")
+    if command == "levers":
+        used += [name for name in ("referral", "levers") if name not in used]
     return tuple(used)
 
 

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 from womlab.scenario.fit_spec import PRIOR_DISTRIBUTIONS, FitSpec, Prior
 from womlab.scenario.labels import field_label
+from womlab.scenario.levers import Levers, LeverSettings, Reference, References
 from womlab.scenario.markets import Campaign, Campaigns, Product, Products, Segment, Segments
 from womlab.scenario.resources import Estimate, check_resources, estimate_resources
 from womlab.scenario.sections import (
@@ -72,6 +73,10 @@ __all__ = [
     "Campaigns",
     "Product",
     "Products",
+    "Levers",
+    "LeverSettings",
+    "Reference",
+    "References",
     "Scenario",
     "SECTIONS",
     "field_type",

@@ -44,7 +44,12 @@ __all__ = [
     "Product",
     "Products",
     "SHARE_TOLERANCE",
+    "NEVER",
+    "opening_period",
 ]
+
+#: ``market.opens`` period of a part of the market that never opens in the run.
+NEVER = "never"
 
 #: How far the segment shares may sum from 1 (rounding in a hand-written file).
 SHARE_TOLERANCE = 1e-6
@@ -340,9 +345,10 @@ def _group_words(a: Campaign, b: Campaign) -> str:
 class Opening:
     """One entry of ``market.opens``: a region (code, or value as given in a node file) or a segment
     that enters the market in ``period``. Before it, its organisations are not potential customers,
-    feel no influence and are not counted in the market."""
+    feel no influence and are not counted in the market. ``period = "never"`` (None here): a part
+    that stays closed for the whole run, and past it (a lever may open it; :mod:`womlab.studies.levers`)."""
 
-    period: int
+    period: int | None
     region: Any = None
     segment: str | None = None
 
@@ -374,14 +380,23 @@ def openings(market: Any) -> tuple[Opening, ...]:
         if region is not None and (isinstance(region, bool) or not isinstance(region, (int, str))):
             fail(f"{where}.region", region, "a region code or a region value as given")
         segment = entry.get("segment")
+        never = isinstance(entry["period"], str) and entry["period"] == NEVER
+        if isinstance(entry["period"], str) and not never:
+            fail(f"{where}.period", entry["period"], f'a period between 1 and run.periods, or "{NEVER}"')
         out.append(
             Opening(
-                period=coerce(entry["period"], int, f"{where}.period"),
+                period=None if never else coerce(entry["period"], int, f"{where}.period"),
                 region=region,
                 segment=None if segment is None else coerce(segment, str, f"{where}.segment"),
             )
         )
     return tuple(out)
+
+
+def opening_period(opening: Opening, periods: int) -> int:
+    """The period in which ``opening``'s part enters a run of ``periods`` periods: its own period, or
+    ``periods + 1`` (after the run's end) for one that never opens."""
+    return periods + 1 if opening.period is None else int(opening.period)
 
 
 def check_openings(scenario: Any) -> None:
@@ -394,8 +409,8 @@ def check_openings(scenario: Any) -> None:
     seen: dict[str, int] = {}
     for i, o in enumerate(entries):
         where = f"market.opens[{i}]"
-        if not 1 <= o.period <= T:
-            fail(f"{where}.period", o.period, f"a period between 1 and run.periods = {T}")
+        if o.period is not None and not 1 <= o.period <= T:
+            fail(f"{where}.period", o.period, f'a period between 1 and run.periods = {T}, or "{NEVER}"')
         if (o.region is None) == (o.segment is None):
             raise ScenarioError(
                 f"{where} needs exactly one of region and segment, got region = {o.region!r} and "
@@ -602,7 +617,8 @@ def market_lines(scenario: Any) -> list[tuple[str, str]]:
             (
                 "opens later",
                 ", ".join(
-                    f"{'region ' + str(o.region) if o.region is not None else 'segment ' + str(o.segment)} in period {o.period}"
+                    f"{'region ' + str(o.region) if o.region is not None else 'segment ' + str(o.segment)} "
+                    + ("never (unless a lever opens it)" if o.period is None else f"in period {o.period}")
                     for o in entries
                 ),
             )

@@ -15,6 +15,8 @@ hand it down when they are imported (``import womlab`` imports them all):
 * the names of the studies a sweep point can run (:mod:`womlab.studies.sweep_studies`
   registers each with :func:`register_sweep_study_name`, with the fields that study sets
   itself), against which ``sweep.study`` and the sweep's axes are checked.
+* the levers a ``[levers]`` section may set (:mod:`womlab.studies.levers` registers each with
+  :func:`register_lever_name`, with the check of its settings).
 """
 
 from __future__ import annotations
@@ -24,11 +26,13 @@ from pathlib import Path
 
 __all__ = ["register_strategy_name", "strategy_names", "register_network_file_reader", "network_file_facts",
            "network_file_kinds", "register_edgelist_reader", "edgelist_facts",
-           "register_sweep_study_name", "sweep_study_names", "sweep_study_fixed_fields"]
+           "register_sweep_study_name", "sweep_study_names", "sweep_study_fixed_fields",
+           "register_lever_name", "lever_names", "lever_check"]
 
 _STRATEGY_NAMES: set[str] = set()
 _SWEEP_STUDIES: dict[str, dict[str, str]] = {}
 _FILE_READERS: dict[str, Callable[[str, str | None], tuple]] = {}
+_LEVERS: dict[str, Callable[..., None] | None] = {}
 
 
 def register_strategy_name(name: str) -> None:
@@ -84,3 +88,19 @@ def sweep_study_names() -> tuple[str, ...]:
 def sweep_study_fixed_fields(name: str) -> dict[str, str]:
     """Dotted field → reason, for the fields sweep study ``name`` sets itself ({} if unknown)."""
     return dict(_SWEEP_STUDIES.get(name, {}))
+
+
+def register_lever_name(name: str, check: Callable[..., None] | None = None) -> None:
+    """Make ``name`` a valid lever in ``[levers]``; ``check(scenario, settings, dotted)`` validates its
+    table (raising ScenarioError naming the field)."""
+    _LEVERS[name] = check
+
+
+def lever_names() -> tuple[str, ...]:
+    """The registered lever names, in the order registered."""
+    return tuple(_LEVERS)
+
+
+def lever_check(name: str) -> Callable[..., None] | None:
+    """The check of lever ``name``'s settings (None: no check)."""
+    return _LEVERS.get(name)

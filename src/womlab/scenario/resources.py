@@ -30,7 +30,7 @@ __all__ = ["COSTS", "MAX_SECONDS", "MAX_ORGANISATIONS", "Part", "Estimate", "est
            "COMMANDS"]
 
 #: The commands whose work :func:`estimate_resources` knows.
-COMMANDS = ("run", "compare", "seeding", "referral", "sweep", "fit")
+COMMANDS = ("run", "compare", "seeding", "referral", "sweep", "fit", "levers")
 
 #: Organisation ids are 32-bit (the CSR arrays every engine reads).
 MAX_ORGANISATIONS = 2**31 - 1
@@ -303,8 +303,15 @@ def estimate_resources(scenario: Any, command: str = "run", *, replicates: int |
     s = scenario
     n, run = s.market.organisations, s.run
     reps = _replicates(s, command, replicates)
-    variants = {"seeding": len(s.study.compared), "referral": 2}.get(command, 1)
+    # levers: the baseline and one arm per lever and period pulled, each continued past the horizon
+    # (levers.lifetime more periods, or at least as many again until the market is exhausted); an arm
+    # that wins reference customers first runs without them, to see who is a customer by then
+    pulled = len(s.levers.pulled_at or range(run.periods))
+    arms = 1 + len(s.levers.names) * pulled + (pulled if "reference_customers" in s.levers.names else 0)
+    variants = {"seeding": len(s.study.compared), "referral": 2, "levers": arms}.get(command, 1)
     runs = reps * variants * (points if command == "sweep" else 1)
+    longer = (1.0 + (s.levers.lifetime if s.levers.lifetime is not None else run.periods) / run.periods
+              if command == "levers" else 1.0)
     keys = reps * (points if command == "sweep" else 1)
     workers = max(1, min(usable_jobs(run.jobs if jobs is None else jobs), keys))
 
@@ -316,14 +323,14 @@ def estimate_resources(scenario: Any, command: str = "run", *, replicates: int |
         command, "run.replicates")
     step_fields = ("run.time_step",) if run.clock == "discrete" and run.steps_per_period > 1 else ()
     parts.append(Part("engine runs", (rep_field, "run.periods", *step_fields, "market.organisations"), 0.0,
-                      runs * _run_seconds(s)))
+                      runs * _run_seconds(s) * longer))
     grid = run.periods * run.reports_per_period + 1
     curve_fields = ("run.report_every", "run.periods") if run.reports_per_period > 1 else ("run.periods",)
     parts.append(Part("one run's curve", curve_fields, grid * c["bytes_per_curve_row"]))
 
-    kept_runs = {"run": reps, "compare": reps, "referral": 2 * reps}.get(command, 0)
+    kept_runs = {"run": reps, "compare": reps, "referral": 2 * reps, "levers": 2 * reps * variants}.get(command, 0)
     rows_kept = {"run": reps, "compare": reps, "referral": 2 * reps, "seeding": reps * variants,
-                 "sweep": 0, "fit": 0}[command]
+                 "sweep": 0, "fit": 0, "levers": 2 * reps * variants}[command]
     parts.append(Part("runs kept", ("market.organisations", rep_field),
                       kept_runs * n * c["bytes_per_kept_organisation"], per_worker=False))
     parts.append(Part("curves kept", (*curve_fields, rep_field), rows_kept * grid * c["bytes_per_curve_row"] * 2,

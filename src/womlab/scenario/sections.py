@@ -89,7 +89,8 @@ class Market:
     opens : list of tables, optional
         Parts of the market that enter later, ``[{region = 3, period = 12}, {segment = "...",
         period = 5}]`` (:class:`womlab.scenario.markets.Opening`): until then their organisations
-        are not potential customers, feel no influence and are not counted in the market.
+        are not potential customers, feel no influence and are not counted in the market;
+        ``period = "never"``: a part that stays closed (until a lever opens it).
     """
 
     section: ClassVar[str] = "market"

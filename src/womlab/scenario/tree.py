@@ -90,6 +90,7 @@ from typing import Any
 from womlab.errors import ScenarioError, ScenarioWarning
 from womlab.scenario.checks import coerce, drop_none, fail, field_names, hints, unknown_field, utf8_text
 from womlab.scenario.fit_spec import FitSpec, Prior, parse_priors
+from womlab.scenario.levers import Levers, References
 from womlab.scenario.markets import Campaigns, Products, Segments, check_openings
 from womlab.scenario.registry import network_file_facts, network_file_kinds
 from womlab.scenario.sections import (
@@ -123,6 +124,8 @@ SECTIONS: dict[str, type] = {
     "segments": Segments,
     "campaign": Campaigns,
     "product": Products,
+    "reference": References,
+    "levers": Levers,
 }
 _NESTED: dict[tuple[str, str], type] = {
     ("adoption", "talkers_per_customer"): Talkers,
@@ -158,6 +161,8 @@ class Scenario:
     segments: Segments = field(default_factory=Segments)
     campaign: Campaigns = field(default_factory=Campaigns)
     product: Products = field(default_factory=Products)
+    reference: References = field(default_factory=References)
+    levers: Levers = field(default_factory=Levers)
 
     def __post_init__(self) -> None:
         if not isinstance(self.seed, int) or self.seed < 0:

@@ -26,8 +26,6 @@ from womlab.studies.calibration import (
     simulation_based_calibration,
 )
 from womlab.studies.compare import Comparison, aggregate_curves, bass_fit_table, compare
-from womlab.studies.observed import ObservedSeries, observed_series, read_observed
-from womlab.studies.plan import plan, programme_summary, slow_steps
 from womlab.studies.continuation import Continuation, continue_paired, levers_off_after, truncate
 from womlab.studies.intervals import (
     FewReplicatesWarning,
@@ -38,6 +36,7 @@ from womlab.studies.intervals import (
     small_sample_level,
     t_interval,
 )
+from womlab.studies.levers import LEVERS, Lever, LeverStudy, lever_arm, lever_timing, register_lever
 from womlab.studies.metrics import (
     GAP_NAMES,
     METRIC_NAMES,
@@ -54,6 +53,8 @@ from womlab.studies.metrics import (
     replicate_metrics,
     time_to_share,
 )
+from womlab.studies.observed import ObservedSeries, observed_series, read_observed
+from womlab.studies.plan import plan, programme_summary, slow_steps
 from womlab.studies.programme import (
     ProgrammeStudy,
     customer_values,
@@ -69,16 +70,16 @@ from womlab.studies.referrals import (
     generations,
     referral_counts,
     referral_tree_summary,
-    referrals_per_customer,
     referrals_by_adoption_period,
+    referrals_per_customer,
     reproduction_by_period,
     top_degree_referral_share,
     word_of_mouth_by_period,
 )
 from womlab.studies.runner import Batch, crossover_seconds, parallel_choice, run_one, run_paired, run_replicates
 from womlab.studies.seeding_study import SeedingStudy, compare_strategies, lift_statistics, run_outcomes
-from womlab.studies.smc import abc_smc, effective_sample_size, weighted_quantile
 from womlab.studies.sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
+from womlab.studies.smc import abc_smc, effective_sample_size, weighted_quantile
 from womlab.studies.sweep import SweepSummary, design_points, point_scenarios, run_point, run_sweep
 from womlab.studies.sweep_studies import Outcome, SweepStudy, register_sweep_study, sweep_studies, sweep_study
 
@@ -98,6 +99,12 @@ __all__ = [
     "continue_paired",
     "levers_off_after",
     "truncate",
+    "LEVERS",
+    "Lever",
+    "LeverStudy",
+    "lever_arm",
+    "lever_timing",
+    "register_lever",
     "Comparison",
     "compare",
     "aggregate_curves",

@@ -48,7 +48,9 @@ __all__ = ["Continuation", "continue_paired", "levers_off_after", "truncate"]
 def levers_off_after(scenario: Scenario, period: int) -> Scenario:
     """``scenario`` with every lever stopped after ``period``: the referral programme's last
     period becomes ``min(referral.end, period)`` (a scenario without a programme is returned
-    as it is). A new lever adds its own line here."""
+    as it is). A new lever adds its own line here. Campaigns and reference customers
+    (``[[campaign]]``, ``[[reference]]``) end by the horizon already (their periods are at
+    most ``run.periods``); a part of the market that has opened stays open."""
     ref = scenario.referral
     if ref.active:
         last = min(ref.last_period(scenario.run.periods), period)
@@ -115,10 +117,12 @@ def truncate(run: RunResult, periods: int) -> RunResult:
 
 
 def _exhausted(run: RunResult, since: int, external: float) -> bool:
-    if external > 0:  # everyone adopted (or, with warnings, was warned off for good)
+    if external > 0:  # everyone in the market adopted (or, with warnings, was warned off for good)
         done = run.adoption_period >= 0
         if run.rejection_period is not None:
             done |= run.rejection_period >= 0
+        if run.opens_at is not None:  # a part never opened is not in the market
+            done |= run.opens_at > run.periods
         return bool(done.all())
     return not bool((run.adoption_period > since).any())
 

@@ -115,6 +115,13 @@ def plan(scenario: Scenario, *, jobs: int | None = None) -> pd.DataFrame:
     else:
         rows.append({"command": "referral", "what": programme_summary(s), "runs": 0, "workers": 0, "memory": 0.0,
                      "seconds": 0.0, "estimate": "nothing to run"})
+    if s.levers.levers:
+        pulled = s.levers.pulled_at or tuple(range(run.periods))
+        add("levers", f"{len(s.levers.names)} levers ({', '.join(s.levers.names)}) x {len(pulled)} periods pulled, "
+                      f"each arm paired with the baseline on {run.replicates:,} replicates and continued past the horizon")
+    else:
+        rows.append({"command": "levers", "what": "no [levers] section", "runs": 0, "workers": 0, "memory": 0.0,
+                     "seconds": 0.0, "estimate": "nothing to run"})
     try:
         points = _sweep_points(s)
     except ScenarioError as exc:  # pragma: no cover - a sweep section is validated on load
@@ -169,7 +176,7 @@ def slow_steps(scenario: Scenario, command: str = "seeding", *, limit: float = S
         n = s.market.organisations
         if name == "bridges":
             exact = n <= s.seeding.betweenness_exact_up_to
-            what = ("exact betweenness over all {:,} organisations".format(n) if exact else
+            what = (f"exact betweenness over all {n:,} organisations" if exact else
                     f"sampled betweenness from {min(n, s.seeding.betweenness_sample):,} of {n:,} organisations "
                     "(seeding.betweenness_sample)")
         elif name == "greedy":

@@ -20,7 +20,7 @@ import sys
 import time
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import partial
 from typing import Any
 
@@ -131,7 +131,10 @@ def _check_pairable(variants: Mapping[str, Scenario]) -> None:
     first = next(iter(variants.values()))
     for name, s in variants.items():
         for part in ("seed", "network", "market"):
-            if getattr(s, part) != getattr(first, part):
+            mine, theirs = getattr(s, part), getattr(first, part)
+            if part == "market":  # when parts of it open may differ (a lever that opens a region)
+                mine, theirs = replace(mine, opens=None), replace(theirs, opens=None)
+            if mine != theirs:
                 raise ScenarioError(
                     f"variant {name!r} differs from the first in {part!r}; paired variants share seed, market and network"
                 )
