@@ -41,17 +41,23 @@ from womlab.scenario import Scenario  # noqa: E402
 from womlab.store import versions  # noqa: E402
 from womlab.studies import fit_observed, run_one, simulated_series  # noqa: E402
 
-SCENARIO = Scenario.from_dict({
-    "name": "calibration benchmark (invented)",
-    "seed": 31,
-    "market": {"organisations": 2000, "initial_customers": 8, "regions": 5},
-    "network": {"kind": "regional", "mean_degree": 8, "within_region_share": 0.8},
-    "adoption": {"rule": "share", "external": 0.004, "word_of_mouth": 0.55, "satisfied_share": 0.75},
-    "run": {"periods": 20},
-    "fit": {"free": ["adoption.external", "adoption.word_of_mouth", "market.organisations"],
-            "priors": {"adoption.external": {"distribution": "log_uniform", "low": 0.0002, "high": 0.05},
-                       "adoption.word_of_mouth": {"distribution": "log_uniform", "low": 0.05, "high": 2.0}}},
-})
+SCENARIO = Scenario.from_dict(
+    {
+        "name": "calibration benchmark (invented)",
+        "seed": 31,
+        "market": {"organisations": 2000, "initial_customers": 8, "regions": 5},
+        "network": {"kind": "regional", "mean_degree": 8, "within_region_share": 0.8},
+        "adoption": {"rule": "share", "external": 0.004, "word_of_mouth": 0.55, "satisfied_share": 0.75},
+        "run": {"periods": 20},
+        "fit": {
+            "free": ["adoption.external", "adoption.word_of_mouth", "market.organisations"],
+            "priors": {
+                "adoption.external": {"distribution": "log_uniform", "low": 0.0002, "high": 0.05},
+                "adoption.word_of_mouth": {"distribution": "log_uniform", "low": 0.05, "high": 2.0},
+            },
+        },
+    }
+)
 OUT = Path(__file__).resolve().parent / "results" / "calibration.md"
 
 
@@ -131,8 +137,21 @@ def main() -> None:
         "",
         "## Per generation (jobs = 1)",
         "",
-        _markdown(gens[["generation", "tolerance", "proposals", "accepted", "acceptance_rate", "ess", "simulations",
-                        "seconds", "simulating_seconds"]]),
+        _markdown(
+            gens[
+                [
+                    "generation",
+                    "tolerance",
+                    "proposals",
+                    "accepted",
+                    "acceptance_rate",
+                    "ess",
+                    "simulations",
+                    "seconds",
+                    "simulating_seconds",
+                ]
+            ]
+        ),
         "",
         "## Machine and versions",
         "",
@@ -148,8 +167,10 @@ def main() -> None:
 def _markdown(frame) -> str:  # noqa: ANN001
     head = "| " + " | ".join(frame.columns) + " |"
     rule = "| " + " | ".join("---:" for _ in frame.columns) + " |"
-    rows = ["| " + " | ".join(f"{v:.4g}" if isinstance(v, float) else str(v) for v in row) + " |"
-            for row in frame.itertuples(index=False)]
+    rows = [
+        "| " + " | ".join(f"{v:.4g}" if isinstance(v, float) else str(v) for v in row) + " |"
+        for row in frame.itertuples(index=False)
+    ]
     return "\n".join([head, rule, *rows])
 
 

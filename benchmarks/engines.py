@@ -47,8 +47,13 @@ def scenario(n: int, periods: int, clock: str = "discrete") -> Scenario:
             "seed": 1,
             "market": {"organisations": n, "initial_share": 0.001},
             "network": {"kind": "small_world", "mean_degree": 10, "rewiring": 0.1},
-            "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.4, "satisfied_share": 0.7,
-                         "talkers_per_customer": 2},
+            "adoption": {
+                "rule": "share",
+                "external": 0.01,
+                "word_of_mouth": 0.4,
+                "satisfied_share": 0.7,
+                "talkers_per_customer": 2,
+            },
             "run": {"periods": periods, "clock": clock},
         }
     )
@@ -129,9 +134,14 @@ def scipy_first_passage(scenario, network, initial, rng):  # noqa: ANN001, ANN20
     indptr = np.zeros(n + 2, dtype=np.int64)
     np.cumsum(counts, out=indptr[1 : n + 1])
     indptr[n + 1] = indptr[n] + n
-    graph = sp.csr_array((np.concatenate([delay[live], src_len]),
-                          np.concatenate([network.indices[live], np.arange(n, dtype=np.int32)]), indptr),
-                         shape=(n + 1, n + 1))
+    graph = sp.csr_array(
+        (
+            np.concatenate([delay[live], src_len]),
+            np.concatenate([network.indices[live], np.arange(n, dtype=np.int32)]),
+            indptr,
+        ),
+        shape=(n + 1, n + 1),
+    )
     return dijkstra(graph, directed=True, indices=n, return_predecessors=True, limit=float(scenario.run.periods))
 
 
@@ -162,8 +172,14 @@ def compare_engines(sizes: list[int], periods: int, repeats: int, mesa_up_to: in
         if n <= plain_up_to:
             graph = net.to_networkx()
             a = s.adoption
-            kwargs = dict(p=a.external, q=a.word_of_mouth, satisfied_share=a.satisfied_share,
-                          talkers=float(a.talkers_per_customer.mean), initial=init.tolist(), seed=3)
+            kwargs = dict(
+                p=a.external,
+                q=a.word_of_mouth,
+                satisfied_share=a.satisfied_share,
+                talkers=float(a.talkers_per_customer.mean),
+                initial=init.tolist(),
+                seed=3,
+            )
             what["plain_mesa"] = lambda: _time(lambda: plain_mesa.run(graph, periods, **kwargs), 1)
         for name in ("array", "events", "events_scipy"):  # compile or load the kernels, warm caches: not timed
             what[name]()
@@ -289,14 +305,22 @@ def whole_command(n: int, periods: int) -> dict:
         config.write_text(WHOLE_CONFIG.format(n=n, periods=periods), encoding="utf-8")
         womlab = Path(sys.executable).with_name("womlab")
         start = time.perf_counter()
-        proc = subprocess.Popen([str(womlab), "run", str(config), "--out", str(folder / "out"), "--quiet"],
-                                stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+        proc = subprocess.Popen(
+            [str(womlab), "run", str(config), "--out", str(folder / "out"), "--quiet"],
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.PIPE,
+        )
         _, status, usage = os.wait4(proc.pid, 0)
         wall = time.perf_counter() - start
         if status != 0:
             raise RuntimeError(f"womlab run failed: {proc.stderr.read().decode()}")
-        out = {"n": n, "periods": periods, "wall_s": wall, "peak_mb": usage.ru_maxrss / 1024,
-               "cpu_s": usage.ru_utime + usage.ru_stime}
+        out = {
+            "n": n,
+            "periods": periods,
+            "wall_s": wall,
+            "peak_mb": usage.ru_maxrss / 1024,
+            "cpu_s": usage.ru_utime + usage.ru_stime,
+        }
         code = SPLIT_CHILD.format(src=str(ROOT / "src"), config=str(config), out=str(folder / "split"))
         done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
         out["split"] = json.loads(done.stdout.strip().splitlines()[-1])
@@ -349,12 +373,21 @@ def report(rows: list[dict], cold: dict, whole: list[dict], command: str) -> str
         "| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |",
     ]
     for r in rows:
-        cells = [f"{r['n']:,}", str(r["periods"]), _fmt(r["floor_s"]), _fmt(r["array_s"]), _fmt(r["events_s"]),
-                 _fmt(r["events_scipy_s"]),
-                 _fmt(r["mesa_s"]) if "mesa_s" in r else "n/a",
-                 _fmt(r["plain_mesa_s"]) if "plain_mesa_s" in r else "n/a",
-                 _x(r["array_per_floor"]), _x(r["events_per_floor"]), _x(r["events_per_scipy"]),
-                 _x(r.get("mesa_per_array"), 0), _x(r.get("plain_mesa_per_array"), 0)]
+        cells = [
+            f"{r['n']:,}",
+            str(r["periods"]),
+            _fmt(r["floor_s"]),
+            _fmt(r["array_s"]),
+            _fmt(r["events_s"]),
+            _fmt(r["events_scipy_s"]),
+            _fmt(r["mesa_s"]) if "mesa_s" in r else "n/a",
+            _fmt(r["plain_mesa_s"]) if "plain_mesa_s" in r else "n/a",
+            _x(r["array_per_floor"]),
+            _x(r["events_per_floor"]),
+            _x(r["events_per_scipy"]),
+            _x(r.get("mesa_per_array"), 0),
+            _x(r.get("plain_mesa_per_array"), 0),
+        ]
         lines.append("| " + " | ".join(cells) + " |")
     lines += [
         "",
@@ -388,9 +421,11 @@ def report(rows: list[dict], cold: dict, whole: list[dict], command: str) -> str
                 cpu = sp_.get(key.replace("_s", "_cpu_s"))
                 return _fmt(sp_[key]) + (f" ({_fmt(cpu)} CPU)" if cpu is not None else "")
 
-            lines.append(f"| {w['n']:,} | {w['periods']} | {_fmt(w['wall_s'])} | {_fmt(w['cpu_s'])} | "
-                         f"{w['peak_mb']:,.0f} | {both('import_s')} | {both('build_s')} | "
-                         f"{both('run_s')} | {both('write_s')} | {sp_['peak_after_build_mb']:,.0f} |")
+            lines.append(
+                f"| {w['n']:,} | {w['periods']} | {_fmt(w['wall_s'])} | {_fmt(w['cpu_s'])} | "
+                f"{w['peak_mb']:,.0f} | {both('import_s')} | {both('build_s')} | "
+                f"{both('run_s')} | {both('write_s')} | {sp_['peak_after_build_mb']:,.0f} |"
+            )
     lines += ["", "## Targets", ""] + targets(rows, whole)
     return "\n".join(lines) + "\n"
 
@@ -405,23 +440,31 @@ def targets(rows: list[dict], whole: list[dict]) -> list[str]:
     big = [r for r in rows if 1_000 <= r["n"] <= 1_000_000]
     if big:
         worst = max(big, key=lambda r: r["array_per_floor"])
-        line("array engine ≤ 1.0× the CSR floor at every N from 10³ to 10⁶: "
-             + ", ".join(f"{r['array_per_floor']:.2f}× at {r['n']:,}" for r in big)
-             + f" (worst {worst['array_per_floor']:.2f}×)", worst["array_per_floor"] <= 1.0)
+        line(
+            "array engine ≤ 1.0× the CSR floor at every N from 10³ to 10⁶: "
+            + ", ".join(f"{r['array_per_floor']:.2f}× at {r['n']:,}" for r in big)
+            + f" (worst {worst['array_per_floor']:.2f}×)",
+            worst["array_per_floor"] <= 1.0,
+        )
     at = {r["n"]: r for r in rows}
     if 10_000 in at and "mesa_per_array" in at[10_000]:
         r = at[10_000]
         line(f"≥ 300× the project's Mesa model at 10⁴: {r['mesa_per_array']:,.0f}×", r["mesa_per_array"] >= 300)
     if 10_000 in at and "plain_mesa_per_array" in at[10_000]:
         r = at[10_000]
-        line(f"≥ 1,000× a plain Mesa model at 10⁴: {r['plain_mesa_per_array']:,.0f}×", r["plain_mesa_per_array"] >= 1000)
+        line(
+            f"≥ 1,000× a plain Mesa model at 10⁴: {r['plain_mesa_per_array']:,.0f}×", r["plain_mesa_per_array"] >= 1000
+        )
     limits = {1_000_000: (10, 1024), 10_000_000: (60, 4096)}
     for w in whole:
         if w["n"] in limits and w["periods"] == 100:
             secs, mb = limits[w["n"]]
-            line(f"{w['n']:,} organisations × 100 periods, whole command ≤ {secs} s and ≤ {mb / 1024:g} GB: "
-                 f"{w['wall_s']:.1f} s, {w['peak_mb']:,.0f} MB (build {w['split']['build_s']:.1f} s, "
-                 f"run {w['split']['run_s']:.1f} s)", w["wall_s"] <= secs and w["peak_mb"] <= mb)
+            line(
+                f"{w['n']:,} organisations × 100 periods, whole command ≤ {secs} s and ≤ {mb / 1024:g} GB: "
+                f"{w['wall_s']:.1f} s, {w['peak_mb']:,.0f} MB (build {w['split']['build_s']:.1f} s, "
+                f"run {w['split']['run_s']:.1f} s)",
+                w["wall_s"] <= secs and w["peak_mb"] <= mb,
+            )
     return out
 
 
@@ -432,8 +475,13 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--repeats", type=int, default=5)
     ap.add_argument("--mesa-up-to", type=int, default=10_000, help="largest N the project's Mesa model runs at")
     ap.add_argument("--plain-up-to", type=int, default=10_000, help="largest N the plain Mesa model runs at")
-    ap.add_argument("--whole", type=int, nargs="*", default=[1_000_000, 10_000_000],
-                    help="N of the whole-command runs (100 periods); none to skip")
+    ap.add_argument(
+        "--whole",
+        type=int,
+        nargs="*",
+        default=[1_000_000, 10_000_000],
+        help="N of the whole-command runs (100 periods); none to skip",
+    )
     ap.add_argument("--whole-periods", type=int, default=100)
     ap.add_argument("--out", type=Path, default=ROOT / "benchmarks" / "results" / "engines.md")
     args = ap.parse_args(argv)

@@ -104,8 +104,14 @@ PREVIOUS = ("ring", "small_world", "random", "regular", "regional_blocks", "scal
 
 
 def measure(kind: str, n: int, repeats: int, previous: bool = False) -> dict:
-    code = CHILD.format(src=str(ROOT / "src"), tests=str(ROOT / "tests" / "networks"), network=KINDS[kind], n=n,
-                        repeats=repeats, previous=previous)
+    code = CHILD.format(
+        src=str(ROOT / "src"),
+        tests=str(ROOT / "tests" / "networks"),
+        network=KINDS[kind],
+        n=n,
+        repeats=repeats,
+        previous=previous,
+    )
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     if done.returncode != 0:
         return {"error": done.stderr.strip().splitlines()[-1] if done.stderr.strip() else f"exit {done.returncode}"}
@@ -133,8 +139,12 @@ def whole_command(n: int, periods: int) -> dict:
         after = resource.getrusage(resource.RUSAGE_CHILDREN)
     if done.returncode != 0:
         return {"error": done.stderr.strip().splitlines()[-1] if done.stderr.strip() else f"exit {done.returncode}"}
-    return {"wall_s": wall, "cpu_s": (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime),
-            "system_s": after.ru_stime - before.ru_stime, "peak_mb": after.ru_maxrss / 1024}
+    return {
+        "wall_s": wall,
+        "cpu_s": (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime),
+        "system_s": after.ru_stime - before.ru_stime,
+        "peak_mb": after.ru_maxrss / 1024,
+    }
 
 
 def _mb(b: float) -> str:
@@ -169,21 +179,32 @@ def report(rows: list[dict], whole: dict | None, command: str, whole_n: int, per
             lines.append(f"| {r['kind']} | {r['n']:,} | — | — | failed: {r['error']} | | | | | | |")
             continue
         b = r.get("before")
-        before = ("| — | — | — |" if not b or "error" in b else
-                  f"| {b['seconds']:.4g} | {b['peak_above'] / b['own']:.2f}× | {b['seconds'] / r['seconds']:.1f}× |")
+        before = (
+            "| — | — | — |"
+            if not b or "error" in b
+            else f"| {b['seconds']:.4g} | {b['peak_above'] / b['own']:.2f}× | {b['seconds'] / r['seconds']:.1f}× |"
+        )
         lines.append(
             f"| {r['kind']} | {r['n']:,} | {r['ties']:,} | {r['repeats']} | {r['seconds']:.4g} | {_mb(r['own'])} | "
             f"{_mb(r['peak_above'])} | {r['peak_above'] / r['own']:.2f}× " + before
         )
     if whole is not None:
-        lines += ["", f"## Whole command at N = {whole_n:,}", "",
-                  f"`womlab run` on a small world (mean degree 10, rewiring 0.1), {periods} periods, one replicate, "
-                  "build + run + write, as a subprocess; peak is its peak resident set (getrusage of children).", ""]
+        lines += [
+            "",
+            f"## Whole command at N = {whole_n:,}",
+            "",
+            f"`womlab run` on a small world (mean degree 10, rewiring 0.1), {periods} periods, one replicate, "
+            "build + run + write, as a subprocess; peak is its peak resident set (getrusage of children).",
+            "",
+        ]
         if "error" in whole:
             lines.append(f"failed: {whole['error']}")
         else:
-            lines += ["| wall s | CPU s | of which system s | peak memory MB |", "| ---: | ---: | ---: | ---: |",
-                      f"| {whole['wall_s']:.1f} | {whole['cpu_s']:.1f} | {whole['system_s']:.1f} | {whole['peak_mb']:,.0f} |"]
+            lines += [
+                "| wall s | CPU s | of which system s | peak memory MB |",
+                "| ---: | ---: | ---: | ---: |",
+                f"| {whole['wall_s']:.1f} | {whole['cpu_s']:.1f} | {whole['system_s']:.1f} | {whole['peak_mb']:,.0f} |",
+            ]
     return "\n".join(lines) + "\n"
 
 
@@ -194,8 +215,12 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--large", type=int, default=10_000_000, help="N also built for --large-kinds; 0 skips it")
     ap.add_argument("--large-kinds", nargs="+", default=["small_world", "random", "regional"], choices=list(KINDS))
     ap.add_argument("--repeats", type=int, default=5, help="builds per (kind, N) up to N = 100,000")
-    ap.add_argument("--previous-up-to", type=int, default=1_000_000,
-                    help="largest N at which the previous builders are measured too (0: never)")
+    ap.add_argument(
+        "--previous-up-to",
+        type=int,
+        default=1_000_000,
+        help="largest N at which the previous builders are measured too (0: never)",
+    )
     ap.add_argument("--whole", type=int, default=10_000_000, help="N of the whole-command run; 0 skips it")
     ap.add_argument("--whole-periods", type=int, default=100)
     ap.add_argument("--out", type=Path, default=ROOT / "benchmarks" / "results" / "networks.md")

@@ -19,7 +19,7 @@ from mesa.discrete_space import FixedAgent, Network
 
 
 class Firm(FixedAgent):
-    def __init__(self, model: "Market", cell, talkers: float) -> None:  # noqa: ANN001
+    def __init__(self, model: Market, cell, talkers: float) -> None:  # noqa: ANN001
         super().__init__(model)
         self.cell = cell
         self.talkers = talkers
@@ -47,8 +47,18 @@ class Firm(FixedAgent):
 
 
 class Market(mesa.Model):
-    def __init__(self, graph: nx.Graph, *, p: float, q: float, satisfied_share: float, talkers: float,
-                 initial: list[int], dt: float = 1.0, seed: int = 0) -> None:
+    def __init__(
+        self,
+        graph: nx.Graph,
+        *,
+        p: float,
+        q: float,
+        satisfied_share: float,
+        talkers: float,
+        initial: list[int],
+        dt: float = 1.0,
+        seed: int = 0,
+    ) -> None:
         super().__init__(seed=seed)
         self.p, self.q, self.satisfied_share, self.dt = p, q, satisfied_share, dt
         self.space = Network(graph, random=self.random)
@@ -59,7 +69,8 @@ class Market(mesa.Model):
             firms[node].customer = True
             firms[node].satisfied = self.random.random() < satisfied_share
         self.datacollector = mesa.DataCollector(
-            model_reporters={"customers": lambda m: sum(1 for a in m.agents if a.customer)})
+            model_reporters={"customers": lambda m: sum(1 for a in m.agents if a.customer)}
+        )
         self.datacollector.collect(self)
 
     def step(self) -> None:

@@ -57,10 +57,17 @@ print(json.dumps({"n": n, "k": k, "kind": kind, "ties": net.ties, "before": befo
 
 def memory_rows() -> list[dict]:
     rows = []
-    for kind, n, k in (("random", 200_000, 8), ("random", 200_000, 40), ("random", 800_000, 8),
-                       ("regional", 200_000, 8), ("small_world", 200_000, 10), ("scale_free", 200_000, 8)):
-        out = subprocess.run([sys.executable, "-c", CHILD, str(n), str(k), kind], capture_output=True, text=True,
-                             check=True, cwd=ROOT)
+    for kind, n, k in (
+        ("random", 200_000, 8),
+        ("random", 200_000, 40),
+        ("random", 800_000, 8),
+        ("regional", 200_000, 8),
+        ("small_world", 200_000, 10),
+        ("scale_free", 200_000, 8),
+    ):
+        out = subprocess.run(
+            [sys.executable, "-c", CHILD, str(n), str(k), kind], capture_output=True, text=True, check=True, cwd=ROOT
+        )
         rows.append(json.loads(out.stdout.strip().splitlines()[-1]))
     return rows
 
@@ -71,11 +78,20 @@ def engine_rows() -> list[dict]:
     from womlab.seeding import initial_customers
 
     rows = []
-    for engine, clock, n in (("array", "discrete", 1_000), ("array", "discrete", 100_000),
-                             ("array", "continuous", 100_000), ("mesa", "discrete", 5_000)):
-        s = womlab.Scenario.from_dict({"seed": 1, "market": {"organisations": n, "initial_share": 0.001},
-                                       "network": {"kind": "random", "mean_degree": 8},
-                                       "run": {"periods": 40, "engine": engine, "clock": clock}})
+    for engine, clock, n in (
+        ("array", "discrete", 1_000),
+        ("array", "discrete", 100_000),
+        ("array", "continuous", 100_000),
+        ("mesa", "discrete", 5_000),
+    ):
+        s = womlab.Scenario.from_dict(
+            {
+                "seed": 1,
+                "market": {"organisations": n, "initial_share": 0.001},
+                "network": {"kind": "random", "mean_degree": 8},
+                "run": {"periods": 40, "engine": engine, "clock": clock},
+            }
+        )
         st = streams(1, (0,))
         net = womlab.build_network(s, np.random.default_rng(st.network))
         init = initial_customers(s, net, np.random.default_rng(st.seeding))
@@ -84,8 +100,15 @@ def engine_rows() -> list[dict]:
             t0 = time.perf_counter()
             engine_for(s)(s, net, init, np.random.default_rng(st.dynamics))
             best = min(best, time.perf_counter() - t0)
-        rows.append({"engine": engine if clock == "discrete" else "event", "n": n, "periods": 40, "run_s": best,
-                     "s_per_org_step": best / (n * 40)})
+        rows.append(
+            {
+                "engine": engine if clock == "discrete" else "event",
+                "n": n,
+                "periods": 40,
+                "run_s": best,
+                "s_per_org_step": best / (n * 40),
+            }
+        )
     return rows
 
 
@@ -94,23 +117,40 @@ def seeding_rows() -> list[dict]:
     from womlab.seeding import choose_seeds
 
     rows = []
-    s = womlab.Scenario.from_dict({"seed": 1, "market": {"organisations": 12_000, "initial_customers": 10},
-                                   "network": {"kind": "random", "mean_degree": 8}, "run": {"periods": 40},
-                                   "seeding": {"betweenness_exact_up_to": 100, "betweenness_sample": 50}})
+    s = womlab.Scenario.from_dict(
+        {
+            "seed": 1,
+            "market": {"organisations": 12_000, "initial_customers": 10},
+            "network": {"kind": "random", "mean_degree": 8},
+            "run": {"periods": 40},
+            "seeding": {"betweenness_exact_up_to": 100, "betweenness_sample": 50},
+        }
+    )
     net = womlab.build_network(s, np.random.default_rng(1))
     t0 = time.perf_counter()
     choose_seeds("bridges", net, 10, np.random.default_rng(2), scenario=s)
     sec = time.perf_counter() - t0
-    rows.append({"step": "sampled betweenness, 50 sources, N = 12,000, mean degree 8", "s": sec,
-                 "per_unit": sec / (50 * (net.n + 2 * net.ties)), "unit": "s per source x (N + 2 ties)"})
-    g = s.replace({"market.organisations": 300, "market.initial_customers": 3, "seeding.greedy_runs": 5,
-                   "seeding.greedy_candidates": 20})
+    rows.append(
+        {
+            "step": "sampled betweenness, 50 sources, N = 12,000, mean degree 8",
+            "s": sec,
+            "per_unit": sec / (50 * (net.n + 2 * net.ties)),
+            "unit": "s per source x (N + 2 ties)",
+        }
+    )
+    g = s.replace(
+        {
+            "market.organisations": 300,
+            "market.initial_customers": 3,
+            "seeding.greedy_runs": 5,
+            "seeding.greedy_candidates": 20,
+        }
+    )
     net = womlab.build_network(g, np.random.default_rng(1))
     t0 = time.perf_counter()
     choose_seeds("greedy", net, 3, np.random.default_rng(2), scenario=g)
     sec = time.perf_counter() - t0
-    rows.append({"step": "greedy, N = 300, 20 candidates, 5 runs, budget 3", "s": sec,
-                 "per_unit": sec, "unit": "s"})
+    rows.append({"step": "greedy, N = 300, 20 candidates, 5 runs, budget 3", "s": sec, "per_unit": sec, "unit": "s"})
     return rows
 
 
@@ -137,8 +177,11 @@ def main() -> None:
         "",
         "| kind | N | ties | peak − before MB | build s | run s |",
         "| --- | ---: | ---: | ---: | ---: | ---: |",
-        *[f"| {r['kind']} | {r['n']:,} | {r['ties']:,} | {(r['peak'] - r['before']) / 2**20:.0f} | {r['build_s']:.2f} | "
-          f"{r['run_s']:.2f} |" for r in mem],
+        *[
+            f"| {r['kind']} | {r['n']:,} | {r['ties']:,} | {(r['peak'] - r['before']) / 2**20:.0f} | {r['build_s']:.2f} | "
+            f"{r['run_s']:.2f} |"
+            for r in mem
+        ],
         "",
         f"Least squares: {coef[1]:.0f} bytes per organisation, {coef[2]:.0f} bytes per tie "
         f"(intercept {coef[0] / 2**20:.0f} MB).",

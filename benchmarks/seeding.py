@@ -31,24 +31,31 @@ sys.path.insert(0, str(ROOT / "src"))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
 import networkx as nx  # noqa: E402
-
 from about import machine, versions  # noqa: E402
+
 from womlab import Scenario, build_network, choose_seeds  # noqa: E402
 from womlab.seeding import STRATEGIES, betweenness, core_numbers, pagerank_values  # noqa: E402
 
 
 def scenario(n: int) -> Scenario:
     """The benchmark's invented scenario."""
-    return Scenario.from_dict({
-        "name": "seeding benchmark (invented)",
-        "seed": 5,
-        "market": {"organisations": n, "regions": 8},
-        "network": {"kind": "regional", "mean_degree": 10, "within_region_share": 0.85},
-        "adoption": {"rule": "share", "external": 0.002, "word_of_mouth": 0.4, "satisfied_share": 0.7,
-                     "talkers_per_customer": 2},
-        "run": {"periods": 30},
-        "seeding": {"budget": 10},
-    })
+    return Scenario.from_dict(
+        {
+            "name": "seeding benchmark (invented)",
+            "seed": 5,
+            "market": {"organisations": n, "regions": 8},
+            "network": {"kind": "regional", "mean_degree": 10, "within_region_share": 0.85},
+            "adoption": {
+                "rule": "share",
+                "external": 0.002,
+                "word_of_mouth": 0.4,
+                "satisfied_share": 0.7,
+                "talkers_per_customer": 2,
+            },
+            "run": {"periods": 30},
+            "seeding": {"budget": 10},
+        }
+    )
 
 
 def _median_time(fn, repeats: int) -> float:
@@ -77,7 +84,9 @@ def strategies(sizes: list[int], repeats: int, greedy_sizes: list[int]) -> list[
                 seconds = time.perf_counter() - t0
                 calls = 1
             else:
-                seconds = _median_time(lambda: choose_seeds(name, net, 10, np.random.default_rng(2), scenario=s), repeats)
+                seconds = _median_time(
+                    lambda: choose_seeds(name, net, 10, np.random.default_rng(2), scenario=s), repeats
+                )
                 calls = repeats
             rows.append({"n": n, "strategy": name, "seconds": seconds, "calls": calls})
             print(rows[-1], flush=True)
@@ -98,20 +107,28 @@ def centralities(sizes: list[int], repeats: int, nx_betweenness_up_to: int, betw
         sources = rng.choice(n, size=min(500, n), replace=False) if n > 3000 else None
         k = None if sources is None else sources.size
         cases = {
-            "pagerank": (lambda: pagerank_values(net), lambda: nx.pagerank(g, alpha=0.85, tol=1e-10),
-                         (lambda: ig.pagerank(damping=0.85)) if ig else None),
+            "pagerank": (
+                lambda: pagerank_values(net),
+                lambda: nx.pagerank(g, alpha=0.85, tol=1e-10),
+                (lambda: ig.pagerank(damping=0.85)) if ig else None,
+            ),
             ("betweenness, exact" if k is None else f"betweenness, {k} sources"): (
                 lambda: betweenness(net, sources),
                 lambda: nx.betweenness_centrality(g, k=k, seed=np.random.default_rng(4)),
-                (lambda: ig.betweenness(sources=None if sources is None else sources.tolist())) if ig else None),
+                (lambda: ig.betweenness(sources=None if sources is None else sources.tolist())) if ig else None,
+            ),
             "k-cores": (lambda: core_numbers(net), lambda: nx.core_number(g), (lambda: ig.coreness()) if ig else None),
         }
         for what, (ours, ref, other) in cases.items():
             if what.startswith("betweenness") and n > betweenness_up_to:
                 continue  # minutes for every library at this size; the strategies table has it at 10,000
             slow = what.startswith("betweenness") and n > nx_betweenness_up_to  # networkx takes minutes
-            row = {"n": n, "what": what, "womlab": _median_time(ours, repeats),
-                   "networkx": None if slow else _median_time(ref, max(1, repeats // 3) if n > 3000 else repeats)}
+            row = {
+                "n": n,
+                "what": what,
+                "womlab": _median_time(ours, repeats),
+                "networkx": None if slow else _median_time(ref, max(1, repeats // 3) if n > 3000 else repeats),
+            }
             row["igraph"] = _median_time(other, repeats) if other is not None else None
             rows.append(row)
             print(row, flush=True)
@@ -124,7 +141,10 @@ def report(strategy_rows: list[dict], central_rows: list[dict], command: str) ->
         "",
         f"- date: {dt.datetime.now(dt.timezone.utc).strftime('%Y-%m-%d %H:%M UTC')}",
         f"- machine: {machine()}",
-        "- versions: " + ", ".join(f"{k} {v}" for k, v in versions(("numpy", "scipy", "networkx", "numba", "igraph", "womlab")).items()),
+        "- versions: "
+        + ", ".join(
+            f"{k} {v}" for k, v in versions(("numpy", "scipy", "networkx", "numba", "igraph", "womlab")).items()
+        ),
         f"- command: `{command}`",
         "- scenario (invented): clustered regional network, mean degree 10, 8 regions, within-region share 0.85, "
         "rewiring 0.1; share rule, p = 0.002, q = 0.4, satisfied share 0.7, 2 talkers, 30 periods; budget 10.",
@@ -137,7 +157,7 @@ def report(strategy_rows: list[dict], central_rows: list[dict], command: str) ->
         "names, once with its default settings (20 Monte Carlo runs per evaluation, 100 candidates) through the "
         "registered engine.",
         "",
-        "| strategy | " + " | ".join(f"N = {n:,} s" for n in sorted({r['n'] for r in strategy_rows})) + " |",
+        "| strategy | " + " | ".join(f"N = {n:,} s" for n in sorted({r["n"] for r in strategy_rows})) + " |",
         "| --- |" + " ---: |" * len({r["n"] for r in strategy_rows}),
     ]
     sizes = sorted({r["n"] for r in strategy_rows})
@@ -147,12 +167,17 @@ def report(strategy_rows: list[dict], central_rows: list[dict], command: str) ->
             hit = [r for r in strategy_rows if r["n"] == n and r["strategy"] == name]
             cells.append(f"{hit[0]['seconds']:.4g}" if hit else "—")
         lines.append(f"| {name} | " + " | ".join(cells) + " |")
-    lines += ["", "## Centralities side by side", "",
-              "womlab: compiled on the CSR (`womlab.seeding.centrality`); networkx on the same network as a "
-              "networkx graph (conversion not counted; its betweenness is timed only up to the N the command "
-              "line allows, as it takes minutes); igraph where installed (graph built beforehand).", "",
-              "| N | centrality | womlab s | networkx s | igraph s | networkx / womlab |",
-              "| ---: | --- | ---: | ---: | ---: | ---: |"]
+    lines += [
+        "",
+        "## Centralities side by side",
+        "",
+        "womlab: compiled on the CSR (`womlab.seeding.centrality`); networkx on the same network as a "
+        "networkx graph (conversion not counted; its betweenness is timed only up to the N the command "
+        "line allows, as it takes minutes); igraph where installed (graph built beforehand).",
+        "",
+        "| N | centrality | womlab s | networkx s | igraph s | networkx / womlab |",
+        "| ---: | --- | ---: | ---: | ---: | ---: |",
+    ]
     for r in central_rows:
         ig = f"{r['igraph']:.4g}" if r["igraph"] is not None else "not installed"
         ref = "not run" if r["networkx"] is None else f"{r['networkx']:.4g}"
@@ -164,14 +189,27 @@ def report(strategy_rows: list[dict], central_rows: list[dict], command: str) ->
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[1_000, 10_000])
-    ap.add_argument("--greedy-sizes", type=int, nargs="*", default=[1_000],
-                    help="sizes at which greedy runs (default 1,000: at 10,000 it takes minutes)")
+    ap.add_argument(
+        "--greedy-sizes",
+        type=int,
+        nargs="*",
+        default=[1_000],
+        help="sizes at which greedy runs (default 1,000: at 10,000 it takes minutes)",
+    )
     ap.add_argument("--central-sizes", type=int, nargs="+", default=[1_000, 10_000, 100_000])
     ap.add_argument("--repeats", type=int, default=5)
-    ap.add_argument("--betweenness-up-to", type=int, default=10_000,
-                    help="largest N at which betweenness is timed in the side-by-side table")
-    ap.add_argument("--networkx-betweenness-up-to", type=int, default=10_000,
-                    help="largest N at which networkx's betweenness is timed (it takes minutes at 10,000)")
+    ap.add_argument(
+        "--betweenness-up-to",
+        type=int,
+        default=10_000,
+        help="largest N at which betweenness is timed in the side-by-side table",
+    )
+    ap.add_argument(
+        "--networkx-betweenness-up-to",
+        type=int,
+        default=10_000,
+        help="largest N at which networkx's betweenness is timed (it takes minutes at 10,000)",
+    )
     ap.add_argument("--out", type=Path, default=ROOT / "benchmarks" / "results" / "seeding.md")
     args = ap.parse_args(argv)
     command = "python benchmarks/seeding.py" + (" " + " ".join(argv if argv is not None else sys.argv[1:])).rstrip()

@@ -37,8 +37,11 @@ sys.path.insert(0, str(ROOT / "src"))
 
 from womlab.scenario import Scenario  # noqa: E402
 from womlab.store import versions  # noqa: E402
-from womlab.studies import run_one, run_replicates  # noqa: E402
-from womlab.studies import runner  # noqa: E402
+from womlab.studies import (  # noqa: E402
+    run_one,
+    run_replicates,
+    runner,  # noqa: E402
+)
 from womlab.studies.runner import parallel_choice  # noqa: E402
 from womlab.studies.sweep import point_scenarios, run_sweep  # noqa: E402
 
@@ -47,16 +50,22 @@ REPEATS = 2
 
 def scenario(n: int, replicates: int) -> Scenario:
     """The benchmark's invented market: n organisations, a sweep of 12 points."""
-    return Scenario.from_dict({
-        "name": "benchmark (invented)",
-        "seed": 1,
-        "market": {"organisations": n, "initial_customers": max(1, n // 100)},
-        "network": {"kind": "random", "mean_degree": 6},
-        "run": {"periods": 40},
-        "sweep": {"replicates": replicates, "axes": {
-            "adoption.word_of_mouth": {"from": 0.1, "to": 0.6, "steps": 4},
-            "adoption.external": [0.002, 0.01, 0.03]}},
-    })
+    return Scenario.from_dict(
+        {
+            "name": "benchmark (invented)",
+            "seed": 1,
+            "market": {"organisations": n, "initial_customers": max(1, n // 100)},
+            "network": {"kind": "random", "mean_degree": 6},
+            "run": {"periods": 40},
+            "sweep": {
+                "replicates": replicates,
+                "axes": {
+                    "adoption.word_of_mouth": {"from": 0.1, "to": 0.6, "steps": 4},
+                    "adoption.external": [0.002, 0.01, 0.03],
+                },
+            },
+        }
+    )
 
 
 START_CHILD = r"""
@@ -91,8 +100,12 @@ print(json.dumps(out))
 def pool_start(times: int) -> dict[str, float]:
     got = []
     for _ in range(times):
-        done = subprocess.run([sys.executable, "-c", START_CHILD.format(src=str(ROOT / "src"))],
-                              capture_output=True, text=True, check=True)
+        done = subprocess.run(
+            [sys.executable, "-c", START_CHILD.format(src=str(ROOT / "src"))],
+            capture_output=True,
+            text=True,
+            check=True,
+        )
         got.append(json.loads(done.stdout.strip().splitlines()[-1]))
         print("pool start", got[-1], flush=True)
     return {k: statistics.median(g[k] for g in got) for k in got[0]} | {"all": got}
@@ -131,13 +144,16 @@ def throughput(n: int, replicates: int) -> dict[str, dict]:
                 start = time.perf_counter()
                 fn()
                 return time.perf_counter() - start
+
         return go
 
     variants = {
         "run_replicates, jobs = 1": timed(lambda: run_replicates(batch, jobs=1), False),
         "run_replicates, jobs = 2 (auto), no pool running before": timed(lambda: run_replicates(batch, jobs=2), True),
         "run_replicates, jobs = 2 (auto), after the call before": timed(lambda: run_replicates(batch, jobs=2), False),
-        "run_replicates, jobs = 2 forced onto a running pool": timed(lambda: run_replicates(batch, jobs=2), False, "pool"),
+        "run_replicates, jobs = 2 forced onto a running pool": timed(
+            lambda: run_replicates(batch, jobs=2), False, "pool"
+        ),
         "run_sweep, jobs = 1": timed(lambda: _sweep(s, 1), False),
         "run_sweep, jobs = 2 (auto), no pool running before": timed(lambda: _sweep(s, 2), True),
         "run_sweep, jobs = 2 (auto), after the call before": timed(lambda: _sweep(s, 2), False),
@@ -149,8 +165,10 @@ def throughput(n: int, replicates: int) -> dict[str, dict]:
         for name, fn in variants.items():
             seconds[name].append(fn())
             print(f"n={n} {name}: {seconds[name][-1]:.2f} s", flush=True)
-    return {name: {"runs": runs, "seconds": statistics.median(v), "all": v,
-                   "runs_per_s": runs / statistics.median(v)} for name, v in seconds.items()}
+    return {
+        name: {"runs": runs, "seconds": statistics.median(v), "all": v, "runs_per_s": runs / statistics.median(v)}
+        for name, v in seconds.items()
+    }
 
 
 def overhead(n: int, replicates: int) -> tuple[list[tuple[float, float]], list[tuple[float, float]]]:
@@ -194,8 +212,12 @@ def main() -> None:
         f"| started by the call (cold) | {start['cold_cpu']:.2f} | {start['cold_wall']:.2f} |",
         f"| already running (warm) | — | {start['warm_wall']:.3f} |",
         "",
-        f"All processes: " + "; ".join(f"cold {g['cold_cpu']:.2f} s CPU / {g['cold_wall']:.2f} s wall, warm "
-                                       f"{g['warm_wall']:.3f} s wall" for g in start["all"]) + ".",
+        "All processes: "
+        + "; ".join(
+            f"cold {g['cold_cpu']:.2f} s CPU / {g['cold_wall']:.2f} s wall, warm {g['warm_wall']:.3f} s wall"
+            for g in start["all"]
+        )
+        + ".",
         "",
         f"Rule (`studies.runner.crossover_seconds`): the first runs are timed in-process (CPU time), and the pool "
         f"takes the rest only if their estimated in-process time exceeds S · w / (w − 1): with S = "
@@ -210,8 +232,10 @@ def main() -> None:
     ]
     for n, res in results.items():
         for name, r in res.items():
-            lines.append(f"| {n:,} | {name} | {r['runs']} | {r['seconds']:.2f} | {r['runs_per_s']:,.0f} | "
-                         f"{', '.join(f'{x:.2f}' for x in r['all'])} |")
+            lines.append(
+                f"| {n:,} | {name} | {r['runs']} | {r['seconds']:.2f} | {r['runs_per_s']:,.0f} | "
+                f"{', '.join(f'{x:.2f}' for x in r['all'])} |"
+            )
     base = 121.0
     best = max(results[1_000][k]["runs_per_s"] for k in results[1_000] if k.startswith("run_sweep, jobs = 2"))
     shipped = results[1_000]["run_sweep, jobs = 2 (auto), no pool running before"]["runs_per_s"]

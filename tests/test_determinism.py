@@ -22,10 +22,12 @@ import pytest
 
 from womlab.store.folders import TIMING_FIELDS
 
-SCENARIO = ('name = "invented determinism check ({engine})"\nseed = 31\n[market]\norganisations = {n}\n'
-            'initial_customers = 3\nregions = 2\n[network]\nkind = "regional"\nmean_degree = 6\n'
-            '[adoption]\nsatisfied_share = 0.7\ntalkers_per_customer = {{ distribution = "poisson", mean = 2 }}\n'
-            '[run]\nperiods = 12\nreplicates = 4\nengine = "{engine_name}"\nclock = "{clock}"\n{extra}')
+SCENARIO = (
+    'name = "invented determinism check ({engine})"\nseed = 31\n[market]\norganisations = {n}\n'
+    'initial_customers = 3\nregions = 2\n[network]\nkind = "regional"\nmean_degree = 6\n'
+    '[adoption]\nsatisfied_share = 0.7\ntalkers_per_customer = {{ distribution = "poisson", mean = 2 }}\n'
+    '[run]\nperiods = 12\nreplicates = 4\nengine = "{engine_name}"\nclock = "{clock}"\n{extra}'
+)
 ENGINES = {
     "array": dict(n=400, engine_name="array", clock="discrete", extra=""),
     "mesa": dict(n=150, engine_name="mesa", clock="discrete", extra=""),
@@ -55,8 +57,14 @@ def test_same_files_across_hash_seeds_and_job_counts(tmp_path):
         (tmp_path / f"{engine}.toml").write_text(SCENARIO.format(engine=engine, **fields))
     for hash_seed, jobs, out in (("0", "1", "a"), ("4242", "2", "b")):
         env = {**os.environ, "PYTHONHASHSEED": hash_seed}
-        done = subprocess.run([sys.executable, "-c", DRIVER, jobs, out, *ENGINES], cwd=tmp_path, env=env,
-                              capture_output=True, text=True, timeout=900)
+        done = subprocess.run(
+            [sys.executable, "-c", DRIVER, jobs, out, *ENGINES],
+            cwd=tmp_path,
+            env=env,
+            capture_output=True,
+            text=True,
+            timeout=900,
+        )
         assert done.returncode == 0, done.stderr[-2000:]
     for engine in ENGINES:
         a, b = tmp_path / "a" / engine, tmp_path / "b" / engine

@@ -30,8 +30,9 @@ for path in sys.argv[1:]:
 def test_experiment_scripts_take_help_and_out():
     scripts = sorted(str(p) for p in (ROOT / "experiments").glob("*/run.py"))
     assert scripts
-    done = subprocess.run([sys.executable, "-c", DRIVER, *scripts], capture_output=True, text=True, timeout=600,
-                          cwd=ROOT)
+    done = subprocess.run(
+        [sys.executable, "-c", DRIVER, *scripts], capture_output=True, text=True, timeout=600, cwd=ROOT
+    )
     assert done.returncode == 0, done.stderr[-2000:]
     for block in done.stdout.split("=====")[1:]:
         path, _, text = block.strip().partition("\n")

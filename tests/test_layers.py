@@ -25,8 +25,14 @@ LINT = Path(sys.executable).with_name("lint-imports")
 def _lint(cwd: Path, env: dict[str, str] | None = None) -> subprocess.CompletedProcess:
     if not LINT.exists():  # pragma: no cover - the test extra installs it
         pytest.fail(f"import-linter is not installed beside {sys.executable}: pip install -e '.[test]'")
-    return subprocess.run([str(LINT), "--config", "pyproject.toml", "--no-cache"], cwd=cwd, env=env,
-                          capture_output=True, text=True, timeout=300)
+    return subprocess.run(
+        [str(LINT), "--config", "pyproject.toml", "--no-cache"],
+        cwd=cwd,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
 
 
 def test_import_contracts_are_kept():
@@ -37,8 +43,7 @@ def test_import_contracts_are_kept():
 
 def test_a_layer_reaching_up_fails_with_the_import_named(tmp_path):
     """The contract can fail: a copy of the package whose scenario imports a study is refused."""
-    shutil.copytree(ROOT / "src" / "womlab", tmp_path / "src" / "womlab",
-                    ignore=shutil.ignore_patterns("__pycache__"))
+    shutil.copytree(ROOT / "src" / "womlab", tmp_path / "src" / "womlab", ignore=shutil.ignore_patterns("__pycache__"))
     shutil.copy(ROOT / "pyproject.toml", tmp_path / "pyproject.toml")
     checks = tmp_path / "src" / "womlab" / "scenario" / "checks.py"
     checks.write_text(checks.read_text() + "\nimport womlab.studies.runner  # reaches up on purpose\n")
@@ -128,4 +133,3 @@ def test_only_the_mesa_model_and_the_browser_view_import_mesa():
 def test_only_the_browser_view_imports_solara():
     importers = {m for m in _graph().find_modules_that_directly_import("solara") if m.startswith("womlab")}
     assert importers == {"womlab.view.page"}
-

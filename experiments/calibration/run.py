@@ -38,11 +38,15 @@ def coverage(base: womlab.Scenario, points: int, jobs: int) -> pd.DataFrame:
     frames = []
     for kind in KINDS:
         t0 = time.perf_counter()
-        table = womlab.simulation_based_calibration(base.replace({"network.kind": kind, **REGIONS.get(kind, {})}), points, jobs=jobs)
+        table = womlab.simulation_based_calibration(
+            base.replace({"network.kind": kind, **REGIONS.get(kind, {})}), points, jobs=jobs
+        )
         table["network_kind"] = kind
         frames.append(table)
-        print(f"{kind}: {points} fits, {time.perf_counter() - t0:.0f} s, 90 % coverage "
-              f"{table['in_90'].mean():.2f}", flush=True)
+        print(
+            f"{kind}: {points} fits, {time.perf_counter() - t0:.0f} s, 90 % coverage {table['in_90'].mean():.2f}",
+            flush=True,
+        )
     return pd.concat(frames, ignore_index=True)
 
 
@@ -50,9 +54,17 @@ def summary(table: pd.DataFrame) -> pd.DataFrame:
     rows = []
     for (kind, name), g in table.groupby(["network_kind", "parameter"], sort=False):
         rel = np.abs(g["median"] - g["truth"]) / np.abs(g["truth"])
-        rows.append({"network_kind": kind, "parameter": name, "points": len(g), "coverage_50": g["in_50"].mean(),
-                     "coverage_90": g["in_90"].mean(), "median_relative_error": float(np.median(rel)),
-                     "simulations_per_fit": float(g["simulations"].mean())})
+        rows.append(
+            {
+                "network_kind": kind,
+                "parameter": name,
+                "points": len(g),
+                "coverage_50": g["in_50"].mean(),
+                "coverage_90": g["in_90"].mean(),
+                "median_relative_error": float(np.median(rel)),
+                "simulations_per_fit": float(g["simulations"].mean()),
+            }
+        )
     return pd.DataFrame(rows)
 
 
@@ -70,8 +82,18 @@ def figure(table: pd.DataFrame) -> Figure:
     for ax, name in zip(np.atleast_1d(axes), names):
         g = table[table["parameter"] == name]
         for kind, h in g.groupby("network_kind", sort=False):
-            ax.errorbar(h["truth"], h["median"], yerr=[h["median"] - h["low_90"], h["high_90"] - h["median"]],
-                        fmt="o", ms=4, lw=0.8, capsize=2, color=colours.get(kind, "k"), label=kind, alpha=0.85)
+            ax.errorbar(
+                h["truth"],
+                h["median"],
+                yerr=[h["median"] - h["low_90"], h["high_90"] - h["median"]],
+                fmt="o",
+                ms=4,
+                lw=0.8,
+                capsize=2,
+                color=colours.get(kind, "k"),
+                label=kind,
+                alpha=0.85,
+            )
         lo, hi = g[["truth", "low_90"]].min().min(), g[["truth", "high_90"]].max().max()
         ax.plot([lo, hi], [lo, hi], color="#999999", lw=1, ls="--")
         ax.set_xscale("log")
@@ -88,9 +110,12 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--points", type=int, default=6, help="series per network kind (default 6)")
     parser.add_argument("--jobs", type=int, default=2, help="worker processes (default 2)")
-    parser.add_argument("--out", default="out/experiments/calibration",
-                        help="folder for the tables, figure and manifest (default %(default)s; the tracked results "
-                             "are experiments/calibration/results)")
+    parser.add_argument(
+        "--out",
+        default="out/experiments/calibration",
+        help="folder for the tables, figure and manifest (default %(default)s; the tracked results "
+        "are experiments/calibration/results)",
+    )
     args = parser.parse_args()
     base = womlab.load_scenario(HERE / "base.toml")
     start = time.perf_counter()
@@ -105,9 +130,14 @@ def main() -> None:
     kinds.to_csv(out / "kinds.csv", index=False, float_format="%.4g")
     print(kinds.to_string(index=False))
     figure(table).savefig(out / "recovery.png", dpi=130)
-    info = {"command": "python experiments/calibration/run.py " + f"--points {args.points} --jobs {args.jobs}",
-            "scenario": base.to_dict(), "kinds": list(KINDS), "points_per_kind": args.points,
-            "wall_time_s": round(time.perf_counter() - start, 1), "versions": versions()}
+    info = {
+        "command": "python experiments/calibration/run.py " + f"--points {args.points} --jobs {args.jobs}",
+        "scenario": base.to_dict(),
+        "kinds": list(KINDS),
+        "points_per_kind": args.points,
+        "wall_time_s": round(time.perf_counter() - start, 1),
+        "versions": versions(),
+    }
     (out / "manifest.json").write_text(json.dumps(info, indent=2, default=float) + "\n", encoding="utf-8")
 
 

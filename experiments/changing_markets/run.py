@@ -222,9 +222,12 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--replicates", type=int, default=50, help="replicates per case (default 50)")
     parser.add_argument("--jobs", type=int, default=2, help="worker processes (default 2; results do not depend on it)")
-    parser.add_argument("--out", default="out/experiments/changing_markets",
-                        help="folder for the tables, figures and manifest (default %(default)s; the tracked results "
-                             "are experiments/changing_markets/results)")
+    parser.add_argument(
+        "--out",
+        default="out/experiments/changing_markets",
+        help="folder for the tables, figures and manifest (default %(default)s; the tracked results "
+        "are experiments/changing_markets/results)",
+    )
     args = parser.parse_args()
     REPS[0] = args.replicates
     out = Path(args.out)

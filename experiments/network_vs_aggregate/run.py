@@ -36,8 +36,18 @@ from womlab.dynamics.streams import streams
 from womlab.store import atomic_write, versions
 
 HERE = Path(__file__).resolve().parent
-ORDER = ["complete", "random", "scale_free", "small_world_0.2", "small_world_0.02", "regional_blocks_0.7",
-         "regional_blocks_0.95", "regional_0.7", "regional_0.95", "ring"]
+ORDER = [
+    "complete",
+    "random",
+    "scale_free",
+    "small_world_0.2",
+    "small_world_0.02",
+    "regional_blocks_0.7",
+    "regional_blocks_0.95",
+    "regional_0.7",
+    "regional_0.95",
+    "ring",
+]
 LABELS = {
     "complete": "complete",
     "random": "random (Erdős–Rényi)",
@@ -60,35 +70,41 @@ def run_all(replicates: int | None, jobs: int | None) -> tuple[pd.DataFrame, dic
         c = womlab.compare(scenario, replicates, jobs=jobs, bootstrap=1000, fit_bootstrap=200)
         h = c.headline()
         m = c.metrics.set_index("metric")
-        rows.append({
-            "network": stem,
-            "replicates": c.batch.replicates,
-            "t50_network": h["t50_network"],
-            "t50_bass_difference": float(m.loc["t50", "bass_difference"]),
-            "t50_delay": h["t50_delay"],
-            "t50_delay_low": h["t50_delay_low"],
-            "t50_delay_high": h["t50_delay_high"],
-            "peak_ratio": h["peak_ratio"],
-            "peak_ratio_low": h["peak_ratio_low"],
-            "peak_ratio_high": h["peak_ratio_high"],
-            "Q_ratio": h["Q_ratio"],
-            "Q_ratio_low": h["Q_ratio_low"],
-            "Q_ratio_high": h["Q_ratio_high"],
-            "Q_eff": h["Q_eff"],
-            "p_eff": h["p_eff"],
-            "m_eff": h["m_eff"],
-            "fit_converged": bool(c.bass_fit.success),
-            "t50_degree_mean_field": h["t50_degree_mean_field"],
-            "rmse_bass_difference": h["rmse_reference"],
-            "rmse_degree_mean_field": h["rmse_degree_mean_field"],
-            "final_share": float(m.loc["final_share", "network"]),
-            "clustering": womlab.build_network(
-                scenario, np.random.default_rng(streams(scenario.seed, (0,)).network)).clustering(),
-            "seconds": round(time.perf_counter() - start, 2),
-        })
+        rows.append(
+            {
+                "network": stem,
+                "replicates": c.batch.replicates,
+                "t50_network": h["t50_network"],
+                "t50_bass_difference": float(m.loc["t50", "bass_difference"]),
+                "t50_delay": h["t50_delay"],
+                "t50_delay_low": h["t50_delay_low"],
+                "t50_delay_high": h["t50_delay_high"],
+                "peak_ratio": h["peak_ratio"],
+                "peak_ratio_low": h["peak_ratio_low"],
+                "peak_ratio_high": h["peak_ratio_high"],
+                "Q_ratio": h["Q_ratio"],
+                "Q_ratio_low": h["Q_ratio_low"],
+                "Q_ratio_high": h["Q_ratio_high"],
+                "Q_eff": h["Q_eff"],
+                "p_eff": h["p_eff"],
+                "m_eff": h["m_eff"],
+                "fit_converged": bool(c.bass_fit.success),
+                "t50_degree_mean_field": h["t50_degree_mean_field"],
+                "rmse_bass_difference": h["rmse_reference"],
+                "rmse_degree_mean_field": h["rmse_degree_mean_field"],
+                "final_share": float(m.loc["final_share", "network"]),
+                "clustering": womlab.build_network(
+                    scenario, np.random.default_rng(streams(scenario.seed, (0,)).network)
+                ).clustering(),
+                "seconds": round(time.perf_counter() - start, 2),
+            }
+        )
         comparisons[stem] = c
-        print(f"{stem:>20}: t50 delay {h['t50_delay']:+.2f}, peak ratio {h['peak_ratio']:.3f}, "
-              f"Q_eff/Q_mapped {h['Q_ratio']:.3f} ({rows[-1]['seconds']:.1f} s)", flush=True)
+        print(
+            f"{stem:>20}: t50 delay {h['t50_delay']:+.2f}, peak ratio {h['peak_ratio']:.3f}, "
+            f"Q_eff/Q_mapped {h['Q_ratio']:.3f} ({rows[-1]['seconds']:.1f} s)",
+            flush=True,
+        )
     return pd.DataFrame(rows), comparisons
 
 
@@ -107,11 +123,23 @@ def combined_figure(table: pd.DataFrame, comparisons: dict) -> Figure:
         curves.plot(t, mean, color=colours[stem], lw=1.6, label=LABELS[stem])
         gaps.plot(t, mean - c.curves["bass_difference"], color=colours[stem], lw=1.6)
         if stem == "scale_free":
-            gaps.plot(t, c.curves["degree_mean_field"] - c.curves["bass_difference"], color=colours[stem], lw=1.0,
-                      ls=":", label="degree mean-field − Bass, scale-free")
+            gaps.plot(
+                t,
+                c.curves["degree_mean_field"] - c.curves["bass_difference"],
+                color=colours[stem],
+                lw=1.0,
+                ls=":",
+                label="degree mean-field − Bass, scale-free",
+            )
         if stem in ("scale_free", "random"):
-            curves.plot(t, c.curves["degree_mean_field"], color=colours[stem], lw=1.0, ls=":",
-                        label=f"degree mean-field, {LABELS[stem].split(' (')[0]}")
+            curves.plot(
+                t,
+                c.curves["degree_mean_field"],
+                color=colours[stem],
+                lw=1.0,
+                ls=":",
+                label=f"degree mean-field, {LABELS[stem].split(' (')[0]}",
+            )
     curves.set_ylabel("customers, share of market (mean of runs)")
     curves.set_ylim(0, 1.02)
     curves.set_xlim(0, t[-1])
@@ -133,9 +161,13 @@ def combined_figure(table: pd.DataFrame, comparisons: dict) -> Figure:
     bars.set_yticks(y, [LABELS[s] for s in table["network"]], fontsize=8.5)
     bars.set_xlabel("Q_eff / Q_mapped: fitted ÷ mapped word of mouth\n(bars: 95 % bootstrap interval)")
     for yi, (_, row) in zip(y, table.iterrows()):
-        bars.text(max(row["Q_ratio_high"], 0.05) + 0.02, yi,
-                  f"{row['Q_ratio']:.2f}   t50 {row['t50_delay']:+.1f}   peak ×{row['peak_ratio']:.2f}",
-                  va="center", fontsize=7.5)
+        bars.text(
+            max(row["Q_ratio_high"], 0.05) + 0.02,
+            yi,
+            f"{row['Q_ratio']:.2f}   t50 {row['t50_delay']:+.1f}   peak ×{row['peak_ratio']:.2f}",
+            va="center",
+            fontsize=7.5,
+        )
     bars.set_xlim(0, max(1.5, float(table["Q_ratio_high"].max()) + 0.6))
     bars.set_title("Word of mouth kept, t50 delay (periods), peak-rate ratio", fontsize=10)
     bars.grid(alpha=0.3, axis="x")
@@ -146,9 +178,12 @@ def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--replicates", type=int, default=None, help="overrides each file's run.replicates")
     parser.add_argument("--jobs", type=int, default=None, help="overrides each file's run.jobs")
-    parser.add_argument("--out", default="out/experiments/network_vs_aggregate",
-                        help="results folder (default %(default)s; the tracked results the README shows "
-                             "are in experiments/network_vs_aggregate/results)")
+    parser.add_argument(
+        "--out",
+        default="out/experiments/network_vs_aggregate",
+        help="results folder (default %(default)s; the tracked results the README shows "
+        "are in experiments/network_vs_aggregate/results)",
+    )
     args = parser.parse_args()
     out = Path(args.out)
     start = time.perf_counter()
@@ -164,8 +199,22 @@ def main() -> int:
         "versions": versions(),
     }
     atomic_write(out / "manifest.json", lambda p: p.write_text(json.dumps(manifest, indent=2) + "\n", encoding="utf-8"))
-    print(table[["network", "clustering", "t50_delay", "peak_ratio", "Q_ratio", "Q_ratio_low", "Q_ratio_high",
-                 "t50_degree_mean_field", "rmse_bass_difference", "rmse_degree_mean_field"]].to_string(index=False))
+    print(
+        table[
+            [
+                "network",
+                "clustering",
+                "t50_delay",
+                "peak_ratio",
+                "Q_ratio",
+                "Q_ratio_low",
+                "Q_ratio_high",
+                "t50_degree_mean_field",
+                "rmse_bass_difference",
+                "rmse_degree_mean_field",
+            ]
+        ].to_string(index=False)
+    )
     print(f"wrote {out}/table.csv, figure.png, manifest.json in {time.perf_counter() - start:.0f} s")
     return 0
 

@@ -30,8 +30,16 @@ import womlab
 from womlab.store import atomic_write
 
 HERE = Path(__file__).resolve().parent
-OUTCOMES = ("roi", "incremental_customers", "incremental_value", "cost", "acceleration", "expansion",
-            "cost_per_incremental_customer", "acceleration_share")
+OUTCOMES = (
+    "roi",
+    "incremental_customers",
+    "incremental_value",
+    "cost",
+    "acceleration",
+    "expansion",
+    "cost_per_incremental_customer",
+    "acceleration_share",
+)
 
 
 def table(summary: pd.DataFrame) -> pd.DataFrame:
@@ -58,8 +66,13 @@ def break_even_rewards(table: pd.DataFrame) -> pd.DataFrame:
         if cross.size:
             i = cross[0]
             x = r[i] + (0 - roi[i]) * (r[i + 1] - r[i]) / (roi[i + 1] - roi[i])
-            rows.append({"network": kind, "break_even_reward": float(np.exp(x)),
-                         "between": f"{t['reward'].iloc[i]:g}-{t['reward'].iloc[i + 1]:g}"})
+            rows.append(
+                {
+                    "network": kind,
+                    "break_even_reward": float(np.exp(x)),
+                    "between": f"{t['reward'].iloc[i]:g}-{t['reward'].iloc[i + 1]:g}",
+                }
+            )
         else:
             rows.append({"network": kind, "break_even_reward": float("nan"), "between": ""})
     return pd.DataFrame(rows)
@@ -75,36 +88,49 @@ def roi_figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
             ax.errorbar(t["reward"], t[name], yerr=yerr, marker="o", ms=4, capsize=3, lw=1.5, label=kind)
     left.axhline(0.0, color="#555555", lw=1, ls="--")
     left.text(rewards[0], 0.0, " break-even (ROI = 0)", va="bottom", fontsize=8, color="#555555")
-    ticks = dict(xscale="log", xticks=rewards, xticklabels=[f"{r:g}" for r in rewards],
-                 xlabel="reward per successful referral")
+    ticks = dict(
+        xscale="log", xticks=rewards, xticklabels=[f"{r:g}" for r in rewards], xlabel="reward per successful referral"
+    )
     left.set(**ticks, ylabel="ROI = Σ(ΔValue − Cost) / ΣCost", title="return on the programme (95 % intervals)")
-    right.set(**ticks, ylabel="incremental customers at the horizon",
-              title="customers the programme adds (95 % intervals)")
+    right.set(
+        **ticks, ylabel="incremental customers at the horizon", title="customers the programme adds (95 % intervals)"
+    )
     for ax in (left, right):
         ax.xaxis.set_minor_formatter(NullFormatter())
         ax.grid(alpha=0.3)
         ax.legend(fontsize=8, frameon=False)
     r = base.referral
-    fig.suptitle(f"{base.name}: {base.market.organisations} firms, programme periods {r.start}–{r.end} of "
-                 f"{base.run.periods}\nvalue {r.value_per_period:g} per customer-period, discount "
-                 f"{r.discount_rate:g}; talk multiplier 1 + 1.5·reward/(reward + 20) (invented)", fontsize=9)
+    fig.suptitle(
+        f"{base.name}: {base.market.organisations} firms, programme periods {r.start}–{r.end} of "
+        f"{base.run.periods}\nvalue {r.value_per_period:g} per customer-period, discount "
+        f"{r.discount_rate:g}; talk multiplier 1 + 1.5·reward/(reward + 20) (invented)",
+        fontsize=9,
+    )
     return fig
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--out", default="out/experiments/referral",
-                        help="folder for roi.csv, break_even.csv, roi.png (default %(default)s; the tracked "
-                             "results are experiments/referral/results)")
-    parser.add_argument("--sweep", default="out/experiments/referral-sweep",
-                        help="the sweep's results folder (default %(default)s); rerun to resume")
+    parser.add_argument(
+        "--out",
+        default="out/experiments/referral",
+        help="folder for roi.csv, break_even.csv, roi.png (default %(default)s; the tracked "
+        "results are experiments/referral/results)",
+    )
+    parser.add_argument(
+        "--sweep",
+        default="out/experiments/referral-sweep",
+        help="the sweep's results folder (default %(default)s); rerun to resume",
+    )
     parser.add_argument("--jobs", type=int, default=None, help="worker processes (default run.jobs)")
     args = parser.parse_args()
     start = time.perf_counter()
     base = womlab.load_scenario(HERE / "sweep.toml")
     done = womlab.run_sweep(base, args.sweep, args.jobs)
-    print(f"sweep: {done.points} points x {base.sweep.replicates} replicates, {done.ran} run now "
-          f"({done.backend}), {done.failures} failed; {args.sweep}/report.html")
+    print(
+        f"sweep: {done.points} points x {base.sweep.replicates} replicates, {done.ran} run now "
+        f"({done.backend}), {done.failures} failed; {args.sweep}/report.html"
+    )
     result = table(womlab.sweep_summary(args.sweep))
     even = break_even_rewards(result)
     out = Path(args.out)

@@ -45,11 +45,18 @@ def table(summary: pd.DataFrame, strategies: tuple[str, ...]) -> pd.DataFrame:
     for (kind, rule, q, external), g in summary.groupby(keys, sort=False):
         g = g.set_index("outcome")
         for s in strategies:
-            row = {"network": kind, "rule": rule, "word_of_mouth": q, "external": external, "strategy": s,
-                   "replicates": int(g["runs"].iloc[0])}
+            row = {
+                "network": kind,
+                "rule": rule,
+                "word_of_mouth": q,
+                "external": external,
+                "strategy": s,
+                "replicates": int(g["runs"].iloc[0]),
+            }
             for name in PER_STRATEGY:
-                row[f"{name}_mean"], row[f"{name}_low"], row[f"{name}_high"] = g.loc[f"{name}[{s}]",
-                                                                                     ["estimate", "low", "high"]]
+                row[f"{name}_mean"], row[f"{name}_low"], row[f"{name}_high"] = g.loc[
+                    f"{name}[{s}]", ["estimate", "low", "high"]
+                ]
             for name in LIFT:
                 key = f"{name}[{s}]"
                 if s == "random":
@@ -78,8 +85,14 @@ def figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
                 rows = sub[sub["network"] == kind].set_index("strategy").loc[strategies]
                 y = np.arange(len(strategies)) + offsets[k]
                 ax.hlines(y, rows["lift_ratio_low"], rows["lift_ratio_high"], color=COLOURS[kind], lw=1.8)
-                ax.plot(rows["lift_ratio"], y, "o", color=COLOURS[kind], ms=4.5,
-                        label=kind.replace("_", "-") if (i, j) == (0, 0) else None)
+                ax.plot(
+                    rows["lift_ratio"],
+                    y,
+                    "o",
+                    color=COLOURS[kind],
+                    ms=4.5,
+                    label=kind.replace("_", "-") if (i, j) == (0, 0) else None,
+                )
             ax.axvline(1.0, color="#555555", lw=1, ls="--")
             ax.set_xscale("log")
             ax.xaxis.set_major_locator(FixedLocator(TICKS))
@@ -89,27 +102,47 @@ def figure(table: pd.DataFrame, base: womlab.Scenario) -> Figure:
             ax.grid(alpha=0.3, axis="x")
             ax.set_title(f"rule = {rule} (q = {rules[rule]:g}), external p = {external:g}", fontsize=10)
             if i == len(rules) - 1:
-                ax.set_xlabel("lift vs random seeding: ratio of mean discounted customer-periods\n"
-                              "(95 % paired-bootstrap interval; log scale)")
+                ax.set_xlabel(
+                    "lift vs random seeding: ratio of mean discounted customer-periods\n"
+                    "(95 % paired-bootstrap interval; log scale)"
+                )
     axes[0, 0].invert_yaxis()  # once: the axes share y, so each call would flip all of them
-    fig.legend(*axes[0, 0].get_legend_handles_labels(), loc="outside lower center", ncols=len(KINDS), fontsize=9,
-               frameon=False, title="network (dot: lift, line: 95 % interval)", title_fontsize=9)
+    fig.legend(
+        *axes[0, 0].get_legend_handles_labels(),
+        loc="outside lower center",
+        ncols=len(KINDS),
+        fontsize=9,
+        frameon=False,
+        title="network (dot: lift, line: 95 % interval)",
+        title_fontsize=9,
+    )
     st = base.study
-    fig.suptitle(f"{base.name}: N = {base.market.organisations}, mean degree {base.network.mean_degree:g}, "
-                 f"budget {base.n_initial}, {base.sweep.replicates} paired replicates, discount "
-                 f"{st.discount_rate:g}/period", fontsize=11)
+    fig.suptitle(
+        f"{base.name}: N = {base.market.organisations}, mean degree {base.network.mean_degree:g}, "
+        f"budget {base.n_initial}, {base.sweep.replicates} paired replicates, discount "
+        f"{st.discount_rate:g}/period",
+        fontsize=11,
+    )
     return fig
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--out", default="out/experiments/seeding",
-                        help="folder for seeding_experiment.csv and .png (default %(default)s; the tracked results "
-                             "are experiments/seeding/results)")
-    parser.add_argument("--sweep", default="out/experiments/seeding-sweep",
-                        help="the sweep's results folder (default %(default)s); rerun to resume")
+    parser.add_argument(
+        "--out",
+        default="out/experiments/seeding",
+        help="folder for seeding_experiment.csv and .png (default %(default)s; the tracked results "
+        "are experiments/seeding/results)",
+    )
+    parser.add_argument(
+        "--sweep",
+        default="out/experiments/seeding-sweep",
+        help="the sweep's results folder (default %(default)s); rerun to resume",
+    )
     parser.add_argument("--jobs", type=int, default=None, help="worker processes (default run.jobs)")
-    parser.add_argument("--plot-only", action="store_true", help="redraw the figure from --out's seeding_experiment.csv")
+    parser.add_argument(
+        "--plot-only", action="store_true", help="redraw the figure from --out's seeding_experiment.csv"
+    )
     args = parser.parse_args()
     out = Path(args.out)
     start = time.perf_counter()
@@ -118,8 +151,10 @@ def main() -> None:
         result = pd.read_csv(out / "seeding_experiment.csv")
     else:
         done = womlab.run_sweep(base, args.sweep, args.jobs)
-        print(f"sweep: {done.points} points x {base.sweep.replicates} replicates, {done.ran} run now "
-              f"({done.backend}), {done.failures} failed; {args.sweep}/report.html")
+        print(
+            f"sweep: {done.points} points x {base.sweep.replicates} replicates, {done.ran} run now "
+            f"({done.backend}), {done.failures} failed; {args.sweep}/report.html"
+        )
         result = table(womlab.sweep_summary(args.sweep), base.study.compared)
         atomic_write(out / "seeding_experiment.csv", lambda p: result.to_csv(p, index=False, float_format="%.6g"))
     fig = figure(result, base)

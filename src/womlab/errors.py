@@ -6,8 +6,17 @@ Every error a user can cause by what they ask for is a :class:`WomlabError`; the
 
 from __future__ import annotations
 
-__all__ = ["WomlabError", "ScenarioError", "NetworkError", "StoreError", "ClusterError", "ViewError", "CompilerError",
-           "ObservedDataError", "ScenarioWarning"]
+__all__ = [
+    "WomlabError",
+    "ScenarioError",
+    "NetworkError",
+    "StoreError",
+    "ClusterError",
+    "ViewError",
+    "CompilerError",
+    "ObservedDataError",
+    "ScenarioWarning",
+]
 
 
 class WomlabError(Exception):

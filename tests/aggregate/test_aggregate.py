@@ -57,8 +57,9 @@ def test_difference_equation_converges_to_ode_as_step_shrinks():
 def test_stock_and_flow_without_cap_is_the_bass_difference_equation():
     # With slope = Q / (N s tau) and no cap, buying = available * (p + Q C/N): the discrete Bass model.
     n, s, tau = 10_000, 0.5, 2.0
-    customers = stock_and_flow(30, n, 100, slope=Q / (n * s * tau), satisfied_share=s, talkers_per_customer=tau,
-                               external=P, form="linear")
+    customers = stock_and_flow(
+        30, n, 100, slope=Q / (n * s * tau), satisfied_share=s, talkers_per_customer=tau, external=P, form="linear"
+    )
     assert np.allclose(customers / n, bass_difference(30, P, Q, 0.01, form="linear"), atol=1e-12)
 
 
@@ -73,14 +74,19 @@ def test_mapping_share_and_count():
     # Mean-field mapping (documented in aggregate.mapped_parameters): share Q = q s N/(N-1);
     # count Q = q s tau k N/(N-1); the stock-and-flow slope q k/(N-1), which is q on the complete
     # network (every talker reaches every potential customer: the exact counterpart).
-    base = {"market": {"organisations": 1000}, "network": {"kind": "regular", "mean_degree": 6},
-            "adoption": {"word_of_mouth": 0.1, "satisfied_share": 0.5, "talkers_per_customer": 3}}
+    base = {
+        "market": {"organisations": 1000},
+        "network": {"kind": "regular", "mean_degree": 6},
+        "adoption": {"word_of_mouth": 0.1, "satisfied_share": 0.5, "talkers_per_customer": 3},
+    }
     share = Scenario.from_dict({**base, "adoption": {**base["adoption"], "rule": "share"}})
     count = Scenario.from_dict({**base, "adoption": {**base["adoption"], "rule": "count"}})
     assert mapped_parameters(share).Q == pytest.approx(0.05 * 1000 / 999, rel=1e-12)
     assert mapped_parameters(count).Q == pytest.approx(0.1 * 0.5 * 3 * 6 * 1000 / 999, rel=1e-12)
     assert mapped_parameters(count).slope == pytest.approx(0.1 * 6 / 999, rel=1e-12)
-    complete = Scenario.from_dict({**base, "network": {"kind": "complete"}, "adoption": {**base["adoption"], "rule": "capped"}})
+    complete = Scenario.from_dict(
+        {**base, "network": {"kind": "complete"}, "adoption": {**base["adoption"], "rule": "capped"}}
+    )
     assert mapped_parameters(complete).slope == pytest.approx(0.1, rel=1e-12)
     # the Bass Q for F = C/N is the slope times all the talkers the market could have, s tau N
     par = mapped_parameters(complete)
@@ -92,13 +98,15 @@ def test_complete_network_reproduces_the_difference_equation():
     # the share follows F_{t+1} = F_t + (1 - F_t)(p + q s F_t N/(N-1)) up to O(1/sqrt N) noise.
     # Tolerance fixed before looking: 4 standard errors of the mean of R runs, plus 2/N for counts.
     n, reps = 20_000, 8
-    s = Scenario.from_dict({
-        "seed": 7,
-        "market": {"organisations": n, "initial_customers": 0},
-        "network": {"kind": "complete"},
-        "adoption": {"rule": "share", "external": P, "word_of_mouth": Q, "satisfied_share": 1.0},
-        "run": {"periods": 25, "step_probability": "linear"},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 7,
+            "market": {"organisations": n, "initial_customers": 0},
+            "network": {"kind": "complete"},
+            "adoption": {"rule": "share", "external": P, "word_of_mouth": Q, "satisfied_share": 1.0},
+            "run": {"periods": 25, "step_probability": "linear"},
+        }
+    )
     shares = run_replicates(s, reps).shares()
     expected = np.empty(26)
     expected[0] = f = 0.0

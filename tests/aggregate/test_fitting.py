@@ -91,13 +91,15 @@ def test_fit_recovers_p_q_m_from_complete_graph_run_within_interval():
     # A short step (0.02) keeps the discrete run within about 0.5 % of the continuous model;
     # the horizon (12 periods) ends before saturation, so m is fitted (true m = 1).
     # Check fixed before looking: each true value inside the seeded 95 % bootstrap interval.
-    s = Scenario.from_dict({
-        "seed": 7,
-        "market": {"organisations": 3000, "initial_customers": 30},
-        "network": {"kind": "complete"},
-        "adoption": {"rule": "share", "external": 0.02, "word_of_mouth": 0.5, "satisfied_share": 0.8},
-        "run": {"periods": 12, "time_step": 0.02},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 7,
+            "market": {"organisations": 3000, "initial_customers": 30},
+            "network": {"kind": "complete"},
+            "adoption": {"rule": "share", "external": 0.02, "word_of_mouth": 0.5, "satisfied_share": 0.8},
+            "run": {"periods": 12, "time_step": 0.02},
+        }
+    )
     par = mapped_parameters(s)
     table = bass_fit_table(run_replicates(s, 30).shares(), Q_mapped=par.Q, p_mapped=par.p, seed=3)
     rows = table.set_index("parameter")
@@ -112,10 +114,20 @@ def test_stock_and_flow_fit_recovers_slope_and_cap():
     # common practice (an estimator recovers the parameters of noiseless data from its own model)
     n, periods = 10_000, 30
     truth = dict(slope=4e-5, cap=0.12)
-    customers = stock_and_flow(periods, n, 100, slope=truth["slope"], satisfied_share=0.6, talkers_per_customer=2.0,
-                               external=0.01, cap=truth["cap"], form="linear")
-    fit = fit_stock_and_flow(customers / n, organisations=n, satisfied_share=0.6, talkers_per_customer=2.0,
-                             external=0.01, form="linear")
+    customers = stock_and_flow(
+        periods,
+        n,
+        100,
+        slope=truth["slope"],
+        satisfied_share=0.6,
+        talkers_per_customer=2.0,
+        external=0.01,
+        cap=truth["cap"],
+        form="linear",
+    )
+    fit = fit_stock_and_flow(
+        customers / n, organisations=n, satisfied_share=0.6, talkers_per_customer=2.0, external=0.01, form="linear"
+    )
     assert fit.success
     assert fit.slope == pytest.approx(truth["slope"], rel=1e-4)
     assert fit.cap == pytest.approx(truth["cap"], rel=1e-4)

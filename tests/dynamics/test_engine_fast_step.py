@@ -59,7 +59,9 @@ def plain_run(scenario, network, initial, rng):
         new = np.flatnonzero(potential & (hazard >= resistance))
         if new.size == 0:
             continue
-        ext = rules.external_share(rule, talking[new], all_talkers[new], adoption, None if theta is None else theta[new])
+        ext = rules.external_share(
+            rule, talking[new], all_talkers[new], adoption, None if theta is None else theta[new]
+        )
         if rule == "cascade":
             total_hazard = step_hazard[new]
             ext = np.where(total_hazard > 0, external_hazard[new] / np.where(total_hazard > 0, total_hazard, 1.0), 1.0)
@@ -102,9 +104,15 @@ def test_fast_step_is_the_plain_step(kind, rule, form, dt, talkers, p):
         {
             "market": {"organisations": 800, "initial_customers": 8, "regions": 3},
             "network": {"kind": kind, "mean_degree": 6},
-            "adoption": {"rule": rule, "external": p, "word_of_mouth": q, "satisfied_share": 0.7,
-                         "talkers_per_customer": talkers, "cap": 0.2,
-                         "threshold": {"distribution": "uniform", "low": 0.05, "high": 0.4}},
+            "adoption": {
+                "rule": rule,
+                "external": p,
+                "word_of_mouth": q,
+                "satisfied_share": 0.7,
+                "talkers_per_customer": talkers,
+                "cap": 0.2,
+                "threshold": {"distribution": "uniform", "low": 0.05, "high": 0.4},
+            },
             "run": {"periods": 25, "time_step": dt, "step_probability": form},
         }
     )
@@ -127,9 +135,17 @@ def test_fast_step_is_the_plain_step(kind, rule, form, dt, talkers, p):
 
 def test_external_rate_above_one_step_adopts_everyone_at_once():
     # linear step with p·dt >= 1: probability 1 in the first step (rules.step_probability)
-    s = Scenario.from_dict({"market": {"organisations": 200, "initial_customers": 2}, "network": {"kind": "ring", "mean_degree": 4},
-                            "adoption": {"external": 1.0}, "run": {"periods": 3, "step_probability": "linear"}})
-    r = run_array(s, build_network(s, np.random.default_rng(0)), np.array([0, 1], dtype=np.int32), np.random.default_rng(1))
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 200, "initial_customers": 2},
+            "network": {"kind": "ring", "mean_degree": 4},
+            "adoption": {"external": 1.0},
+            "run": {"periods": 3, "step_probability": "linear"},
+        }
+    )
+    r = run_array(
+        s, build_network(s, np.random.default_rng(0)), np.array([0, 1], dtype=np.int32), np.random.default_rng(1)
+    )
     assert r.customers.tolist() == [2, 200, 200, 200]
 
 
@@ -144,8 +160,16 @@ def test_fast_step_is_the_plain_step_with_a_referral_programme(kind):
             "network": {"kind": kind, "mean_degree": 6},
             "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.7, "talkers_per_customer": 1},
             "run": {"periods": 30, "time_step": 0.5},
-            "referral": {"enrol": "share", "enrol_share": 0.5, "start": 4, "end": 20, "talk_multiplier": 2.0,
-                         "extra_talkers": 1.0, "reward": 1.0, "budget": 60.0},
+            "referral": {
+                "enrol": "share",
+                "enrol_share": 0.5,
+                "start": 4,
+                "end": 20,
+                "talk_multiplier": 2.0,
+                "extra_talkers": 1.0,
+                "reward": 1.0,
+                "budget": 60.0,
+            },
         }
     )
     for seed in range(2):

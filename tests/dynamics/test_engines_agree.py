@@ -62,22 +62,37 @@ CASES = {
     ),
     "regular": (
         {"kind": "regular", "mean_degree": 6},
-        {"rule": "capped", "external": 0.01, "word_of_mouth": 0.1, "cap": 0.3, "satisfied_share": 0.8,
-         "talkers_per_customer": 2},
+        {
+            "rule": "capped",
+            "external": 0.01,
+            "word_of_mouth": 0.1,
+            "cap": 0.3,
+            "satisfied_share": 0.8,
+            "talkers_per_customer": 2,
+        },
         {"periods": 12, "step_probability": "linear"},
         5,
     ),
     "random": (
         {"kind": "random", "mean_degree": 8},
-        {"rule": "share", "external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.6,
-         "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
+        {
+            "rule": "share",
+            "external": 0.01,
+            "word_of_mouth": 0.5,
+            "satisfied_share": 0.6,
+            "talkers_per_customer": {"distribution": "poisson", "mean": 2},
+        },
         {"periods": 24, "step_probability": "linear"},
         5,
     ),
     "small_world": (
         {"kind": "small_world", "mean_degree": 8, "rewiring": 0.1},
-        {"rule": "count", "external": 0.005, "word_of_mouth": 0.08,
-         "talkers_per_customer": {"distribution": "poisson", "mean": 1.5}},
+        {
+            "rule": "count",
+            "external": 0.005,
+            "word_of_mouth": 0.08,
+            "talkers_per_customer": {"distribution": "poisson", "mean": 1.5},
+        },
         {"periods": 15, "step_probability": "exponential"},
         5,
     ),
@@ -97,8 +112,13 @@ CASES = {
     # adopts at rate word_of_mouth = 0.5 per period
     "threshold": (
         {"kind": "small_world", "mean_degree": 8, "rewiring": 0.2},
-        {"rule": "threshold", "external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.9,
-         "threshold": {"distribution": "uniform", "low": 0.0, "high": 0.6}},
+        {
+            "rule": "threshold",
+            "external": 0.01,
+            "word_of_mouth": 0.5,
+            "satisfied_share": 0.9,
+            "threshold": {"distribution": "uniform", "low": 0.0, "high": 0.6},
+        },
         {"periods": 12, "step_probability": "exponential"},
         5,
     ),
@@ -113,18 +133,29 @@ CASES = {
 }
 
 
-def _scenario(network: dict, adoption: dict, run: dict, initial: int, seed: int, engine: str, *,
-              organisations: int | None = N, regions: int = 4) -> Scenario:
+def _scenario(
+    network: dict,
+    adoption: dict,
+    run: dict,
+    initial: int,
+    seed: int,
+    engine: str,
+    *,
+    organisations: int | None = N,
+    regions: int = 4,
+) -> Scenario:
     market = {"initial_customers": initial, "regions": regions}
     if organisations is not None:  # an edge list gives its own size
         market["organisations"] = organisations
-    return Scenario.from_dict({
-        "seed": seed,
-        "market": market,
-        "network": network,
-        "adoption": adoption,
-        "run": {**run, "engine": engine},
-    })
+    return Scenario.from_dict(
+        {
+            "seed": seed,
+            "market": market,
+            "network": network,
+            "adoption": adoption,
+            "run": {**run, "engine": engine},
+        }
+    )
 
 
 def _within(a: np.ndarray, m: np.ndarray, what: str) -> None:
@@ -143,11 +174,17 @@ def _outcomes(runs: list) -> tuple[np.ndarray, np.ndarray]:
     """Customers per replicate and period; final satisfied customers, word-of-mouth adoptions
     (and, with a referral programme, paid referrals)."""
     curves = np.vstack([r.customers for r in runs]).astype(float)
-    ends = np.array([
-        (r.satisfied_customers[-1], (r.referrer >= 0).sum(),
-         *([r.extra["programme_paid_referrals"].sum()] if "programme_paid_referrals" in r.extra else []))
-        for r in runs
-    ], dtype=float)
+    ends = np.array(
+        [
+            (
+                r.satisfied_customers[-1],
+                (r.referrer >= 0).sum(),
+                *([r.extra["programme_paid_referrals"].sum()] if "programme_paid_referrals" in r.extra else []),
+            )
+            for r in runs
+        ],
+        dtype=float,
+    )
     return curves, ends
 
 
@@ -201,8 +238,15 @@ def test_engines_agree_with_a_referral_programme() -> None:
     network = {"kind": "random", "mean_degree": 8}
     adoption = {"rule": "count", "external": 0.01, "word_of_mouth": 0.06, "satisfied_share": 0.8}
     run = {"periods": 14, "step_probability": "exponential"}
-    referral = {"enrol": "share", "enrol_share": 0.5, "start": 3, "end": 10, "talk_multiplier": 3.0,
-                "reward": 1.0, "budget": 230.0}
+    referral = {
+        "enrol": "share",
+        "enrol_share": 0.5,
+        "start": 3,
+        "end": 10,
+        "talk_multiplier": 3.0,
+        "reward": 1.0,
+        "budget": 230.0,
+    }
     array, mesa = (
         _scenario(network, adoption, run, 5, seed, engine).replace({f"referral.{k}": v for k, v in referral.items()})
         for seed, engine in ((SEED_ARRAY + 200, "array"), (SEED_MESA + 200, "mesa"))
@@ -218,8 +262,14 @@ def test_engines_agree_with_churn() -> None:
     # former customers by period (2 × 15 comparisons more, each at the file's |z| <= 4: a false-alarm
     # chance below 0.2 % for this test, Bonferroni) and KS on the installed base as above.
     network = {"kind": "small_world", "mean_degree": 6, "rewiring": 0.2}
-    adoption = {"rule": "share", "external": 0.02, "word_of_mouth": 0.6, "satisfied_share": 0.7,
-                "churn": 0.08, "churn_dissatisfied": 0.3}
+    adoption = {
+        "rule": "share",
+        "external": 0.02,
+        "word_of_mouth": 0.6,
+        "satisfied_share": 0.7,
+        "churn": 0.08,
+        "churn_dissatisfied": 0.3,
+    }
     run = {"periods": 14, "step_probability": "exponential", "time_step": 0.5}
     array = _scenario(network, adoption, run, 5, SEED_ARRAY + 300, "array", organisations=300)
     mesa = _scenario(network, adoption, run, 5, SEED_MESA + 300, "mesa", organisations=300)
@@ -239,13 +289,23 @@ def test_engines_agree_with_warnings() -> None:
     # both from the warning stream. Customers and rejecters by period (2 × 13 comparisons more, each at
     # |z| <= 4: a false-alarm chance below 0.2 % for this test, Bonferroni) and KS as above.
     network = {"kind": "random", "mean_degree": 6}
-    adoption = {"rule": "count", "external": 0.01, "word_of_mouth": 0.12, "satisfied_share": 0.7,
-                "warning": 0.5, "former_warn": True, "rejecters_warn": True, "churn": 0.1}
+    adoption = {
+        "rule": "count",
+        "external": 0.01,
+        "word_of_mouth": 0.12,
+        "satisfied_share": 0.7,
+        "warning": 0.5,
+        "former_warn": True,
+        "rejecters_warn": True,
+        "churn": 0.1,
+    }
     run = {"periods": 12, "step_probability": "exponential"}
     array = _scenario(network, adoption, run, 5, SEED_ARRAY + 400, "array", organisations=300)
     mesa = _scenario(network, adoption, run, 5, SEED_MESA + 400, "mesa", organisations=300)
     _check_agree(array, mesa)
-    rejecters = [np.vstack([r.rejecters for r in run_replicates(s, reps, jobs=2).runs]).astype(float)
-                 for s, reps in ((array, R_ARRAY), (mesa, R_MESA))]
+    rejecters = [
+        np.vstack([r.rejecters for r in run_replicates(s, reps, jobs=2).runs]).astype(float)
+        for s, reps in ((array, R_ARRAY), (mesa, R_MESA))
+    ]
     _within(*rejecters, "rejecters, by period,")
     assert rejecters[0][:, -1].mean() > 10  # warnings did something to compare

@@ -111,8 +111,13 @@ def test_events_agree_with_discrete_engine_at_small_step(kind, tmp_path):
             "seed": 77,
             "market": market,
             "network": network,
-            "adoption": {"rule": rule, "external": 0.01, "word_of_mouth": q, "satisfied_share": 0.8,
-                         "talkers_per_customer": talkers},
+            "adoption": {
+                "rule": rule,
+                "external": 0.01,
+                "word_of_mouth": q,
+                "satisfied_share": 0.8,
+                "talkers_per_customer": talkers,
+            },
             "run": {"periods": 12, "time_step": 0.05, "clock": "discrete"},
         }
     )
@@ -131,8 +136,12 @@ def test_referrers_are_earlier_satisfied_neighbours():
     # definition of the first-passage predecessor (Dijkstra 1959): a word-of-mouth adopter's
     # referrer is a neighbour, a satisfied customer, and adopted strictly earlier
     s = Scenario.from_dict(
-        {"market": {"organisations": 2000, "initial_customers": 20}, "network": {"kind": "small_world", "mean_degree": 8},
-         "adoption": {"satisfied_share": 0.6, "external": 0.005, "word_of_mouth": 0.5}, "run": {"periods": 30, "clock": "continuous"}}
+        {
+            "market": {"organisations": 2000, "initial_customers": 20},
+            "network": {"kind": "small_world", "mean_degree": 8},
+            "adoption": {"satisfied_share": 0.6, "external": 0.005, "word_of_mouth": 0.5},
+            "run": {"periods": 30, "clock": "continuous"},
+        }
     )
     net = build_network(s, np.random.default_rng(3))
     r = run_events(s, net, np.arange(20, dtype=np.int32), np.random.default_rng(4))
@@ -148,9 +157,13 @@ def test_referrers_are_earlier_satisfied_neighbours():
 
 def test_finer_report_grid_agrees_with_period_grid():
     # common practice: a finer grid refines the coarse one; the per-period rows stay T + 1
-    s = Scenario.from_dict({"market": {"organisations": 1000, "initial_customers": 10},
-                            "network": {"kind": "random", "mean_degree": 6},
-                            "run": {"periods": 12, "clock": "continuous", "report_every": 0.25}})
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 1000, "initial_customers": 10},
+            "network": {"kind": "random", "mean_degree": 6},
+            "run": {"periods": 12, "clock": "continuous", "report_every": 0.25},
+        }
+    )
     batch = run_replicates(s, 2)
     run = batch.runs[0]
     coarse, fine = run.curve(1.0), run.curve()
@@ -173,7 +186,9 @@ def test_rules_that_cannot_run_on_the_continuous_clock():
         Scenario.from_dict({"run": {"clock": "continuous", "engine": "mesa"}})
     with pytest.raises(ScenarioError, match=r"run.clock must be one of discrete, continuous; got 'continous'"):
         Scenario.from_dict({"run": {"clock": "continous"}})
-    with pytest.raises(ScenarioError, match=r'referral.enrol = "all": a referral programme runs on run.clock = "discrete"'):
+    with pytest.raises(
+        ScenarioError, match=r'referral.enrol = "all": a referral programme runs on run.clock = "discrete"'
+    ):
         Scenario.from_dict({"run": {"clock": "continuous"}, "referral": {"enrol": "all"}})
     with pytest.raises(ScenarioError, match=r'run.report_every must be a whole period \(1\) with run.engine = "mesa"'):
         Scenario.from_dict({"run": {"engine": "mesa", "report_every": 0.5}})
@@ -189,19 +204,26 @@ def test_attribution_agrees_with_discrete_engine_at_small_step(kind):
     # word-of-mouth adoptions and on the count of adoptions referred by the initial customers:
     # means within 4 SE of the difference at every period (120 replicates each; seed fixed
     # before looking).
-    s = Scenario.from_dict({
-        "seed": 78,
-        "market": {"organisations": 500, "initial_customers": 5},
-        "network": {"kind": kind, "mean_degree": 6},
-        "adoption": {"rule": "share", "external": 0.02, "word_of_mouth": 0.5, "satisfied_share": 0.8},
-        "run": {"periods": 12, "time_step": 0.05},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 78,
+            "market": {"organisations": 500, "initial_customers": 5},
+            "network": {"kind": kind, "mean_degree": 6},
+            "adoption": {"rule": "share", "external": 0.02, "word_of_mouth": 0.5, "satisfied_share": 0.8},
+            "run": {"periods": 12, "time_step": 0.05},
+        }
+    )
     reps = 120
 
     def counts(batch):
         periods = np.arange(s.run.periods + 1)
-        wom = np.array([[np.sum((r.referrer >= 0) & (r.adoption_period >= 0) & (r.adoption_period <= t))
-                         for t in periods] for r in batch.runs], dtype=float)
+        wom = np.array(
+            [
+                [np.sum((r.referrer >= 0) & (r.adoption_period >= 0) & (r.adoption_period <= t)) for t in periods]
+                for r in batch.runs
+            ],
+            dtype=float,
+        )
         by_initial = np.array([np.isin(r.referrer, r.initial).sum() for r in batch.runs], dtype=float)
         return wom, by_initial
 
@@ -212,8 +234,15 @@ def test_attribution_agrees_with_discrete_engine_at_small_step(kind):
         assert np.all(np.abs(a.mean(axis=0) - b.mean(axis=0)) <= 4 * se + 1e-12)
 
 
-@pytest.mark.parametrize("kind,rule,p", [("small_world", "share", 0.01), ("scale_free", "count", 0.02),
-                                         ("ring", "share", 0.0), ("regional", "count", 0.005)])
+@pytest.mark.parametrize(
+    "kind,rule,p",
+    [
+        ("small_world", "share", 0.01),
+        ("scale_free", "count", 0.02),
+        ("ring", "share", 0.0),
+        ("regional", "count", 0.005),
+    ],
+)
 def test_compiled_first_passage_is_scipy_dijkstra(kind, rule, p):
     # The engine's compiled Dijkstra against scipy.sparse.csgraph.dijkstra (Dijkstra 1959, as
     # implemented in scipy) on the graph it stands for: the network's live arcs with lengths
@@ -225,13 +254,20 @@ def test_compiled_first_passage_is_scipy_dijkstra(kind, rule, p):
 
     from womlab.dynamics.event_engine import _first_passage, tie_rates
 
-    s = Scenario.from_dict({
-        "market": {"organisations": 3000, "initial_customers": 6, "regions": 3},
-        "network": {"kind": kind, "mean_degree": 6},
-        "adoption": {"rule": rule, "external": p, "word_of_mouth": 0.4 if rule == "share" else 0.1,
-                     "satisfied_share": 0.7, "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
-        "run": {"periods": 12, "clock": "continuous"},
-    })
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 3000, "initial_customers": 6, "regions": 3},
+            "network": {"kind": kind, "mean_degree": 6},
+            "adoption": {
+                "rule": rule,
+                "external": p,
+                "word_of_mouth": 0.4 if rule == "share" else 0.1,
+                "satisfied_share": 0.7,
+                "talkers_per_customer": {"distribution": "poisson", "mean": 2},
+            },
+            "run": {"periods": 12, "clock": "continuous"},
+        }
+    )
     net = build_network(s, np.random.default_rng(5))
     rng = np.random.default_rng(9)
     tau = rng.poisson(2, net.n).astype(np.float32)
@@ -249,9 +285,13 @@ def test_compiled_first_passage_is_scipy_dijkstra(kind, rule, p):
     src_cols = np.arange(net.n) if p > 0 else initial
     src_len = np.where(start, 0.0, external / p)[src_cols] if p > 0 else np.zeros(initial.size)
     rows = np.repeat(np.arange(net.n), np.diff(net.indptr))[live]
-    graph = sp.csr_array((np.concatenate([length, src_len]),
-                          (np.concatenate([rows, np.full(src_cols.size, net.n)]),
-                           np.concatenate([net.indices[live], src_cols]))), shape=(net.n + 1, net.n + 1))
+    graph = sp.csr_array(
+        (
+            np.concatenate([length, src_len]),
+            (np.concatenate([rows, np.full(src_cols.size, net.n)]), np.concatenate([net.indices[live], src_cols])),
+        ),
+        shape=(net.n + 1, net.n + 1),
+    )
     ref_dist, ref_pred = dijkstra(graph, directed=True, indices=net.n, return_predecessors=True, limit=12.0)
     ref_dist, ref_pred = ref_dist[: net.n], ref_pred[: net.n]
     reached = np.isfinite(ref_dist)

@@ -89,14 +89,20 @@ def test_batch_run_every_step_gives_every_row() -> None:
 
 def test_flat_parameters_map_onto_the_scenario() -> None:
     model = ReferralModel(**FLAT, seed=11, rule="count", talkers_per_customer={"distribution": "poisson", "mean": 2})
-    nested = Scenario.from_dict({
-        "seed": 11,
-        "market": {"organisations": 200, "initial_customers": 4},
-        "network": {"kind": "random", "mean_degree": 6},
-        "adoption": {"word_of_mouth": 0.4, "satisfied_share": 0.7, "rule": "count",
-                     "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
-        "run": {"periods": 12},
-    })
+    nested = Scenario.from_dict(
+        {
+            "seed": 11,
+            "market": {"organisations": 200, "initial_customers": 4},
+            "network": {"kind": "random", "mean_degree": 6},
+            "adoption": {
+                "word_of_mouth": 0.4,
+                "satisfied_share": 0.7,
+                "rule": "count",
+                "talkers_per_customer": {"distribution": "poisson", "mean": 2},
+            },
+            "run": {"periods": 12},
+        }
+    )
     assert model.womlab_scenario == nested
     assert FLAT_PARAMETERS["word_of_mouth"] == FLAT_PARAMETERS["adoption_word_of_mouth"] == "adoption.word_of_mouth"
     assert "replicates" not in FLAT_PARAMETERS and "engine" not in FLAT_PARAMETERS
@@ -135,8 +141,13 @@ def test_callers_graph_and_network_are_not_changed() -> None:
     # Zachary (1977) karate club, as shipped by networkx, with its node and edge attributes
     graph = nx.karate_club_graph()
     before = copy.deepcopy(graph)
-    scenario = Scenario.from_dict({"market": {"organisations": 34, "initial_customers": 2},
-                                   "network": {"kind": "random", "mean_degree": 4}, "run": {"periods": 8}})
+    scenario = Scenario.from_dict(
+        {
+            "market": {"organisations": 34, "initial_customers": 2},
+            "network": {"kind": "random", "mean_degree": 4},
+            "run": {"periods": 8},
+        }
+    )
     model = ReferralModel(scenario, network=graph, rng=1)
     model.run_model()
     assert model.space.G is not graph
@@ -158,10 +169,17 @@ def test_callers_graph_and_network_are_not_changed() -> None:
 def test_referrers_are_earlier_satisfied_neighbours(time_step: float) -> None:
     rng = np.random.default_rng(42)
     graph = nx.watts_strogatz_graph(300, 6, 0.1, seed=rng)
-    scenario = Scenario.from_dict({"market": {"organisations": 300, "initial_customers": 5},
-                                   "adoption": {"word_of_mouth": 0.5, "satisfied_share": 0.6,
-                                                "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
-                                   "run": {"periods": 15, "time_step": time_step}})
+    scenario = Scenario.from_dict(
+        {
+            "market": {"organisations": 300, "initial_customers": 5},
+            "adoption": {
+                "word_of_mouth": 0.5,
+                "satisfied_share": 0.6,
+                "talkers_per_customer": {"distribution": "poisson", "mean": 2},
+            },
+            "run": {"periods": 15, "time_step": time_step},
+        }
+    )
     result = ReferralModel(scenario, network=graph, rng=7)
     result.run_model()
     result = result.result()
@@ -221,8 +239,9 @@ def test_programme_without_boost_or_payments_reproduces_the_baseline() -> None:
 
 
 def test_programme_pays_enrolled_referrers_in_its_window_within_budget() -> None:
-    scenario = _with_programme(enrol="share", enrol_share=0.5, start=3, end=8, talk_multiplier=3.0,
-                               reward=2.0, budget=40.0)
+    scenario = _with_programme(
+        enrol="share", enrol_share=0.5, start=3, end=8, talk_multiplier=3.0, reward=2.0, budget=40.0
+    )
     result = _run(scenario=scenario).result()
     extra = result.extra
     rewarded = np.flatnonzero(extra["rewarded"])
@@ -266,8 +285,7 @@ def test_womlab_imports_mesa_only_when_the_model_is_asked_for():
     import subprocess
     import sys
 
-    code = ("import sys, womlab; assert 'mesa' not in sys.modules; "
-            "womlab.ReferralModel; assert 'mesa' in sys.modules")
+    code = "import sys, womlab; assert 'mesa' not in sys.modules; womlab.ReferralModel; assert 'mesa' in sys.modules"
     assert subprocess.run([sys.executable, "-c", code]).returncode == 0
 
 
@@ -306,8 +324,11 @@ def test_keyword_parameters_suit_mesa_s_browser_view() -> None:
     import inspect
 
     params = inspect.signature(ReferralModel.__init__).parameters
-    required = [n for n, p in params.items() if p.default is inspect.Parameter.empty
-                and p.kind not in (p.VAR_KEYWORD, p.VAR_POSITIONAL) and n != "self"]
+    required = [
+        n
+        for n, p in params.items()
+        if p.default is inspect.Parameter.empty and p.kind not in (p.VAR_KEYWORD, p.VAR_POSITIONAL) and n != "self"
+    ]
     assert required == []
     assert [n for n, p in params.items() if p.kind == p.VAR_KEYWORD] == ["kwargs"]
     assert not any(p.kind == p.VAR_POSITIONAL for p in params.values())
@@ -341,8 +362,7 @@ def test_an_edge_table_is_a_network_and_adoption_times_end_the_step() -> None:
     # Padgett & Ansell (1993) Florentine families, as networkx ships them, handed in as an edge table
     graph = nx.florentine_families_graph()
     table = nx.to_pandas_edgelist(graph)
-    model = _run(organisations=15, initial_customers=2, periods=6, time_step=0.5, word_of_mouth=0.8,
-                 network=table)
+    model = _run(organisations=15, initial_customers=2, periods=6, time_step=0.5, word_of_mouth=0.8, network=table)
     assert model.network.ties == graph.number_of_edges() == 20
     assert sorted(model.network.labels) == sorted(graph.nodes)
     result = model.result()

@@ -26,13 +26,15 @@ def copies(graph: nx.Graph, k: int) -> tuple[ReferralNetwork, int]:
 
 
 def scenario(n: int, rule: str, q: float, *, time_step: float = 1.0, periods: int = 6, **adoption) -> Scenario:
-    return Scenario.from_dict({
-        "seed": 1,
-        "market": {"organisations": n, "initial_customers": 0},
-        "network": {"kind": "ring", "mean_degree": 2},  # not used: run_array is given the network
-        "adoption": {"rule": rule, "external": 0.0, "word_of_mouth": q, "satisfied_share": 1.0, **adoption},
-        "run": {"periods": periods, "time_step": time_step},
-    })
+    return Scenario.from_dict(
+        {
+            "seed": 1,
+            "market": {"organisations": n, "initial_customers": 0},
+            "network": {"kind": "ring", "mean_degree": 2},  # not used: run_array is given the network
+            "adoption": {"rule": rule, "external": 0.0, "word_of_mouth": q, "satisfied_share": 1.0, **adoption},
+            "run": {"periods": periods, "time_step": time_step},
+        }
+    )
 
 
 def live_edge_spread(graph: nx.Graph, seed: int, q: float) -> tuple[float, float]:
@@ -146,12 +148,14 @@ def test_threshold_draws():
 
 def test_new_rules_run_as_batches_without_an_aggregate_curve():
     for rule in ("threshold", "cascade"):
-        s = Scenario.from_dict({
-            "market": {"organisations": 300, "initial_customers": 10},
-            "network": {"kind": "random", "mean_degree": 6},
-            "adoption": {"rule": rule, "external": 0.01, "word_of_mouth": 0.3},
-            "run": {"periods": 10},
-        })
+        s = Scenario.from_dict(
+            {
+                "market": {"organisations": 300, "initial_customers": 10},
+                "network": {"kind": "random", "mean_degree": 6},
+                "adoption": {"rule": rule, "external": 0.01, "word_of_mouth": 0.3},
+                "run": {"periods": 10},
+            }
+        )
         batch = run_replicates(s, 2)
         assert np.isnan(batch.summary()["aggregate"]).all()
         assert (batch.shares()[:, -1] > 10 / 300).all()

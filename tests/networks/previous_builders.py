@@ -13,6 +13,7 @@ import numpy as np
 from womlab.errors import NetworkError
 from womlab.networks.network import ReferralNetwork, balanced_regions
 
+
 def from_edges(
     n: int,
     source: np.ndarray,
@@ -47,7 +48,6 @@ def from_edges(
     )
 
 
-
 def _with_regions(graph: nx.Graph, region: np.ndarray) -> nx.Graph:
     nx.set_node_attributes(graph, dict(enumerate(region.tolist())), "region")
     return graph
@@ -58,8 +58,9 @@ def complete(n: int, *, regions: int = 1, rng: np.random.Generator | None = None
     """Everyone knows everyone; stored without ties (engines use totals)."""
     empty = np.zeros(0, dtype=np.int32)
     region = balanced_regions(n, regions, rng)
-    return ReferralNetwork(n=n, indptr=np.zeros(n + 1, dtype=np.int32), indices=empty, region=region,
-                           kind="complete", complete=True)
+    return ReferralNetwork(
+        n=n, indptr=np.zeros(n + 1, dtype=np.int32), indices=empty, region=region, kind="complete", complete=True
+    )
 
 
 def random(n: int, mean_degree: float, rng: np.random.Generator, *, regions: int = 1) -> ReferralNetwork:
@@ -477,4 +478,3 @@ def networkx_scale_free(n: int, mean_degree: int, rng: np.random.Generator, *, r
     """The networkx form of :func:`scale_free` (``barabasi_albert_graph``), kept as the reference."""
     g = nx.barabasi_albert_graph(n, int(mean_degree) // 2, seed=rng)
     return _with_regions(g, balanced_regions(n, regions, rng))
-

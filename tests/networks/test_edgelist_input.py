@@ -26,16 +26,19 @@ def _scenario(tmp_path, edges: bytes, nodes: bytes | None = None, extra: str = "
     return cfg
 
 
-@pytest.mark.parametrize("edges, words", [
-    (bytes(range(256)) * 8, "binary data"),
-    ("source,target\n1,2\n2,3\n".encode("utf-16"), "UTF-16"),
-    (b"source,target\n1,2\n2,\xff3\n", "not UTF-8 text (byte 0xff at line 3, column 3)"),
-    (b"source,target\n", "holds no ties"),
-    (b"", "is empty"),
-    (b"source,target\n1,1\n2,2\n3,3\n", "holds only self-loops"),
-    (b"source,target\n1,2\n01,3\n2,3\n", "writes one id two ways ('01' and '1')"),
-    (b'source,target\n1,2\n"unclosed,3\n', "its rows do not parse as CSV"),
-])
+@pytest.mark.parametrize(
+    "edges, words",
+    [
+        (bytes(range(256)) * 8, "binary data"),
+        ("source,target\n1,2\n2,3\n".encode("utf-16"), "UTF-16"),
+        (b"source,target\n1,2\n2,\xff3\n", "not UTF-8 text (byte 0xff at line 3, column 3)"),
+        (b"source,target\n", "holds no ties"),
+        (b"", "is empty"),
+        (b"source,target\n1,1\n2,2\n3,3\n", "holds only self-loops"),
+        (b"source,target\n1,2\n01,3\n2,3\n", "writes one id two ways ('01' and '1')"),
+        (b'source,target\n1,2\n"unclosed,3\n', "its rows do not parse as CSV"),
+    ],
+)
 def test_a_malformed_edge_list_gets_one_line(tmp_path, edges, words):
     cfg = _scenario(tmp_path, edges)
     with pytest.raises((NetworkError, ScenarioError)) as exc:
@@ -50,12 +53,15 @@ def test_one_id_written_two_ways_in_the_node_file(tmp_path):
         load_scenario(cfg)
 
 
-@pytest.mark.parametrize("field, content", [
-    ("path", f"{SECRET}\nOTHER=1\n"),
-    ("path", "root:x:0:0:root:/root:/bin/bash\ndaemon:x:1:1::/usr/sbin:/usr/sbin/nologin\n"),
-    ("path", "hello world secret-token-xyz\nmore\n"),
-    ("nodes_path", f"{SECRET}\nOTHER=1\n"),
-])
+@pytest.mark.parametrize(
+    "field, content",
+    [
+        ("path", f"{SECRET}\nOTHER=1\n"),
+        ("path", "root:x:0:0:root:/root:/bin/bash\ndaemon:x:1:1::/usr/sbin:/usr/sbin/nologin\n"),
+        ("path", "hello world secret-token-xyz\nmore\n"),
+        ("nodes_path", f"{SECRET}\nOTHER=1\n"),
+    ],
+)
 def test_an_error_never_echoes_the_file(tmp_path, field, content):
     good = b"source,target\n1,2\n2,3\n"
     if field == "path":
@@ -84,8 +90,12 @@ def test_the_node_file_gives_the_regions(tmp_path):
 
 
 def test_regions_that_disagree_with_the_node_file_are_refused(tmp_path):
-    cfg = _scenario(tmp_path, b"source,target\n1,2\n2,3\n3,4\n4,1\n", b"id,region\n1,a\n2,a\n3,b\n4,c\n",
-                    extra="[market]\nregions = 2\n")
+    cfg = _scenario(
+        tmp_path,
+        b"source,target\n1,2\n2,3\n3,4\n4,1\n",
+        b"id,region\n1,a\n2,a\n3,b\n4,c\n",
+        extra="[market]\nregions = 2\n",
+    )
     with pytest.raises(ScenarioError, match=r"market.regions must match the node file \(3 regions in n.csv\), got 2"):
         load_scenario(cfg)
 

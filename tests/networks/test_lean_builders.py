@@ -23,8 +23,11 @@ import previous_builders as previous  # noqa: E402
 
 
 def _same(a: nw.ReferralNetwork, b: nw.ReferralNetwork) -> bool:
-    return (np.array_equal(a.indptr, b.indptr) and np.array_equal(a.indices, b.indices)
-            and np.array_equal(a.region, b.region))
+    return (
+        np.array_equal(a.indptr, b.indptr)
+        and np.array_equal(a.indices, b.indices)
+        and np.array_equal(a.region, b.region)
+    )
 
 
 # the builders whose draws did not change: the compiled build must give the very same network
@@ -162,8 +165,10 @@ def test_derived_clustering_matches_networkx_small_worlds():
     # moves a share β of lattice far ends, so its mean clustering is rewired_lattice_clustering(k,
     # 1 − β). 6 realisations at n = 3000; tolerance 4 SE of their mean plus 2k²/n (as above)
     for k, beta in ((8, 0.2), (10, 0.05)):
-        values = [nx.average_clustering(nx.watts_strogatz_graph(3000, k, beta, seed=np.random.default_rng([4, r])))
-                  for r in range(6)]
+        values = [
+            nx.average_clustering(nx.watts_strogatz_graph(3000, k, beta, seed=np.random.default_rng([4, r])))
+            for r in range(6)
+        ]
         se = np.std(values, ddof=1) / np.sqrt(len(values))
         assert abs(np.mean(values) - nw.rewired_lattice_clustering(k, 1 - beta)) < 4 * se + 2 * k**2 / 3000
         # and Barrat & Weigt's (2000) ratio-of-means form is near it (within 0.025, as the suite's small-world test)

@@ -6,7 +6,6 @@ states its basis.
 
 from __future__ import annotations
 
-import networkx as nx
 import numpy as np
 import pytest
 from scipy import stats
@@ -137,11 +136,16 @@ def _pooled(build, reps: int, seed: int):
 
 
 PAIRS = {
-    "small_world": (lambda rng: nw.small_world(2000, 8, 0.2, rng), lambda rng: nw.networkx_small_world(2000, 8, 0.2, rng)),
+    "small_world": (
+        lambda rng: nw.small_world(2000, 8, 0.2, rng),
+        lambda rng: nw.networkx_small_world(2000, 8, 0.2, rng),
+    ),
     "regular": (lambda rng: nw.regular(2000, 6, rng), lambda rng: nw.networkx_regular(2000, 6, rng)),
     "random": (lambda rng: nw.random(2000, 6.0, rng), lambda rng: nw.networkx_random(2000, 6.0, rng)),
-    "regional_blocks": (lambda rng: nw.regional_blocks(2000, 6.0, 4, 0.8, rng),
-                        lambda rng: nw.networkx_regional_blocks(2000, 6.0, 4, 0.8, rng)),
+    "regional_blocks": (
+        lambda rng: nw.regional_blocks(2000, 6.0, 4, 0.8, rng),
+        lambda rng: nw.networkx_regional_blocks(2000, 6.0, 4, 0.8, rng),
+    ),
     "scale_free": (lambda rng: nw.scale_free(2000, 6, rng), lambda rng: nw.networkx_scale_free(2000, 6, rng)),
 }
 
@@ -165,7 +169,9 @@ def test_build_network_uses_array_builders():
     from womlab import Scenario, build_network
 
     for kind in ("ring", "regular", "small_world", "scale_free", "random", "regional", "regional_blocks"):
-        s = Scenario.from_dict({"market": {"organisations": 300, "regions": 3}, "network": {"kind": kind, "mean_degree": 6}})
+        s = Scenario.from_dict(
+            {"market": {"organisations": 300, "regions": 3}, "network": {"kind": kind, "mean_degree": 6}}
+        )
         net = build_network(s, np.random.default_rng(0))
         assert net.kind == kind and net.regions == 3
         assert net.to_networkx().number_of_edges() == net.ties  # the way out to networkx

@@ -54,7 +54,9 @@ def test_from_networkx_drops_loops_and_repeats_with_a_warning_and_refuses_partia
     assert net.ties == 2
     h = nx.path_graph(3)
     h.nodes[0]["region"] = "north"
-    with pytest.raises(NetworkError, match=r"node attribute 'region' is missing on 2 of 3 nodes .*allowed: on every node or on none"):
+    with pytest.raises(
+        NetworkError, match=r"node attribute 'region' is missing on 2 of 3 nodes .*allowed: on every node or on none"
+    ):
         ReferralNetwork.from_networkx(h)
 
 
@@ -81,27 +83,35 @@ def test_graph_files_through_a_scenario(tmp_path, kind):
     nx.set_node_attributes(g, {v: ("north" if v < "M" else "south") for v in g}, "zone")
     path = tmp_path / f"families.{kind}"
     getattr(nx, f"write_{kind}")(g, path)
-    s = Scenario.from_dict({"network": {"kind": kind, "path": str(path), "region_attribute": "zone"},
-                            "market": {"regions": 2}})
+    s = Scenario.from_dict(
+        {"network": {"kind": kind, "path": str(path), "region_attribute": "zone"}, "market": {"regions": 2}}
+    )
     assert s.market.organisations == 15  # from the file, as for an edge list
     assert s.network.mean_degree == pytest.approx(40 / 15)
     net = build_network(s, np.random.default_rng(0))
     medici = net.labels.tolist().index("Medici")
     assert net.degree()[medici] == 6 and net.region_values()[medici] == "south"
-    with pytest.raises(ScenarioError, match=rf"market.organisations must match the {'GraphML' if kind == 'graphml' else 'GEXF'} file \(15 organisations"):
+    with pytest.raises(
+        ScenarioError,
+        match=rf"market.organisations must match the {'GraphML' if kind == 'graphml' else 'GEXF'} file \(15 organisations",
+    ):
         Scenario.from_dict({"network": {"kind": kind, "path": str(path)}, "market": {"organisations": 20}})
 
 
 def test_unreadable_graph_file_is_one_line(tmp_path, capsys):
     bad = tmp_path / "broken.graphml"
     bad.write_text("<graphml><graph><node id='a'/>", encoding="utf-8")
-    with pytest.raises(NetworkError, match=r"network.path: cannot read '.*broken.graphml' as GraphML: .*allowed: a GraphML file"):
+    with pytest.raises(
+        NetworkError, match=r"network.path: cannot read '.*broken.graphml' as GraphML: .*allowed: a GraphML file"
+    ):
         read_graph_file(bad, "graphml")
     config = tmp_path / "s.toml"
     config.write_text(f'[network]\nkind = "graphml"\npath = "{bad.name}"\n', encoding="utf-8")
     assert main(["check", str(config)]) == 2
     err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and err[0].startswith("womlab: error: network.path: cannot read") and "broken.graphml" in err[0]
+    assert (
+        len(err) == 1 and err[0].startswith("womlab: error: network.path: cannot read") and "broken.graphml" in err[0]
+    )
 
 
 def test_check_prints_the_clustering_coefficient(tmp_path, capsys):

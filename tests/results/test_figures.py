@@ -25,14 +25,23 @@ from womlab.results import (
     strategy_colour,
 )
 
-LONG = ("an invented scenario with a very long name: fleet-maintenance software sold to regional logistics firms "
-        "in six regions of an invented country, 2026 launch")
+LONG = (
+    "an invented scenario with a very long name: fleet-maintenance software sold to regional logistics firms "
+    "in six regions of an invented country, 2026 launch"
+)
 
 
 def _scenario(name: str) -> Scenario:
-    return Scenario.from_dict({"name": name, "seed": 9, "market": {"organisations": 200, "initial_customers": 2},
-                               "network": {"kind": "random", "mean_degree": 6}, "run": {"periods": 12},
-                               "referral": {"enrol": "all", "talk_multiplier": 2.0, "reward": 1.0}})
+    return Scenario.from_dict(
+        {
+            "name": name,
+            "seed": 9,
+            "market": {"organisations": 200, "initial_customers": 2},
+            "network": {"kind": "random", "mean_degree": 6},
+            "run": {"periods": 12},
+            "referral": {"enrol": "all", "talk_multiplier": 2.0, "reward": 1.0},
+        }
+    )
 
 
 @pytest.fixture(scope="module")
@@ -42,10 +51,12 @@ def studies():  # noqa: ANN201
         s = _scenario(name)
         out[name] = {
             "adoption": adoption_figure(run_replicates(s.replace("referral.enrol", "none"), 3)),
-            "comparison": comparison_figure(compare(s.replace("referral.enrol", "none"), 3, bootstrap=20,
-                                                    fit_bootstrap=5)),
-            "seeding": seeding_figure(compare_strategies(s.replace("referral.enrol", "none"), ["hubs", "fringe"],
-                                                         replicates=3)),
+            "comparison": comparison_figure(
+                compare(s.replace("referral.enrol", "none"), 3, bootstrap=20, fit_bootstrap=5)
+            ),
+            "seeding": seeding_figure(
+                compare_strategies(s.replace("referral.enrol", "none"), ["hubs", "fringe"], replicates=3)
+            ),
         }
         study = evaluate_programme(s, 3)
         out[name]["programme"] = programme_figure(study)
@@ -89,8 +100,9 @@ def test_no_text_is_clipped_and_legends_are_off_the_data(studies, kind):
         if not t.get_text() or not t.get_visible():
             continue
         box = t.get_window_extent(renderer)
-        assert box.x0 >= frame.x0 - 1 and box.x1 <= frame.x1 + 1 and box.y0 >= frame.y0 - 1 and box.y1 <= frame.y1 + 1, \
-            (kind, t.get_text())
+        assert (
+            box.x0 >= frame.x0 - 1 and box.x1 <= frame.x1 + 1 and box.y0 >= frame.y0 - 1 and box.y1 <= frame.y1 + 1
+        ), (kind, t.get_text())
     legends = [ax.get_legend() for ax in fig.axes if ax.get_legend() is not None] + list(fig.legends)
     assert legends, kind
     for legend in legends:
@@ -98,7 +110,9 @@ def test_no_text_is_clipped_and_legends_are_off_the_data(studies, kind):
         assert frame.x0 - 1 <= box.x0 and box.x1 <= frame.x1 + 1, kind
         for ax in fig.axes:
             data = ax.get_window_extent(renderer)
-            overlap = min(box.x1, data.x1) - max(box.x0, data.x0) > 1 and min(box.y1, data.y1) - max(box.y0, data.y0) > 1
+            overlap = (
+                min(box.x1, data.x1) - max(box.x0, data.x0) > 1 and min(box.y1, data.y1) - max(box.y0, data.y0) > 1
+            )
             assert not overlap, (kind, "legend over the data")
 
 
@@ -114,8 +128,25 @@ def test_a_strategy_has_one_colour_in_every_figure():
         lines = {line.get_label(): line.get_color() for line in fig.axes[0].get_lines()}
         for name in ("random", "hubs", "fringe"):
             assert lines[name] == strategy_colour(name)
-    assert len({strategy_colour(n) for n in ("random", "hubs", "bridges", "pagerank", "coreness", "fringe",
-                                              "by_region", "spread", "greedy")}) == 9
+    assert (
+        len(
+            {
+                strategy_colour(n)
+                for n in (
+                    "random",
+                    "hubs",
+                    "bridges",
+                    "pagerank",
+                    "coreness",
+                    "fringe",
+                    "by_region",
+                    "spread",
+                    "greedy",
+                )
+            }
+        )
+        == 9
+    )
 
 
 def test_aggregate_curves_that_coincide_are_drawn_once(studies):
@@ -126,8 +157,9 @@ def test_aggregate_curves_that_coincide_are_drawn_once(studies):
     from womlab.aggregate import AGGREGATE_LABELS
 
     fig = studies["costs $5 and $10"]["comparison"]
-    labels = [line.get_label().replace("\n", " ") for line in fig.axes[0].get_lines()
-              if not line.get_label().startswith("_")]
+    labels = [
+        line.get_label().replace("\n", " ") for line in fig.axes[0].get_lines() if not line.get_label().startswith("_")
+    ]
     coincide = [label for label in labels if "coincide" in label]
     assert len(coincide) == 1 and "rate ceiling" in coincide[0] and "Bass difference model, mapped" in coincide[0]
     assert len(labels) == len(set(labels))

@@ -44,13 +44,19 @@ def sweep_folder(tmp_path, monkeypatch):
         return real(scenario, network, initial, rng)
 
     monkeypatch.setitem(dynamics.ENGINES, "array", flaky)
-    s = Scenario.from_dict({
-        "name": "report test (invented)", "seed": 4,
-        "market": {"organisations": 200, "initial_customers": 2},
-        "network": {"kind": "random", "mean_degree": 4},
-        "run": {"periods": 20},
-        "sweep": {"replicates": 3, "axes": {"adoption.word_of_mouth": [0.2, 0.5], "network.kind": ["random", "ring"]}},
-    })
+    s = Scenario.from_dict(
+        {
+            "name": "report test (invented)",
+            "seed": 4,
+            "market": {"organisations": 200, "initial_customers": 2},
+            "network": {"kind": "random", "mean_degree": 4},
+            "run": {"periods": 20},
+            "sweep": {
+                "replicates": 3,
+                "axes": {"adoption.word_of_mouth": [0.2, 0.5], "network.kind": ["random", "ring"]},
+            },
+        }
+    )
     out = tmp_path / "sweep"
     run_sweep(s, out, 1, progress=False, report=False)
     return out
@@ -85,10 +91,23 @@ def test_report_renders_offline_in_headless_chromium_with_every_figure_and_table
     probe.write_text(text.replace("</body>", CHECK), encoding="utf-8")
     profile = tmp_path / "profile"
     done = subprocess.run(
-        [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-         "--disable-component-update", "--disable-sync", "--no-first-run", f"--user-data-dir={profile}",
-         "--virtual-time-budget=10000", "--dump-dom", probe.as_uri()],
-        capture_output=True, text=True, timeout=120,
+        [
+            CHROMIUM,
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+            "--no-first-run",
+            f"--user-data-dir={profile}",
+            "--virtual-time-budget=10000",
+            "--dump-dom",
+            probe.as_uri(),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=120,
     )
     match = re.search(r"images=(\d+);loaded=(\d+);tables=(\d+);heads=([^<]*)", done.stdout)
     assert match, f"no check result in the dumped DOM; stderr: {done.stderr[-2000:]}"

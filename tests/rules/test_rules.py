@@ -42,20 +42,23 @@ def test_step_hazard_reproduces_step_probability(form):
         assert np.allclose(-np.expm1(-h), step_probability(rate, dt, form))
 
 
-@pytest.mark.parametrize("form,survival", [("exponential", lambda p, t: np.exp(-p * t)),
-                                           ("linear", lambda p, t: (1 - p) ** t)])
+@pytest.mark.parametrize(
+    "form,survival", [("exponential", lambda p, t: np.exp(-p * t)), ("linear", lambda p, t: (1 - p) ** t)]
+)
 def test_external_influence_alone_gives_the_textbook_waiting_time(form, survival):
     # With no word of mouth the Bass model is pure external influence: the time to adopt is
     # exponential (rate p) with the exponential step, geometric (probability p per period) with the
     # linear one (Bass 1969, q = 0). Tolerance: 4 binomial standard errors at N = 20,000.
     n, p = 20_000, 0.08
-    s = Scenario.from_dict({
-        "seed": 3,
-        "market": {"organisations": n, "initial_customers": 0},
-        "network": {"kind": "random", "mean_degree": 4},
-        "adoption": {"external": p, "word_of_mouth": 0.0},
-        "run": {"periods": 15, "step_probability": form},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 3,
+            "market": {"organisations": n, "initial_customers": 0},
+            "network": {"kind": "random", "mean_degree": 4},
+            "adoption": {"external": p, "word_of_mouth": 0.0},
+            "run": {"periods": 15, "step_probability": form},
+        }
+    )
     share = run_replicates(s, 1).shares()[0]
     t = np.arange(16)
     expected = 1 - survival(p, t)
@@ -68,10 +71,10 @@ def _cannot_type(x):
 
 
 def test_a_failed_compilation_is_one_line_naming_numba_and_its_version():
+    import numba
+
     from womlab.errors import CompilerError
     from womlab.rules import compiled
-
-    import numba
 
     with pytest.raises(CompilerError) as err:
         compiled(_cannot_type)(1)
@@ -88,11 +91,15 @@ def test_an_unsupported_numba_stops_the_command_with_one_line(tmp_path):
     import sys
 
     config = "sweep-demo"  # a scenario shipped in the package
-    code = ("import sys, types; fake = types.ModuleType('numba'); fake.__version__ = '0.50.0'; "
-            "sys.modules['numba'] = fake\nfrom womlab.cli import main\n"
-            f"sys.exit(main(['run', {str(config)!r}, '--replicates', '1', '--jobs', '1', '--quiet', "
-            f"'--out', {str(tmp_path / 'o')!r}]))")
+    code = (
+        "import sys, types; fake = types.ModuleType('numba'); fake.__version__ = '0.50.0'; "
+        "sys.modules['numba'] = fake\nfrom womlab.cli import main\n"
+        f"sys.exit(main(['run', {str(config)!r}, '--replicates', '1', '--jobs', '1', '--quiet', "
+        f"'--out', {str(tmp_path / 'o')!r}]))"
+    )
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300)
     assert done.returncode == 2, done.stderr
-    assert done.stderr.strip() == ("womlab: error: numba 0.50.0 is outside the versions womlab supports (>= 0.68, < 0.69); "
-                                   "install a supported one with: pip install 'numba>=0.68,<0.69'")
+    assert done.stderr.strip() == (
+        "womlab: error: numba 0.50.0 is outside the versions womlab supports (>= 0.68, < 0.69); "
+        "install a supported one with: pip install 'numba>=0.68,<0.69'"
+    )

@@ -14,7 +14,9 @@ def test_fit_section_loads_from_toml_and_round_trips(tmp_path):
         'name = "invented"\n[market]\norganisations = 500\n[fit]\nfree = ["adoption.external", '
         '"market.organisations"]\nparticles = 50\nnetwork_kinds = ["random", "ring"]\n[fit.priors]\n'
         '"adoption.external" = { distribution = "log_uniform", low = 0.001, high = 0.1 }\n'
-        '"market.organisations" = { distribution = "normal", mean = 600, sd = 100, low = 300 }\n', encoding="utf-8")
+        '"market.organisations" = { distribution = "normal", mean = 600, sd = 100, low = 300 }\n',
+        encoding="utf-8",
+    )
     s = load_scenario(path)
     assert s.fit.free == ("adoption.external", "market.organisations") and s.fit.particles == 50
     assert s.fit.prior("market.organisations").describe() == "normal (mean 600, sd 100) on [300, unbounded]"
@@ -29,16 +31,29 @@ def test_fit_section_loads_from_toml_and_round_trips(tmp_path):
         ({"free": ["adoption.extrenal"]}, ["fit.free[0]", "did you mean"]),
         ({"free": ["run.periods"]}, ["cannot be fitted"]),
         ({"free": ["adoption.rule"]}, ["adoption.rule is str, not a number"]),
-        ({"free": ["adoption.external"], "priors": {"adoption.word_of_mouth": {"low": 0.1, "high": 1}}},
-         ["adoption.word_of_mouth is not a free field"]),
-        ({"free": ["adoption.satisfied_share"], "priors": {"adoption.satisfied_share": {"low": -0.5, "high": 1}}},
-         ["fit.priors.'adoption.satisfied_share'.low = -0.5 is outside", "must be in [0, 1]"]),
-        ({"free": ["adoption.external"], "priors": {"adoption.external": {"distribution": "gamma", "low": 0, "high": 1}}},
-         ["distribution must be one of uniform, log_uniform, normal"]),
-        ({"free": ["adoption.external"], "priors": {"adoption.external": {"distribution": "normal", "mean": 0.1}}},
-         ["sd is required"]),
-        ({"free": ["adoption.external"], "priors": {"adoption.external": {"low": 0.2, "high": 0.1}}},
-         ["high must be > fit.priors.'adoption.external'.low"]),
+        (
+            {"free": ["adoption.external"], "priors": {"adoption.word_of_mouth": {"low": 0.1, "high": 1}}},
+            ["adoption.word_of_mouth is not a free field"],
+        ),
+        (
+            {"free": ["adoption.satisfied_share"], "priors": {"adoption.satisfied_share": {"low": -0.5, "high": 1}}},
+            ["fit.priors.'adoption.satisfied_share'.low = -0.5 is outside", "must be in [0, 1]"],
+        ),
+        (
+            {
+                "free": ["adoption.external"],
+                "priors": {"adoption.external": {"distribution": "gamma", "low": 0, "high": 1}},
+            },
+            ["distribution must be one of uniform, log_uniform, normal"],
+        ),
+        (
+            {"free": ["adoption.external"], "priors": {"adoption.external": {"distribution": "normal", "mean": 0.1}}},
+            ["sd is required"],
+        ),
+        (
+            {"free": ["adoption.external"], "priors": {"adoption.external": {"low": 0.2, "high": 0.1}}},
+            ["high must be > fit.priors.'adoption.external'.low"],
+        ),
         ({"network_kinds": ["random", "ring"]}, []),
         ({"network_kinds": ["regional"]}, ["fit.network_kinds[0] = 'regional' does not suit", "market.regions"]),
         ({"particles": 5}, ["fit.particles must be a whole number >= 10"]),

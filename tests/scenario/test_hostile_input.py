@@ -16,8 +16,10 @@ from womlab import Scenario, ScenarioError, load_scenario
 from womlab.errors import ScenarioWarning
 from womlab.scenario import NO_EFFECT, parse_assignment
 
-BASE = 'name = "invented probe"\nseed = 1\n[market]\norganisations = 300\ninitial_customers = 3\n' \
-       '[network]\nkind = "random"\nmean_degree = 6\n[run]\nperiods = 10\nreplicates = 3\n'
+BASE = (
+    'name = "invented probe"\nseed = 1\n[market]\norganisations = 300\ninitial_customers = 3\n'
+    '[network]\nkind = "random"\nmean_degree = 6\n[run]\nperiods = 10\nreplicates = 3\n'
+)
 
 
 def _write(tmp_path, data: bytes):  # noqa: ANN202
@@ -32,15 +34,18 @@ def _one_line(exc: pytest.ExceptionInfo) -> str:
     return text
 
 
-@pytest.mark.parametrize("data, words", [
-    (bytes(range(256)) * 4, "binary data"),                      # a binary file
-    (BASE.encode("utf-16"), "UTF-16"),                           # UTF-16 with its BOM (Unicode §23.8)
-    (BASE.encode().replace(b"probe", b"pr\xffobe"), "byte 0xff at line 1"),  # RFC 3629: 0xFF is never UTF-8
-    (("x = " + "[" * 100000 + "]" * 100000 + "\n").encode(), "nested too deeply"),
-    (("x = " + "{a=" * 5000 + "1" + "}" * 5000 + "\n").encode(), "nested too deeply"),
-    (b"", "holds no scenario"),
-    (b"# only a comment\n\n# and another\n", "holds no scenario"),
-])
+@pytest.mark.parametrize(
+    "data, words",
+    [
+        (bytes(range(256)) * 4, "binary data"),  # a binary file
+        (BASE.encode("utf-16"), "UTF-16"),  # UTF-16 with its BOM (Unicode §23.8)
+        (BASE.encode().replace(b"probe", b"pr\xffobe"), "byte 0xff at line 1"),  # RFC 3629: 0xFF is never UTF-8
+        (("x = " + "[" * 100000 + "]" * 100000 + "\n").encode(), "nested too deeply"),
+        (("x = " + "{a=" * 5000 + "1" + "}" * 5000 + "\n").encode(), "nested too deeply"),
+        (b"", "holds no scenario"),
+        (b"# only a comment\n\n# and another\n", "holds no scenario"),
+    ],
+)
 def test_a_malformed_scenario_file_gets_one_line(tmp_path, data, words):
     path = _write(tmp_path, data)
     with pytest.raises(ScenarioError) as exc:
@@ -65,13 +70,16 @@ def test_the_scenario_file_is_remembered_with_its_hash(tmp_path):
 
 
 # ----------------------------------------------------------------------------- --set
-@pytest.mark.parametrize("text, expected", [
-    ("adoption.word_of_mouth=0.2", ("adoption.word_of_mouth", 0.2)),
-    ("run.periods = 12", ("run.periods", 12)),
-    ("network.kind=ring", ("network.kind", "ring")),
-    ('name="a = b"', ("name", "a = b")),
-    ("study.strategies=['random', 'hubs']", ("study.strategies", ["random", "hubs"])),
-])
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("adoption.word_of_mouth=0.2", ("adoption.word_of_mouth", 0.2)),
+        ("run.periods = 12", ("run.periods", 12)),
+        ("network.kind=ring", ("network.kind", "ring")),
+        ('name="a = b"', ("name", "a = b")),
+        ("study.strategies=['random', 'hubs']", ("study.strategies", ["random", "hubs"])),
+    ],
+)
 def test_set_reads_a_toml_value_or_text(text, expected):
     assert parse_assignment(text) == expected
 
@@ -94,16 +102,19 @@ def test_set_is_validated_as_the_file_is(tmp_path):
 
 
 # ----------------------------------------------------------------------------- fields without effect
-@pytest.mark.parametrize("data, field", [
-    ({"adoption": {"rule": "share", "cap": 0.2}}, "adoption.cap"),
-    ({"network": {"kind": "random", "rewiring": 0.3}}, "network.rewiring"),
-    ({"network": {"kind": "complete", "mean_degree": 6}}, "network.mean_degree"),
-    ({"referral": {"reward": 20.0}}, "referral.reward"),
-    ({"referral": {"enrol": "share", "enrol_share": 0.0, "reward": 20.0}}, "referral.reward"),
-    ({"adoption": {"rule": "share", "threshold": {"low": 0.2}}}, "adoption.threshold.low"),
-    ({"run": {"clock": "continuous", "time_step": 0.5}}, "run.time_step"),
-    ({"seeding": {"greedy_runs": 5}, "study": {"strategies": ["random", "hubs"]}}, "seeding.greedy_runs"),
-])
+@pytest.mark.parametrize(
+    "data, field",
+    [
+        ({"adoption": {"rule": "share", "cap": 0.2}}, "adoption.cap"),
+        ({"network": {"kind": "random", "rewiring": 0.3}}, "network.rewiring"),
+        ({"network": {"kind": "complete", "mean_degree": 6}}, "network.mean_degree"),
+        ({"referral": {"reward": 20.0}}, "referral.reward"),
+        ({"referral": {"enrol": "share", "enrol_share": 0.0, "reward": 20.0}}, "referral.reward"),
+        ({"adoption": {"rule": "share", "threshold": {"low": 0.2}}}, "adoption.threshold.low"),
+        ({"run": {"clock": "continuous", "time_step": 0.5}}, "run.time_step"),
+        ({"seeding": {"greedy_runs": 5}, "study": {"strategies": ["random", "hubs"]}}, "seeding.greedy_runs"),
+    ],
+)
 def test_a_field_without_effect_gets_one_warning_naming_it(data, field):
     lines = Scenario.from_dict(data).fields_without_effect()
     assert len(lines) == 1 and lines[0].startswith(f"{field} = ") and "has no effect" in lines[0]
@@ -123,8 +134,12 @@ def test_edge_list_fields_without_effect(tmp_path):
 
 def test_defaults_never_warn_and_a_used_field_does_not():
     assert Scenario.from_dict({"adoption": {"rule": "capped", "cap": 0.2}}).fields_without_effect() == []
-    assert Scenario.from_dict({"network": {"kind": "small_world", "rewiring": 0.3, "mean_degree": 6}}) \
-        .fields_without_effect() == []
+    assert (
+        Scenario.from_dict(
+            {"network": {"kind": "small_world", "rewiring": 0.3, "mean_degree": 6}}
+        ).fields_without_effect()
+        == []
+    )
     assert Scenario().fields_without_effect() == []
 
 
@@ -137,16 +152,26 @@ def test_replace_remembers_what_was_set():
 
 def test_a_sweep_that_makes_a_field_matter_silences_its_warning():
     # the shipped sweep demo's base network is random, and network.kind is swept over regional
-    s = Scenario.from_dict({"market": {"regions": 5}, "network": {"kind": "random", "within_region_share": 0.8},
-                            "sweep": {"axes": {"network.kind": ["random", "regional"]}}})
+    s = Scenario.from_dict(
+        {
+            "market": {"regions": 5},
+            "network": {"kind": "random", "within_region_share": 0.8},
+            "sweep": {"axes": {"network.kind": ["random", "regional"]}},
+        }
+    )
     assert s.fields_without_effect() == []
 
 
 def test_the_mechanism_takes_new_rules():
     from womlab.scenario.sections import NoEffect
 
-    NO_EFFECT.append(NoEffect("adoption.word_of_mouth", lambda s: s.adoption.word_of_mouth == 0.123,
-                              lambda s: "a rule added by a later issue"))
+    NO_EFFECT.append(
+        NoEffect(
+            "adoption.word_of_mouth",
+            lambda s: s.adoption.word_of_mouth == 0.123,
+            lambda s: "a rule added by a later issue",
+        )
+    )
     try:
         lines = Scenario.from_dict({"adoption": {"word_of_mouth": 0.123}}).fields_without_effect()
     finally:
@@ -165,8 +190,9 @@ def test_load_scenario_issues_each_as_a_warning(tmp_path):
 def test_a_listed_seeds_file_never_echoes_another_file(tmp_path):
     # seeding.ids_path pointed at a secrets file must not print its first line (issue 19 part 6)
     (tmp_path / "secret.env").write_text("API_KEY=sk-live-123456\nOTHER=1\n")
-    (tmp_path / "s.toml").write_text('[market]\norganisations = 50\n[seeding]\nstrategy = "listed"\n'
-                                     'ids_path = "secret.env"\n')
+    (tmp_path / "s.toml").write_text(
+        '[market]\norganisations = 50\n[seeding]\nstrategy = "listed"\nids_path = "secret.env"\n'
+    )
     with pytest.raises(ScenarioError) as exc:
         load_scenario(tmp_path / "s.toml")
     text = str(exc.value)

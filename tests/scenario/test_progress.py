@@ -46,8 +46,14 @@ def test_an_expensive_seeding_step_reports_itself(capsys, monkeypatch):
 
     monkeypatch.setattr(registry, "SLOW_STAGE", 0.0)
     monkeypatch.setattr(progress, "on_terminal", lambda stream=None: False)
-    s = Scenario.from_dict({"market": {"organisations": 200}, "network": {"kind": "random", "mean_degree": 4},
-                            "run": {"periods": 5}, "seeding": {"budget": 2}})
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 200},
+            "network": {"kind": "random", "mean_degree": 4},
+            "run": {"periods": 5},
+            "seeding": {"budget": 2},
+        }
+    )
     compare_strategies(s, ["bridges"], replicates=2, jobs=1, progress=True, snapshot=False)
     err = capsys.readouterr().err
     assert err.count("bridges: choosing 2 seeds among 200 organisations ...") == 2

@@ -19,16 +19,26 @@ from womlab.scenario.resources import MAX_ORGANISATIONS, check_resources, cores,
 GIB = 2**30
 
 
-@pytest.mark.parametrize("data, command, first", [
-    ({"market": {"organisations": 10**8}, "run": {"replicates": 50}}, "run", "market.organisations = 100,000,000"),
-    ({"market": {"organisations": 10**6}, "network": {"mean_degree": 100_000}}, "run", "network.mean_degree = 100,000"),
-    ({"run": {"periods": 10**9}}, "run", "run.periods = 1,000,000,000"),
-    ({"run": {"periods": 10, "report_every": 1e-8, "clock": "continuous"}}, "run", "run.report_every = 1e-08"),
-    ({"run": {"replicates": 10**12}}, "run", "run.replicates = 1,000,000,000,000"),
-    ({"market": {"organisations": 10**6, "regions": 10**6}, "network": {"kind": "regional_blocks"}}, "run",
-     "market.regions = 1,000,000"),
-    ({"study": {"replicates": 10**11}}, "seeding", "study.replicates = 100,000,000,000"),
-])
+@pytest.mark.parametrize(
+    "data, command, first",
+    [
+        ({"market": {"organisations": 10**8}, "run": {"replicates": 50}}, "run", "market.organisations = 100,000,000"),
+        (
+            {"market": {"organisations": 10**6}, "network": {"mean_degree": 100_000}},
+            "run",
+            "network.mean_degree = 100,000",
+        ),
+        ({"run": {"periods": 10**9}}, "run", "run.periods = 1,000,000,000"),
+        ({"run": {"periods": 10, "report_every": 1e-8, "clock": "continuous"}}, "run", "run.report_every = 1e-08"),
+        ({"run": {"replicates": 10**12}}, "run", "run.replicates = 1,000,000,000,000"),
+        (
+            {"market": {"organisations": 10**6, "regions": 10**6}, "network": {"kind": "regional_blocks"}},
+            "run",
+            "market.regions = 1,000,000",
+        ),
+        ({"study": {"replicates": 10**11}}, "seeding", "study.replicates = 100,000,000,000"),
+    ],
+)
 def test_what_cannot_fit_is_refused_naming_the_field(data, command, first):
     s = Scenario.from_dict(data)
     with pytest.raises(ScenarioError) as exc:
@@ -54,8 +64,9 @@ def test_network_memory_is_at_least_its_csr_arrays():
 
 
 def test_work_beyond_a_month_is_refused():
-    s = Scenario.from_dict({"market": {"organisations": 2000}, "run": {"periods": 20_000, "replicates": 20_000,
-                                                                        "engine": "mesa"}})
+    s = Scenario.from_dict(
+        {"market": {"organisations": 2000}, "run": {"periods": 20_000, "replicates": 20_000, "engine": "mesa"}}
+    )
     with pytest.raises(ScenarioError, match="of work .* more than 30 days is refused"):
         check_resources(s, memory=2**50)
 
@@ -67,12 +78,16 @@ def test_a_small_scenario_passes_with_a_small_estimate():
 
 
 def test_runs_are_counted_as_each_command_runs_them():
-    s = Scenario.from_dict({"run": {"replicates": 100}, "study": {"strategies": ["random", "hubs", "fringe"],
-                                                                   "replicates": 40},
-                            "referral": {"enrol": "all"}})
+    s = Scenario.from_dict(
+        {
+            "run": {"replicates": 100},
+            "study": {"strategies": ["random", "hubs", "fringe"], "replicates": 40},
+            "referral": {"enrol": "all"},
+        }
+    )
     assert estimate_resources(s, "run").runs == 100
-    assert estimate_resources(s, "seeding").runs == 3 * 40      # the study's replicates, not run.replicates
-    assert estimate_resources(s, "referral").runs == 2 * 100    # programme and baseline
+    assert estimate_resources(s, "seeding").runs == 3 * 40  # the study's replicates, not run.replicates
+    assert estimate_resources(s, "referral").runs == 2 * 100  # programme and baseline
     assert estimate_resources(s, "sweep", points=15).runs == 15 * s.sweep.replicates
 
 

@@ -23,7 +23,9 @@ def test_demo_config_loads():
 
 
 def test_unknown_key_suggests_the_nearest():
-    with pytest.raises(ScenarioError, match=r"unknown field 'adoption.word_of_mouht'; did you mean adoption.'word_of_mouth'"):
+    with pytest.raises(
+        ScenarioError, match=r"unknown field 'adoption.word_of_mouht'; did you mean adoption.'word_of_mouth'"
+    ):
         _s(adoption={"word_of_mouht": 0.2})
     with pytest.raises(ScenarioError, match=r"unknown field 'netwrok'"):
         Scenario.from_dict({"netwrok": {}})
@@ -36,20 +38,25 @@ def test_wrong_type():
         _s(adoption={"external": True})
 
 
-@pytest.mark.parametrize("section,field,value", [
-    ("adoption", "satisfied_share", 1.4),
-    ("adoption", "cap", -0.1),
-    ("network", "rewiring", 2.0),
-    ("network", "within_region_share", -0.5),
-    ("market", "initial_share", 1.5),
-])
+@pytest.mark.parametrize(
+    "section,field,value",
+    [
+        ("adoption", "satisfied_share", 1.4),
+        ("adoption", "cap", -0.1),
+        ("network", "rewiring", 2.0),
+        ("network", "within_region_share", -0.5),
+        ("market", "initial_share", 1.5),
+    ],
+)
 def test_probabilities_and_shares_in_unit_interval(section, field, value):
     with pytest.raises(ScenarioError, match=rf"{section}.{field} must be in \[0, 1\], got {value}"):
         _s(**{section: {field: value}})
 
 
 def test_initial_customers_at_most_organisations():
-    with pytest.raises(ScenarioError, match=r"market.initial_customers must be between 0 and market.organisations = 50, got 51"):
+    with pytest.raises(
+        ScenarioError, match=r"market.initial_customers must be between 0 and market.organisations = 50, got 51"
+    ):
         _s(market={"organisations": 50, "initial_customers": 51})
     assert _s(market={"organisations": 50, "initial_customers": 0}).market.n_initial == 0  # valid: Bass start
 
@@ -60,14 +67,21 @@ def test_initial_customers_and_share_are_alternatives():
 
 
 def test_mean_degree_below_organisations_and_even_where_needed():
-    with pytest.raises(ScenarioError, match=r"network.mean_degree must be > 0 and < market.organisations = 10, got 10.0"):
+    with pytest.raises(
+        ScenarioError, match=r"network.mean_degree must be > 0 and < market.organisations = 10, got 10.0"
+    ):
         _s(market={"organisations": 10}, network={"kind": "random", "mean_degree": 10})
-    with pytest.raises(ScenarioError, match=r'network.mean_degree must be an even whole number for kind = "ring", got 5.0'):
+    with pytest.raises(
+        ScenarioError, match=r'network.mean_degree must be an even whole number for kind = "ring", got 5.0'
+    ):
         _s(network={"kind": "ring", "mean_degree": 5})
 
 
 def test_unknown_kind_lists_the_known():
-    with pytest.raises(ScenarioError, match=r"network.kind must be one of complete, ring, .*; got 'smallworld' \(did you mean 'small_world'\?\)"):
+    with pytest.raises(
+        ScenarioError,
+        match=r"network.kind must be one of complete, ring, .*; got 'smallworld' \(did you mean 'small_world'\?\)",
+    ):
         _s(network={"kind": "smallworld"})
 
 
@@ -118,8 +132,12 @@ def test_edgelist_path_relative_to_the_scenario_file(tmp_path):
         load_scenario(tmp_path / "t.toml")
 
 
-@pytest.mark.parametrize("path", sorted((ROOT / "src" / "womlab" / "scenario" / "demos").glob("*.toml")) + sorted((ROOT / "experiments").glob("*/*.toml")),
-                         ids=lambda p: p.name)
+@pytest.mark.parametrize(
+    "path",
+    sorted((ROOT / "src" / "womlab" / "scenario" / "demos").glob("*.toml"))
+    + sorted((ROOT / "experiments").glob("*/*.toml")),
+    ids=lambda p: p.name,
+)
 def test_every_shipped_scenario_is_valid_and_says_it_is_invented(path):
     # House rule: demo data and examples are an invented scenario of our own, and say so.
     s = load_scenario(path)

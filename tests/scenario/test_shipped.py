@@ -19,7 +19,15 @@ from womlab.scenario import demo_path
 
 
 def test_every_demo_ships_and_loads_by_name() -> None:
-    assert demo_names() == ["demo", "fit-demo", "levers-demo", "markets-demo", "referral-demo", "seeding-demo", "sweep-demo"]
+    assert demo_names() == [
+        "demo",
+        "fit-demo",
+        "levers-demo",
+        "markets-demo",
+        "referral-demo",
+        "seeding-demo",
+        "sweep-demo",
+    ]
     for name in demo_names():
         assert load_scenario(name) == load_scenario(demo_path(name))
         assert "invented" in demo_path(name).read_text(encoding="utf-8").lower()
@@ -41,11 +49,19 @@ def test_init_writes_a_demo_out_and_never_overwrites_unasked(tmp_path, capsys) -
 
 def test_init_lists_the_demos_and_names_them_for_a_wrong_one(tmp_path, capsys) -> None:
     assert main(["init"]) == 0
-    assert "demo, fit-demo, levers-demo, markets-demo, referral-demo, seeding-demo, sweep-demo" in capsys.readouterr().out
-    with pytest.raises(ScenarioError, match="no shipped demo scenario 'dmeo'; the demos are demo, fit-demo, levers-demo, markets-demo, referral-demo"):
+    assert (
+        "demo, fit-demo, levers-demo, markets-demo, referral-demo, seeding-demo, sweep-demo" in capsys.readouterr().out
+    )
+    with pytest.raises(
+        ScenarioError,
+        match="no shipped demo scenario 'dmeo'; the demos are demo, fit-demo, levers-demo, markets-demo, referral-demo",
+    ):
         write_demo("dmeo", tmp_path)
     assert main(["run", "dmeo"]) == 2
-    assert "does not exist (the shipped demos are demo, fit-demo, levers-demo, markets-demo, referral-demo" in capsys.readouterr().err
+    assert (
+        "does not exist (the shipped demos are demo, fit-demo, levers-demo, markets-demo, referral-demo"
+        in capsys.readouterr().err
+    )
 
 
 def test_version_has_one_source(capsys) -> None:

@@ -22,8 +22,8 @@ from womlab.aggregate import mapped_parameters
 from womlab.cli import main
 from womlab.dynamics import RunResult
 from womlab.seeding import STRATEGIES, greedy, initial_customers, region_quotas
-from womlab.studies.seeding_study import run_outcomes
 from womlab.studies import run_paired
+from womlab.studies.seeding_study import run_outcomes
 
 
 def net(graph: nx.Graph) -> ReferralNetwork:
@@ -41,12 +41,14 @@ def florentine() -> tuple[ReferralNetwork, list[str]]:
 
 
 def small_scenario(**seeding) -> Scenario:
-    return Scenario.from_dict({
-        "market": {"organisations": 34},
-        "adoption": {"rule": "count", "external": 0.01, "word_of_mouth": 0.1},
-        "run": {"periods": 6},
-        "seeding": {"greedy_runs": 3, "greedy_candidates": 12, **seeding},
-    })
+    return Scenario.from_dict(
+        {
+            "market": {"organisations": 34},
+            "adoption": {"rule": "count", "external": 0.01, "word_of_mouth": 0.1},
+            "run": {"periods": 6},
+            "seeding": {"greedy_runs": 3, "greedy_candidates": 12, **seeding},
+        }
+    )
 
 
 # ----------------------------------------------------------------------------- every strategy
@@ -199,7 +201,11 @@ def live_edge_objective(graph: nx.Graph, q: float, samples: int, seed: int):
     labels = []
     for _ in range(samples):
         keep = edges[rng.random(len(edges)) < q]
-        a = sp.coo_array((np.ones(len(keep)), (keep[:, 0], keep[:, 1])), shape=(n, n)) if len(keep) else sp.coo_array((n, n))
+        a = (
+            sp.coo_array((np.ones(len(keep)), (keep[:, 0], keep[:, 1])), shape=(n, n))
+            if len(keep)
+            else sp.coo_array((n, n))
+        )
         _, lab = connected_components(a, directed=False)
         labels.append((lab, np.bincount(lab)))
 
@@ -247,8 +253,13 @@ def test_greedy_simulates_with_the_engine_its_caller_passes():
         customers = np.array([0, len(seeds) + int(0 in seeds) * 10])  # seeding organisation 0 pays most
         return type("Run", (), {"customers": customers})()
 
-    s = Scenario.from_dict({"market": {"organisations": 34}, "network": {"kind": "random", "mean_degree": 4},
-                            "seeding": {"greedy_runs": 2, "greedy_candidates": 0}})
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 34},
+            "network": {"kind": "random", "mean_degree": 4},
+            "seeding": {"greedy_runs": 2, "greedy_candidates": 0},
+        }
+    )
     seeds = choose_seeds("greedy", karate(), 1, np.random.default_rng(0), scenario=s, simulate=simulate)
     assert seeds.tolist() == [0]
     assert len(calls) == 2 * 35  # 2 runs for the empty set, then 2 per candidate (CELF's first pass)
@@ -282,9 +293,15 @@ def test_study_section_is_validated():
 def test_discounted_customer_periods():
     # present value of a stream (common practice): customers 1, 2, 3 at periods 0, 1, 2, r = 0.1:
     # 2 / 1.1 + 3 / 1.1² = 4.297521
-    r = RunResult(periods=2, adoption_period=np.array([0, 1, 2, -1], dtype=np.int32),
-                  referrer=np.full(4, -1, np.int32), satisfied=np.ones(4, bool), region=np.zeros(4, np.int32),
-                  initial=np.array([0], np.int32), engine="test")
+    r = RunResult(
+        periods=2,
+        adoption_period=np.array([0, 1, 2, -1], dtype=np.int32),
+        referrer=np.full(4, -1, np.int32),
+        satisfied=np.ones(4, bool),
+        region=np.zeros(4, np.int32),
+        initial=np.array([0], np.int32),
+        engine="test",
+    )
     out = run_outcomes(r, 0.1)
     assert out["customer_periods"] == pytest.approx(2 / 1.1 + 3 / 1.21, rel=1e-12)
     assert out["customers"] == 3 and out["peak_period"] == 1
@@ -294,11 +311,13 @@ def test_discounted_customer_periods():
 def test_identical_strategies_give_exactly_zero_paired_difference():
     # common random numbers (Law 2015, §11.2): two variants that are the same model on the same
     # streams give identical runs, so every paired difference is exactly zero
-    s = Scenario.from_dict({
-        "market": {"organisations": 300, "initial_customers": 5},
-        "network": {"kind": "random", "mean_degree": 6},
-        "run": {"periods": 15},
-    })
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 300, "initial_customers": 5},
+            "network": {"kind": "random", "mean_degree": 6},
+            "run": {"periods": 15},
+        }
+    )
     variants = {"a": s.replace("seeding.strategy", "random"), "b": s.replace("seeding.strategy", "random")}
     runs = run_paired(variants, 8)
     for a, b in zip(runs["a"], runs["b"]):
@@ -330,17 +349,24 @@ def test_lift_intervals_agree_with_scipy():
 
 
 def study_scenario() -> Scenario:
-    return Scenario.from_dict({
-        "name": "invented: seeding study test",
-        "seed": 11,
-        "market": {"organisations": 250, "regions": 3},
-        "network": {"kind": "scale_free", "mean_degree": 4},
-        "adoption": {"rule": "share", "external": 0.002, "word_of_mouth": 0.3},
-        "run": {"periods": 12},
-        "seeding": {"budget": 3},
-        "study": {"strategies": ["hubs", "fringe"], "replicates": 12, "discount_rate": 0.02,
-                  "outcome": "customer_periods", "bootstrap": 300},
-    })
+    return Scenario.from_dict(
+        {
+            "name": "invented: seeding study test",
+            "seed": 11,
+            "market": {"organisations": 250, "regions": 3},
+            "network": {"kind": "scale_free", "mean_degree": 4},
+            "adoption": {"rule": "share", "external": 0.002, "word_of_mouth": 0.3},
+            "run": {"periods": 12},
+            "seeding": {"budget": 3},
+            "study": {
+                "strategies": ["hubs", "fringe"],
+                "replicates": 12,
+                "discount_rate": 0.02,
+                "outcome": "customer_periods",
+                "bootstrap": 300,
+            },
+        }
+    )
 
 
 def test_compare_strategies_is_paired_and_independent_of_jobs():
@@ -388,7 +414,9 @@ def test_cli_seeding_writes_the_results_folder(tmp_path, capsys):
 def _graphs():
     return {
         "karate": nx.karate_club_graph(),  # Zachary (1977)
-        "florentine": nx.convert_node_labels_to_integers(nx.florentine_families_graph(), ordering="sorted"),  # Padgett & Ansell (1993)
+        "florentine": nx.convert_node_labels_to_integers(
+            nx.florentine_families_graph(), ordering="sorted"
+        ),  # Padgett & Ansell (1993)
         "random": nx.gnm_random_graph(300, 900, seed=np.random.default_rng(4)),
         "with_isolates": nx.disjoint_union(nx.barbell_graph(5, 2), nx.empty_graph(3)),
     }
@@ -438,15 +466,17 @@ def test_listed_seeds_the_organisations_named(tmp_path):
     # Padgett & Ansell (1993)'s Florentine families, text ids kept as given: seeding by name
     g = nx.florentine_families_graph()
     network = ReferralNetwork.from_networkx(g)
-    s = Scenario.from_dict({"market": {"organisations": 15},
-                            "seeding": {"strategy": "listed", "ids": ["Medici", "Strozzi"]}})
+    s = Scenario.from_dict(
+        {"market": {"organisations": 15}, "seeding": {"strategy": "listed", "ids": ["Medici", "Strozzi"]}}
+    )
     assert s.n_initial == 2  # the budget is the number listed
     seeds = initial_customers(s, network, np.random.default_rng(0))
     assert network.labels[seeds].tolist() == ["Medici", "Strozzi"]
     ids = tmp_path / "pilot.csv"
     ids.write_text("firm,note\nPazzi,first call\nGinori,\n", encoding="utf-8")
-    s2 = Scenario.from_dict({"market": {"organisations": 15},
-                             "seeding": {"strategy": "listed", "ids_path": str(ids), "ids_column": "firm"}})
+    s2 = Scenario.from_dict(
+        {"market": {"organisations": 15}, "seeding": {"strategy": "listed", "ids_path": str(ids), "ids_column": "firm"}}
+    )
     assert network.labels[initial_customers(s2, network, np.random.default_rng(0))].tolist() == ["Pazzi", "Ginori"]
 
 
@@ -454,17 +484,24 @@ def test_listed_refuses_what_it_cannot_seed(tmp_path):
     from womlab import NetworkError
 
     network = ReferralNetwork.from_networkx(nx.florentine_families_graph())
-    s = Scenario.from_dict({"market": {"organisations": 15},
-                            "seeding": {"strategy": "listed", "ids": ["Medici", "Borgia"]}})
+    s = Scenario.from_dict(
+        {"market": {"organisations": 15}, "seeding": {"strategy": "listed", "ids": ["Medici", "Borgia"]}}
+    )
     with pytest.raises(NetworkError, match=r"seeding.ids: 1 id\(s\) not in the network: 'Borgia'; allowed: "):
         initial_customers(s, network, np.random.default_rng(0))
     with pytest.raises(ScenarioError, match="lists 2 organisations but the number of initial customers is 3"):
-        Scenario.from_dict({"market": {"organisations": 15, "initial_customers": 3},
-                            "seeding": {"strategy": "listed", "ids": ["Medici", "Strozzi"]}})
+        Scenario.from_dict(
+            {
+                "market": {"organisations": 15, "initial_customers": 3},
+                "seeding": {"strategy": "listed", "ids": ["Medici", "Strozzi"]},
+            }
+        )
     with pytest.raises(ScenarioError, match="needs exactly one of seeding.ids"):
         Scenario.from_dict({"market": {"organisations": 15}, "seeding": {"strategy": "listed"}})
     with pytest.raises(ScenarioError, match=r"seeding.ids must be each id once \(repeated: 'Medici'\)"):
-        Scenario.from_dict({"market": {"organisations": 15}, "seeding": {"strategy": "listed", "ids": ["Medici", "Medici"]}})
+        Scenario.from_dict(
+            {"market": {"organisations": 15}, "seeding": {"strategy": "listed", "ids": ["Medici", "Medici"]}}
+        )
     with pytest.raises(ScenarioError, match='used only with seeding.strategy = "listed"'):
         Scenario.from_dict({"seeding": {"strategy": "hubs", "ids": [1]}})
     bad = tmp_path / "seeds.csv"

@@ -23,8 +23,15 @@ from womlab.studies import compare_strategies
 
 
 def _scenario(name: str = "invented folder test", **changes) -> Scenario:  # noqa: ANN003
-    s = Scenario.from_dict({"name": name, "seed": 4, "market": {"organisations": 200, "initial_customers": 2},
-                            "network": {"kind": "random", "mean_degree": 6}, "run": {"periods": 8}})
+    s = Scenario.from_dict(
+        {
+            "name": name,
+            "seed": 4,
+            "market": {"organisations": 200, "initial_customers": 2},
+            "network": {"kind": "random", "mean_degree": 6},
+            "run": {"periods": 8},
+        }
+    )
     return s.replace(changes) if changes else s
 
 
@@ -93,7 +100,9 @@ def test_a_sweep_folder_is_refused_even_when_forced(tmp_path, batches):
     out = tmp_path / "sweep"
     store = ResultsStore(out)
     with store.locked():
-        store.create({"identity": {"sweep": {"axes": {}}}, "scenario": {}}, __import__("pandas").DataFrame({"point": [0]}))
+        store.create(
+            {"identity": {"sweep": {"axes": {}}}, "scenario": {}}, __import__("pandas").DataFrame({"point": [0]})
+        )
     before = (out / "manifest.json").read_bytes()
     for force in (False, True):
         with pytest.raises(StoreError, match="holds a sweep's results"):
@@ -111,8 +120,9 @@ def test_a_write_that_fails_midway_leaves_the_folder_as_it_was(tmp_path, batches
         raise OSError(28, "No space left on device")
 
     with pytest.raises(StoreError, match="could not be written .*the folder is as it was"):
-        with FolderWriter(out, "run", json.loads((out / "manifest.json").read_text())["identity"],
-                          ["curves.csv"]) as folder:
+        with FolderWriter(
+            out, "run", json.loads((out / "manifest.json").read_text())["identity"], ["curves.csv"]
+        ) as folder:
             folder.write("curves.csv", lambda p: p.write_text("new"))
             folder.write("summary.csv", disk_full)
     assert _snapshot(out) == before  # no staging folder left, nothing replaced
@@ -145,8 +155,10 @@ def test_the_manifest_reproduces(tmp_path, monkeypatch):
     edges = "source,target\n" + "".join(f"{i},{(i + 1) % 40}\n{i},{(i + 5) % 40}\n" for i in range(40))
     (tmp_path / "data" / "ties.csv").write_text(edges)
     cfg = tmp_path / "s.toml"
-    text = ('name = "invented edge list"\n[market]\ninitial_customers = 2\n[network]\nkind = "edgelist"\n'
-            'path = "data/ties.csv"\n[run]\nperiods = 5\nreplicates = 2\n')
+    text = (
+        'name = "invented edge list"\n[market]\ninitial_customers = 2\n[network]\nkind = "edgelist"\n'
+        'path = "data/ties.csv"\n[run]\nperiods = 5\nreplicates = 2\n'
+    )
     cfg.write_text(text)
     monkeypatch.chdir(tmp_path)
     s = load_scenario("s.toml")  # the paths the user gives are relative
@@ -155,8 +167,9 @@ def test_the_manifest_reproduces(tmp_path, monkeypatch):
     m = json.loads((out / "manifest.json").read_text())
     assert m["command"] == "run" and m["command_line"] == ["womlab", "run", "s.toml"]
     assert m["scenario_file"] == {"path": "s.toml", "sha256": hashlib.sha256(text.encode()).hexdigest()}
-    assert m["inputs"] == [{"field": "network.path", "path": "data/ties.csv",
-                            "sha256": hashlib.sha256(edges.encode()).hexdigest()}]
+    assert m["inputs"] == [
+        {"field": "network.path", "path": "data/ties.csv", "sha256": hashlib.sha256(edges.encode()).hexdigest()}
+    ]
     assert m["scenario"]["network"]["mean_degree"] == 4.0 and m["scenario"]["network"]["path"] == "data/ties.csv"
     assert set(m["scenario"]) == {"name", "seed", "market", "network", "adoption", "run", "seeding"}
     assert {"os", "cpu", "cores"} <= set(m["machine"]) and m["versions"]["womlab"]

@@ -47,13 +47,15 @@ replicates = 6
 
 
 def small(**sweep) -> Scenario:
-    return Scenario.from_dict({
-        "seed": 5,
-        "market": {"organisations": 250, "initial_customers": 3},
-        "network": {"kind": "random", "mean_degree": 6},
-        "run": {"periods": 20},
-        "sweep": {"replicates": 4, "axes": {"adoption.word_of_mouth": [0.1, 0.3, 0.5]}, **sweep},
-    })
+    return Scenario.from_dict(
+        {
+            "seed": 5,
+            "market": {"organisations": 250, "initial_customers": 3},
+            "network": {"kind": "random", "mean_degree": 6},
+            "run": {"periods": 20},
+            "sweep": {"replicates": 4, "axes": {"adoption.word_of_mouth": [0.1, 0.3, 0.5]}, **sweep},
+        }
+    )
 
 
 def test_interrupted_sweep_resumes_to_exactly_the_uninterrupted_runs(tmp_path):
@@ -62,9 +64,24 @@ def test_interrupted_sweep_resumes_to_exactly_the_uninterrupted_runs(tmp_path):
     out = tmp_path / "interrupted"
     env = {**os.environ, "PYTHONPATH": str(SRC)}
     proc = subprocess.Popen(
-        [sys.executable, "-m", "womlab", "sweep", str(cfg), "--out", str(out), "--jobs", "1",
-         "--chunk-size", "2", "--quiet", "--no-report"],
-        env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+        [
+            sys.executable,
+            "-m",
+            "womlab",
+            "sweep",
+            str(cfg),
+            "--out",
+            str(out),
+            "--jobs",
+            "1",
+            "--chunk-size",
+            "2",
+            "--quiet",
+            "--no-report",
+        ],
+        env=env,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
     )
     deadline = time.monotonic() + 120
     try:
@@ -115,12 +132,20 @@ def test_duplicated_parts_left_by_a_killed_consolidation_are_read_once(tmp_path)
 
 def test_a_different_spec_is_refused_with_what_differs(tmp_path):
     run_sweep(small(), tmp_path / "d", 1, progress=False, report=False)
-    with pytest.raises(StoreError, match=r"holds 4 replicates per point, this sweep asks for 3; a sweep can be "
-                                         r"extended with more replicates, not cut"):
+    with pytest.raises(
+        StoreError,
+        match=r"holds 4 replicates per point, this sweep asks for 3; a sweep can be "
+        r"extended with more replicates, not cut",
+    ):
         run_sweep(small(replicates=3), tmp_path / "d", 1, progress=False, report=False)
     with pytest.raises(StoreError, match=r"different sweep.*sweep\.design: \"grid\" there, \"latin\" now"):
-        run_sweep(small(design="latin", samples=3, axes={"adoption.word_of_mouth": {"from": 0.1, "to": 0.5}}),
-                  tmp_path / "d", 1, progress=False, report=False)
+        run_sweep(
+            small(design="latin", samples=3, axes={"adoption.word_of_mouth": {"from": 0.1, "to": 0.5}}),
+            tmp_path / "d",
+            1,
+            progress=False,
+            report=False,
+        )
     changed = small().replace("adoption.external", 0.02)
     with pytest.raises(StoreError, match=r"adoption\.external: 0\.01 there, 0\.02 now"):
         run_sweep(changed, tmp_path / "d", 1, progress=False, report=False)
@@ -179,6 +204,7 @@ def test_curves_are_compact_and_agree_with_the_run_rows(tmp_path):
 # Oracle, as above: an undamaged sweep of the same spec. A damaged file must cost only its own runs,
 # which are run again on their own spawn keys, so the repaired folder equals the undamaged one.
 
+
 def reference(tmp_path, s: Scenario) -> pd.DataFrame:
     run_sweep(s, tmp_path / "reference", 1, progress=False, report=False)
     return ResultsStore(tmp_path / "reference").runs().drop(columns="wall_time")
@@ -220,8 +246,9 @@ def _foreign(p: Path) -> None:
     pq.write_table(pa.table({"point": [0], "something": ["else"]}), p)
 
 
-@pytest.mark.parametrize("damage", [_truncate, _empty, _random, _foreign], ids=["truncated", "emptied", "random",
-                                                                                 "foreign-schema"])
+@pytest.mark.parametrize(
+    "damage", [_truncate, _empty, _random, _foreign], ids=["truncated", "emptied", "random", "foreign-schema"]
+)
 def test_a_damaged_part_is_set_aside_in_one_line_and_its_runs_redone(tmp_path, monkeypatch, damage):
     s = small()
     out = interrupted(tmp_path, s, monkeypatch)
@@ -268,8 +295,7 @@ def test_a_truncated_runs_table_and_a_missing_points_table_are_recovered(tmp_pat
     (tmp_path / "d" / "points.parquet").unlink()
     resumed = run_sweep(s, tmp_path / "d", 1, progress=False, report=False)
     assert resumed.ran == 12 and len(resumed.notices) == 1 and "runs.parquet" in resumed.notices[0]
-    pd.testing.assert_frame_equal(ResultsStore(tmp_path / "d").runs().drop(columns="wall_time"),
-                                  reference(tmp_path, s))
+    pd.testing.assert_frame_equal(ResultsStore(tmp_path / "d").runs().drop(columns="wall_time"), reference(tmp_path, s))
     assert ResultsStore(tmp_path / "d").points()["adoption.word_of_mouth"].tolist() == [0.1, 0.3, 0.5]
     _random(tmp_path / "d" / "points.parquet")  # damaged rather than missing: set aside, rebuilt
     again = run_sweep(s, tmp_path / "d", 1, progress=False, report=False)
@@ -296,10 +322,25 @@ def test_two_processes_started_together_on_one_folder_one_refuses_and_the_other_
     cfg.write_text(CONFIG.replace("organisations = 2000", "organisations = 500").replace("steps = 10", "steps = 4"))
     out = tmp_path / "shared"
     env = {**os.environ, "PYTHONPATH": str(SRC)}
-    command = [sys.executable, "-m", "womlab", "sweep", str(cfg), "--out", str(out), "--jobs", "1",
-               "--chunk-size", "2", "--quiet", "--no-report"]
-    procs = [subprocess.Popen(command, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
-             for _ in range(2)]
+    command = [
+        sys.executable,
+        "-m",
+        "womlab",
+        "sweep",
+        str(cfg),
+        "--out",
+        str(out),
+        "--jobs",
+        "1",
+        "--chunk-size",
+        "2",
+        "--quiet",
+        "--no-report",
+    ]
+    procs = [
+        subprocess.Popen(command, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+        for _ in range(2)
+    ]
     results = [(p.wait(timeout=300), p.stderr.read()) for p in procs]
     codes = sorted(code for code, _ in results)
     assert codes == [0, 2], results
@@ -330,9 +371,15 @@ def test_consolidation_removes_only_the_parts_it_read(tmp_path, monkeypatch):
 def test_an_edited_input_file_refuses_the_resume_naming_the_file(tmp_path):
     ties = tmp_path / "ties.csv"
     ties.write_text("source,target\n" + "".join(f"{i},{(i + 1) % 40}\n{i},{(i + 7) % 40}\n" for i in range(40)))
-    s = Scenario.from_dict({"seed": 2, "market": {"initial_customers": 2},
-                            "network": {"kind": "edgelist", "path": str(ties)}, "run": {"periods": 10},
-                            "sweep": {"replicates": 2, "axes": {"adoption.word_of_mouth": [0.2, 0.4]}}})
+    s = Scenario.from_dict(
+        {
+            "seed": 2,
+            "market": {"initial_customers": 2},
+            "network": {"kind": "edgelist", "path": str(ties)},
+            "run": {"periods": 10},
+            "sweep": {"replicates": 2, "axes": {"adoption.word_of_mouth": [0.2, 0.4]}},
+        }
+    )
     run_sweep(s, tmp_path / "d", 1, progress=False, report=False)
     assert ResultsStore(tmp_path / "d").manifest()["inputs"] == {str(ties): file_sha256(ties)}
     ties.write_text(ties.read_text().replace("0,7\n", "0,9\n"))
@@ -347,8 +394,11 @@ def test_parts_and_tables_are_flushed_to_disk_before_they_are_renamed_into_place
 
     events = []
     real_fsync, real_replace = os.fsync, os.replace
-    monkeypatch.setattr(folders.os, "fsync", lambda fd: (events.append(("fsync", os.readlink(f"/proc/self/fd/{fd}"))),
-                                                          real_fsync(fd))[1])
+    monkeypatch.setattr(
+        folders.os,
+        "fsync",
+        lambda fd: (events.append(("fsync", os.readlink(f"/proc/self/fd/{fd}"))), real_fsync(fd))[1],
+    )
     monkeypatch.setattr(folders.os, "replace", lambda a, b: (events.append(("replace", str(a))), real_replace(a, b))[1])
     run_sweep(small(), tmp_path / "d", 1, progress=False, report=False)
     renamed = [e[1] for e in events if e[0] == "replace"]

@@ -91,7 +91,9 @@ def test_pooled_metrics_are_seeded_and_intervals_cover_the_estimate():
     # Efron & Tibshirani (1993): percentile bootstrap over replicates; a fixed seed gives the same table
     rng = np.random.default_rng(0)
     t = np.arange(31.0)
-    shares = np.array([bass_share(t, 0.01 * rng.uniform(0.8, 1.2), 0.4 * rng.uniform(0.9, 1.1), 0.01) for _ in range(12)])
+    shares = np.array(
+        [bass_share(t, 0.01 * rng.uniform(0.8, 1.2), 0.4 * rng.uniform(0.9, 1.1), 0.01) for _ in range(12)]
+    )
     refs = {"bass": bass_share(t, 0.01, 0.4, 0.01)}
     a = pooled_metrics(shares, refs, bootstrap=300, seed=4)
     b = pooled_metrics(shares, refs, bootstrap=300, seed=4)
@@ -140,11 +142,23 @@ def test_compare_writes_results_folder_and_cli(tmp_path):
     c = compare(s, 4, bootstrap=50, fit_bootstrap=10)
     written = c.save(tmp_path / "api")
     names = {p.name for p in written}
-    assert {"compare_curves.csv", "compare_metrics.csv", "compare_gaps.csv", "compare_fits.csv",
-            "compare_replicates.csv", "comparison.png", "manifest.json"} == names
+    assert {
+        "compare_curves.csv",
+        "compare_metrics.csv",
+        "compare_gaps.csv",
+        "compare_fits.csv",
+        "compare_replicates.csv",
+        "comparison.png",
+        "manifest.json",
+    } == names
     gaps = pd.read_csv(tmp_path / "api" / "compare_gaps.csv")
-    assert set(gaps["aggregate"]) == {"bass_mapped", "bass_difference", "capped_bass_difference",
-                                      "degree_mean_field", "bass_fitted"}
+    assert set(gaps["aggregate"]) == {
+        "bass_mapped",
+        "bass_difference",
+        "capped_bass_difference",
+        "degree_mean_field",
+        "bass_fitted",
+    }
     assert "Q_eff / Q_mapped" in c.summary_text()
 
     (tmp_path / "occupied").write_text("a file")
@@ -156,8 +170,22 @@ def test_compare_writes_results_folder_and_cli(tmp_path):
         'name = "invented test market"\nseed = 2\n[market]\norganisations = 500\ninitial_customers = 5\n'
         '[network]\nkind = "small_world"\nmean_degree = 4\n[run]\nperiods = 15\n'
     )
-    assert main(["compare", str(config), "--replicates", "3", "--bootstrap", "40", "--out", str(tmp_path / "cli"),
-                 "--quiet"]) == 0
+    assert (
+        main(
+            [
+                "compare",
+                str(config),
+                "--replicates",
+                "3",
+                "--bootstrap",
+                "40",
+                "--out",
+                str(tmp_path / "cli"),
+                "--quiet",
+            ]
+        )
+        == 0
+    )
     assert (tmp_path / "cli" / "comparison.png").stat().st_size > 0
     assert main(["compare", str(tmp_path / "missing.toml")]) == 2
 
@@ -177,14 +205,16 @@ def _t50_on_grid(share: np.ndarray, t: np.ndarray) -> float:
 
 def _scenario(kind: str, *, organisations: int, periods: int, time_step: float = 1.0, seed: int = 0) -> Scenario:
     network = {"kind": kind} if kind == "complete" else {"kind": kind, "mean_degree": 4}
-    return Scenario.from_dict({
-        "name": f"invented test market on a {kind} network",
-        "seed": seed,
-        "market": {"organisations": organisations, "initial_share": 0.01},
-        "network": network,
-        "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
-        "run": {"periods": periods, "time_step": time_step},
-    })
+    return Scenario.from_dict(
+        {
+            "name": f"invented test market on a {kind} network",
+            "seed": seed,
+            "market": {"organisations": organisations, "initial_share": 0.01},
+            "network": network,
+            "adoption": {"rule": "share", "external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
+            "run": {"periods": periods, "time_step": time_step},
+        }
+    )
 
 
 def test_continuous_clock_compares_with_the_ode_forms():
@@ -194,12 +224,15 @@ def test_continuous_clock_compares_with_the_ode_forms():
     from womlab.aggregate import degree_mean_field_curve
     from womlab.studies.compare import compare
 
-    s = Scenario.from_dict({
-        "seed": 5, "market": {"organisations": 1500, "initial_customers": 15},
-        "network": {"kind": "random", "mean_degree": 8},
-        "adoption": {"rule": "count", "external": 0.01, "word_of_mouth": 0.05},
-        "run": {"periods": 20, "clock": "continuous"},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 5,
+            "market": {"organisations": 1500, "initial_customers": 15},
+            "network": {"kind": "random", "mean_degree": 8},
+            "adoption": {"rule": "count", "external": 0.01, "word_of_mouth": 0.05},
+            "run": {"periods": 20, "clock": "continuous"},
+        }
+    )
     c = compare(s, 4, bootstrap=50, fit_bootstrap=20)
     assert c.reference == "bass_mapped"
     network = build_network(s, np.random.default_rng(streams(s.seed, (0,)).network))
@@ -219,11 +252,15 @@ def test_fitted_q_carries_no_bias_of_the_step():
     # lies below that interval (seed and check fixed before looking).
     from womlab import fit_bass, mapped_parameters
 
-    s = Scenario.from_dict({
-        "seed": 3, "market": {"organisations": 4000, "initial_customers": 40}, "network": {"kind": "complete"},
-        "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
-        "run": {"periods": 30, "time_step": 0.25},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 3,
+            "market": {"organisations": 4000, "initial_customers": 40},
+            "network": {"kind": "complete"},
+            "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.8},
+            "run": {"periods": 30, "time_step": 0.25},
+        }
+    )
     c = compare(s, 20, bootstrap=100, fit_bootstrap=100)
     ratio = c.fits.set_index("parameter").loc["Q_ratio"]
     assert ratio["fitted_form"] == "difference form, step 0.25, exponential"

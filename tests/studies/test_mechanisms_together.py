@@ -11,21 +11,33 @@ import pytest
 
 from womlab import Scenario, ScenarioError, aggregate_curve, run_replicates
 
-BASE = {"seed": 5, "market": {"organisations": 300, "initial_customers": 3, "regions": 2},
-        "network": {"kind": "random", "mean_degree": 6}, "run": {"periods": 12, "jobs": 1}}
+BASE = {
+    "seed": 5,
+    "market": {"organisations": 300, "initial_customers": 3, "regions": 2},
+    "network": {"kind": "random", "mean_degree": 6},
+    "run": {"periods": 12, "jobs": 1},
+}
 
 
 @pytest.mark.parametrize("field", [{"churn": 0.05}, {"warning": 0.2, "satisfied_share": 0.7}])
 def test_product_generations_refuse_churn_and_warnings(field):
-    spec = {**BASE, "adoption": field,
-            "product": [{"name": "second", "launch": 5, "external": 0.01, "word_of_mouth": 0.4}]}
+    spec = {
+        **BASE,
+        "adoption": field,
+        "product": [{"name": "second", "launch": 5, "external": 0.01, "word_of_mouth": 0.4}],
+    }
     with pytest.raises(ScenarioError, match=r"\[\[product\]\] cannot be combined with (churn|warnings)"):
         Scenario.from_dict(spec)
 
 
 def test_churn_with_a_late_region_runs_and_has_no_aggregate_counterpart():
-    s = Scenario.from_dict({**BASE, "adoption": {"churn": 0.05, "external": 0.01},
-                            "market": {**BASE["market"], "opens": [{"region": 1, "period": 6}]}})
+    s = Scenario.from_dict(
+        {
+            **BASE,
+            "adoption": {"churn": 0.05, "external": 0.01},
+            "market": {**BASE["market"], "opens": [{"region": 1, "period": 6}]},
+        }
+    )
     assert np.isnan(aggregate_curve(s)).all()
     batch = run_replicates(s, 2)
     metrics = batch.metrics().set_index("metric")

@@ -34,8 +34,14 @@ def test_customers_from_period_zero_give_the_initial_customers(tmp_path):
 def test_the_statistic_of_a_simulated_series_is_the_statistic_of_its_run():
     # common practice: the data and a simulation are summarised by one function, so a series
     # simulated from a run has exactly the run's statistic.
-    sc = Scenario.from_dict({"seed": 4, "market": {"organisations": 300, "initial_customers": 3},
-                             "network": {"kind": "random", "mean_degree": 6}, "run": {"periods": 10}})
+    sc = Scenario.from_dict(
+        {
+            "seed": 4,
+            "market": {"organisations": 300, "initial_customers": 3},
+            "network": {"kind": "random", "mean_degree": 6},
+            "run": {"periods": 10},
+        }
+    )
     run = run_one(sc, (3,))
     for kind, drop in (("new_customers", [4, 7]), ("customers", [0, 5])):
         series = simulated_series(sc, kind=kind, key=(3,), drop=drop)
@@ -45,10 +51,15 @@ def test_the_statistic_of_a_simulated_series_is_the_statistic_of_its_run():
 @pytest.mark.parametrize(
     "text, fragments",
     [
-        ("period,new_customers\n1,3\n2,-1\n3,4\n4,5\n", ["seen.csv", "'new_customers'", "row 3", "period 2", ">= 0", "-1"]),
+        (
+            "period,new_customers\n1,3\n2,-1\n3,4\n4,5\n",
+            ["seen.csv", "'new_customers'", "row 3", "period 2", ">= 0", "-1"],
+        ),
         ("period,customers\n1,3\n2,9\n3,7\n4,12\n", ["'customers'", "row 4", "period 3", "must not fall", "7 after 9"]),
-        ("period,customers,market\n1,3,10\n2,9,10\n3,11,10\n4,12,10\n",
-         ["'customers'", "row 4", "period 3", "11 customers is more than the market size 10"]),
+        (
+            "period,customers,market\n1,3,10\n2,9,10\n3,11,10\n4,12,10\n",
+            ["'customers'", "row 4", "period 3", "11 customers is more than the market size 10"],
+        ),
         ("period,new_customers\n1,3\n2,4\n2,5\n4,6\n", ["'period'", "row 4", "period 2 appears twice"]),
         ("period,new_customers\n1,3\n2,4\n3,5\n", ["seen.csv", "at least 4", "got 3"]),
         ("period,sales\n1,3\n2,4\n3,5\n4,6\n", ["unknown column 'sales'"]),

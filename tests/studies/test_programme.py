@@ -3,24 +3,27 @@ budget, discounting, ROI and the acceleration/expansion split."""
 
 from __future__ import annotations
 
-
 import numpy as np
 import pytest
 
 from womlab import Scenario, ScenarioError, evaluate_programme, programme_economics, run_paired
 from womlab.cli import main
+from womlab.dynamics import RunResult
 from womlab.dynamics.programme import ProgrammeRun
+from womlab.scenario import Referral
 from womlab.studies.continuation import continue_paired, truncate
 from womlab.studies.programme import customer_values, roi, value_flow
-from womlab.dynamics import RunResult
-from womlab.scenario import Referral
 
 BASE = {
     "seed": 21,
     "market": {"organisations": 600, "initial_customers": 6},
     "network": {"kind": "small_world", "mean_degree": 6, "rewiring": 0.2},
-    "adoption": {"external": 0.01, "word_of_mouth": 0.5, "satisfied_share": 0.7,
-                 "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
+    "adoption": {
+        "external": 0.01,
+        "word_of_mouth": 0.5,
+        "satisfied_share": 0.7,
+        "talkers_per_customer": {"distribution": "poisson", "mean": 2},
+    },
     "run": {"periods": 25},
 }
 
@@ -40,11 +43,14 @@ def _attributed_in_window(run, start, end):
 
 
 # ---------------------------------------------------------------- common random numbers
-@pytest.mark.parametrize("changes", [
-    {"enrol": "all"},
-    {"enrol": "share", "enrol_share": 0.4, "start": 3, "end": 10},
-    {"enrol": "strategy", "strategy": "random", "enrol_count": 50},
-])
+@pytest.mark.parametrize(
+    "changes",
+    [
+        {"enrol": "all"},
+        {"enrol": "share", "enrol_share": 0.4, "start": 3, "end": 10},
+        {"enrol": "strategy", "strategy": "random", "enrol_count": 50},
+    ],
+)
 @pytest.mark.parametrize("run", [{"periods": 25}, {"periods": 25, "time_step": 0.5}])
 def test_neutral_programme_reproduces_the_baseline_exactly(changes, run):
     # Common random numbers (Law & Kelton, Simulation Modeling and Analysis, ch. on
@@ -95,8 +101,7 @@ def test_enrolment_by_hubs_enrols_the_highest_degree_organisations():
 # ---------------------------------------------------------------- payments and budget
 def test_cost_is_reward_times_attributed_referrals_in_the_window():
     # Issue 6's definition: cost = reward x referrals attributed to enrolled referrers in the window.
-    s = _scenario(enrol="share", enrol_share=0.5, start=4, end=12, talk_multiplier=1.5,
-                  reward=3.0, referred_reward=1.0)
+    s = _scenario(enrol="share", enrol_share=0.5, start=4, end=12, talk_multiplier=1.5, reward=3.0, referred_reward=1.0)
     runs = run_paired({"p": s}, 4)["p"]
     for run in runs:
         ok = _attributed_in_window(run, 4, 12)
@@ -117,7 +122,7 @@ def test_budget_cap_holds_exactly_and_the_boost_stops_when_spent():
         assert e["programme_paid_referrals"].sum() == 14
         stop = e["budget_exhausted_period"]
         assert stop >= 1
-        assert e["programme_cost"][stop + 1:].sum() == 0
+        assert e["programme_cost"][stop + 1 :].sum() == 0
         # The boost stops after the period in which the budget ran out: the run is the
         # same as a programme that ends in that period with no cap (payments alone move
         # nobody; one step per period, so the boost stops exactly at the period's end).
@@ -172,9 +177,16 @@ def test_value_flow_adds_up_to_customer_values_on_a_run():
 
 def _hand_run(adoption_period, referrer, cost):
     ap = np.asarray(adoption_period, dtype=np.int32)
-    return RunResult(periods=len(cost) - 1, adoption_period=ap, referrer=np.asarray(referrer, dtype=np.int32),
-                     satisfied=ap >= 0, region=np.zeros(ap.size, np.int32), initial=np.array([0], np.int32),
-                     engine="hand-made", extra={"programme_cost": np.asarray(cost, dtype=float)})
+    return RunResult(
+        periods=len(cost) - 1,
+        adoption_period=ap,
+        referrer=np.asarray(referrer, dtype=np.int32),
+        satisfied=ap >= 0,
+        region=np.zeros(ap.size, np.int32),
+        initial=np.array([0], np.int32),
+        engine="hand-made",
+        extra={"programme_cost": np.asarray(cost, dtype=float)},
+    )
 
 
 def test_roi_of_the_bank_case_arithmetic():
@@ -211,11 +223,22 @@ def test_complete_network_value_is_all_acceleration_in_the_end_though_not_at_the
     # value of a programme is acceleration: expansion is exactly 0 once the markets are
     # exhausted. At a 10-period horizon the same runs label more than half of the value
     # expansion (55.7 % in this set-up): the horizon cuts off the baseline's late adopters.
-    s = Scenario.from_dict({
-        "seed": 5, "market": {"organisations": 1000, "initial_customers": 10}, "network": {"kind": "complete"},
-        "adoption": {"external": 0.01, "word_of_mouth": 0.3, "satisfied_share": 0.8}, "run": {"periods": 10},
-        "referral": {"enrol": "all", "talk_multiplier": 2.0, "reward": 1.0, "value_per_period": 1.0,
-                     "discount_rate": 0.01}})
+    s = Scenario.from_dict(
+        {
+            "seed": 5,
+            "market": {"organisations": 1000, "initial_customers": 10},
+            "network": {"kind": "complete"},
+            "adoption": {"external": 0.01, "word_of_mouth": 0.3, "satisfied_share": 0.8},
+            "run": {"periods": 10},
+            "referral": {
+                "enrol": "all",
+                "talk_multiplier": 2.0,
+                "reward": 1.0,
+                "value_per_period": 1.0,
+                "discount_rate": 0.01,
+            },
+        }
+    )
     study = evaluate_programme(s, 8, degrees=False)
     table = study.per_replicate()
     assert study.exhausted.all()
@@ -253,14 +276,21 @@ def test_programme_is_off_after_the_horizon_in_the_continuation():
     s = _scenario(enrol="all", talk_multiplier=2.0, reward=1.0, value_per_period=1.0)
     cont = continue_paired({"baseline": s.replace("referral.enrol", "none"), "programme": s}, 2, lifetime=10)
     for run in cont.runs["programme"]:
-        assert run.extra["programme_cost"][s.run.periods + 1:].sum() == 0.0
+        assert run.extra["programme_cost"][s.run.periods + 1 :].sum() == 0.0
 
 
 def test_acceleration_plus_expansion_is_the_incremental_value():
     # Libai, Muller & Peres (2013): the two parts add up to the programme's value, at the
     # horizon and on the continuation
-    s = _scenario(enrol="share", enrol_share=0.5, talk_multiplier=3.0, reward=2.0, lifetime_value=10.0,
-                  discount_rate=0.01, lifetime=15)
+    s = _scenario(
+        enrol="share",
+        enrol_share=0.5,
+        talk_multiplier=3.0,
+        reward=2.0,
+        lifetime_value=10.0,
+        discount_rate=0.01,
+        lifetime=15,
+    )
     table = evaluate_programme(s, 6).per_replicate()
     assert np.allclose(table["acceleration_at_horizon"] + table["expansion_at_horizon"], table["incremental_value"])
     assert np.allclose(table["acceleration"] + table["expansion"], table["incremental_value_lifetime"])
@@ -274,16 +304,19 @@ def test_a_negative_lifetime_names_the_field():
 
 
 # ---------------------------------------------------------------- errors and the command
-@pytest.mark.parametrize("changes, field", [
-    ({"enrol": "som"}, "referral.enrol"),
-    ({"enrol": "all", "start": 10, "end": 5}, "referral.end"),
-    ({"enrol": "all", "start": 0}, "referral.start"),
-    ({"scheme": "flat"}, "referral.scheme"),
-    ({"budget": 0.0}, "referral.budget"),
-    ({"value_per_period": 1.0, "lifetime_value": 2.0}, "referral.value_per_period"),
-    ({"enrol": "strategy", "strategy": "random", "enrol_count": 0}, "referral.enrol_count"),
-    ({"enrol": "strategy", "strategy": "nobody"}, "referral.strategy"),
-])
+@pytest.mark.parametrize(
+    "changes, field",
+    [
+        ({"enrol": "som"}, "referral.enrol"),
+        ({"enrol": "all", "start": 10, "end": 5}, "referral.end"),
+        ({"enrol": "all", "start": 0}, "referral.start"),
+        ({"scheme": "flat"}, "referral.scheme"),
+        ({"budget": 0.0}, "referral.budget"),
+        ({"value_per_period": 1.0, "lifetime_value": 2.0}, "referral.value_per_period"),
+        ({"enrol": "strategy", "strategy": "random", "enrol_count": 0}, "referral.enrol_count"),
+        ({"enrol": "strategy", "strategy": "nobody"}, "referral.strategy"),
+    ],
+)
 def test_bad_programme_fields_name_the_field(changes, field):
     with pytest.raises(ScenarioError, match=field.replace(".", r"\.")):
         _scenario(**changes)
@@ -305,8 +338,15 @@ def test_referral_command_writes_its_results_folder(tmp_path, capsys):
     out = tmp_path / "out"
     assert main(["referral", str(cfg), "--replicates", "3", "--out", str(out), "--quiet"]) == 0
     names = {p.name for p in out.iterdir()}
-    assert {"programme_summary.csv", "programme_runs.csv", "programme_cumulative.csv", "referral_tree.csv",
-            "programme.png", "referral_tree.png", "manifest.json"} <= names
+    assert {
+        "programme_summary.csv",
+        "programme_runs.csv",
+        "programme_cumulative.csv",
+        "referral_tree.csv",
+        "programme.png",
+        "referral_tree.png",
+        "manifest.json",
+    } <= names
     assert "roi" in capsys.readouterr().out
     bad = tmp_path / "bad.toml"
     bad.write_text('[referral]\nenrol = "everyone"\n', encoding="utf-8")

@@ -9,18 +9,24 @@ import numpy as np
 import pytest
 
 from womlab import Scenario, run_replicates
-from womlab.studies import referrals as R
+from womlab.dynamics import RunResult
 from womlab.dynamics.array_engine import run_array
 from womlab.networks import ReferralNetwork
-from womlab.dynamics import RunResult
+from womlab.studies import referrals as R
 
 
 def _run(adoption_period, referrer, periods=3):
     n = len(adoption_period)
     ap = np.asarray(adoption_period, dtype=np.int32)
-    return RunResult(periods=periods, adoption_period=ap, referrer=np.asarray(referrer, dtype=np.int32),
-                     satisfied=ap >= 0, region=np.zeros(n, np.int32),
-                     initial=np.flatnonzero(ap == 0).astype(np.int32), engine="hand-made")
+    return RunResult(
+        periods=periods,
+        adoption_period=ap,
+        referrer=np.asarray(referrer, dtype=np.int32),
+        satisfied=ap >= 0,
+        region=np.zeros(n, np.int32),
+        initial=np.flatnonzero(ap == 0).astype(np.int32),
+        engine="hand-made",
+    )
 
 
 # A hand-made forest (common practice: check tree bookkeeping on a case worked by hand):
@@ -68,10 +74,14 @@ def test_star_centre_is_every_word_of_mouth_referrer():
     # centre, already a customer, so the centre is the only satisfied customer that any
     # potential customer ever hears (a fact of the star's structure).
     net = ReferralNetwork.from_networkx(nx.star_graph(200), kind="star")
-    s = Scenario.from_dict({"market": {"organisations": 201, "initial_customers": 1},
-                            "network": {"kind": "random", "mean_degree": 4},
-                            "adoption": {"rule": "count", "external": 0.05, "word_of_mouth": 0.1},
-                            "run": {"periods": 20}})
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 201, "initial_customers": 1},
+            "network": {"kind": "random", "mean_degree": 4},
+            "adoption": {"rule": "count", "external": 0.05, "word_of_mouth": 0.1},
+            "run": {"periods": 20},
+        }
+    )
     res = run_array(s, net, np.array([0]), np.random.default_rng(7))
     wom = res.referrer >= 0
     assert wom.sum() > 50  # the check is not vacuous
@@ -83,10 +93,14 @@ def test_referrers_are_earlier_satisfied_neighbours_on_karate_club():
     # organisation it referred, a satisfied customer, and adopted no later than it did.
     g = nx.karate_club_graph()
     net = ReferralNetwork.from_networkx(g, kind="karate")
-    s = Scenario.from_dict({"market": {"organisations": 34, "initial_customers": 2},
-                            "network": {"kind": "random", "mean_degree": 4},
-                            "adoption": {"external": 0.02, "word_of_mouth": 0.6, "satisfied_share": 0.7},
-                            "run": {"periods": 15, "time_step": 0.25}})
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 34, "initial_customers": 2},
+            "network": {"kind": "random", "mean_degree": 4},
+            "adoption": {"external": 0.02, "word_of_mouth": 0.6, "satisfied_share": 0.7},
+            "run": {"periods": 15, "time_step": 0.25},
+        }
+    )
     for seed in range(20):
         res = run_array(s, net, np.array([0, 33]), np.random.default_rng(seed))
         for i in np.flatnonzero(res.referrer >= 0):
@@ -105,10 +119,15 @@ def test_external_share_of_all_adoptions_matches_bass_innovators():
     # Tolerance fixed before looking: 4 standard errors of the mean over 20 replicates,
     # plus 0.005 for the time step of 0.05 period and N = 3000 (rates frozen within a step).
     p, q = 0.02, 0.4
-    s = Scenario.from_dict({"market": {"organisations": 3000, "initial_customers": 0},
-                            "network": {"kind": "complete"},
-                            "adoption": {"external": p, "word_of_mouth": q},
-                            "run": {"periods": 45, "time_step": 0.05}, "seed": 11})
+    s = Scenario.from_dict(
+        {
+            "market": {"organisations": 3000, "initial_customers": 0},
+            "network": {"kind": "complete"},
+            "adoption": {"external": p, "word_of_mouth": q},
+            "run": {"periods": 45, "time_step": 0.05},
+            "seed": 11,
+        }
+    )
     batch = run_replicates(s, 20)
     ext = []
     for run in batch.runs:
@@ -128,10 +147,15 @@ def test_attribution_agrees_between_the_array_engine_and_the_mesa_model():
     # does each run's word-of-mouth share of all adoptions. Fixed before looking: seed,
     # N = 300, 80 replicates, 4 SE.
     pytest.importorskip("womlab.dynamics.mesa_model")  # the Mesa model; the check runs once it is present
-    s = Scenario.from_dict({"seed": 5, "market": {"organisations": 300, "initial_customers": 3},
-                            "network": {"kind": "random", "mean_degree": 6},
-                            "adoption": {"external": 0.02, "word_of_mouth": 0.5, "satisfied_share": 0.7},
-                            "run": {"periods": 15}})
+    s = Scenario.from_dict(
+        {
+            "seed": 5,
+            "market": {"organisations": 300, "initial_customers": 3},
+            "network": {"kind": "random", "mean_degree": 6},
+            "adoption": {"external": 0.02, "word_of_mouth": 0.5, "satisfied_share": 0.7},
+            "run": {"periods": 15},
+        }
+    )
     out = {}
     for engine in ("array", "mesa"):
         runs = run_replicates(s.replace("run.engine", engine), 80).runs

@@ -22,8 +22,12 @@ SMALL = {
     "seed": 99,
     "market": {"organisations": 400, "initial_customers": 4, "regions": 2},
     "network": {"kind": "small_world", "mean_degree": 6, "rewiring": 0.1},
-    "adoption": {"external": 0.01, "word_of_mouth": 0.4, "satisfied_share": 0.7,
-                 "talkers_per_customer": {"distribution": "poisson", "mean": 2}},
+    "adoption": {
+        "external": 0.01,
+        "word_of_mouth": 0.4,
+        "satisfied_share": 0.7,
+        "talkers_per_customer": {"distribution": "poisson", "mean": 2},
+    },
     "run": {"periods": 30},
 }
 
@@ -79,7 +83,7 @@ def test_referrers_are_earlier_satisfied_neighbours():
     assert by_wom.size > 0
     for i in by_wom:
         j = run.referrer[i]
-        assert j in net.indices[net.indptr[i]:net.indptr[i + 1]]
+        assert j in net.indices[net.indptr[i] : net.indptr[i + 1]]
         assert run.satisfied[j] and 0 <= run.adoption_period[j] < run.adoption_period[i]
 
 
@@ -118,8 +122,10 @@ def test_save_batch_writes_every_output(tmp_path):
 
 def test_cli_run_and_check(tmp_path, capsys):
     cfg = tmp_path / "s.toml"
-    cfg.write_text('seed = 4\n[market]\norganisations = 300\ninitial_customers = 3\n'
-                   '[network]\nkind = "random"\nmean_degree = 6\n[run]\nperiods = 15\nreplicates = 2\n')
+    cfg.write_text(
+        "seed = 4\n[market]\norganisations = 300\ninitial_customers = 3\n"
+        '[network]\nkind = "random"\nmean_degree = 6\n[run]\nperiods = 15\nreplicates = 2\n'
+    )
     assert main(["run", str(cfg), "--replicates", "3", "--jobs", "1", "--out", str(tmp_path / "o"), "--quiet"]) == 0
     out = capsys.readouterr().out
     assert "t50" in out and "aggregate" in out
@@ -195,11 +201,15 @@ def test_greedy_scores_seeds_with_the_scenarios_own_engine(monkeypatch):
 
         monkeypatch.setitem(engines.ENGINES, name, counted)
     monkeypatch.setattr("womlab.seeding.registry._SIMULATOR", [engines.ENGINES["array"]])
-    s = Scenario.from_dict({
-        "seed": 4, "market": {"organisations": 120, "initial_customers": 2},
-        "network": {"kind": "random", "mean_degree": 4}, "run": {"periods": 8, "clock": "continuous"},
-        "seeding": {"strategy": "greedy", "greedy_runs": 2, "greedy_candidates": 5},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 4,
+            "market": {"organisations": 120, "initial_customers": 2},
+            "network": {"kind": "random", "mean_degree": 4},
+            "run": {"periods": 8, "clock": "continuous"},
+            "seeding": {"strategy": "greedy", "greedy_runs": 2, "greedy_candidates": 5},
+        }
+    )
     run_one(s, (0,))
     assert calls["array"] == 0
     assert calls["events"] > 1  # the run itself, and greedy's Monte Carlo runs

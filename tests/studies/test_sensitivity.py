@@ -19,9 +19,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from womlab.results.report import sensitivity_table
 from womlab.scenario import Scenario
 from womlab.studies.sensitivity import morris_design, morris_effects, saltelli_design, sobol_indices
-from womlab.results.report import sensitivity_table
 from womlab.studies.sweep import run_sweep
 
 A, B = 7.0, 0.1
@@ -45,8 +45,14 @@ def test_sobol_indices_of_the_ishigami_function():
     x = saltelli_design(2**13, 3, np.random.default_rng(20261201))
     t = sobol_indices(ishigami(x), 3).set_index("input")
     assert (t["scrambles"] == 8).all() and (t["note"] == "").all()
-    expected = {("x1", "S1"): 0.314, ("x2", "S1"): 0.442, ("x3", "S1"): 0.0,
-                ("x1", "ST"): 0.558, ("x2", "ST"): 0.442, ("x3", "ST"): 0.244}
+    expected = {
+        ("x1", "S1"): 0.314,
+        ("x2", "S1"): 0.442,
+        ("x3", "S1"): 0.0,
+        ("x1", "ST"): 0.558,
+        ("x2", "ST"): 0.442,
+        ("x3", "ST"): 0.244,
+    }
     for (name, index), value in expected.items():
         se = t.loc[name, f"{index}_se"]
         assert se < 0.01
@@ -60,8 +66,7 @@ def test_sobol_standard_errors_match_the_spread_over_independent_designs():
     # its relative error is about 1/sqrt(14) = 0.27; averaged over 24 designs about 0.06, and the
     # real spread from 24 designs is itself uncertain by about 1/sqrt(46) = 0.15: a factor 1.5 is
     # over 2.5 of these combined). The row bootstrap this replaces was four to six times too large here.
-    tables = [sobol_indices(ishigami(saltelli_design(2**11, 3, np.random.default_rng(seed))), 3)
-              for seed in range(24)]
+    tables = [sobol_indices(ishigami(saltelli_design(2**11, 3, np.random.default_rng(seed))), 3) for seed in range(24)]
     for col in ("S1", "ST"):
         values = np.array([t[col].to_numpy() for t in tables])
         ses = np.array([t[f"{col}_se"].to_numpy() for t in tables])
@@ -81,7 +86,7 @@ def test_sobol_estimator_is_scipys_on_filtered_rows_too():
     x = saltelli_design(2**9, 3, np.random.default_rng(7))
     y = ishigami(x)
     n = 2**9
-    fa, fb, fab = y[:n], y[n:2 * n], y[2 * n:].reshape(3, n)
+    fa, fb, fab = y[:n], y[n : 2 * n], y[2 * n :].reshape(3, n)
     ref = stats.sobol_indices(func={"f_A": fa[None], "f_B": fb[None], "f_AB": fab[:, None]}, n=n)
     padded = np.concatenate([np.r_[fa, np.nan], np.r_[fb, 0.0], *[np.r_[f, 0.0] for f in fab]])
     t = sobol_indices(padded, 3, scrambles=1)  # N = 513 rows, one NaN: the written-out path on 512
@@ -146,15 +151,24 @@ def test_morris_ranks_an_inert_input_last_and_recovers_a_linear_coefficient():
 def test_morris_sweep_ranks_an_inert_scenario_field_below_word_of_mouth(tmp_path):
     # adoption.cap is used only by rule = "capped"; under rule = "share" it does not enter the
     # model, so its elementary effects are replicate noise only (common practice: a dummy input).
-    s = Scenario.from_dict({
-        "seed": 9,
-        "market": {"organisations": 300, "initial_customers": 3},
-        "network": {"kind": "random", "mean_degree": 6},
-        "run": {"periods": 25},
-        "sweep": {"design": "morris", "samples": 5, "replicates": 3, "levels": 4, "axes": {
-            "adoption.word_of_mouth": {"from": 0.05, "to": 0.6},
-            "adoption.cap": {"from": 0.01, "to": 0.5}}},
-    })
+    s = Scenario.from_dict(
+        {
+            "seed": 9,
+            "market": {"organisations": 300, "initial_customers": 3},
+            "network": {"kind": "random", "mean_degree": 6},
+            "run": {"periods": 25},
+            "sweep": {
+                "design": "morris",
+                "samples": 5,
+                "replicates": 3,
+                "levels": 4,
+                "axes": {
+                    "adoption.word_of_mouth": {"from": 0.05, "to": 0.6},
+                    "adoption.cap": {"from": 0.01, "to": 0.5},
+                },
+            },
+        }
+    )
     run_sweep(s, tmp_path / "m", 1, progress=False, report=False)
     t = sensitivity_table(tmp_path / "m")
     final = t[t["outcome"] == "final_share"].set_index("axis")

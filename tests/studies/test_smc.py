@@ -24,8 +24,12 @@ def test_normal_mean_posterior_matches_the_conjugate_result():
     # is that posterior convolved with a width-ε window, sd √(1/n + ε²/3)).
     # Tolerances fixed before looking: mean within 0.1 (a third of the posterior sd; the
     # Monte Carlo error with ESS ≈ 500 is ≈ 0.015, generations are correlated), sd within 20 %.
-    res = abc_smc([WorkingPrior("mu", "uniform", -5.0, 5.0)], _normal_mean, seed=8,
-                  settings=SMCSettings(particles=800, generations=6, simulations=40_000))
+    res = abc_smc(
+        [WorkingPrior("mu", "uniform", -5.0, 5.0)],
+        _normal_mean,
+        seed=8,
+        settings=SMCSettings(particles=800, generations=6, simulations=40_000),
+    )
     pop = res.final
     mean = np.average(pop.theta[:, 0], weights=pop.weights)
     sd = np.sqrt(np.average((pop.theta[:, 0] - mean) ** 2, weights=pop.weights))
@@ -60,8 +64,13 @@ def test_model_choice_puts_the_mass_on_the_model_that_made_the_data():
             out.append(np.hypot(y.mean() - 0.3, y.std(ddof=1) - 1.0))
         return np.array(out)
 
-    res = abc_smc([WorkingPrior("mu", "uniform", -3.0, 3.0)], simulate, seed=2, models=2,
-                  settings=SMCSettings(particles=300, generations=5, simulations=12_000))
+    res = abc_smc(
+        [WorkingPrior("mu", "uniform", -3.0, 3.0)],
+        simulate,
+        seed=2,
+        models=2,
+        settings=SMCSettings(particles=300, generations=5, simulations=12_000),
+    )
     probs = res.final.model_probabilities(2)
     assert probs[0] >= 0.8
     assert probs.sum() == pytest.approx(1.0)

@@ -18,11 +18,11 @@ import pytest
 
 from womlab import NetworkError, ScenarioError, StoreError, run_one
 from womlab.cli import main
-from womlab.studies.metrics import curve_metrics
 from womlab.scenario import Scenario
 from womlab.store import ResultsStore
-from womlab.studies.sweep import design_points, point_scenarios, run_sweep
+from womlab.studies.metrics import curve_metrics
 from womlab.studies.runner import parallel_choice
+from womlab.studies.sweep import design_points, point_scenarios, run_sweep
 
 BASE = {
     "seed": 7,
@@ -36,8 +36,10 @@ def scenario(sweep: dict) -> Scenario:
     return Scenario.from_dict({**BASE, "sweep": sweep})
 
 
-GRID = {"replicates": 4, "axes": {"network.kind": ["random", "ring"],
-                                  "adoption.word_of_mouth": {"from": 0.1, "to": 0.5, "steps": 3}}}
+GRID = {
+    "replicates": 4,
+    "axes": {"network.kind": ["random", "ring"], "adoption.word_of_mouth": {"from": 0.1, "to": 0.5, "steps": 3}},
+}
 
 
 def outcomes(folder) -> pd.DataFrame:
@@ -52,8 +54,9 @@ def test_grid_2x3_with_4_replicates_is_identical_for_jobs_1_jobs_2_and_dask(tmp_
         two = run_sweep(s, tmp_path / "j2", 2, chunk_size=3, progress=False, report=False)
     # Dask LocalCluster with 2 thread workers (processes=False keeps the test fast; the
     # process-worker path is the same joblib Dask backend and is timed in benchmarks/sweeps.py).
-    dask = run_sweep(s, tmp_path / "dask", cluster="local:2", cluster_processes=False, chunk_size=5,
-                     progress=False, report=False)
+    dask = run_sweep(
+        s, tmp_path / "dask", cluster="local:2", cluster_processes=False, chunk_size=5, progress=False, report=False
+    )
     assert (one.runs, two.runs, dask.runs) == (24, 24, 24)
     a, b, c = outcomes(tmp_path / "j1"), outcomes(tmp_path / "j2"), outcomes(tmp_path / "dask")
     assert len(a) == 24 and (a["status"] == "ok").all()
@@ -77,8 +80,14 @@ def test_a_sweep_row_is_run_one_at_the_point_with_key_point_replicate(tmp_path):
 
 
 def test_grid_points_are_the_product_of_axes_first_axis_slowest_and_log_axes_geometric():
-    s = scenario({"axes": {"adoption.word_of_mouth": {"from": 0.01, "to": 1.0, "steps": 3, "log": True},
-                           "network.kind": ["random", "ring"]}})
+    s = scenario(
+        {
+            "axes": {
+                "adoption.word_of_mouth": {"from": 0.01, "to": 1.0, "steps": 3, "log": True},
+                "network.kind": ["random", "ring"],
+            }
+        }
+    )
     points = design_points(s)
     assert points["point"].tolist() == list(range(6))
     np.testing.assert_allclose(points["adoption.word_of_mouth"].unique(), np.geomspace(0.01, 1.0, 3))
@@ -88,10 +97,17 @@ def test_grid_points_are_the_product_of_axes_first_axis_slowest_and_log_axes_geo
 def test_latin_hypercube_puts_one_point_in_every_stratum_and_rounds_whole_number_fields():
     # McKay, Beckman & Conover (1979): each of n equal strata of every axis holds one point.
     n = 12
-    s = scenario({"design": "latin", "samples": n, "axes": {
-        "adoption.external": {"from": 0.0, "to": 0.06},
-        "market.initial_customers": {"from": 1, "to": 30},
-        "network.kind": ["random", "ring", "small_world"]}})
+    s = scenario(
+        {
+            "design": "latin",
+            "samples": n,
+            "axes": {
+                "adoption.external": {"from": 0.0, "to": 0.06},
+                "market.initial_customers": {"from": 1, "to": 30},
+                "network.kind": ["random", "ring", "small_world"],
+            },
+        }
+    )
     points = design_points(s)
     strata = np.floor(points["adoption.external"].to_numpy() / 0.06 * n).astype(int)
     assert sorted(strata) == list(range(n))
@@ -103,11 +119,21 @@ def test_latin_hypercube_puts_one_point_in_every_stratum_and_rounds_whole_number
 
 def test_sobol_design_has_saltelli_blocks():
     # Saltelli (2002): A, B, then AB_i = A with column i from B.
-    s = scenario({"design": "sobol", "samples": 8, "axes": {"adoption.external": {"from": 0.0, "to": 0.05},
-                                                            "adoption.word_of_mouth": {"from": 0.1, "to": 0.6}}})
+    s = scenario(
+        {
+            "design": "sobol",
+            "samples": 8,
+            "axes": {
+                "adoption.external": {"from": 0.0, "to": 0.05},
+                "adoption.word_of_mouth": {"from": 0.1, "to": 0.6},
+            },
+        }
+    )
     p = design_points(s)
     assert len(p) == 8 * 4
-    assert p["block"].tolist() == ["A"] * 8 + ["B"] * 8 + ["AB:adoption.external"] * 8 + ["AB:adoption.word_of_mouth"] * 8
+    assert (
+        p["block"].tolist() == ["A"] * 8 + ["B"] * 8 + ["AB:adoption.external"] * 8 + ["AB:adoption.word_of_mouth"] * 8
+    )
     a, b = p.iloc[:8].reset_index(drop=True), p.iloc[8:16].reset_index(drop=True)
     ab1 = p.iloc[16:24].reset_index(drop=True)
     assert (ab1["adoption.external"] == b["adoption.external"]).all()
@@ -116,8 +142,11 @@ def test_sobol_design_has_saltelli_blocks():
 
 def test_an_invalid_point_is_reported_with_its_axis_values_before_anything_runs(tmp_path):
     s = scenario({"axes": {"network.kind": ["random", "ring"], "network.mean_degree": [4, 5]}})
-    with pytest.raises(ScenarioError, match=r"1 of 4 sweep points are invalid: point 3 \(network.kind = 'ring', "
-                                            r"network.mean_degree = 5\): network.mean_degree must be an even"):
+    with pytest.raises(
+        ScenarioError,
+        match=r"1 of 4 sweep points are invalid: point 3 \(network.kind = 'ring', "
+        r"network.mean_degree = 5\): network.mean_degree must be an even",
+    ):
         run_sweep(s, tmp_path / "never", 1, progress=False)
     assert not (tmp_path / "never").exists()
 
@@ -152,7 +181,7 @@ def test_sobol_needs_a_power_of_two():
 def test_cli_sweep_and_report(tmp_path, capsys):
     cfg = tmp_path / "s.toml"
     cfg.write_text(
-        'seed = 3\n[market]\norganisations = 200\ninitial_customers = 2\n[run]\nperiods = 15\n'
+        "seed = 3\n[market]\norganisations = 200\ninitial_customers = 2\n[run]\nperiods = 15\n"
         '[sweep]\nreplicates = 2\n[sweep.axes]\n"adoption.word_of_mouth" = [0.2, 0.4]\n'
     )
     out = tmp_path / "out"
@@ -160,7 +189,8 @@ def test_cli_sweep_and_report(tmp_path, capsys):
     text = capsys.readouterr().out
     assert "2 points x 2 replicates = 4 runs" in text and "0 failed" in text
     assert {"manifest.json", "points.parquet", "runs.parquet", "curves.parquet", "report.html"} <= {
-        p.name for p in out.iterdir()}
+        p.name for p in out.iterdir()
+    }
     assert main(["report", str(out)]) == 0
     bad = tmp_path / "bad.toml"
     bad.write_text('[sweep.axes]\n"adoption.word_of_mouth" = { from = 0.1, to = 0.5 }\n')
@@ -187,14 +217,23 @@ PROGRAMME = {
     "market": {"organisations": 300, "initial_customers": 3},
     "network": {"kind": "random", "mean_degree": 6},
     "run": {"periods": 20},
-    "referral": {"enrol": "all", "start": 1, "end": 10, "talk_multiplier": 1.5, "reward": 4.0,
-                 "value_per_period": 1.0, "discount_rate": 0.01},
+    "referral": {
+        "enrol": "all",
+        "start": 1,
+        "end": 10,
+        "talk_multiplier": 1.5,
+        "reward": 4.0,
+        "value_per_period": 1.0,
+        "discount_rate": 0.01,
+    },
 }
 
 
 def programme_sweep(**sweep) -> Scenario:
-    axes = {"referral.reward": [2.0, 8.0],
-            "referral.talk_multiplier": {"follows": "referral.reward", "values": [1.2, 1.8]}}
+    axes = {
+        "referral.reward": [2.0, 8.0],
+        "referral.talk_multiplier": {"follows": "referral.reward", "values": [1.2, 1.8]},
+    }
     return Scenario.from_dict({**PROGRAMME, "sweep": {"study": "programme", "replicates": 3, "axes": axes, **sweep}})
 
 
@@ -213,8 +252,12 @@ def test_a_programme_sweep_stores_the_paired_economics_and_gives_roi_per_point(t
         # the split is whole-life: each pair continued past the horizon (studies.continuation)
         cont = continue_paired({"baseline": at.replace("referral.enrol", "none"), "programme": at}, 3, keys=keys)
         paired = cont.at_horizon()
-        rows = [programme_economics(b, p, at.referral, continued=(cb, cp)) for b, p, cb, cp in
-                zip(paired["baseline"], paired["programme"], cont.runs["baseline"], cont.runs["programme"])]
+        rows = [
+            programme_economics(b, p, at.referral, continued=(cb, cp))
+            for b, p, cb, cp in zip(
+                paired["baseline"], paired["programme"], cont.runs["baseline"], cont.runs["programme"]
+            )
+        ]
         mine = runs[runs["point"] == point].reset_index(drop=True)
         for name in ("incremental_customers", "incremental_value", "cost", "acceleration", "expansion", "roi"):
             np.testing.assert_array_equal(mine[name].to_numpy(dtype=float), [r[name] for r in rows])
@@ -230,22 +273,34 @@ def test_a_programme_sweep_stores_the_paired_economics_and_gives_roi_per_point(t
 
 
 def test_a_seeding_sweep_stores_each_strategy_and_gives_the_lift_against_random(tmp_path):
-    s = Scenario.from_dict({**BASE, "study": {"strategies": ["hubs", "fringe"], "outcome": "customer_periods",
-                                              "discount_rate": 0.02, "bootstrap": 500},
-                            "sweep": {"study": "seeding", "replicates": 5,  # 5: the fewest with an interval
-                                      "axes": {"adoption.word_of_mouth": [0.2, 0.5]}}})
+    s = Scenario.from_dict(
+        {
+            **BASE,
+            "study": {
+                "strategies": ["hubs", "fringe"],
+                "outcome": "customer_periods",
+                "discount_rate": 0.02,
+                "bootstrap": 500,
+            },
+            "sweep": {
+                "study": "seeding",
+                "replicates": 5,  # 5: the fewest with an interval
+                "axes": {"adoption.word_of_mouth": [0.2, 0.5]},
+            },
+        }
+    )
     run_sweep(s, tmp_path / "d", 1, progress=False, report=True)
     runs = outcomes(tmp_path / "d")
     assert {"customers[random]", "customer_periods[hubs]", "t50[fringe]"} <= set(runs.columns)
     summary = sweep_summary(tmp_path / "d").set_index(["point", "outcome"])
     for point, at in enumerate(point_scenarios(s)):
         variants = {name: at.replace("seeding.strategy", name) for name in ("random", "hubs", "fringe")}
-        out = run_paired(variants, 5, keys=[(point, r) for r in range(5)],
-                         reduce=lambda run: run_outcomes(run, 0.02))
+        out = run_paired(variants, 5, keys=[(point, r) for r in range(5)], reduce=lambda run: run_outcomes(run, 0.02))
         mine = runs[runs["point"] == point]
         for name in variants:
-            np.testing.assert_array_equal(mine[f"customer_periods[{name}]"].to_numpy(dtype=float),
-                                          [o["customer_periods"] for o in out[name]])
+            np.testing.assert_array_equal(
+                mine[f"customer_periods[{name}]"].to_numpy(dtype=float), [o["customer_periods"] for o in out[name]]
+            )
         base = np.mean([o["customer_periods"] for o in out["random"]])
         hubs = np.mean([o["customer_periods"] for o in out["hubs"]])
         lift = summary.loc[(point, "lift_ratio[hubs]")]
@@ -256,12 +311,22 @@ def test_a_seeding_sweep_stores_each_strategy_and_gives_the_lift_against_random(
 def test_more_replicates_and_more_grid_values_run_only_what_is_new(tmp_path):
     small = scenario({"replicates": 2, "axes": {"adoption.word_of_mouth": [0.2, 0.4]}})
     first = run_sweep(small, tmp_path / "d", 1, progress=False, report=False)
-    more = run_sweep(scenario({"replicates": 4, "axes": {"adoption.word_of_mouth": [0.2, 0.4]}}), tmp_path / "d", 1,
-                     progress=False, report=False)
+    more = run_sweep(
+        scenario({"replicates": 4, "axes": {"adoption.word_of_mouth": [0.2, 0.4]}}),
+        tmp_path / "d",
+        1,
+        progress=False,
+        report=False,
+    )
     assert (first.ran, more.skipped, more.ran, more.added_replicates) == (4, 4, 4, 2)
     # the same as a sweep made with 4 replicates at once: the new replicates are the keys (i, 2), (i, 3)
-    run_sweep(scenario({"replicates": 4, "axes": {"adoption.word_of_mouth": [0.2, 0.4]}}), tmp_path / "fresh", 1,
-              progress=False, report=False)
+    run_sweep(
+        scenario({"replicates": 4, "axes": {"adoption.word_of_mouth": [0.2, 0.4]}}),
+        tmp_path / "fresh",
+        1,
+        progress=False,
+        report=False,
+    )
     pd.testing.assert_frame_equal(outcomes(tmp_path / "d"), outcomes(tmp_path / "fresh"))
     wider = scenario({"replicates": 4, "axes": {"adoption.word_of_mouth": [0.1, 0.2, 0.4]}})
     grown = run_sweep(wider, tmp_path / "d", 1, progress=False, report=True)
@@ -274,18 +339,29 @@ def test_more_replicates_and_more_grid_values_run_only_what_is_new(tmp_path):
     assert store.manifest()["replicates"] == 4 and len(store.manifest()["history"]) == 3
     # cutting replicates, dropping a grid value or changing anything else is refused, naming it
     with pytest.raises(StoreError, match="extended with more replicates, not cut"):
-        run_sweep(scenario({"replicates": 3, "axes": {"adoption.word_of_mouth": [0.1, 0.2, 0.4]}}), tmp_path / "d", 1,
-                  progress=False, report=False)
+        run_sweep(
+            scenario({"replicates": 3, "axes": {"adoption.word_of_mouth": [0.1, 0.2, 0.4]}}),
+            tmp_path / "d",
+            1,
+            progress=False,
+            report=False,
+        )
     with pytest.raises(StoreError, match=r"1 of its points are not in this sweep's grid.*adoption.word_of_mouth = 0.4"):
-        run_sweep(scenario({"replicates": 4, "axes": {"adoption.word_of_mouth": [0.1, 0.2]}}), tmp_path / "d", 1,
-                  progress=False, report=False)
+        run_sweep(
+            scenario({"replicates": 4, "axes": {"adoption.word_of_mouth": [0.1, 0.2]}}),
+            tmp_path / "d",
+            1,
+            progress=False,
+            report=False,
+        )
     with pytest.raises(StoreError, match=r"sweep\.study: \"run\" there, \"seeding\" now"):
         run_sweep(wider.replace("sweep.study", "seeding"), tmp_path / "d", 1, progress=False, report=False)
 
 
 def test_a_sampled_design_may_gain_replicates_but_not_samples(tmp_path):
-    s = scenario({"design": "latin", "samples": 3, "replicates": 1,
-                  "axes": {"adoption.word_of_mouth": {"from": 0.1, "to": 0.5}}})
+    s = scenario(
+        {"design": "latin", "samples": 3, "replicates": 1, "axes": {"adoption.word_of_mouth": {"from": 0.1, "to": 0.5}}}
+    )
     run_sweep(s, tmp_path / "d", 1, progress=False, report=False)
     again = run_sweep(s.replace("sweep.replicates", 2), tmp_path / "d", 1, progress=False, report=False)
     assert (again.skipped, again.ran) == (3, 3)
@@ -294,8 +370,7 @@ def test_a_sampled_design_may_gain_replicates_but_not_samples(tmp_path):
 
 
 def test_one_replicate_per_point_reports_estimates_without_intervals(tmp_path, capsys):
-    s = scenario({"replicates": 1, "axes": {"adoption.word_of_mouth": [0.2, 0.4],
-                                            "network.kind": ["random", "ring"]}})
+    s = scenario({"replicates": 1, "axes": {"adoption.word_of_mouth": [0.2, 0.4], "network.kind": ["random", "ring"]}})
     run_sweep(s, tmp_path / "d", 1, progress=False, report=True)  # wrote the report: no KeyError on ci_low
     summary = sweep_summary(tmp_path / "d")
     assert summary["low"].isna().all() and summary["estimate"].notna().any()
@@ -324,21 +399,36 @@ def test_a_given_network_runs_every_point_and_must_fit_the_market(tmp_path):
     with pytest.raises(NetworkError, match="the network has 250 organisations but market.organisations is 300"):
         run_sweep(s, tmp_path / "x", 1, network=nx.path_graph(250), progress=False)
     with pytest.raises(ScenarioError, match=r"the network is given \(network=\), so network.kind cannot vary"):
-        run_sweep(scenario({"axes": {"network.kind": ["random", "ring"]}}), tmp_path / "x", 1, network=graph,
-                  progress=False)
+        run_sweep(
+            scenario({"axes": {"network.kind": ["random", "ring"]}}), tmp_path / "x", 1, network=graph, progress=False
+        )
     with pytest.raises(StoreError, match=r"network\.sha256"):  # another network into the same folder
         run_sweep(s, tmp_path / "g", 1, network=nx.watts_strogatz_graph(300, 4, 0.1, seed=2), progress=False)
     assert not (tmp_path / "x").exists()
 
 
-@pytest.mark.parametrize("axes, study, message", [
-    ({"run.jobs": [1, 2]}, "run", "run.jobs may not vary in a sweep: the number of worker processes changes no result"),
-    ({"run.replicates": [5, 10]}, "run", "run.replicates may not vary in a sweep"),
-    ({"name": ["a", "b"]}, "run", "name may not vary in a sweep"),
-    ({"seeding.strategy": ["hubs", "fringe"]}, "seeding", "seeding.strategy may not vary in a sweep: the seeding study"),
-    ({"referral.talk_multiplier": {"follows": "referral.reward", "values": [1.5]}}, "run",
-     "follows must be another axis of this sweep"),
-])
+@pytest.mark.parametrize(
+    "axes, study, message",
+    [
+        (
+            {"run.jobs": [1, 2]},
+            "run",
+            "run.jobs may not vary in a sweep: the number of worker processes changes no result",
+        ),
+        ({"run.replicates": [5, 10]}, "run", "run.replicates may not vary in a sweep"),
+        ({"name": ["a", "b"]}, "run", "name may not vary in a sweep"),
+        (
+            {"seeding.strategy": ["hubs", "fringe"]},
+            "seeding",
+            "seeding.strategy may not vary in a sweep: the seeding study",
+        ),
+        (
+            {"referral.talk_multiplier": {"follows": "referral.reward", "values": [1.5]}},
+            "run",
+            "follows must be another axis of this sweep",
+        ),
+    ],
+)
 def test_an_axis_that_may_not_vary_is_refused_in_one_line(axes, study, message):
     with pytest.raises(ScenarioError, match=message.replace("(", r"\(")) as info:
         scenario({"study": study, "axes": axes})
@@ -347,8 +437,14 @@ def test_an_axis_that_may_not_vary_is_refused_in_one_line(axes, study, message):
 
 def test_a_follower_must_have_as_many_values_as_the_axis_it_follows():
     with pytest.raises(ScenarioError, match=r"'referral.talk_multiplier'.values must be 2 values"):
-        scenario({"axes": {"referral.reward": [1.0, 2.0],
-                           "referral.talk_multiplier": {"follows": "referral.reward", "values": [1.5]}}})
+        scenario(
+            {
+                "axes": {
+                    "referral.reward": [1.0, 2.0],
+                    "referral.talk_multiplier": {"follows": "referral.reward", "values": [1.5]},
+                }
+            }
+        )
 
 
 def test_a_programme_point_without_a_programme_is_refused_before_anything_runs(tmp_path):
@@ -364,8 +460,10 @@ def test_path_axis_values_resolve_against_the_scenario_file(tmp_path, monkeypatc
     for name, ties in (("a.csv", [(0, 1), (1, 2), (2, 3)]), ("b.csv", [(0, 2), (1, 3), (0, 3)])):
         (folder / "ties" / name).write_text("source,target\n" + "".join(f"{u},{v}\n" for u, v in ties))
     cfg = folder / "s.toml"
-    cfg.write_text('[market]\ninitial_customers = 1\n[network]\nkind = "edgelist"\npath = "ties/a.csv"\n'
-                   '[run]\nperiods = 3\n[sweep]\nreplicates = 1\n[sweep.axes]\n"network.path" = ["ties/a.csv", "ties/b.csv"]\n')
+    cfg.write_text(
+        '[market]\ninitial_customers = 1\n[network]\nkind = "edgelist"\npath = "ties/a.csv"\n'
+        '[run]\nperiods = 3\n[sweep]\nreplicates = 1\n[sweep.axes]\n"network.path" = ["ties/a.csv", "ties/b.csv"]\n'
+    )
     monkeypatch.chdir(tmp_path)  # not the scenario's folder
     from womlab.scenario import load_scenario
 
@@ -412,7 +510,9 @@ def test_a_local_cluster_speaks_tls_to_this_process_only_and_serves_no_pages(mon
 @pytest.mark.parametrize("address", ["tcp://127.0.0.1:9", "no-such-scheme://x", "tcp://"])
 def test_an_unreachable_or_malformed_scheduler_is_one_line_and_creates_no_folder(tmp_path, capsys, address):
     cfg = tmp_path / "s.toml"
-    cfg.write_text('[market]\norganisations = 100\n[sweep]\nreplicates = 1\n[sweep.axes]\n"adoption.external" = [0.01]\n')
+    cfg.write_text(
+        '[market]\norganisations = 100\n[sweep]\nreplicates = 1\n[sweep.axes]\n"adoption.external" = [0.01]\n'
+    )
     start = time.monotonic()
     code = main(["sweep", str(cfg), "--out", str(tmp_path / "never"), "--scheduler", address, "--quiet"])
     err = capsys.readouterr().err
@@ -427,9 +527,18 @@ def test_morris_screening_works_on_a_study_statistic(tmp_path):
     from womlab.results.report import sensitivity_table
     from womlab.studies.sweep import unit_coordinates
 
-    s = Scenario.from_dict({**PROGRAMME, "sweep": {"study": "programme", "design": "morris", "samples": 2,
-                                                   "replicates": 2,
-                                                   "axes": {"referral.reward": {"from": 1.0, "to": 9.0}}}})
+    s = Scenario.from_dict(
+        {
+            **PROGRAMME,
+            "sweep": {
+                "study": "programme",
+                "design": "morris",
+                "samples": 2,
+                "replicates": 2,
+                "axes": {"referral.reward": {"from": 1.0, "to": 9.0}},
+            },
+        }
+    )
     run_sweep(s, tmp_path / "m", 1, progress=False, report=True)
     table = sensitivity_table(tmp_path / "m").set_index("outcome")
     summary = sweep_summary(tmp_path / "m")

@@ -138,8 +138,17 @@ def _best_fit(residual, starts: Sequence[np.ndarray], lower: np.ndarray, upper: 
     best = None
     for x0 in starts:
         x0 = np.clip(np.asarray(x0, dtype=float), lower + 1e-12 * (upper - lower), upper - 1e-12 * (upper - lower))
-        res = least_squares(residual, x0, bounds=(lower, upper), method="trf", x_scale="jac",
-                            xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=2000)
+        res = least_squares(
+            residual,
+            x0,
+            bounds=(lower, upper),
+            method="trf",
+            x_scale="jac",
+            xtol=1e-12,
+            ftol=1e-12,
+            gtol=1e-12,
+            max_nfev=2000,
+        )
         if best is None or res.cost < best.cost - 1e-15 or (not best.success and res.success):
             best = res
     return best
@@ -258,7 +267,11 @@ def fit_bass(
             return curve(x[0], x[1], x[2]) - body[1]
 
         m_starts = (min(1.0, 1.05 * top + 1e-6), 1.0)
-        starts = [np.array(start)] if start else [np.array([p, q, m]) for p in _STARTS_P for q in _STARTS_Q for m in m_starts]
+        starts = (
+            [np.array(start)]
+            if start
+            else [np.array([p, q, m]) for p in _STARTS_P for q in _STARTS_Q for m in m_starts]
+        )
         names = ("p", "Q", "m")
     else:
         lower = np.array([_P_BOUNDS[0], _Q_BOUNDS[0]])
@@ -276,9 +289,19 @@ def fit_bass(
     se = _stderr(res, names, body[0].size)
     se.setdefault("m", 0.0)
     return BassFit(
-        p=float(res.x[0]), Q=float(res.x[1]), m=m, market_fitted=bool(fit_m), initial_share=s0,
-        success=bool(res.success), message=str(res.message), nfev=int(res.nfev),
-        rmse=float(np.sqrt(np.mean(res.fun**2))), stderr=se, data="share", time_step=time_step, form=form,
+        p=float(res.x[0]),
+        Q=float(res.x[1]),
+        m=m,
+        market_fitted=bool(fit_m),
+        initial_share=s0,
+        success=bool(res.success),
+        message=str(res.message),
+        nfev=int(res.nfev),
+        rmse=float(np.sqrt(np.mean(res.fun**2))),
+        stderr=se,
+        data="share",
+        time_step=time_step,
+        form=form,
     )
 
 
@@ -326,9 +349,11 @@ def fit_bass_sales(
         raise WomlabError(f"sales must sum to more than 0, got {total}")
     # m is searched as a multiple of the sales so far (well scaled, and m >= total sales)
     if form == "density":
+
         def model(x: np.ndarray) -> np.ndarray:
             return x[2] * total * bass_density(t, x[0], x[1])
     elif form == "difference":
+
         def model(x: np.ndarray) -> np.ndarray:
             return x[2] * total * (bass_share(t, x[0], x[1]) - bass_share(t - 1, x[0], x[1]))
     else:
@@ -336,8 +361,11 @@ def fit_bass_sales(
     scale = max(float(y.max()), 1e-300)
     lower = np.array([_P_BOUNDS[0], _Q_BOUNDS[0], 1.0 - 1e-9])
     upper = np.array([_P_BOUNDS[1], _Q_BOUNDS[1], 1e3])
-    starts = ([np.array([start[0], start[1], start[2] / total])] if start else
-              [np.array([p, q, f]) for p in _STARTS_P for q in _STARTS_Q for f in (1.2, 2.0, 5.0)])
+    starts = (
+        [np.array([start[0], start[1], start[2] / total])]
+        if start
+        else [np.array([p, q, f]) for p in _STARTS_P for q in _STARTS_Q for f in (1.2, 2.0, 5.0)]
+    )
     res = _best_fit(lambda x: (model(x) - y) / scale, starts, lower, upper)
     rmse = float(np.sqrt(np.mean((model(res.x) - y) ** 2)))
     se = _stderr(res, ("p", "Q", "m"), y.size)
@@ -345,8 +373,17 @@ def fit_bass_sales(
     se["m"] *= total
     res.x[2] *= total
     return BassFit(
-        p=float(res.x[0]), Q=float(res.x[1]), m=float(res.x[2]), market_fitted=True, initial_share=0.0,
-        success=bool(res.success), message=str(res.message), nfev=int(res.nfev), rmse=rmse, stderr=se, data=form,
+        p=float(res.x[0]),
+        Q=float(res.x[1]),
+        m=float(res.x[2]),
+        market_fitted=True,
+        initial_share=0.0,
+        success=bool(res.success),
+        message=str(res.message),
+        nfev=int(res.nfev),
+        rmse=rmse,
+        stderr=se,
+        data=form,
     )
 
 
@@ -371,8 +408,18 @@ def fit_replicates(
         f = fit_bass(s, market=market, saturation=saturation, start=start, time_step=time_step, form=form)
         if start is not None and not f.success:
             f = fit_bass(s, market=market, saturation=saturation, time_step=time_step, form=form)
-        rows.append({"replicate": r, "p": f.p, "Q": f.Q, "m": f.m, "market_fitted": f.market_fitted,
-                     "success": f.success, "rmse": f.rmse, "nfev": f.nfev})
+        rows.append(
+            {
+                "replicate": r,
+                "p": f.p,
+                "Q": f.Q,
+                "m": f.m,
+                "market_fitted": f.market_fitted,
+                "success": f.success,
+                "rmse": f.rmse,
+                "nfev": f.nfev,
+            }
+        )
     return pd.DataFrame(rows)
 
 
@@ -423,9 +470,18 @@ def fit_capped_bass_difference(
         raise WomlabError("fit_capped_bass_difference needs organisations × satisfied share × talkers > 0")
 
     def curve(x: np.ndarray) -> np.ndarray:
-        c = capped_bass_difference(periods, n, s[0] * n, slope=x[0] / per_q, satisfied_share=satisfied_share,
-                                   talkers_per_customer=talkers_per_customer, external=external,
-                                   cap=float(x[1]) if fit_cap else None, time_step=time_step, form=form)
+        c = capped_bass_difference(
+            periods,
+            n,
+            s[0] * n,
+            slope=x[0] / per_q,
+            satisfied_share=satisfied_share,
+            talkers_per_customer=talkers_per_customer,
+            external=external,
+            cap=float(x[1]) if fit_cap else None,
+            time_step=time_step,
+            form=form,
+        )
         return c[1:] / n
 
     if fit_cap:
@@ -436,8 +492,12 @@ def fit_capped_bass_difference(
         starts = [np.array([q]) for q in _STARTS_Q]
     res = _best_fit(lambda x: curve(x) - s[1:], starts, lower, upper)
     return StockFlowFit(
-        slope=float(res.x[0] / per_q), cap=float(res.x[1]) if fit_cap else None, success=bool(res.success),
-        message=str(res.message), nfev=int(res.nfev), rmse=float(np.sqrt(np.mean(res.fun**2))),
+        slope=float(res.x[0] / per_q),
+        cap=float(res.x[1]) if fit_cap else None,
+        success=bool(res.success),
+        message=str(res.message),
+        nfev=int(res.nfev),
+        rmse=float(np.sqrt(np.mean(res.fun**2))),
     )
 
 

@@ -36,8 +36,8 @@ import numpy as np
 import pandas as pd
 from scipy.integrate import solve_ivp
 
-from womlab.aggregate.markets import group_curves
 from womlab.aggregate.churn import CHURN_CURVE_COLUMNS, bass_churn_difference, bass_churn_ode
+from womlab.aggregate.markets import group_curves
 from womlab.errors import WomlabError
 from womlab.rules import step_probability
 from womlab.scenario import Scenario
@@ -232,7 +232,9 @@ def bass_peak_time(p: float, Q: float, initial_share: float = 0.0) -> float:
     return float(np.log(x) / (p + Q)) if x > 1 else 0.0
 
 
-def bass_ode(t: np.ndarray, p: float, Q: float, initial_share: float = 0.0, *, rtol: float = 1e-10, atol: float = 1e-12) -> np.ndarray:
+def bass_ode(
+    t: np.ndarray, p: float, Q: float, initial_share: float = 0.0, *, rtol: float = 1e-10, atol: float = 1e-12
+) -> np.ndarray:
     """Bass share on the grid ``t`` from ``scipy.integrate.solve_ivp`` (checks ``success``)."""
     t = np.asarray(t, dtype=float)
     sol = solve_ivp(
@@ -359,7 +361,9 @@ def aggregate_curve(scenario: Scenario) -> np.ndarray:
             form=run.step_probability,
         )
         return customers / n
-    return bass_difference(run.periods, par.p, par.Q, par.initial_share, time_step=run.time_step, form=run.step_probability)
+    return bass_difference(
+        run.periods, par.p, par.Q, par.initial_share, time_step=run.time_step, form=run.step_probability
+    )
 
 
 def churn_curves(scenario: Scenario, *, continuous: bool = False) -> pd.DataFrame:
@@ -391,10 +395,17 @@ def churn_curves(scenario: Scenario, *, continuous: bool = False) -> pd.DataFram
     # Q_s = q·unit (Q/s of the mapping), Q⁻ = warning·unit
     unit = others * (1.0 if a.rule == "share" else par.mean_talkers * par.mean_degree)
     q_satisfied = a.word_of_mouth * unit
-    common = {"satisfied_share": s, "churn": a.churn, "churn_dissatisfied": a.dissatisfied_churn,
-              "initial_share": par.initial_share, "warning_rate": a.warning * unit, "former_warn": a.former_warn,
-              "rejecters_warn": a.rejecters_warn}
+    common = {
+        "satisfied_share": s,
+        "churn": a.churn,
+        "churn_dissatisfied": a.dissatisfied_churn,
+        "initial_share": par.initial_share,
+        "warning_rate": a.warning * unit,
+        "former_warn": a.former_warn,
+        "rejecters_warn": a.rejecters_warn,
+    }
     if continuous:
         return bass_churn_ode(t.astype(float), par.p, q_satisfied, **common)
-    return bass_churn_difference(run.periods, par.p, q_satisfied, time_step=run.time_step, form=run.step_probability,
-                                 **common)
+    return bass_churn_difference(
+        run.periods, par.p, q_satisfied, time_step=run.time_step, form=run.step_probability, **common
+    )

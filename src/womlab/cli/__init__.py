@@ -37,8 +37,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="womlab",
         description="Word-of-mouth growth on referral networks, set against the aggregate model. "
-                    "Start with `womlab check CONFIG`: it validates the scenario and says what each command "
-                    "will run, with a rough time.",
+        "Start with `womlab check CONFIG`: it validates the scenario and says what each command "
+        "will run, with a rough time.",
     )
     parser.add_argument("--version", action="version", version=f"womlab {_version()}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")

@@ -55,7 +55,10 @@ def cmd_check(args: argparse.Namespace) -> int:
         ("regions", f"{m.regions}" + (" (from the node file)" if from_file and scenario.network.nodes_path else "")),
         ("network", scenario.network.kind),
         ("mean degree", f"{par.mean_degree:.4g}" + (" (measured from the file)" if from_file else "")),
-        ("clustering coefficient", network_clustering_line(scenario, default_rng(streams(scenario.seed, (0,)).network))),
+        (
+            "clustering coefficient",
+            network_clustering_line(scenario, default_rng(streams(scenario.seed, (0,)).network)),
+        ),
         ("rule", a.rule),
         ("mean talkers per customer", f"{par.mean_talkers:.4g}"),
         ("mapped Bass p", f"{par.p:.4g}"),
@@ -64,8 +67,12 @@ def cmd_check(args: argparse.Namespace) -> int:
         ("slope per talker (capped Bass difference)", f"{par.slope:.4g}"),
         ("periods x steps per period", f"{run.periods} x {run.steps_per_period}"),
         ("replicates (run), engine, jobs", f"{run.replicates:,}, {run.engine}, {jobs_text}"),
-        ("clock", "continuous (event engine: exact adoption times)" if run.clock == "continuous"
-         else f"discrete, steps of {run.time_step:g} period"),
+        (
+            "clock",
+            "continuous (event engine: exact adoption times)"
+            if run.clock == "continuous"
+            else f"discrete, steps of {run.time_step:g} period",
+        ),
     ]
     if par.cap is not None:
         rows.insert(-3, ("ceiling on the adoption rate (cap)", f"{par.cap:.4g}"))
@@ -76,8 +83,13 @@ def cmd_check(args: argparse.Namespace) -> int:
         rows.insert(-3, ("churn per period (satisfied, dissatisfied)", f"{a.churn:.4g}, {a.dissatisfied_churn:.4g}"))
         rows.insert(-3, ("mean stay in periods (satisfied, dissatisfied)", ", ".join(f"{v:.4g}" for v in stays)))
     if a.warns:
-        who = ", ".join(["dissatisfied customers", *(["former customers"] if a.former_warn else []),
-                         *(["rejecters"] if a.rejecters_warn else [])])
+        who = ", ".join(
+            [
+                "dissatisfied customers",
+                *(["former customers"] if a.former_warn else []),
+                *(["rejecters"] if a.rejecters_warn else []),
+            ]
+        )
         rows.insert(-3, ("warning strength; who warns", f"{a.warning:.4g}; {who}"))
     rows[-3:-3] = market_lines(scenario)  # segments, campaigns, openings, product generations
     width = max(len(k) for k, _ in rows)
@@ -85,15 +97,21 @@ def cmd_check(args: argparse.Namespace) -> int:
     for key, value in rows:
         print(f"  {key:<{width}}  {value}")
     table = plan(scenario)
-    print(f"what each command will run (rough times for this machine: {cores()} cores, "
-          f"{describe_bytes(machine_memory())} of memory):")
+    print(
+        f"what each command will run (rough times for this machine: {cores()} cores, "
+        f"{describe_bytes(machine_memory())} of memory):"
+    )
     for _, row in table.iterrows():
         print(f"  {row['command']:<9} {row['what']}")
         if row["runs"]:
             print(f"  {'':<9} {row['estimate']}")
             try:
-                check_resources(scenario, row["command"], points=max(1, row["runs"] // max(1, scenario.sweep.replicates))
-                                if row["command"] == "sweep" else 1, skip=args.skip_resource_check)
+                check_resources(
+                    scenario,
+                    row["command"],
+                    points=max(1, row["runs"] // max(1, scenario.sweep.replicates)) if row["command"] == "sweep" else 1,
+                    skip=args.skip_resource_check,
+                )
             except ScenarioError as exc:
                 print(f"  {'':<9} refused: {exc}")
     for command in ("seeding", "run"):
@@ -103,12 +121,17 @@ def cmd_check(args: argparse.Namespace) -> int:
 
 
 def add(sub: Any) -> None:
-    check = sub.add_parser("check", help="validate a scenario; print its derived quantities and what each command "
-                                         "will run, with a rough time",
-                           description="validate a scenario; print its derived quantities and what each command "
-                                       "will run, with a rough time")
+    check = sub.add_parser(
+        "check",
+        help="validate a scenario; print its derived quantities and what each command will run, with a rough time",
+        description="validate a scenario; print its derived quantities and what each command "
+        "will run, with a rough time",
+    )
     check.add_argument("config", help="scenario TOML file")
     add_scenario_options(check)
-    check.add_argument("--skip-resource-check", action="store_true",
-                       help="validate even when the estimate says it will not fit this machine")
+    check.add_argument(
+        "--skip-resource-check",
+        action="store_true",
+        help="validate even when the estimate says it will not fit this machine",
+    )
     check.set_defaults(func=cmd_check)

@@ -15,8 +15,18 @@ import sys
 from pathlib import Path
 from typing import Any
 
-__all__ = ["positive", "replicate_count", "worker_count", "figure_size", "load", "prepare", "print_table",
-           "batch_command", "default_out", "figure_options"]
+__all__ = [
+    "positive",
+    "replicate_count",
+    "worker_count",
+    "figure_size",
+    "load",
+    "prepare",
+    "print_table",
+    "batch_command",
+    "default_out",
+    "figure_options",
+]
 
 
 def _whole(text: str, what: str) -> int:
@@ -54,8 +64,9 @@ def worker_count(text: str) -> int:
     """A number of worker processes: >= 1, or -1 for every core."""
     value = _whole(text, "the number of worker processes")
     if value < 1 and value != -1:
-        raise argparse.ArgumentTypeError(f"the number of worker processes must be >= 1 (or -1 for every core), "
-                                         f"got {value}")
+        raise argparse.ArgumentTypeError(
+            f"the number of worker processes must be >= 1 (or -1 for every core), got {value}"
+        )
     return value
 
 
@@ -75,8 +86,9 @@ def figure_size(text: str) -> tuple[float, float]:
     except ValueError:
         size = None
     if not sep or size is None or not all(0.5 <= v <= 100 for v in size):
-        raise argparse.ArgumentTypeError(f"the figure size must be WIDTHxHEIGHT in inches, each between 0.5 and 100 "
-                                         f"(e.g. 8x6), got {text!r}")
+        raise argparse.ArgumentTypeError(
+            f"the figure size must be WIDTHxHEIGHT in inches, each between 0.5 and 100 (e.g. 8x6), got {text!r}"
+        )
     return size
 
 
@@ -106,8 +118,12 @@ def load(args: argparse.Namespace, command: str | None = None) -> Any:
 
 def figure_options(args: argparse.Namespace) -> dict[str, Any]:
     """The keyword options of the save functions that come from the command line."""
-    return {"force": args.force, "figure_format": args.figure_format, "figure_size": args.figure_size,
-            "command_line": getattr(args, "command_line", None)}
+    return {
+        "force": args.force,
+        "figure_format": args.figure_format,
+        "figure_size": args.figure_size,
+        "command_line": getattr(args, "command_line", None),
+    }
 
 
 def prepare(args: argparse.Namespace, command: str, *, organisations: str | None = None) -> tuple[Any, Path]:
@@ -122,8 +138,9 @@ def prepare(args: argparse.Namespace, command: str, *, organisations: str | None
     scenario = load(args, command)
     est = check_resources(scenario, command, skip=args.skip_resource_check)
     out = Path(args.out) if args.out else default_out(args.config, command)
-    out = check_output_folder(out, command, scenario, force=args.force, figure_format=args.figure_format,
-                              organisations=organisations)
+    out = check_output_folder(
+        out, command, scenario, force=args.force, figure_format=args.figure_format, organisations=organisations
+    )
     progress.enable(not args.quiet)
     if not args.quiet:
         print(f"womlab {command}: {est.describe()}", file=sys.stderr)
@@ -136,31 +153,48 @@ def print_table(frame: Any) -> None:
 
 def add_scenario_options(cmd: argparse.ArgumentParser) -> None:
     """``--set`` and ``--seed``: change the scenario from the command line, validated as the file is."""
-    cmd.add_argument("--set", action="append", metavar="FIELD=VALUE",
-                     help="change one scenario field, e.g. --set adoption.word_of_mouth=0.2 (repeatable; "
-                          "validated as if the file said it)")
+    cmd.add_argument(
+        "--set",
+        action="append",
+        metavar="FIELD=VALUE",
+        help="change one scenario field, e.g. --set adoption.word_of_mouth=0.2 (repeatable; "
+        "validated as if the file said it)",
+    )
     cmd.add_argument("--seed", type=seed_value, help="root seed (overrides the scenario's seed)")
 
 
-def batch_command(sub: Any, name: str, func: Any, help: str, config: str, replicates: str,
-                  engine: bool = False) -> argparse.ArgumentParser:
+def batch_command(
+    sub: Any, name: str, func: Any, help: str, config: str, replicates: str, engine: bool = False
+) -> argparse.ArgumentParser:
     """A subcommand with the options every batch command shares."""
     cmd = sub.add_parser(name, help=help, description=help)
     cmd.add_argument("config", help=config)
     cmd.add_argument("--replicates", type=replicate_count, help=replicates)
-    cmd.add_argument("--jobs", type=worker_count,
-                     help="worker processes, -1 for every core (overrides run.jobs; never more than the cores)")
+    cmd.add_argument(
+        "--jobs",
+        type=worker_count,
+        help="worker processes, -1 for every core (overrides run.jobs; never more than the cores)",
+    )
     if engine:
         cmd.add_argument("--engine", choices=["array", "mesa"], help="overrides run.engine")
     add_scenario_options(cmd)
     cmd.add_argument("--out", help=f"results folder (default out/<config name>-{name})")
-    cmd.add_argument("--force", "--overwrite", action="store_true",
-                     help="replace another command's or another scenario's results in --out (files womlab did "
-                          "not write are never replaced)")
-    cmd.add_argument("--figure-format", choices=["png", "pdf", "svg"], default="png", help="figure format (default png)")
+    cmd.add_argument(
+        "--force",
+        "--overwrite",
+        action="store_true",
+        help="replace another command's or another scenario's results in --out (files womlab did "
+        "not write are never replaced)",
+    )
+    cmd.add_argument(
+        "--figure-format", choices=["png", "pdf", "svg"], default="png", help="figure format (default png)"
+    )
     cmd.add_argument("--figure-size", type=figure_size, metavar="WxH", help="figure size in inches, e.g. 8x6")
-    cmd.add_argument("--skip-resource-check", action="store_true",
-                     help="run even when the estimate says it will not fit this machine")
+    cmd.add_argument(
+        "--skip-resource-check",
+        action="store_true",
+        help="run even when the estimate says it will not fit this machine",
+    )
     cmd.add_argument("--quiet", action="store_true", help="no progress")
     cmd.set_defaults(func=func)
     return cmd

@@ -27,9 +27,16 @@ def cmd_compare(args: argparse.Namespace) -> int:
 
 
 def add(sub: Any) -> None:
-    comp = batch_command(sub, "compare", cmd_compare,
-                         "run replicates and set the network beside every aggregate model: gaps, fitted parameters, figure",
-                         "scenario TOML file", "number of replicate runs (overrides run.replicates)", engine=True)
+    comp = batch_command(
+        sub,
+        "compare",
+        cmd_compare,
+        "run replicates and set the network beside every aggregate model: gaps, fitted parameters, figure",
+        "scenario TOML file",
+        "number of replicate runs (overrides run.replicates)",
+        engine=True,
+    )
     add_data(comp)
-    comp.add_argument("--bootstrap", type=at_least_one, default=1000,
-                      help="bootstrap resamples for the intervals (default 1000)")
+    comp.add_argument(
+        "--bootstrap", type=at_least_one, default=1000, help="bootstrap resamples for the intervals (default 1000)"
+    )

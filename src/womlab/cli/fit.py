@@ -42,12 +42,27 @@ def cmd_fit(args: argparse.Namespace) -> int:
 
     scenario, out = prepare(args, "fit")
     observed = read_observed(args.data) if args.data is not None else None  # else the file fit.data_path names
-    fit = fit_observed(scenario, observed, holdout=args.holdout, particles=args.particles,
-                       simulations=args.simulations, jobs=args.jobs, progress=not args.quiet)
-    written = save_fit(fit, out, periods=args.forecast, force=args.force, figure_format=args.figure_format,
-                       command_line=getattr(args, "command_line", None))
-    print(f"{scenario.name}: {len(fit.names)} free field(s) fitted to {len(fit.fitted)} points of {fit.observed.source}, "
-          f"{fit.smc.simulations} simulations, {fit.wall_time:.1f} s ({fit.smc.stopped})")
+    fit = fit_observed(
+        scenario,
+        observed,
+        holdout=args.holdout,
+        particles=args.particles,
+        simulations=args.simulations,
+        jobs=args.jobs,
+        progress=not args.quiet,
+    )
+    written = save_fit(
+        fit,
+        out,
+        periods=args.forecast,
+        force=args.force,
+        figure_format=args.figure_format,
+        command_line=getattr(args, "command_line", None),
+    )
+    print(
+        f"{scenario.name}: {len(fit.names)} free field(s) fitted to {len(fit.fitted)} points of {fit.observed.source}, "
+        f"{fit.smc.simulations} simulations, {fit.wall_time:.1f} s ({fit.smc.stopped})"
+    )
     for note in fit.notes:
         print(f"  {note}")
     print()
@@ -65,24 +80,43 @@ def cmd_fit(args: argparse.Namespace) -> int:
 
 
 def add(sub: Any) -> None:
-    cmd = sub.add_parser("fit", help="fit the network model to an observed adoption series ([fit] section), "
-                                     "forecast it and say where on the S-curve it stands")
+    cmd = sub.add_parser(
+        "fit",
+        help="fit the network model to an observed adoption series ([fit] section), "
+        "forecast it and say where on the S-curve it stands",
+    )
     cmd.add_argument("config", help="scenario TOML file (its [fit] section names the free fields and priors)")
-    cmd.add_argument("--data", help="CSV with period and new_customers or customers (cumulative), optionally market "
-                                    "(default: the file fit.data_path names)")
-    cmd.add_argument("--holdout", type=_whole, default=0,
-                     help="fit all but the last N periods and score their forecast against the Bass fit")
+    cmd.add_argument(
+        "--data",
+        help="CSV with period and new_customers or customers (cumulative), optionally market "
+        "(default: the file fit.data_path names)",
+    )
+    cmd.add_argument(
+        "--holdout",
+        type=_whole,
+        default=0,
+        help="fit all but the last N periods and score their forecast against the Bass fit",
+    )
     cmd.add_argument("--forecast", type=_whole, default=12, help="periods to forecast past the data (default 12)")
     cmd.add_argument("--particles", type=positive, help="overrides fit.particles")
     cmd.add_argument("--simulations", type=positive, help="overrides fit.simulations (the budget)")
     cmd.add_argument("--jobs", type=positive, help="worker processes, -1 for every core (overrides run.jobs)")
     add_scenario_options(cmd)
     cmd.add_argument("--out", help="results folder (default out/<config name>-fit)")
-    cmd.add_argument("--force", "--overwrite", action="store_true",
-                     help="replace another command's or another scenario's results in --out (files womlab did "
-                          "not write are never replaced)")
-    cmd.add_argument("--figure-format", choices=["png", "pdf", "svg"], default="png", help="figure format (default png)")
-    cmd.add_argument("--skip-resource-check", action="store_true",
-                     help="run even when the estimate says it will not fit this machine")
+    cmd.add_argument(
+        "--force",
+        "--overwrite",
+        action="store_true",
+        help="replace another command's or another scenario's results in --out (files womlab did "
+        "not write are never replaced)",
+    )
+    cmd.add_argument(
+        "--figure-format", choices=["png", "pdf", "svg"], default="png", help="figure format (default png)"
+    )
+    cmd.add_argument(
+        "--skip-resource-check",
+        action="store_true",
+        help="run even when the estimate says it will not fit this machine",
+    )
     cmd.add_argument("--quiet", action="store_true", help="no progress lines")
     cmd.set_defaults(func=cmd_fit)

@@ -21,8 +21,10 @@ def budget_line(study: Any) -> str | None:
     spent = periods >= 0
     if not spent.any():
         return f"budget cap {budget:g}: never reached in {len(periods)} replicates"
-    return (f"budget cap {budget:g} bound: spent in {int(spent.sum())} of {len(periods)} replicates (median period "
-            f"{float(np.median(periods[spent])):g}); from then on nothing was paid and the boost stopped")
+    return (
+        f"budget cap {budget:g} bound: spent in {int(spent.sum())} of {len(periods)} replicates (median period "
+        f"{float(np.median(periods[spent])):g}); from then on nothing was paid and the boost stopped"
+    )
 
 
 def cmd_referral(args: argparse.Namespace) -> int:
@@ -37,8 +39,10 @@ def cmd_referral(args: argparse.Namespace) -> int:
     wall = time.perf_counter() - start
     written = save_programme(study, out, wall_time=wall, **figure_options(args))
     ref = scenario.referral
-    print(f"{scenario.name}: referral programme vs none, {study.replicates} paired replicates of "
-          f"{scenario.market.organisations:,} organisations on a {scenario.network.kind} network, {wall:.1f} s")
+    print(
+        f"{scenario.name}: referral programme vs none, {study.replicates} paired replicates of "
+        f"{scenario.market.organisations:,} organisations on a {scenario.network.kind} network, {wall:.1f} s"
+    )
     print(f"programme: {programme_summary(scenario)}; discount rate {ref.discount_rate:g} per period")
     line = budget_line(study)
     if line:
@@ -49,5 +53,11 @@ def cmd_referral(args: argparse.Namespace) -> int:
 
 
 def add(sub: Any) -> None:
-    batch_command(sub, "referral", cmd_referral, "evaluate the scenario's referral programme against no programme",
-                  "scenario TOML file with a [referral] section", "paired replicates (overrides run.replicates)")
+    batch_command(
+        sub,
+        "referral",
+        cmd_referral,
+        "evaluate the scenario's referral programme against no programme",
+        "scenario TOML file with a [referral] section",
+        "paired replicates (overrides run.replicates)",
+    )

@@ -36,11 +36,13 @@ def cmd_sweep(args: argparse.Namespace) -> int:
         grown.append(f"{summary.added_points} points added")
     if summary.added_replicates:
         grown.append(f"{summary.added_replicates} replicates per point added")
-    print(f"{scenario.name}: sweep ({summary.study} at every point) of {summary.points} points x "
-          f"{scenario.sweep.replicates} replicates = {summary.runs} runs ({summary.backend}); "
-          + (f"{', '.join(grown)}; " if grown else "")
-          + f"{summary.skipped} already done, {summary.ran} run now, {summary.failures} failed; "
-          f"{summary.wall_time:.1f} s")
+    print(
+        f"{scenario.name}: sweep ({summary.study} at every point) of {summary.points} points x "
+        f"{scenario.sweep.replicates} replicates = {summary.runs} runs ({summary.backend}); "
+        + (f"{', '.join(grown)}; " if grown else "")
+        + f"{summary.skipped} already done, {summary.ran} run now, {summary.failures} failed; "
+        f"{summary.wall_time:.1f} s"
+    )
     if summary.failures:
         first = summary.failed.iloc[0]
         print(f"first failure: point {first['point']}, replicate {first['replicate']}: {first['error']}")
@@ -70,18 +72,31 @@ def add(sub: Any) -> None:
     sweep = sub.add_parser("sweep", help="run the scenario's [sweep] into a resumable results folder")
     sweep.add_argument("config", help="scenario TOML file with a [sweep] section")
     sweep.add_argument("--out", help="results folder (default out/<config name>-sweep); rerun to resume")
-    sweep.add_argument("--jobs", type=positive, help="worker processes on this machine, -1 for every core "
-                       "(default run.jobs)")
+    sweep.add_argument(
+        "--jobs", type=positive, help="worker processes on this machine, -1 for every core (default run.jobs)"
+    )
     where = sweep.add_mutually_exclusive_group()
-    where.add_argument("--scheduler", metavar="tls://HOST:PORT", help="run on a running Dask cluster's scheduler "
-                       "(TLS credentials from Dask's configuration; tcp:// is unencrypted and unauthenticated)")
-    where.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers here "
-                       "(TLS with temporary credentials, no dashboard)")
+    where.add_argument(
+        "--scheduler",
+        metavar="tls://HOST:PORT",
+        help="run on a running Dask cluster's scheduler "
+        "(TLS credentials from Dask's configuration; tcp:// is unencrypted and unauthenticated)",
+    )
+    where.add_argument(
+        "--cluster",
+        metavar="local:N",
+        help="start a Dask LocalCluster of N workers here (TLS with temporary credentials, no dashboard)",
+    )
     sweep.add_argument("--curves", action="store_true", help="also keep each run's per-period curve")
     sweep.add_argument("--chunk-size", type=positive, help="runs per task (default: automatic)")
     sweep.add_argument("--no-report", action="store_true", help="do not write report.html at the end")
-    sweep.add_argument("--wait", type=_seconds, default=0.0, metavar="SECONDS",
-                       help="wait up to SECONDS for another process writing the folder (default: refuse at once)")
+    sweep.add_argument(
+        "--wait",
+        type=_seconds,
+        default=0.0,
+        metavar="SECONDS",
+        help="wait up to SECONDS for another process writing the folder (default: refuse at once)",
+    )
     sweep.add_argument("--quiet", action="store_true", help="no progress bar")
     sweep.set_defaults(func=cmd_sweep)
 

@@ -177,16 +177,59 @@ def pick_referrers(network: ReferralNetwork, adopters: np.ndarray, talk: np.ndar
     adopters = np.ascontiguousarray(adopters, dtype=np.int32)
     out = np.empty(adopters.size, dtype=np.int32)
     if adopters.size:
-        _picks(network.indptr, network.indices, network.complete, np.ascontiguousarray(talk, dtype=np.float32),
-               adopters, np.ascontiguousarray(u, dtype=np.float64), out)
+        _picks(
+            network.indptr,
+            network.indices,
+            network.complete,
+            np.ascontiguousarray(talk, dtype=np.float32),
+            adopters,
+            np.ascontiguousarray(u, dtype=np.float64),
+            out,
+        )
     return out
 
 
 @compiled
-def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, group, external_weight, wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
-            q, cap, tau, satisfied, resistance, u_cause, theta, state, adoption_step, referrer, initial, varying,
-            ledger, opens_at, churn, churn_dissatisfied, referred_churn, churn_resistance, leave_step,
-            warning, former_warn, rejecters_warn, reject_resistance, u_warn, rejection_step, warned_by):
+def _kernel(
+    indptr,
+    indices,
+    complete,
+    rule,
+    form,
+    dt,
+    spp,
+    steps,
+    external,
+    group,
+    external_weight,
+    wom_weight,  # noqa: ANN001, ANN202, PLR0912, PLR0913, PLR0915
+    q,
+    cap,
+    tau,
+    satisfied,
+    resistance,
+    u_cause,
+    theta,
+    state,
+    adoption_step,
+    referrer,
+    initial,
+    varying,
+    ledger,
+    opens_at,
+    churn,
+    churn_dissatisfied,
+    referred_churn,
+    churn_resistance,
+    leave_step,
+    warning,
+    former_warn,
+    rejecters_warn,
+    reject_resistance,
+    u_warn,
+    rejection_step,
+    warned_by,
+):
     """The whole run, step by step (see the module notes); updates ``state``, ``adoption_step``,
     ``referrer``, ``leave_step`` (churn), ``rejection_step`` and ``warned_by`` (warnings) and the
     programme's ``ledger`` in place."""
@@ -336,8 +379,9 @@ def _kernel(indptr, indices, complete, rule, form, dt, spp, steps, external, gro
                     hr = step_rejection_hazard(rule, wt, total[i], theta[i] if thresholds else 0.0, warning, dt, form)
                     raccumulated[i] += hr
                     if raccumulated[i] >= reject_resistance[i]:
-                        if not adopts or rejects_first(resistance[i] - (accumulated[i] - ha), ha,
-                                                       reject_resistance[i] - (raccumulated[i] - hr), hr):
+                        if not adopts or rejects_first(
+                            resistance[i] - (accumulated[i] - ha), ha, reject_resistance[i] - (raccumulated[i] - hr), hr
+                        ):
                             rejecting[nrj] = i
                             nrj += 1
                             continue
@@ -503,8 +547,9 @@ def run_array(
     external_weight = market.external_weight if external_weight is None else external_weight
     wom_weight = market.word_of_mouth_weight if wom_weight is None else wom_weight
 
-    tau = np.ascontiguousarray(rules.draw_talkers(adoption.talkers_per_customer, n, rng, market.talkers),
-                               dtype=np.float32)
+    tau = np.ascontiguousarray(
+        rules.draw_talkers(adoption.talkers_per_customer, n, rng, market.talkers), dtype=np.float32
+    )
     satisfied_share = adoption.satisfied_share if market.satisfied_share is None else market.satisfied_share
     would_be_satisfied = np.ascontiguousarray(rules.draw_satisfied(satisfied_share, n, rng))
     resistance = rng.standard_exponential(n)
@@ -538,22 +583,48 @@ def run_array(
     table = _external_table(adoption.external, run.periods, external)
     groups = _per_org(group, n, np.int32, "group")
     if groups.size and (groups.min() < 0 or groups.max() >= table.shape[1]):
-        raise ValueError(f"group must hold column numbers 0..{table.shape[1] - 1} of external, got {groups.min()}..{groups.max()}")
+        raise ValueError(
+            f"group must hold column numbers 0..{table.shape[1] - 1} of external, got {groups.min()}..{groups.max()}"
+        )
     _kernel(
-        network.indptr, network.indices, network.complete, rules.rule_code(rule), rules.form_code(run.step_probability),
-        float(run.time_step), int(spp), int(run.periods * spp),
-        table, groups,
+        network.indptr,
+        network.indices,
+        network.complete,
+        rules.rule_code(rule),
+        rules.form_code(run.step_probability),
+        float(run.time_step),
+        int(spp),
+        int(run.periods * spp),
+        table,
+        groups,
         _per_org(external_weight, n, np.float64, "external_weight"),
         _per_org(wom_weight, n, np.float64, "wom_weight"),
-        float(adoption.word_of_mouth), float(adoption.cap), tau, would_be_satisfied, resistance, u_cause,
-        np.ascontiguousarray(theta, dtype=np.float64), state, adoption_step, referrer, initial,
+        float(adoption.word_of_mouth),
+        float(adoption.cap),
+        tau,
+        would_be_satisfied,
+        resistance,
+        u_cause,
+        np.ascontiguousarray(theta, dtype=np.float64),
+        state,
+        adoption_step,
+        referrer,
+        initial,
         rule == "cascade" or programme is not None,
         idle_ledger() if programme is None else programme.ledger,
         opens_at,
-        float(adoption.churn), float(adoption.dissatisfied_churn), float(scenario.referral.churn_multiplier),
-        churn_resistance, leave_step,
-        float(adoption.warning), bool(adoption.former_warn), bool(adoption.rejecters_warn), reject_resistance, u_warn,
-        rejection_step, warned_by,
+        float(adoption.churn),
+        float(adoption.dissatisfied_churn),
+        float(scenario.referral.churn_multiplier),
+        churn_resistance,
+        leave_step,
+        float(adoption.warning),
+        bool(adoption.former_warn),
+        bool(adoption.rejecters_warn),
+        reject_resistance,
+        u_warn,
+        rejection_step,
+        warned_by,
     )
 
     adopted = adoption_step >= 0
@@ -575,9 +646,11 @@ def run_array(
         opens_at=market.opens_at,
         leave_period=_leave_period(leave_step, run.periods, spp) if adoption.churns else None,
         leave_time=np.where((leave_step >= 0) & (leave_step <= run.periods * spp), leave_step / spp, np.nan)
-        if adoption.churns else None,
+        if adoption.churns
+        else None,
         rejection_period=np.where(rejection_step >= 0, (rejection_step + spp - 1) // spp, -1).astype(np.int32)
-        if nw else None,
+        if nw
+        else None,
         warned_by=warned_by if nw else None,
         rejection_time=np.where(rejection_step >= 0, rejection_step / spp, np.nan) if nw else None,
     )
@@ -604,8 +677,10 @@ def _external_table(p: float, periods: int, given: np.ndarray | None) -> np.ndar
     if table.ndim == 1:
         table = table[:, None]
     if table.ndim != 2 or table.shape[0] != periods + 1 or np.any(table < 0) or not np.all(np.isfinite(table)):
-        raise ValueError(f"external must be finite rates >= 0 of shape (periods + 1,) or (periods + 1, groups) with "
-                         f"periods = {periods}, got shape {table.shape}")
+        raise ValueError(
+            f"external must be finite rates >= 0 of shape (periods + 1,) or (periods + 1, groups) with "
+            f"periods = {periods}, got shape {table.shape}"
+        )
     return np.ascontiguousarray(table)
 
 

@@ -24,8 +24,9 @@ __all__ = ["Engine", "ENGINES", "engine_for"]
 Engine = Callable[[Scenario, ReferralNetwork, np.ndarray, np.random.Generator], RunResult]
 
 
-def _mesa_engine(scenario: Scenario, network: ReferralNetwork, initial: np.ndarray,
-                 rng: np.random.Generator) -> RunResult:
+def _mesa_engine(
+    scenario: Scenario, network: ReferralNetwork, initial: np.ndarray, rng: np.random.Generator
+) -> RunResult:
     from womlab.dynamics.mesa_model import run_mesa  # Mesa is imported only when this engine is asked for
 
     return run_mesa(scenario, network, initial, rng)

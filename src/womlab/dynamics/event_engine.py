@@ -53,11 +53,11 @@ from __future__ import annotations
 import numpy as np
 
 from womlab import rules
-from womlab.rules import compiled, wom_part
-from womlab.rules.adoption import SHARE
 from womlab.dynamics.run_result import RunResult
 from womlab.errors import ScenarioError
 from womlab.networks import ReferralNetwork
+from womlab.rules import compiled, wom_part
+from womlab.rules.adoption import SHARE
 from womlab.scenario import CONTINUOUS_RULES, Scenario
 
 __all__ = ["run_events", "tie_rates"]
@@ -182,8 +182,19 @@ def _sift_down(heap, position, key, h, size):  # noqa: ANN001, ANN202
 
 
 @compiled
-def _first_passage_kernel(indptr, indices, rule, q, tau, talking, external_time, external_order, start, delay,  # noqa: ANN001, ANN202
-                          horizon):
+def _first_passage_kernel(
+    indptr,
+    indices,
+    rule,
+    q,
+    tau,
+    talking,
+    external_time,
+    external_order,
+    start,
+    delay,  # noqa: ANN001, ANN202
+    horizon,
+):
     """Dijkstra's algorithm from the virtual source over the CSR, stopped at the horizon.
 
     The source's arcs (external influence: ``external_time``, visited in ``external_order``)
@@ -287,9 +298,17 @@ def _first_passage(
     else:
         external_time, external_order = np.zeros(0), np.zeros(0, dtype=np.int64)
     dist, pred = _first_passage_kernel(
-        network.indptr, network.indices, rules.rule_code(adoption.rule), float(adoption.word_of_mouth),
-        np.ascontiguousarray(tau, dtype=np.float32), np.ascontiguousarray(talking, dtype=np.float32), external_time,
-        external_order.astype(np.int64), start, delay, float(scenario.run.periods),
+        network.indptr,
+        network.indices,
+        rules.rule_code(adoption.rule),
+        float(adoption.word_of_mouth),
+        np.ascontiguousarray(tau, dtype=np.float32),
+        np.ascontiguousarray(talking, dtype=np.float32),
+        external_time,
+        external_order.astype(np.int64),
+        start,
+        delay,
+        float(scenario.run.periods),
     )
     return dist, pred
 
@@ -360,8 +379,20 @@ def _complete(
     x_at = np.empty(n)  # talkers X just before each adoption
     order[: initial.size] = initial
     x_at[: initial.size] = 0.0
-    k = _complete_kernel(values, bounds, ids, resistance, np.ascontiguousarray(talking, dtype=np.float32),
-                         float(talking[initial].sum(dtype=np.float64)), float(p), horizon, initial.size, order, x_at, time)
+    k = _complete_kernel(
+        values,
+        bounds,
+        ids,
+        resistance,
+        np.ascontiguousarray(talking, dtype=np.float32),
+        float(talking[initial].sum(dtype=np.float64)),
+        float(p),
+        horizon,
+        initial.size,
+        order,
+        x_at,
+        time,
+    )
     # attribution: external with probability p / (p + c_i X), else ∝ talkers among earlier adopters
     referrer = np.full(n, -1, dtype=np.int64)
     adopters = order[initial.size : k]

@@ -90,9 +90,7 @@ if MESA_VERSION < (3, 5) and multiprocessing.get_start_method(allow_none=True) !
 del _start_method
 
 # Mesa >= 3.5 lays a Network space out (spring layout) unless told layout=None
-_SPACE_OPTIONS: dict[str, Any] = (
-    {"layout": None} if "layout" in inspect.signature(Network.__init__).parameters else {}
-)
+_SPACE_OPTIONS: dict[str, Any] = {"layout": None} if "layout" in inspect.signature(Network.__init__).parameters else {}
 try:  # Mesa >= 3.5: its own experiment parameters, which its browser view passes back as `scenario=`
     from mesa.experimental.scenarios import Scenario as _MesaScenario  # noqa: E402
 except ImportError:  # Mesa <= 3.4
@@ -269,13 +267,15 @@ class Organisation(FixedAgent):
         self.organisation = organisation
         spec = model.womlab_scenario.adoption.talkers_per_customer
         market = model.market  # segments and calendar (dynamics.markets); None fields without them
-        own = None if market.talkers is None else market.talkers[organisation: organisation + 1]
+        own = None if market.talkers is None else market.talkers[organisation : organisation + 1]
         self.talkers = float(rules.draw_talkers(spec, 1, model.rng, own)[0])
         adoption = model.womlab_scenario.adoption
-        self.satisfied_share = (adoption.satisfied_share if market.satisfied_share is None
-                                else float(market.satisfied_share[organisation]))
-        self.word_of_mouth_weight = (1.0 if market.word_of_mouth_weight is None
-                                     else float(market.word_of_mouth_weight[organisation]))
+        self.satisfied_share = (
+            adoption.satisfied_share if market.satisfied_share is None else float(market.satisfied_share[organisation])
+        )
+        self.word_of_mouth_weight = (
+            1.0 if market.word_of_mouth_weight is None else float(market.word_of_mouth_weight[organisation])
+        )
         self.threshold = (
             float(rules.draw_thresholds(adoption.threshold, 1, model.rng)[0]) if adoption.rule == "threshold" else None
         )
@@ -362,15 +362,17 @@ class Organisation(FixedAgent):
         rule = model._rule[0]
         theta = 0.0 if self.threshold is None else float(self.threshold)
         a = model.womlab_scenario.adoption
-        h_r = rules.step_rejection_hazard(rule, float(warned), float(total), theta, float(a.warning), model.time_step,
-                                          model._form)
+        h_r = rules.step_rejection_hazard(
+            rule, float(warned), float(total), theta, float(a.warning), model.time_step, model._form
+        )
         wrng = model.warn_rng
         if not wrng.random() < -math.expm1(-h_r):
             return False
         if self.adopting:
             h_a = -math.log1p(-probability) if probability < 1.0 else math.inf
-            if not rules.rejects_first(rules.crossing_fraction(h_a, wrng.random()), 1.0,
-                                       rules.crossing_fraction(h_r, wrng.random()), 1.0):
+            if not rules.rejects_first(
+                rules.crossing_fraction(h_a, wrng.random()), 1.0, rules.crossing_fraction(h_r, wrng.random()), 1.0
+            ):
                 return False
         # who warned: a roulette wheel over the warners, slots sized by their weight
         warners = model.warners_now() if model.complete else [o for o in self.neighbours if o.warn > 0]
@@ -547,9 +549,7 @@ class ReferralModel(mesa.Model):
             raise ScenarioError(f"scenario must be a womlab Scenario, got {type(scenario).__name__}")
         agent_class = Organisation if agent_class is None else agent_class
         if not (isinstance(agent_class, type) and issubclass(agent_class, Organisation)):
-            raise ScenarioError(
-                f"agent_class must be womlab's Organisation or a subclass of it, got {agent_class!r}"
-            )
+            raise ScenarioError(f"agent_class must be womlab's Organisation or a subclass of it, got {agent_class!r}")
         scenario = _scenario_from_flat(scenario, kwargs)
         st = streams(scenario.seed, (replicate,))
         if network is None:
@@ -559,7 +559,9 @@ class ReferralModel(mesa.Model):
         if initial is None:
             initial = initial_customers(scenario, network, np.random.default_rng(st.seeding))
         initial = np.asarray(initial, dtype=np.int64).ravel()
-        if initial.size and (initial.min() < 0 or initial.max() >= network.n or np.unique(initial).size != initial.size):
+        if initial.size and (
+            initial.min() < 0 or initial.max() >= network.n or np.unique(initial).size != initial.size
+        ):
             raise ScenarioError(
                 f"initial customers must be distinct organisation ids in 0..{network.n - 1}, got {initial.tolist()[:10]}"
             )
@@ -574,8 +576,9 @@ class ReferralModel(mesa.Model):
         # segments and the campaign calendar: their own stream too (dynamics.markets)
         self.market = market_inputs(scenario, network, self.rng)
         # reference customers won in a period: written into that calendar (dynamics.references)
-        self.market, self.reference_ids = with_references(scenario, network, initial, fresh, self.market,
-                                                       simulate=run_mesa)
+        self.market, self.reference_ids = with_references(
+            scenario, network, initial, fresh, self.market, simulate=run_mesa
+        )
         if self.market.opens_at is not None:  # markets that grow: a seed in a part not yet open is left out
             initial = initial[self.market.opens_at[initial] == 0]
         # churn: a stream of its own (model.rng is not advanced), one uniform per customer per step
@@ -600,8 +603,12 @@ class ReferralModel(mesa.Model):
         self.period = 0
         self._chances: dict[tuple[float, float], tuple[float, float]] = {}
         adoption = scenario.adoption  # the rule as the compiled formulas of womlab.rules take it
-        self._rule = (rules.rule_code(adoption.rule), float(adoption.external), float(adoption.word_of_mouth),
-                      float(adoption.cap))
+        self._rule = (
+            rules.rule_code(adoption.rule),
+            float(adoption.external),
+            float(adoption.word_of_mouth),
+            float(adoption.cap),
+        )
         self._form = rules.form_code(run.step_probability)
 
         graph = nx.empty_graph(network.n) if network.complete else _graph_of(network)
@@ -654,8 +661,9 @@ class ReferralModel(mesa.Model):
         """The agent of organisation ``organisation`` (0..N−1)."""
         return self._by_id[organisation]
 
-    def chances(self, talking: float, total: float, threshold: float | None = None, *,
-                organisation: int | None = None) -> tuple[float, float]:
+    def chances(
+        self, talking: float, total: float, threshold: float | None = None, *, organisation: int | None = None
+    ) -> tuple[float, float]:
         """Step probability and external share for a potential customer with T = ``talking``, D = ``total``.
 
         Straight from :mod:`womlab.rules`; remembered per (T, D, p, q) — the formulas are
@@ -674,8 +682,10 @@ class ReferralModel(mesa.Model):
             theta = 0.0 if threshold is None else float(threshold)
             t, d = float(talking), float(total)
             dt, form = self.time_step, self._form
-            found = (rules.step_adoption_probability(rule, t, d, theta, p, q, cap, dt, form),
-                     rules.step_external_part(rule, t, d, theta, p, q, dt, form))
+            found = (
+                rules.step_adoption_probability(rule, t, d, theta, p, q, cap, dt, form),
+                rules.step_external_part(rule, t, d, theta, p, q, dt, form),
+            )
             if threshold is None:
                 self._chances[key] = found
         return found
@@ -684,8 +694,9 @@ class ReferralModel(mesa.Model):
         """What ``agent`` puts into its neighbours' Tᵢ in ``step`` (default: the coming one;
         :func:`womlab.rules.talk_weight`)."""
         step = self.step_count + 1 if step is None else step
-        weight = rules.talk_weight(self._rule[0], np.float32(agent.talkers), agent.customer and agent.satisfied,
-                                   agent.fresh_until == step)
+        weight = rules.talk_weight(
+            self._rule[0], np.float32(agent.talkers), agent.customer and agent.satisfied, agent.fresh_until == step
+        )
         return float(weight)
 
     def _refresh_cascade_talk(self) -> None:
@@ -761,9 +772,11 @@ class ReferralModel(mesa.Model):
             return {}
         spp = self.steps_per_period
         steps = np.array([a.product_start for a in self._by_id], dtype=np.int64)
-        return {"product_start": np.where(steps >= 0, (steps + spp - 1) // spp, -1).astype(np.int32),
-                "product_names": tuple(g.name for g in self.generations),
-                "product_values": np.array([g.value_per_period for g in self.generations])}
+        return {
+            "product_start": np.where(steps >= 0, (steps + spp - 1) // spp, -1).astype(np.int32),
+            "product_names": tuple(g.name for g in self.generations),
+            "product_values": np.array([g.value_per_period for g in self.generations]),
+        }
 
     def _heard(self, agent: Organisation, totals: np.ndarray) -> np.ndarray:
         """Tᵍ for every generation g (index g − 1): talkers of the agent's satisfied neighbours on it."""
@@ -799,8 +812,9 @@ class ReferralModel(mesa.Model):
             heard = self._heard(agent, totals)
             if g == 0:
                 total = self.talkers_total - agent.talkers if self.complete else agent.neighbour_talkers
-                r = rules.rate(share, float(heard.sum()), float(total), 0.0, gens[0].external, gens[0].word_of_mouth,
-                               0.0)
+                r = rules.rate(
+                    share, float(heard.sum()), float(total), 0.0, gens[0].external, gens[0].word_of_mouth, 0.0
+                )
                 options, fallback = heard[:newest], newest
             else:
                 newer = float(heard[g:].sum())
@@ -836,10 +850,14 @@ class ReferralModel(mesa.Model):
         rule, step = self._rule[0], self.step_count
         for agent in self._by_id:
             if agent.customer or agent.former or agent.rejecter:
-                warner = rules.warns(agent.customer, agent.satisfied, agent.former, agent.rejecter, a.former_warn,
-                                     a.rejecters_warn)
-                agent.warn = float(rules.warn_weight(rule, np.float32(agent.talkers), warner,
-                                                     agent.warn_since + self.steps_per_period == step))
+                warner = rules.warns(
+                    agent.customer, agent.satisfied, agent.former, agent.rejecter, a.former_warn, a.rejecters_warn
+                )
+                agent.warn = float(
+                    rules.warn_weight(
+                        rule, np.float32(agent.talkers), warner, agent.warn_since + self.steps_per_period == step
+                    )
+                )
         if self.complete:
             self.warn_total = float(sum(agent.warn for agent in self._by_id))
         self._warners_now = None
@@ -903,8 +921,10 @@ class ReferralModel(mesa.Model):
             engine="mesa",
             adoption_time=np.where(step >= 0, step / run.steps_per_period, np.nan),
             report_every=run.report_every,
-            extra={**(self.programme.record() if self.programme is not None else self._product_record()),
-                   **({"references": self.reference_ids} if self.reference_ids else {})},
+            extra={
+                **(self.programme.record() if self.programme is not None else self._product_record()),
+                **({"references": self.reference_ids} if self.reference_ids else {}),
+            },
             segment=self.market.segment,
             segment_names=self.market.segment_names,
             value=self.market.value,
@@ -922,9 +942,7 @@ def _graph_of(network: ReferralNetwork) -> nx.Graph:
     return graph
 
 
-def run_mesa(
-    scenario: Scenario, network: ReferralNetwork, initial: np.ndarray, rng: np.random.Generator
-) -> RunResult:
+def run_mesa(scenario: Scenario, network: ReferralNetwork, initial: np.ndarray, rng: np.random.Generator) -> RunResult:
     """One run of the scenario on the Mesa model: the ``"mesa"`` engine of :data:`womlab.dynamics.ENGINES`.
 
     Parameters

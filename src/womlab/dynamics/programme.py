@@ -102,8 +102,23 @@ def settle_step(period, adopters, referrers, count, ledger):  # noqa: ANN001, AN
     in place. The one implementation of the payment rules: :meth:`ProgrammeRun.settle` and the
     array engine's compiled step both call it.
     """
-    (enrolled, start, end, budget, per_referral, bonus, bonus_threshold, _multiplier, _extra,
-     spent, exhausted, cost, paid, paid_by, rewarded) = ledger
+    (
+        enrolled,
+        start,
+        end,
+        budget,
+        per_referral,
+        bonus,
+        bonus_threshold,
+        _multiplier,
+        _extra,
+        spent,
+        exhausted,
+        cost,
+        paid,
+        paid_by,
+        rewarded,
+    ) = ledger
     if exhausted[0] >= 0 or period < start or period > end:
         return
     for k in range(count):
@@ -171,9 +186,23 @@ class ProgrammeRun:
         self._bonus = float(referral.bonus if referral.scheme in ("bonus", "both") else 0.0)
         self._m = np.float32(referral.talk_multiplier)
         self._extra = np.float32(referral.extra_talkers)
-        self.ledger = (self.enrolled, self.start, self.end, float(self.budget), self._per_referral, self._bonus,
-                       int(referral.bonus_threshold), self._m, self._extra, self._spent, self._exhausted,
-                       self.cost, self.paid, self.paid_by, self.rewarded)
+        self.ledger = (
+            self.enrolled,
+            self.start,
+            self.end,
+            float(self.budget),
+            self._per_referral,
+            self._bonus,
+            int(referral.bonus_threshold),
+            self._m,
+            self._extra,
+            self._spent,
+            self._exhausted,
+            self.cost,
+            self.paid,
+            self.paid_by,
+            self.rewarded,
+        )
 
     @property
     def spent(self) -> float:
@@ -205,8 +234,13 @@ class ProgrammeRun:
             return talk
         talk = np.ascontiguousarray(talk, dtype=np.float32)
         out = np.empty_like(talk)
-        _boost_all(talk, np.ascontiguousarray(self.enrolled & np.asarray(talking_customer, dtype=bool)),
-                   self._m, self._extra, out)
+        _boost_all(
+            talk,
+            np.ascontiguousarray(self.enrolled & np.asarray(talking_customer, dtype=bool)),
+            self._m,
+            self._extra,
+            out,
+        )
         return out
 
     def settle(self, period: int, adopters: np.ndarray, referrers: np.ndarray) -> None:
@@ -216,8 +250,13 @@ class ProgrammeRun:
         if adopters.size == 0:
             return
         order = np.argsort(adopters, kind="stable")
-        settle_step(int(period), np.ascontiguousarray(adopters[order]), np.ascontiguousarray(referrers[order]),
-                    adopters.size, self.ledger)
+        settle_step(
+            int(period),
+            np.ascontiguousarray(adopters[order]),
+            np.ascontiguousarray(referrers[order]),
+            adopters.size,
+            self.ledger,
+        )
 
     def record(self) -> dict:
         """The run's programme outcome, for :attr:`RunResult.extra`."""
@@ -233,9 +272,23 @@ class ProgrammeRun:
 def idle_ledger(n: int = 0) -> tuple:
     """A ledger of the types :attr:`ProgrammeRun.ledger` has, for a run without a programme
     (so a compiled step takes one signature with or without one); nothing is ever paid from it."""
-    return (np.zeros(n, dtype=bool), 1, 0, 0.0, 0.0, 0.0, 1, np.float32(1.0), np.float32(0.0), np.zeros(1),
-            np.full(1, -1, dtype=np.int64), np.zeros(1), np.zeros(1, dtype=np.int64), np.zeros(n, dtype=np.int64),
-            np.zeros(n, dtype=bool))
+    return (
+        np.zeros(n, dtype=bool),
+        1,
+        0,
+        0.0,
+        0.0,
+        0.0,
+        1,
+        np.float32(1.0),
+        np.float32(0.0),
+        np.zeros(1),
+        np.full(1, -1, dtype=np.int64),
+        np.zeros(1),
+        np.zeros(1, dtype=np.int64),
+        np.zeros(n, dtype=np.int64),
+        np.zeros(n, dtype=bool),
+    )
 
 
 def start_programme(scenario: Scenario, network: ReferralNetwork, rng: np.random.Generator) -> ProgrammeRun | None:
@@ -248,4 +301,3 @@ def start_programme(scenario: Scenario, network: ReferralNetwork, rng: np.random
         return None
     enrolled = enrolled_organisations(referral, network, enrolment_rng(rng), scenario=scenario)
     return ProgrammeRun(referral, enrolled, scenario.run.periods)
-

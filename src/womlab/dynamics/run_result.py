@@ -50,8 +50,17 @@ CHURN_COLUMNS = ("former_customers", "ever_customers")
 WARNING_COLUMNS = ("rejecters",)
 
 #: Columns of :meth:`RunResult.to_frame` (a network's node attributes go after ``region``).
-ORGANISATION_COLUMNS = ("id", "region", "customer", "initial", "adoption_period", "adoption_time", "referrer",
-                        "satisfied", "referrals")
+ORGANISATION_COLUMNS = (
+    "id",
+    "region",
+    "customer",
+    "initial",
+    "adoption_period",
+    "adoption_time",
+    "referrer",
+    "satisfied",
+    "referrals",
+)
 
 
 @dataclass(eq=False)
@@ -287,17 +296,36 @@ class RunResult:
             on = start[:, g] >= 0
             np.add.at(arrivals[:, g], start[on, g], 1)
             np.add.at(new[:, g], start[on & (start[:, g] == first), g], 1)
-            later = np.where(start[:, g + 1:] >= 0, start[:, g + 1:], rows).min(axis=1) if g + 1 < G else None
+            later = np.where(start[:, g + 1 :] >= 0, start[:, g + 1 :], rows).min(axis=1) if g + 1 < G else None
             if later is not None:
                 gone = on & (later < rows)
                 np.add.at(leaving[:, g], later[gone], 1)
         customers = np.cumsum(arrivals - leaving, axis=0)
-        frames = [pd.DataFrame({"period": np.arange(rows), "product": names[g], "customers": customers[:, g],
-                                "new_customers": new[:, g], "upgrades": arrivals[:, g] - new[:, g],
-                                "value": customers[:, g] * float(values[g])}) for g in range(G)]
-        frames.append(pd.DataFrame({"period": np.arange(rows), "product": "all", "customers": customers.sum(axis=1),
-                                    "new_customers": new.sum(axis=1), "upgrades": (arrivals - new).sum(axis=1),
-                                    "value": customers @ values.astype(float)}))
+        frames = [
+            pd.DataFrame(
+                {
+                    "period": np.arange(rows),
+                    "product": names[g],
+                    "customers": customers[:, g],
+                    "new_customers": new[:, g],
+                    "upgrades": arrivals[:, g] - new[:, g],
+                    "value": customers[:, g] * float(values[g]),
+                }
+            )
+            for g in range(G)
+        ]
+        frames.append(
+            pd.DataFrame(
+                {
+                    "period": np.arange(rows),
+                    "product": "all",
+                    "customers": customers.sum(axis=1),
+                    "new_customers": new.sum(axis=1),
+                    "upgrades": (arrivals - new).sum(axis=1),
+                    "value": customers @ values.astype(float),
+                }
+            )
+        )
         return pd.concat(frames, ignore_index=True)
 
     def groups(self, by: str) -> tuple[np.ndarray, tuple[str, ...]]:
@@ -313,8 +341,9 @@ class RunResult:
             return self.region, tuple(str(r) for r in range(k))
         if by == "segment":
             if self.segment is None:
-                raise ValueError('by = "segment" needs segments ([segments], or a node file column segment); '
-                                 "this run has none")
+                raise ValueError(
+                    'by = "segment" needs segments ([segments], or a node file column segment); this run has none'
+                )
             return self.segment, self.segment_names
         raise ValueError(f'by must be "segment" or "region", got {by!r}')
 
@@ -339,20 +368,23 @@ class RunResult:
         sat = np.zeros((rows, k), dtype=np.int64)
         np.add.at(sat, (self.adoption_period[self.satisfied], codes[self.satisfied]), 1)
         value = np.zeros((rows, k))
-        np.add.at(value, (self.adoption_period[adopted], codes[adopted]),
-                  1.0 if self.value is None else self.value[adopted])
+        np.add.at(
+            value, (self.adoption_period[adopted], codes[adopted]), 1.0 if self.value is None else self.value[adopted]
+        )
         sizes = np.bincount(codes, minlength=k)
         customers = np.cumsum(new, axis=0)
-        return pd.DataFrame({
-            "period": np.repeat(np.arange(rows), k),
-            "group": np.tile(np.array(names, dtype=object), rows),
-            "organisations": np.tile(sizes, rows),
-            "customers": customers.ravel(),
-            "new_customers": new.ravel(),
-            "satisfied_customers": np.cumsum(sat, axis=0).ravel(),
-            "share": (customers / np.maximum(sizes, 1)).ravel(),
-            "value": np.cumsum(value, axis=0).ravel(),
-        })
+        return pd.DataFrame(
+            {
+                "period": np.repeat(np.arange(rows), k),
+                "group": np.tile(np.array(names, dtype=object), rows),
+                "organisations": np.tile(sizes, rows),
+                "customers": customers.ravel(),
+                "new_customers": new.ravel(),
+                "satisfied_customers": np.cumsum(sat, axis=0).ravel(),
+                "share": (customers / np.maximum(sizes, 1)).ravel(),
+                "value": np.cumsum(value, axis=0).ravel(),
+            }
+        )
 
     def curve(self, every: float | None = None) -> pd.DataFrame:
         """Table of period, time, customers, new_customers, satisfied_customers (and, when parts
@@ -392,7 +424,9 @@ class RunResult:
                 table["rejecters"] = self.rejecters
             return self._with_market(table)
         if self.adoption_time is None:
-            raise ValueError(f"a report grid finer than one period needs adoption times; the {self.engine} engine keeps none")
+            raise ValueError(
+                f"a report grid finer than one period needs adoption times; the {self.engine} engine keeps none"
+            )
         slots = self.periods * per
         at = self.adoption_time
         seen = ~np.isnan(at)
@@ -412,8 +446,9 @@ class RunResult:
         )
         if self.churns:
             if self.leave_time is None:
-                raise ValueError(f"a report grid finer than one period needs leaving times; the {self.engine} engine "
-                                 "keeps none")
+                raise ValueError(
+                    f"a report grid finer than one period needs leaving times; the {self.engine} engine keeps none"
+                )
             gone = ~np.isnan(self.leave_time)
             out = np.ceil(np.round(self.leave_time[gone] * per, 9)).astype(np.int64)
             former = np.cumsum(np.bincount(out, minlength=slots + 1)[: slots + 1])
@@ -425,8 +460,9 @@ class RunResult:
             table = table[[*CURVE_COLUMNS, *CHURN_COLUMNS]]
         if self.warns:
             if self.rejection_time is None:
-                raise ValueError(f"a report grid finer than one period needs rejection times; the {self.engine} engine "
-                                 "keeps none")
+                raise ValueError(
+                    f"a report grid finer than one period needs rejection times; the {self.engine} engine keeps none"
+                )
             gone = ~np.isnan(self.rejection_time)
             rows = np.ceil(np.round(self.rejection_time[gone] * per, 9)).astype(np.int64)
             table["rejecters"] = np.cumsum(np.bincount(rows, minlength=slots + 1)[: slots + 1])
@@ -520,16 +556,19 @@ class RunResult:
             for name in attributes.columns:
                 if name not in ORGANISATION_COLUMNS:
                     columns[str(name)] = attributes[name].to_numpy()
-        columns.update({
-            "customer": adopted,
-            "initial": initial,
-            "adoption_period": adoption_period,
-            "adoption_time": (np.full(n, np.nan) if self.adoption_time is None
-                              else np.where(adopted, self.adoption_time, np.nan)),
-            "referrer": referrer,
-            "satisfied": self.satisfied & adopted,
-            "referrals": np.bincount(self.referrer[referred], minlength=n)[:n],
-        })
+        columns.update(
+            {
+                "customer": adopted,
+                "initial": initial,
+                "adoption_period": adoption_period,
+                "adoption_time": (
+                    np.full(n, np.nan) if self.adoption_time is None else np.where(adopted, self.adoption_time, np.nan)
+                ),
+                "referrer": referrer,
+                "satisfied": self.satisfied & adopted,
+                "referrals": np.bincount(self.referrer[referred], minlength=n)[:n],
+            }
+        )
         if self.leave_period is not None:  # churn
             left = self.leave_period >= 0
             columns["customer"] = adopted & ~left
@@ -555,8 +594,9 @@ class RunResult:
         return pd.DataFrame({"period": periods.ravel(), "region": regions.ravel(), "customers": by.ravel()})
 
 
-def to_networkx(result: RunResult, network: ReferralNetwork | None = None,
-                attributes: pd.DataFrame | None = None) -> nx.DiGraph:
+def to_networkx(
+    result: RunResult, network: ReferralNetwork | None = None, attributes: pd.DataFrame | None = None
+) -> nx.DiGraph:
     """The run as a directed graph: every organisation with its adoption, and the referral forest.
 
     Nodes are the organisations (by ``id`` as given when ``network`` has labels) with the

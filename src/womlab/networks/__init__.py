@@ -11,6 +11,7 @@ from __future__ import annotations
 from womlab.networks.build import BUILDERS, build_network, network_clustering_line
 from womlab.networks.builders import (
     complete,
+    expected_clustering,
     networkx_random,
     networkx_regional_blocks,
     networkx_regular,
@@ -18,7 +19,6 @@ from womlab.networks.builders import (
     networkx_scale_free,
     networkx_small_world,
     random,
-    expected_clustering,
     regional,
     regional_blocks,
     regular,
@@ -28,9 +28,9 @@ from womlab.networks.builders import (
     small_world,
 )
 from womlab.networks.edgelist import count_edgelist_organisations, edgelist_facts, read_edgelist
+from womlab.networks.graphfile import GRAPH_FORMATS, graph_file_facts, read_graph_file
 from womlab.networks.network import ReferralNetwork, balanced_regions, from_edges
 from womlab.networks.tables import from_edge_table
-from womlab.networks.graphfile import GRAPH_FORMATS, graph_file_facts, read_graph_file
 from womlab.scenario.registry import register_edgelist_reader, register_network_file_reader
 
 register_edgelist_reader(edgelist_facts)

@@ -26,11 +26,15 @@ BUILDERS: dict[str, Builder] = {
     "ring": lambda s, m, rng: builders.ring(m.organisations, int(s.mean_degree), rng, regions=m.regions),
     "regular": lambda s, m, rng: builders.regular(m.organisations, int(s.mean_degree), rng, regions=m.regions),
     "random": lambda s, m, rng: builders.random(m.organisations, s.mean_degree, rng, regions=m.regions),
-    "small_world": lambda s, m, rng: builders.small_world(m.organisations, int(s.mean_degree), s.rewiring, rng, regions=m.regions),
-    "regional": lambda s, m, rng: builders.regional(m.organisations, int(s.mean_degree), m.regions, s.within_region_share, rng,
-                                                    rewiring=s.rewiring),
-    "regional_blocks": lambda s, m, rng: builders.regional_blocks(m.organisations, s.mean_degree, m.regions,
-                                                                  s.within_region_share, rng),
+    "small_world": lambda s, m, rng: builders.small_world(
+        m.organisations, int(s.mean_degree), s.rewiring, rng, regions=m.regions
+    ),
+    "regional": lambda s, m, rng: builders.regional(
+        m.organisations, int(s.mean_degree), m.regions, s.within_region_share, rng, rewiring=s.rewiring
+    ),
+    "regional_blocks": lambda s, m, rng: builders.regional_blocks(
+        m.organisations, s.mean_degree, m.regions, s.within_region_share, rng
+    ),
     "scale_free": lambda s, m, rng: builders.scale_free(m.organisations, int(s.mean_degree), rng, regions=m.regions),
     "edgelist": lambda s, m, rng: read_edgelist(s.path, s.nodes_path),
     "graphml": lambda s, m, rng: read_graph_file(s.path, "graphml", region=s.region_attribute),
@@ -60,7 +64,6 @@ def build_network(scenario: Scenario, rng: np.random.Generator) -> ReferralNetwo
     return ReferralNetwork.from_networkx(built, kind)
 
 
-
 def network_clustering_line(scenario: Scenario, rng: np.random.Generator) -> str:
     """The mean local clustering of the network built from ``rng``, beside the builder's expected
     value where it has one (:func:`womlab.networks.builders.expected_clustering`), as one line.
@@ -78,7 +81,12 @@ def network_clustering_line(scenario: Scenario, rng: np.random.Generator) -> str
     """
     net = build_network(scenario, rng)
     spec = scenario.network
-    expected = builders.expected_clustering(spec.kind, scenario.market.organisations, spec.mean_degree,
-                                            rewiring=spec.rewiring, within_region_share=spec.within_region_share)
+    expected = builders.expected_clustering(
+        spec.kind,
+        scenario.market.organisations,
+        spec.mean_degree,
+        rewiring=spec.rewiring,
+        within_region_share=spec.within_region_share,
+    )
     known = f"expected {expected:.4g} for {spec.kind}" if expected is not None else f"no closed form for {spec.kind}"
     return f"{net.clustering():.4g} (one network built from the seed; {known})"

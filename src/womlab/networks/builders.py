@@ -36,12 +36,12 @@ from collections.abc import Callable
 
 import networkx as nx
 import numpy as np
-from womlab.rules.compiled import compiled
 from scipy import stats
 
 from womlab.errors import NetworkError
 from womlab.networks.kernels import csr_from_ties, first_in_rows, lattice_tie_index, lattice_ties
 from womlab.networks.network import ReferralNetwork, balanced_regions, from_edges
+from womlab.rules.compiled import compiled
 
 __all__ = [
     "complete",
@@ -187,8 +187,9 @@ def complete(n: int, *, regions: int = 1, rng: np.random.Generator | None = None
     """Everyone knows everyone; stored without ties (engines use totals)."""
     empty = np.zeros(0, dtype=np.int32)
     region = balanced_regions(n, regions, rng)
-    return ReferralNetwork(n=n, indptr=np.zeros(n + 1, dtype=np.int32), indices=empty, region=region,
-                           kind="complete", complete=True)
+    return ReferralNetwork(
+        n=n, indptr=np.zeros(n + 1, dtype=np.int32), indices=empty, region=region, kind="complete", complete=True
+    )
 
 
 def random(n: int, mean_degree: float, rng: np.random.Generator, *, regions: int = 1) -> ReferralNetwork:
@@ -717,4 +718,3 @@ def networkx_scale_free(n: int, mean_degree: int, rng: np.random.Generator, *, r
     """The networkx form of :func:`scale_free` (``barabasi_albert_graph``), kept as the reference."""
     g = nx.barabasi_albert_graph(n, int(mean_degree) // 2, seed=rng)
     return _with_regions(g, balanced_regions(n, regions, rng))
-

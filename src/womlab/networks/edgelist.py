@@ -32,6 +32,7 @@ __all__ = ["read_edgelist", "count_edgelist_organisations", "edgelist_facts", "r
 #: ``word_of_mouth`` (its own multipliers of p and q).
 NODE_TRAITS = ("segment", "size", "external", "word_of_mouth")
 
+
 def _text(path: str | Path, what: str) -> str:
     """The file's text, or one line saying why it is not UTF-8 text (never its contents)."""
     name = Path(path).name
@@ -58,8 +59,10 @@ def _read_table(path: str | Path, columns: tuple[str, ...], what: str) -> pd.Dat
     table.columns = [str(c).strip() for c in table.columns]
     missing = [c for c in columns if c not in table.columns]
     if missing:
-        raise NetworkError(f"network.{what}: {name!r} must be {expected}; missing {', '.join(missing)}"
-                           f"{found_columns(list(table.columns))}")
+        raise NetworkError(
+            f"network.{what}: {name!r} must be {expected}; missing {', '.join(missing)}"
+            f"{found_columns(list(table.columns))}"
+        )
     if table[list(columns)].isna().any().any():
         raise NetworkError(f"network.{what}: {name!r} has empty cells in {', '.join(columns)}")
     return table
@@ -76,8 +79,10 @@ def _one_spelling(ids: np.ndarray, what: str, path: str | Path) -> None:
     same = np.flatnonzero(numbers[order][1:] == numbers[order][:-1])
     if same.size:
         a, b = sorted((str(unique[order[same[0]]]), str(unique[order[same[0] + 1]])))
-        raise NetworkError(f"network.{what}: {Path(path).name!r} writes one id two ways ({a!r} and {b!r}); "
-                           "write each organisation's id one way")
+        raise NetworkError(
+            f"network.{what}: {Path(path).name!r} writes one id two ways ({a!r} and {b!r}); "
+            "write each organisation's id one way"
+        )
 
 
 def read_edgelist(path: str | Path, nodes_path: str | Path | None = None) -> ReferralNetwork:
@@ -103,8 +108,10 @@ def read_edgelist(path: str | Path, nodes_path: str | Path | None = None) -> Ref
     if src.size == 0:
         raise NetworkError(f"network.path: {name!r} holds no ties (a header and no rows)")
     if (src == dst).all():
-        raise NetworkError(f"network.path: {name!r} holds only self-loops (ties of an organisation to itself); "
-                           "a referral network needs ties between two organisations")
+        raise NetworkError(
+            f"network.path: {name!r} holds only self-loops (ties of an organisation to itself); "
+            "a referral network needs ties between two organisations"
+        )
     _one_spelling(np.concatenate([src, dst]), "path", path)
     nodes = None
     if nodes_path is not None:
@@ -119,7 +126,9 @@ def count_edgelist_organisations(path: str | Path, nodes_path: str | Path | None
     if nodes_path is not None:
         return len(_read_table(nodes_path, ("id", "region"), "nodes_path"))
     ties = _read_table(path, ("source", "target"), "path")
-    return len(pd.unique(np.concatenate([ties["source"].str.strip().to_numpy(), ties["target"].str.strip().to_numpy()])))
+    return len(
+        pd.unique(np.concatenate([ties["source"].str.strip().to_numpy(), ties["target"].str.strip().to_numpy()]))
+    )
 
 
 def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float, int]:
@@ -129,8 +138,9 @@ def edgelist_facts(path: str, nodes_path: str | None = None) -> tuple[int, float
     Remembered per file path, size and modification time, so that a scenario changed many
     times (a sweep's points) reads its edge list once.
     """
-    stamp = tuple((p, Path(p).stat().st_size, Path(p).stat().st_mtime_ns) if p is not None else None
-                  for p in (path, nodes_path))
+    stamp = tuple(
+        (p, Path(p).stat().st_size, Path(p).stat().st_mtime_ns) if p is not None else None for p in (path, nodes_path)
+    )
     return _facts(*stamp)
 
 
@@ -169,8 +179,10 @@ def _traits(path: str, size: int, mtime: int) -> pd.DataFrame:
         empty = values.isna() | (values == "")
         if empty.any():
             rows = ", ".join(str(int(r) + 2) for r in np.flatnonzero(empty.to_numpy())[:5])
-            raise NetworkError(f"network.nodes_path {path!r}: column {column!r} has {int(empty.sum())} empty cell(s) "
-                               f"(row {rows}); allowed: a value in every row")
+            raise NetworkError(
+                f"network.nodes_path {path!r}: column {column!r} has {int(empty.sum())} empty cell(s) "
+                f"(row {rows}); allowed: a value in every row"
+            )
         if column == "segment":
             out[column] = values.to_numpy()
             continue
@@ -178,7 +190,9 @@ def _traits(path: str, size: int, mtime: int) -> pd.DataFrame:
         bad = numbers.isna() | ~np.isfinite(numbers) | (numbers < 0)
         if bad.any():
             at = int(np.flatnonzero(bad.to_numpy())[0])
-            raise NetworkError(f"network.nodes_path {path!r}: column {column!r} row {at + 2} must be a finite number "
-                               f">= 0, got {values.iloc[at]!r}")
+            raise NetworkError(
+                f"network.nodes_path {path!r}: column {column!r} row {at + 2} must be a finite number "
+                f">= 0, got {values.iloc[at]!r}"
+            )
         out[column] = numbers.to_numpy(dtype=float)
     return out

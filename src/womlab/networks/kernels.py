@@ -18,6 +18,7 @@ loads them from the cache instead of compiling again.
 from __future__ import annotations
 
 import numpy as np
+
 from womlab.rules.compiled import compiled
 
 __all__ = ["csr_from_ties", "lattice_ties", "lattice_tie_index", "first_in_rows", "local_clustering"]
@@ -117,8 +118,15 @@ def lattice_ties(starts: np.ndarray, sizes: np.ndarray, half: int) -> tuple[np.n
 
 
 @compiled
-def lattice_tie_index(a: np.ndarray, b: np.ndarray, block: np.ndarray, starts: np.ndarray, sizes: np.ndarray,
-                      offsets: np.ndarray, half: int) -> np.ndarray:
+def lattice_tie_index(
+    a: np.ndarray,
+    b: np.ndarray,
+    block: np.ndarray,
+    starts: np.ndarray,
+    sizes: np.ndarray,
+    offsets: np.ndarray,
+    half: int,
+) -> np.ndarray:
     """Index into :func:`lattice_ties`'s arrays of the lattice tie joining aₖ and bₖ, −1 if none.
 
     ``block`` is each organisation's block and ``offsets`` the first tie of each block;

@@ -93,7 +93,9 @@ class ReferralNetwork:
         pos = known.get_indexer(wanted)
         missing = [w for w, p in zip(wanted, pos) if p < 0]
         if missing:
-            shown = ", ".join(repr(m) for m in missing[:5]) + (f" and {len(missing) - 5} more" if len(missing) > 5 else "")
+            shown = ", ".join(repr(m) for m in missing[:5]) + (
+                f" and {len(missing) - 5} more" if len(missing) > 5 else ""
+            )
             example = ", ".join(repr(str(v)) for v in self.ids()[:3])
             raise NetworkError(
                 f"{where}: {len(missing)} id(s) not in the network: {shown}; allowed: the network's "
@@ -175,7 +177,9 @@ class ReferralNetwork:
         """
         nodes = list(graph.nodes)
         n = len(nodes)
-        plain = all(isinstance(v, (int, np.integer)) and not isinstance(v, bool) for v in nodes) and set(nodes) == set(range(n))
+        plain = all(isinstance(v, (int, np.integer)) and not isinstance(v, bool) for v in nodes) and set(nodes) == set(
+            range(n)
+        )
         if plain:
             position: dict[Any, int] | None = None
             labels = None
@@ -246,8 +250,7 @@ def _undirected(n: int, a: np.ndarray, b: np.ndarray, what: str) -> tuple[np.nda
     first = first_in_rows(int(n), a, b) if a.size else np.zeros(0, dtype=bool)
     repeats = int(a.size - first.sum())
     if loops.any() or repeats:
-        warnings.warn(f"{what}: dropped {int(loops.sum())} self-loop(s) and {repeats} duplicate tie(s)",
-                      stacklevel=3)
+        warnings.warn(f"{what}: dropped {int(loops.sum())} self-loop(s) and {repeats} duplicate tie(s)", stacklevel=3)
     return a[first], b[first]
 
 
@@ -307,4 +310,3 @@ def balanced_regions(n: int, regions: int, rng: np.random.Generator | None = Non
 def _with_regions(graph: nx.Graph, region: np.ndarray) -> nx.Graph:
     nx.set_node_attributes(graph, dict(enumerate(region.tolist())), "region")
     return graph
-

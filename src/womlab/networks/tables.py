@@ -23,7 +23,9 @@ def _column(frame: pd.DataFrame, name: str, where: str) -> np.ndarray:
         )
     values = frame[name]
     if values.isna().any():
-        raise NetworkError(f"{where} has {int(values.isna().sum())} empty cell(s) in column {name!r}; allowed: an id in every row")
+        raise NetworkError(
+            f"{where} has {int(values.isna().sum())} empty cell(s) in column {name!r}; allowed: an id in every row"
+        )
     values = values.to_numpy()
     if values.dtype == object:
         values = np.array([v.strip() if isinstance(v, str) else v for v in values], dtype=object)
@@ -106,4 +108,3 @@ def from_edge_table(
     else:
         codes, names = region_codes(region_values)
     return from_edges(n, a, b, codes, kind, labels=_id_array(list(ids)), region_names=names)
-

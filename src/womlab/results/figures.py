@@ -50,12 +50,18 @@ AGGREGATE_COLOUR = "#c0392b"
 BASS_COLOUR = "#555555"
 #: The formats :func:`save_figure` writes.
 FIGURE_FORMATS = ("png", "pdf", "svg")
-_METADATA = {"png": {"Software": None}, "pdf": {"CreationDate": None, "Producer": None},
-             "svg": {"Date": None}}
+_METADATA = {"png": {"Software": None}, "pdf": {"CreationDate": None, "Producer": None}, "svg": {"Date": None}}
 #: One colour per seeding strategy, the same in every figure (random: grey, the baseline).
 STRATEGY_COLOURS = {
-    "random": "#555555", "hubs": "#1f5f8b", "bridges": "#c0392b", "pagerank": "#2e8b57", "coreness": "#8e44ad",
-    "fringe": "#d68910", "by_region": "#17a589", "spread": "#a04000", "greedy": "#5d6d7e",
+    "random": "#555555",
+    "hubs": "#1f5f8b",
+    "bridges": "#c0392b",
+    "pagerank": "#2e8b57",
+    "coreness": "#8e44ad",
+    "fringe": "#d68910",
+    "by_region": "#17a589",
+    "spread": "#a04000",
+    "greedy": "#5d6d7e",
 }
 _MORE_COLOURS = ("#b03a2e", "#1abc9c", "#7d3c98", "#2874a6", "#b7950b", "#6e2c00")
 
@@ -122,8 +128,9 @@ def _coinciding(curves: dict[str, np.ndarray], tol: float = 1e-9) -> list[list[s
     return groups
 
 
-def adoption_figure(batch, *, title: str | None = None, size: tuple[float, float] | None = None,
-                    observed=None) -> Figure:  # noqa: ANN001 - Batch
+def adoption_figure(
+    batch, *, title: str | None = None, size: tuple[float, float] | None = None, observed=None
+) -> Figure:  # noqa: ANN001 - Batch
     """Customer share over time (mean, 5–95 % band, aggregate and Bass curves) and new customers per period.
 
     The network curve is the mean over replicates, as in :func:`comparison_figure`; the
@@ -149,8 +156,15 @@ def adoption_figure(batch, *, title: str | None = None, size: tuple[float, float
 
     fig = _figure(size, (9.0, 6.5))
     top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=[3, 2])
-    top.fill_between(t, summary["q05"], summary["q95"], color=NETWORK_COLOUR, alpha=0.2, lw=0,
-                     label=f"network, 5–95 % of {batch.replicates} runs")
+    top.fill_between(
+        t,
+        summary["q05"],
+        summary["q95"],
+        color=NETWORK_COLOUR,
+        alpha=0.2,
+        lw=0,
+        label=f"network, 5–95 % of {batch.replicates} runs",
+    )
     top.plot(t, summary["mean"], color=NETWORK_COLOUR, lw=2, label=f"network, mean of {batch.replicates} runs")
     aggregate = summary["aggregate"].to_numpy()
     continuous = s.run.clock == "continuous"
@@ -174,18 +188,32 @@ def adoption_figure(batch, *, title: str | None = None, size: tuple[float, float
         models = churn_curves(mapped_with(s, None if batch.network is None else as_network(batch.network)))
         if a.churns:
             ever = batch.ever_shares()
-            top.plot(t, ever.mean(axis=0), color=NETWORK_COLOUR, lw=1.2, alpha=0.7,
-                     label="network, ever customers (mean)")
-            top.plot(t, models["ever_customers"], color=AGGREGATE_COLOUR, lw=1.2, ls="--", alpha=0.7,
-                     label=f"{agg_name}, ever customers")
+            top.plot(
+                t, ever.mean(axis=0), color=NETWORK_COLOUR, lw=1.2, alpha=0.7, label="network, ever customers (mean)"
+            )
+            top.plot(
+                t,
+                models["ever_customers"],
+                color=AGGREGATE_COLOUR,
+                lw=1.2,
+                ls="--",
+                alpha=0.7,
+                label=f"{agg_name}, ever customers",
+            )
             new_network, new_aggregate = np.diff(ever, axis=1), np.diff(models["ever_customers"].to_numpy())
         if a.warns:
             rejecters = np.vstack([r.rejecters for r in batch.runs]) / s.market.organisations
             top.plot(t, rejecters.mean(axis=0), color="#7f8c8d", lw=1.4, label="network, rejecters (mean)")
             top.plot(t, models["rejecters"], color="#7f8c8d", lw=1.2, ls="--", label=f"{agg_name}, rejecters")
     if s.adoption.rule not in ("capped", "threshold", "cascade") and not continuous and not mechanisms:
-        top.plot(fine, bass_share(fine, par.p, par.Q, par.initial_share), color=BASS_COLOUR, lw=1.2, ls=":",
-                 label=f"Bass ODE, p = {par.p:.3g}, Q = {par.Q:.3g}")
+        top.plot(
+            fine,
+            bass_share(fine, par.p, par.Q, par.initial_share),
+            color=BASS_COLOUR,
+            lw=1.2,
+            ls=":",
+            label=f"Bass ODE, p = {par.p:.3g}, Q = {par.Q:.3g}",
+        )
     top.set_ylabel("customers, share of market")
     top.set_ylim(0, 1.02)
     top.grid(alpha=0.3)
@@ -194,8 +222,15 @@ def adoption_figure(batch, *, title: str | None = None, size: tuple[float, float
 
     new = new_network  # with churn: adoptions (new ever customers), not the change in the installed base
     tn = t[1:]
-    bottom.fill_between(tn, np.quantile(new, 0.05, axis=0), np.quantile(new, 0.95, axis=0),
-                        color=NETWORK_COLOUR, alpha=0.2, lw=0, label="network, 5–95 %")
+    bottom.fill_between(
+        tn,
+        np.quantile(new, 0.05, axis=0),
+        np.quantile(new, 0.95, axis=0),
+        color=NETWORK_COLOUR,
+        alpha=0.2,
+        lw=0,
+        label="network, 5–95 %",
+    )
     bottom.plot(tn, new.mean(axis=0), color=NETWORK_COLOUR, lw=2, label="network, mean")
     bottom.plot(tn, new_aggregate, color=AGGREGATE_COLOUR, lw=1.6, ls="--", label=agg_name)
     bottom.set_xlabel("period")
@@ -243,16 +278,28 @@ def programme_figure(study, *, title: str | None = None, size: tuple[float, floa
     top.set_title(title_text(title or s.name), fontsize=11)
 
     bottom.plot(t, cum["cumulative_cost"], color=AGGREGATE_COLOUR, lw=2, label="cumulative cost (discounted)")
-    bottom.plot(t, cum["cumulative_incremental_value"], color=PROGRAMME_COLOUR, lw=2,
-                label="cumulative incremental value (discounted)")
+    bottom.plot(
+        t,
+        cum["cumulative_incremental_value"],
+        color=PROGRAMME_COLOUR,
+        lw=2,
+        label="cumulative incremental value (discounted)",
+    )
     be = study.break_even_period()
     if np.isfinite(be):
         bottom.axvline(be, color=BASS_COLOUR, ls="--", lw=1.2)
-        bottom.annotate(f"break-even, period {be:g}", (be, 0), xytext=(4, 6), textcoords="offset points",
-                        fontsize=8, color=BASS_COLOUR)
+        bottom.annotate(
+            f"break-even, period {be:g}",
+            (be, 0),
+            xytext=(4, 6),
+            textcoords="offset points",
+            fontsize=8,
+            color=BASS_COLOUR,
+        )
     else:
-        bottom.text(0.02, 0.92, "no break-even by the horizon", transform=bottom.transAxes, fontsize=8,
-                    color=BASS_COLOUR)
+        bottom.text(
+            0.02, 0.92, "no break-even by the horizon", transform=bottom.transAxes, fontsize=8, color=BASS_COLOUR
+        )
     bottom.set_xlabel("period (shaded: programme window)")
     bottom.set_ylabel("value, mean over replicates")
     _legend_beside(bottom)
@@ -275,19 +322,32 @@ def referral_tree_figure(study, *, title: str | None = None, size: tuple[float, 
     """
     fig = _figure(size, (11.0, 4.4))
     a, b, c = fig.subplots(1, 3)
-    for name, runs, colour in (("baseline", study.baseline, NETWORK_COLOUR),
-                               ("programme", study.programme, PROGRAMME_COLOUR)):
+    for name, runs, colour in (
+        ("baseline", study.baseline, NETWORK_COLOUR),
+        ("programme", study.programme, PROGRAMME_COLOUR),
+    ):
         wom = word_of_mouth_by_period(runs).groupby("period")[["adoptions", "word_of_mouth"]].sum()
-        a.plot(wom.index, wom["word_of_mouth"] / wom["adoptions"].where(wom["adoptions"] > 0), color=colour,
-               lw=2, label=name)
+        a.plot(
+            wom.index,
+            wom["word_of_mouth"] / wom["adoptions"].where(wom["adoptions"] > 0),
+            color=colour,
+            lw=2,
+            label=name,
+        )
         per = referrals_per_customer(runs)
         b.plot(per["referrals"], per["share"], "o-", ms=3, color=colour, lw=1.5, label=name)
         rep = referrals_by_adoption_period(runs)
         b_ok = rep["customers"] > 0
         per = rep.loc[b_ok, "referrals_per_customer"]
         c.plot(rep.loc[b_ok, "period"], per, color=colour, lw=2, label=name)
-        c.fill_between(rep.loc[b_ok, "period"], per - 2 * rep.loc[b_ok, "se"], per + 2 * rep.loc[b_ok, "se"],
-                       color=colour, alpha=0.15, lw=0)
+        c.fill_between(
+            rep.loc[b_ok, "period"],
+            per - 2 * rep.loc[b_ok, "se"],
+            per + 2 * rep.loc[b_ok, "se"],
+            color=colour,
+            alpha=0.15,
+            lw=0,
+        )
     a.set(xlabel="period", ylabel="share of adoptions by word of mouth", ylim=(0, 1.02))
     b.set(xlabel="referrals made by a customer", ylabel="share of customers", yscale="log")
     c.set(xlabel="adoption period", ylabel="referrals per new customer (±2 SE)")
@@ -315,8 +375,9 @@ CURVE_STYLES = {
 }
 
 
-def comparison_figure(comparison, *, title: str | None = None, size: tuple[float, float] | None = None,
-                      observed=None) -> Figure:  # noqa: ANN001
+def comparison_figure(
+    comparison, *, title: str | None = None, size: tuple[float, float] | None = None, observed=None
+) -> Figure:  # noqa: ANN001
     """The network band with every aggregate curve, new customers per period, and the gap over time.
 
     The network curve is the mean over replicates (as in :func:`adoption_figure`). Aggregate
@@ -344,38 +405,63 @@ def comparison_figure(comparison, *, title: str | None = None, size: tuple[float
 
     fig = _figure(size, (10.5, 9.0))
     top, mid, bottom = fig.subplots(3, 1, sharex=True, height_ratios=[3, 2, 2])
-    top.fill_between(t, summary["q05"], summary["q95"], color=NETWORK_COLOUR, alpha=0.2, lw=0,
-                     label=f"network, 5–95 % of {batch.replicates} runs")
+    top.fill_between(
+        t,
+        summary["q05"],
+        summary["q95"],
+        color=NETWORK_COLOUR,
+        alpha=0.2,
+        lw=0,
+        label=f"network, 5–95 % of {batch.replicates} runs",
+    )
     mean_label = "network, ever customers, mean" if churns else "network, mean"
     top.plot(t, mean, color=NETWORK_COLOUR, lw=2.2, label=f"{mean_label} of {batch.replicates} runs")
     for group in groups:
         name = group[0]
         labels = [AGGREGATE_LABELS.get(g, g) for g in group]
         label = labels[0] if len(group) == 1 else " = ".join(labels) + " (these coincide)"
-        top.plot(t, comparison.curves[name], label="\n".join(textwrap.wrap(label, 48, break_on_hyphens=False)),
-                 **CURVE_STYLES.get(name, {}))
+        top.plot(
+            t,
+            comparison.curves[name],
+            label="\n".join(textwrap.wrap(label, 48, break_on_hyphens=False)),
+            **CURVE_STYLES.get(name, {}),
+        )
     if churns:  # the installed base below the ever-customer curves, network and models alike
-        top.plot(t, summary["installed_base_mean"], color=NETWORK_COLOUR, lw=1.4, alpha=0.7,
-                 label="network, installed base (mean)")
+        top.plot(
+            t,
+            summary["installed_base_mean"],
+            color=NETWORK_COLOUR,
+            lw=1.4,
+            alpha=0.7,
+            label="network, installed base (mean)",
+        )
         for column in summary.columns:
             if column.startswith("installed_base_bass"):
                 name = column.removeprefix("installed_base_")
                 top.plot(t, summary[column], **{**CURVE_STYLES.get(name, {}), "alpha": 0.7})
-    top.set_ylabel("ever customers (upper) and installed base,\nshare of market" if churns
-                   else "customers, share of market")
+    top.set_ylabel(
+        "ever customers (upper) and installed base,\nshare of market" if churns else "customers, share of market"
+    )
     top.set_ylim(0, 1.02)
     top.grid(alpha=0.3)
     _legend_beside(top)
     top.set_title(title_text(title or batch.scenario.name), fontsize=11)
-    top.text(0.02, 0.97, f"Q_eff / Q_mapped = {h['Q_ratio']:.2f} ({h['Q_ratio_low']:.2f}–{h['Q_ratio_high']:.2f})\n"
-             f"t50 delay vs {AGGREGATE_LABELS[comparison.reference]}: {h['t50_delay']:+.2f} periods",
-             transform=top.transAxes, va="top", fontsize=8,
-             bbox=dict(facecolor="white", edgecolor="none", alpha=0.8, pad=2))
+    top.text(
+        0.02,
+        0.97,
+        f"Q_eff / Q_mapped = {h['Q_ratio']:.2f} ({h['Q_ratio_low']:.2f}–{h['Q_ratio_high']:.2f})\n"
+        f"t50 delay vs {AGGREGATE_LABELS[comparison.reference]}: {h['t50_delay']:+.2f} periods",
+        transform=top.transAxes,
+        va="top",
+        fontsize=8,
+        bbox=dict(facecolor="white", edgecolor="none", alpha=0.8, pad=2),
+    )
 
     new = np.diff(shares, axis=1)
     tn = t[1:]
-    mid.fill_between(tn, np.quantile(new, 0.05, axis=0), np.quantile(new, 0.95, axis=0),
-                     color=NETWORK_COLOUR, alpha=0.2, lw=0)
+    mid.fill_between(
+        tn, np.quantile(new, 0.05, axis=0), np.quantile(new, 0.95, axis=0), color=NETWORK_COLOUR, alpha=0.2, lw=0
+    )
     mid.plot(tn, new.mean(axis=0), color=NETWORK_COLOUR, lw=2.2, label="network, mean")
     for group in groups:
         mid.plot(tn, np.diff(comparison.curves[group[0]]), **CURVE_STYLES.get(group[0], {}))
@@ -385,9 +471,15 @@ def comparison_figure(comparison, *, title: str | None = None, size: tuple[float
     ref_name = comparison.reference
     ref = comparison.curves[ref_name]
     per_run = shares - ref
-    band = bottom.fill_between(t, np.quantile(per_run, 0.05, axis=0), np.quantile(per_run, 0.95, axis=0),
-                               color=AGGREGATE_COLOUR, alpha=0.12, lw=0,
-                               label="\n".join(textwrap.wrap(f"5–95 % of runs, vs {AGGREGATE_LABELS[ref_name]}", 48)))
+    band = bottom.fill_between(
+        t,
+        np.quantile(per_run, 0.05, axis=0),
+        np.quantile(per_run, 0.95, axis=0),
+        color=AGGREGATE_COLOUR,
+        alpha=0.12,
+        lw=0,
+        label="\n".join(textwrap.wrap(f"5–95 % of runs, vs {AGGREGATE_LABELS[ref_name]}", 48)),
+    )
     bottom.axhline(0, color="black", lw=0.8)
     for group in groups:
         bottom.plot(t, mean - comparison.curves[group[0]], **CURVE_STYLES.get(group[0], {}))
@@ -422,18 +514,27 @@ def seeding_figure(study, *, title: str | None = None, size: tuple[float, float]
     for name in study.strategies:
         sh = study.shares[name]
         t = np.arange(sh.shape[1])
-        left.fill_between(t, np.quantile(sh, 0.05, axis=0), np.quantile(sh, 0.95, axis=0),
-                          color=colours[name], alpha=0.12, lw=0)
-        left.plot(t, np.median(sh, axis=0), color=colours[name], lw=2 if name != "random" else 1.6,
-                  ls="-" if name != "random" else "--", label=name)
+        left.fill_between(
+            t, np.quantile(sh, 0.05, axis=0), np.quantile(sh, 0.95, axis=0), color=colours[name], alpha=0.12, lw=0
+        )
+        left.plot(
+            t,
+            np.median(sh, axis=0),
+            color=colours[name],
+            lw=2 if name != "random" else 1.6,
+            ls="-" if name != "random" else "--",
+            label=name,
+        )
     left.set_xlabel("period")
     left.set_ylabel("customers, share of market")
     left.set_ylim(0, 1.02)
     left.set_xlim(0, s.run.periods)
     left.grid(alpha=0.3)
     _legend_beside(left, title="median, 5–95 % band", title_fontsize=8)
-    left.set_title(title_text(title or f"{s.name}: {study.replicates} paired replicates, budget {s.n_initial}",
-                              width=60), fontsize=11)
+    left.set_title(
+        title_text(title or f"{s.name}: {study.replicates} paired replicates, budget {s.n_initial}", width=60),
+        fontsize=11,
+    )
 
     rows = table[table["strategy"] != "random"].sort_values("lift_ratio")
     y = np.arange(len(rows))
@@ -443,15 +544,23 @@ def seeding_figure(study, *, title: str | None = None, size: tuple[float, float]
         right.plot(row["lift_ratio"], yi, "o", color=c, ms=7)
     right.axvline(1.0, color="#555555", lw=1, ls="--")
     right.set_yticks(y, rows["strategy"].tolist())
-    label = {"customers": "customers at the horizon", "customer_periods": "discounted customer-periods"}[s.study.outcome]
+    label = {"customers": "customers at the horizon", "customer_periods": "discounted customer-periods"}[
+        s.study.outcome
+    ]
     right.set_xlabel(f"lift vs random: ratio of mean\n{label}\n(95 % paired-bootstrap interval)")
     right.grid(alpha=0.3, axis="x")
     right.set_title("lift against random seeding", fontsize=11)
     return fig
 
 
-def network_snapshot_figure(network, results, *, seed: int = 0, max_panels: int = 9,  # noqa: ANN001
-                            size: tuple[float, float] | None = None) -> Figure:
+def network_snapshot_figure(
+    network,
+    results,
+    *,
+    seed: int = 0,
+    max_panels: int = 9,  # noqa: ANN001
+    size: tuple[float, float] | None = None,
+) -> Figure:
     """The referral network of one replicate, one panel per strategy: organisations coloured
     by adoption period (grey: never by the horizon), seeds drawn as black-ringed stars.
 
@@ -501,14 +610,15 @@ def network_snapshot_figure(network, results, *, seed: int = 0, max_panels: int 
         ax.scatter(xy[never, 0], xy[never, 1], s=9, color="#dddddd", edgecolors="#999999", linewidths=0.3, zorder=2)
         ax.scatter(xy[~never, 0], xy[~never, 1], s=12, c=r.adoption_period[~never], cmap=cmap, norm=norm, zorder=3)
         seeds = np.asarray(r.initial)
-        ax.scatter(xy[seeds, 0], xy[seeds, 1], s=90, marker="*", color="#ffcc00", edgecolors="black",
-                   linewidths=0.8, zorder=4)
+        ax.scatter(
+            xy[seeds, 0], xy[seeds, 1], s=90, marker="*", color="#ffcc00", edgecolors="black", linewidths=0.8, zorder=4
+        )
         reached = int((~never).sum())
         ax.set_title(f"{name}: {reached:,} of {network.n:,} customers", fontsize=9, color=strategy_colour(name))
         ax.set_xticks([])
         ax.set_yticks([])
         ax.set_aspect("equal")
-    for ax in axes[len(names):]:
+    for ax in axes[len(names) :]:
         ax.set_axis_off()
     sm = ScalarMappable(norm=norm, cmap=cmap)
     fig.colorbar(sm, ax=axes.tolist(), shrink=0.8, label="adoption period (stars: seeds, grey: never)")

@@ -31,8 +31,14 @@ def overlay_observed(top: Any, bottom: Any, observed: ObservedSeries, organisati
     data's market size when they give one)."""
     size = observed.market or organisations
     axis = top if observed.kind == "customers" else bottom
-    axis.scatter(observed.periods, observed.counts / size, s=16, color=OBSERVED_COLOUR, zorder=5,
-                 label=f"observed ({observed.source})")
+    axis.scatter(
+        observed.periods,
+        observed.counts / size,
+        s=16,
+        color=OBSERVED_COLOUR,
+        zorder=5,
+        label=f"observed ({observed.source})",
+    )
     # beside the axes, off the data, as every womlab figure's legends
     axis.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0, fontsize=8, frameon=False)
 
@@ -79,27 +85,53 @@ def fit_figure(fit: Fit, *, periods: int = 12, title: str | None = None) -> Figu
     fig = Figure(figsize=(11.5, 6.8), layout="constrained")
     left, right = fig.subfigures(1, 2, width_ratios=[2.1, 1])
     top, bottom = left.subplots(2, 1, sharex=True, height_ratios=[3, 2])
-    top.fill_between(grid, band[0], band[4], color=NETWORK_COLOUR, alpha=0.15, lw=0,
-                     label="network model, 90 % posterior predictive")
+    top.fill_between(
+        grid, band[0], band[4], color=NETWORK_COLOUR, alpha=0.15, lw=0, label="network model, 90 % posterior predictive"
+    )
     top.fill_between(grid, band[1], band[3], color=NETWORK_COLOUR, alpha=0.25, lw=0, label="50 %")
     top.plot(grid, band[2], color=NETWORK_COLOUR, lw=2, label="network model, median")
     bass = fit.bass_curve(grid.astype(float))
     if obs.kind == "new_customers":
         bass = np.cumsum(np.where(np.isin(grid, obs.periods) | (grid > obs.last_period), bass, 0.0))
-    top.plot(grid, bass, color=BASS_COLOUR, lw=1.5, ls="--",
-             label=f"Bass fit to the same points (p = {fit.bass.p:.3g}, Q = {fit.bass.Q:.3g})")
+    top.plot(
+        grid,
+        bass,
+        color=BASS_COLOUR,
+        lw=1.5,
+        ls="--",
+        label=f"Bass fit to the same points (p = {fit.bass.p:.3g}, Q = {fit.bass.Q:.3g})",
+    )
     held = np.isin(obs.periods, fit.held_out.periods) if fit.held_out is not None else np.zeros(len(obs), bool)
-    top.scatter(obs.periods[~held], observed_stat[~held], s=18, color=OBSERVED_COLOUR, zorder=5,
-                label=f"observed ({obs.source})")
+    top.scatter(
+        obs.periods[~held],
+        observed_stat[~held],
+        s=18,
+        color=OBSERVED_COLOUR,
+        zorder=5,
+        label=f"observed ({obs.source})",
+    )
     if held.any():
-        top.scatter(obs.periods[held], observed_stat[held], s=22, facecolors="none", edgecolors=OBSERVED_COLOUR,
-                    zorder=5, label="observed, held out")
+        top.scatter(
+            obs.periods[held],
+            observed_stat[held],
+            s=22,
+            facecolors="none",
+            edgecolors=OBSERVED_COLOUR,
+            zorder=5,
+            label="observed, held out",
+        )
     last = fit.fitted.last_period
     for ax in (top, bottom):
         ax.axvline(last, color="#777777", ls=":", lw=1.2)
         ax.grid(alpha=0.3)
-    top.text(last, 0.02, " last fitted period" + (" (holdout after)" if held.any() else ""),
-             transform=top.get_xaxis_transform(), fontsize=8, color="#555555")
+    top.text(
+        last,
+        0.02,
+        " last fitted period" + (" (holdout after)" if held.any() else ""),
+        transform=top.get_xaxis_transform(),
+        fontsize=8,
+        color="#555555",
+    )
     top.set_ylabel(label)
     top.legend(loc="upper left", fontsize=7.5, frameon=False)
     top.set_title(title or fit.base.name, fontsize=11)

@@ -59,8 +59,9 @@ def _study(store: ResultsStore) -> SweepStudy:
     try:
         return sweep_study(name)
     except Exception:  # noqa: BLE001 - a study this womlab does not know
-        raise StoreError(f"{str(store.path)!r} was made by the sweep study {name!r}, which this womlab does not "
-                         "know") from None
+        raise StoreError(
+            f"{str(store.path)!r} was made by the sweep study {name!r}, which this womlab does not know"
+        ) from None
 
 
 def shown_outcomes(folder: str | Path | ResultsStore) -> tuple[str, ...]:
@@ -183,25 +184,35 @@ def sweep_figures(folder: str | Path | ResultsStore) -> dict[str, Figure]:
     if spec.design == "grid" and len(axes) == 1 and numeric:
         figures[f"outcomes against {axes[0]}"] = _lines(summary, shown, labels, numeric[0], [], [], log)
     elif spec.design == "grid" and len(axes) == 2 and len(numeric) == 2:
-        figures[f"outcomes over {numeric[0]} and {numeric[1]}"] = _heatmaps(summary, shown, labels, numeric[0],
-                                                                            numeric[1])
+        figures[f"outcomes over {numeric[0]} and {numeric[1]}"] = _heatmaps(
+            summary, shown, labels, numeric[0], numeric[1]
+        )
     elif spec.design == "grid" and categorical:
         x = numeric[0] if numeric else categorical[0]
         groups = [c for c in categorical if c != x]
         averaged = [a for a in numeric if a != x]
-        figures[f"outcomes against {x}, by {', '.join(groups) or 'point'}"] = _lines(summary, shown, labels, x, groups,
-                                                                                      averaged, log)
+        figures[f"outcomes against {x}, by {', '.join(groups) or 'point'}"] = _lines(
+            summary, shown, labels, x, groups, averaged, log
+        )
     else:
         figures["point estimates against each axis"] = _scatter(summary, shown, labels, axes, numeric, log)
     sens = sensitivity_table(store)
     if sens is not None:
         figures["Sobol indices" if spec.design == "sobol" else "Morris screening"] = _sensitivity_figure(
-            sens, shown, labels, spec.design)
+            sens, shown, labels, spec.design
+        )
     return figures
 
 
-def _lines(summary: pd.DataFrame, shown: list[str], labels: dict[str, str], x: str, groups: list[str],
-           averaged: list[str], log: set[str]) -> Figure:
+def _lines(
+    summary: pd.DataFrame,
+    shown: list[str],
+    labels: dict[str, str],
+    x: str,
+    groups: list[str],
+    averaged: list[str],
+    log: set[str],
+) -> Figure:
     fig, axs = _panels(len(shown))
     bands = False
     for ax, outcome in zip(axs, shown):
@@ -215,8 +226,9 @@ def _lines(summary: pd.DataFrame, shown: list[str], labels: dict[str, str], x: s
             line = ax.plot(xs, agg["estimate"], marker="o", ms=3, lw=1.8, label=label, color=None if groups else COLOUR)
             if not averaged and np.isfinite(agg[["lo", "hi"]].to_numpy(dtype=float)).any():
                 bands = True
-                ax.fill_between(xs, agg["lo"].astype(float), agg["hi"].astype(float), alpha=0.2, lw=0,
-                                color=line[0].get_color())
+                ax.fill_between(
+                    xs, agg["lo"].astype(float), agg["hi"].astype(float), alpha=0.2, lw=0, color=line[0].get_color()
+                )
             if not _numeric(agg.index.to_series()):
                 ax.set_xticks(xs, [str(v) for v in agg.index], rotation=20, fontsize=8)
         if x in log:
@@ -250,8 +262,9 @@ def _heatmaps(summary: pd.DataFrame, shown: list[str], labels: dict[str, str], x
     return fig
 
 
-def _scatter(summary: pd.DataFrame, shown: list[str], labels: dict[str, str], axes: list[str], numeric: list[str],
-             log: set[str]) -> Figure:
+def _scatter(
+    summary: pd.DataFrame, shown: list[str], labels: dict[str, str], axes: list[str], numeric: list[str], log: set[str]
+) -> Figure:
     fig = Figure(figsize=(3.2 * len(axes) + 0.5, 2.6 * len(shown)), layout="constrained")
     grid = np.atleast_2d(fig.subplots(len(shown), len(axes), squeeze=False))
     for r, outcome in enumerate(shown):
@@ -335,8 +348,13 @@ def _by_point(points: pd.DataFrame, summary: pd.DataFrame, shown: list[str]) -> 
     for outcome in shown:
         sel = index.xs(outcome, level="outcome") if outcome in set(summary["outcome"]) else index.iloc[0:0]
         by_point[outcome] = by_point["point"].map(sel["estimate"]) if len(sel) else np.nan
-        ci = pd.Series([f"{a:.4g} – {b:.4g}" if np.isfinite(a) and np.isfinite(b) else "–"
-                        for a, b in zip(sel["low"].astype(float), sel["high"].astype(float))], index=sel.index)
+        ci = pd.Series(
+            [
+                f"{a:.4g} – {b:.4g}" if np.isfinite(a) and np.isfinite(b) else "–"
+                for a, b in zip(sel["low"].astype(float), sel["high"].astype(float))
+            ],
+            index=sel.index,
+        )
         by_point[f"{outcome} 95% CI"] = by_point["point"].map(ci).fillna("–")
     return by_point
 
@@ -401,37 +419,50 @@ def _write_report(store: ResultsStore) -> Path:
     ]
     missing = int(manifest.get("runs", 0)) - len(runs)
     if missing > 0:
-        parts.append(f"<p class='note'>{missing} runs have not been run yet (an interrupted sweep: rerun the same "
-                     "command to resume).</p>")
+        parts.append(
+            f"<p class='note'>{missing} runs have not been run yet (an interrupted sweep: rerun the same "
+            "command to resume).</p>"
+        )
     if store.notices:
         parts.append("<p class='note'>" + "<br>".join(esc(n) for n in store.notices) + "</p>")
     parts.append("<h2>Figures</h2>")
     for title, fig in figures.items():
-        parts.append(f"<h3>{esc(title)}</h3><img class='figure' alt='{esc(title)}' src='data:image/png;base64,{_png(fig)}'>")
+        parts.append(
+            f"<h3>{esc(title)}</h3><img class='figure' alt='{esc(title)}' src='data:image/png;base64,{_png(fig)}'>"
+        )
     one = " With one run per point there are no intervals (–)." if replicates < 2 else ""
-    parts.append("<h2>Outcomes by point</h2><p class='note'>Each point's estimate and its 95 % confidence interval: "
-                 "the mean over the point's finished runs with a Student-t interval, or the study's own statistic "
-                 f"(summary.csv says how each was made). Times to a share average the runs that reached it.{one}</p>")
+    parts.append(
+        "<h2>Outcomes by point</h2><p class='note'>Each point's estimate and its 95 % confidence interval: "
+        "the mean over the point's finished runs with a Student-t interval, or the study's own statistic "
+        f"(summary.csv says how each was made). Times to a share average the runs that reached it.{one}</p>"
+    )
     parts.append(_table(by_point))
     if sens is not None:
         title = "Sobol indices" if spec.design == "sobol" else "Morris screening"
-        note = ("First-order (Saltelli et al. 2010) and total (Jansen 1999) indices of each statistic's point "
-                "estimate; _se: standard errors from the spread over independent scrambles of the design; an index "
-                "outside [0, 1] is the sampling error of a small base sample (see note)." if spec.design == "sobol" else
-                "Elementary effects per unit of each axis's range (Morris 1991); μ* as in Campolongo et al. 2007.")
+        note = (
+            "First-order (Saltelli et al. 2010) and total (Jansen 1999) indices of each statistic's point "
+            "estimate; _se: standard errors from the spread over independent scrambles of the design; an index "
+            "outside [0, 1] is the sampling error of a small base sample (see note)."
+            if spec.design == "sobol"
+            else "Elementary effects per unit of each axis's range (Morris 1991); μ* as in Campolongo et al. 2007."
+        )
         parts.append(f"<h2>{title}</h2><p class='note'>{note}</p>")
         parts.append(_table(sens[sens["outcome"].isin(shown)] if shown else sens))
     parts.append(f"<h2>Failures ({len(failed)})</h2>")
-    parts.append(_table(failed[["point", "replicate", *[a.name for a in spec.axes], "error"]]) if len(failed)
-                 else "<p>None.</p>")
+    parts.append(
+        _table(failed[["point", "replicate", *[a.name for a in spec.axes], "error"]]) if len(failed) else "<p>None.</p>"
+    )
     parts.append("<h2>Sweep spec</h2><pre>" + esc(json.dumps(spec.to_table(), indent=2)) + "</pre>")
     parts.append("<h2>Scenario</h2><pre>" + esc(json.dumps(manifest["scenario"], indent=2)) + "</pre>")
-    parts.append("<h2>Versions</h2>" + _table(pd.DataFrame(sorted(manifest.get("versions", {}).items()),
-                                                         columns=["library", "version"])))
+    parts.append(
+        "<h2>Versions</h2>"
+        + _table(pd.DataFrame(sorted(manifest.get("versions", {}).items()), columns=["library", "version"]))
+    )
     sessions = pd.DataFrame(manifest.get("sessions", []))
     if not sessions.empty:
         parts.append("<h2>Sessions</h2>" + _table(sessions))
-    parts.append("<p class='note'>Written by womlab. Randomness: "
-                 f"{esc(str(manifest.get('spawn_keys', '')))}.</p></body></html>")
+    parts.append(
+        f"<p class='note'>Written by womlab. Randomness: {esc(str(manifest.get('spawn_keys', '')))}.</p></body></html>"
+    )
     text = "\n".join(parts)
     return atomic_write(store.path / "report.html", lambda p: p.write_text(text, encoding="utf-8"))

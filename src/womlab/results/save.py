@@ -40,22 +40,59 @@ from womlab.studies.runner import Batch
 from womlab.studies.seeding_study import BOOTSTRAP_KEY, SeedingStudy
 from womlab.studies.smc import FIT_KEY
 
-__all__ = ["save_batch", "save_programme", "save_seeding_study", "save_comparison", "save_fit", "check_output_folder",
-           "OUTPUTS", "sections_in_use", "ORGANISATION_FORMATS"]
+__all__ = [
+    "save_batch",
+    "save_programme",
+    "save_seeding_study",
+    "save_comparison",
+    "save_fit",
+    "check_output_folder",
+    "OUTPUTS",
+    "sections_in_use",
+    "ORGANISATION_FORMATS",
+]
 
 #: The files each command writes (``{fmt}``: the figure format), so that a folder can be
 #: checked before anything runs.
 OUTPUTS: dict[str, tuple[str, ...]] = {
     "run": ("curves.csv", "summary.csv", "metrics.csv", "adoption.{fmt}"),
-    "compare": ("compare_curves.csv", "compare_metrics.csv", "compare_gaps.csv", "compare_fits.csv",
-                "compare_replicates.csv", "comparison.{fmt}"),
+    "compare": (
+        "compare_curves.csv",
+        "compare_metrics.csv",
+        "compare_gaps.csv",
+        "compare_fits.csv",
+        "compare_replicates.csv",
+        "comparison.{fmt}",
+    ),
     "seeding": ("strategies.csv", "runs.csv", "seeding.{fmt}", "network.{fmt}"),
-    "fit": ("posterior.csv", "fit_summary.csv", "forecast.csv", "stage.csv", "generations.csv", "network_kinds.csv",
-            "holdout.csv", "fit.{fmt}"),
-    "referral": ("programme_summary.csv", "programme_runs.csv", "programme_curves.csv", "programme_cumulative.csv",
-                 "referral_tree.csv", "programme.{fmt}", "referral_tree.{fmt}"),
-    "levers": ("levers.csv", "levers_best.csv", "levers_crossover.csv", "levers_stage.csv", "levers_runs.csv",
-               "levers_curve.csv", "levers.{fmt}"),
+    "fit": (
+        "posterior.csv",
+        "fit_summary.csv",
+        "forecast.csv",
+        "stage.csv",
+        "generations.csv",
+        "network_kinds.csv",
+        "holdout.csv",
+        "fit.{fmt}",
+    ),
+    "referral": (
+        "programme_summary.csv",
+        "programme_runs.csv",
+        "programme_curves.csv",
+        "programme_cumulative.csv",
+        "referral_tree.csv",
+        "programme.{fmt}",
+        "referral_tree.{fmt}",
+    ),
+    "levers": (
+        "levers.csv",
+        "levers_best.csv",
+        "levers_crossover.csv",
+        "levers_stage.csv",
+        "levers_runs.csv",
+        "levers_curve.csv",
+        "levers.{fmt}",
+    ),
 }
 _NOT_RESULTS = (("run", "jobs"), ("run", "replicates"), ("study", "replicates"))
 #: Forms of the optional per-organisation file of a results folder.
@@ -110,8 +147,15 @@ def _format(figure_format: str, organisations: str | None = None) -> str:
     return figure_format
 
 
-def check_output_folder(out: str | Path, command: str, scenario: Scenario, *, force: bool = False,
-                        figure_format: str = "png", organisations: str | None = None) -> Path:
+def check_output_folder(
+    out: str | Path,
+    command: str,
+    scenario: Scenario,
+    *,
+    force: bool = False,
+    figure_format: str = "png",
+    organisations: str | None = None,
+) -> Path:
     """Check, before anything runs, that ``command`` may write its results for ``scenario`` into ``out``.
 
     Refused with one line: a file, a folder that cannot be created or written, a sweep's
@@ -123,8 +167,9 @@ def check_output_folder(out: str | Path, command: str, scenario: Scenario, *, fo
     StoreError
     """
     fmt = _format(figure_format, organisations)
-    return check_results_folder(out, command, _identity(scenario, command), _names(command, fmt, organisations),
-                                force=force)
+    return check_results_folder(
+        out, command, _identity(scenario, command), _names(command, fmt, organisations), force=force
+    )
 
 
 def _table_writer(table: Any, float_format: str | None = "%.6g") -> Callable[[Path], Any]:
@@ -135,10 +180,22 @@ def _figure_writer(fig: Any, fmt: str) -> Callable[[Path], Any]:
     return lambda p: save_figure(fig, p, fmt)
 
 
-def _save(command: str, study: Any, out: str | Path, tables: dict[str, Any], figures: dict[str, Callable[[], Any]],
-          extra: dict[str, Any], *, force: bool, figure_format: str, command_line: list[str] | None,
-          wall_time: float | None = None, float_formats: dict[str, str | None] | None = None,
-          organisations: str | None = None, organisation_table: Callable[[], Any] | None = None) -> list[Path]:
+def _save(
+    command: str,
+    study: Any,
+    out: str | Path,
+    tables: dict[str, Any],
+    figures: dict[str, Callable[[], Any]],
+    extra: dict[str, Any],
+    *,
+    force: bool,
+    figure_format: str,
+    command_line: list[str] | None,
+    wall_time: float | None = None,
+    float_formats: dict[str, str | None] | None = None,
+    organisations: str | None = None,
+    organisation_table: Callable[[], Any] | None = None,
+) -> list[Path]:
     fmt = _format(figure_format, organisations)
     scenario = study.scenario
     float_formats = float_formats or {}
@@ -154,14 +211,30 @@ def _save(command: str, study: Any, out: str | Path, tables: dict[str, Any], fig
                 folder.write("organisations.parquet", lambda p: table.to_parquet(p, index=False))
         for stem, draw in figures.items():
             folder.write(f"{stem}.{fmt}", _figure_writer(draw(), fmt))
-        info = manifest(study, extra, wall_time=wall_time, command=command, command_line=command_line,
-                        sections=sections_in_use(scenario, command))
+        info = manifest(
+            study,
+            extra,
+            wall_time=wall_time,
+            command=command,
+            command_line=command_line,
+            sections=sections_in_use(scenario, command),
+        )
         return folder.commit(info)
 
 
-def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisations: str | None = None,
-               force: bool = False, figure_format: str = "png", figure_size: tuple[float, float] | None = None,
-               command_line: list[str] | None = None, observed: Any = None, by: str | None = None) -> list[Path]:
+def save_batch(
+    batch: Batch,
+    out: str | Path,
+    *,
+    figure: bool = True,
+    organisations: str | None = None,
+    force: bool = False,
+    figure_format: str = "png",
+    figure_size: tuple[float, float] | None = None,
+    command_line: list[str] | None = None,
+    observed: Any = None,
+    by: str | None = None,
+) -> list[Path]:
     """Write ``curves.csv``, ``summary.csv``, ``metrics.csv``, ``adoption.png`` and ``manifest.json`` into ``out``.
 
     With product generations (``[[product]]``) also ``products.csv`` (per replicate, period and
@@ -217,18 +290,42 @@ def save_batch(batch: Batch, out: str | Path, *, figure: bool = True, organisati
             batch.runs[0].groups(by)
         except ValueError as exc:
             raise ScenarioError(f"--by {by}: {exc}") from None
-        tables.update({f"curves_by_{by}.csv": batch.curves(by=by), f"summary_by_{by}.csv": batch.summary(by=by),
-                       f"metrics_by_{by}.csv": batch.metrics(by=by)})
+        tables.update(
+            {
+                f"curves_by_{by}.csv": batch.curves(by=by),
+                f"summary_by_{by}.csv": batch.summary(by=by),
+                f"metrics_by_{by}.csv": batch.metrics(by=by),
+            }
+        )
         if figure:
             figures[f"adoption_by_{by}"] = lambda: group_figure(batch, by, size=figure_size)
-    return _save("run", batch, out, tables, figures, {}, force=force, figure_format=figure_format,
-                 command_line=command_line, float_formats={"curves.csv": None}, organisations=organisations,
-                 organisation_table=batch.organisations)
+    return _save(
+        "run",
+        batch,
+        out,
+        tables,
+        figures,
+        {},
+        force=force,
+        figure_format=figure_format,
+        command_line=command_line,
+        float_formats={"curves.csv": None},
+        organisations=organisations,
+        organisation_table=batch.organisations,
+    )
 
 
-def save_programme(study: ProgrammeStudy, out: str | Path, *, figure: bool = True, wall_time: float = 0.0,
-                   force: bool = False, figure_format: str = "png", figure_size: tuple[float, float] | None = None,
-                   command_line: list[str] | None = None) -> list[Path]:
+def save_programme(
+    study: ProgrammeStudy,
+    out: str | Path,
+    *,
+    figure: bool = True,
+    wall_time: float = 0.0,
+    force: bool = False,
+    figure_format: str = "png",
+    figure_size: tuple[float, float] | None = None,
+    command_line: list[str] | None = None,
+) -> list[Path]:
     """Write a referral programme study's results folder.
 
     Files: ``programme_summary.csv`` (outcome, estimate, 95 % interval),
@@ -250,16 +347,39 @@ def save_programme(study: ProgrammeStudy, out: str | Path, *, figure: bool = Tru
         "programme_cumulative.csv": study.cumulative(),
         "referral_tree.csv": study.tree(),
     }
-    figures = {"programme": lambda: programme_figure(study, size=figure_size),
-               "referral_tree": lambda: referral_tree_figure(study, size=figure_size)} if figure else {}
+    figures = (
+        {
+            "programme": lambda: programme_figure(study, size=figure_size),
+            "referral_tree": lambda: referral_tree_figure(study, size=figure_size),
+        }
+        if figure
+        else {}
+    )
     extra = {"spawn_keys": "SeedSequence(root_seed, spawn_key=(replicate,)); baseline and programme paired"}
-    return _save("referral", study, out, tables, figures, extra, force=force, figure_format=figure_format,
-                 command_line=command_line, wall_time=wall_time)
+    return _save(
+        "referral",
+        study,
+        out,
+        tables,
+        figures,
+        extra,
+        force=force,
+        figure_format=figure_format,
+        command_line=command_line,
+        wall_time=wall_time,
+    )
 
 
-def save_seeding_study(study: SeedingStudy, out: str | Path, *, figures: bool = True, force: bool = False,
-                       figure_format: str = "png", figure_size: tuple[float, float] | None = None,
-                       command_line: list[str] | None = None) -> list[Path]:
+def save_seeding_study(
+    study: SeedingStudy,
+    out: str | Path,
+    *,
+    figures: bool = True,
+    force: bool = False,
+    figure_format: str = "png",
+    figure_size: tuple[float, float] | None = None,
+    command_line: list[str] | None = None,
+) -> list[Path]:
     """Write ``strategies.csv``, ``runs.csv``, ``seeding.png``, ``network.png`` (when the study
     kept a network snapshot) and ``manifest.json`` into ``out``; returns the paths written.
     Options as :func:`save_batch`.
@@ -275,18 +395,30 @@ def save_seeding_study(study: SeedingStudy, out: str | Path, *, figures: bool = 
         drawn["seeding"] = lambda: seeding_figure(study, size=figure_size)
         if study.snapshot is not None:
             network, results = study.snapshot
-            drawn["network"] = lambda: network_snapshot_figure(network, results, seed=study.scenario.seed,
-                                                               size=figure_size)
-    extra = {"study": "seeding strategies, paired replicates (common random numbers)",
-             "strategies": list(study.strategies),
-             "bootstrap_stream": f"SeedSequence(root_seed, spawn_key={BOOTSTRAP_KEY})"}
-    return _save("seeding", study, out, tables, drawn, extra, force=force, figure_format=figure_format,
-                 command_line=command_line)
+            drawn["network"] = lambda: network_snapshot_figure(
+                network, results, seed=study.scenario.seed, size=figure_size
+            )
+    extra = {
+        "study": "seeding strategies, paired replicates (common random numbers)",
+        "strategies": list(study.strategies),
+        "bootstrap_stream": f"SeedSequence(root_seed, spawn_key={BOOTSTRAP_KEY})",
+    }
+    return _save(
+        "seeding", study, out, tables, drawn, extra, force=force, figure_format=figure_format, command_line=command_line
+    )
 
 
-def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = True, force: bool = False,
-                    figure_format: str = "png", figure_size: tuple[float, float] | None = None,
-                    command_line: list[str] | None = None, observed: Any = None) -> list[Path]:
+def save_comparison(
+    comparison: Comparison,
+    out: str | Path,
+    *,
+    figure: bool = True,
+    force: bool = False,
+    figure_format: str = "png",
+    figure_size: tuple[float, float] | None = None,
+    command_line: list[str] | None = None,
+    observed: Any = None,
+) -> list[Path]:
     """Write a comparison's tables, figure and manifest into the results folder ``out``
     (``observed``, a :class:`womlab.ObservedSeries`, overlaid on the figure).
 
@@ -308,7 +440,9 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
         "compare_fits.csv": comparison.fits,
         "compare_replicates.csv": comparison.replicate_table(),
     }
-    figures = {"comparison": lambda: comparison_figure(comparison, size=figure_size, observed=observed)} if figure else {}
+    figures = (
+        {"comparison": lambda: comparison_figure(comparison, size=figure_size, observed=observed)} if figure else {}
+    )
     batch = comparison.batch
     if batch.runs and "product_start" in batch.runs[0].extra:  # product generations beside Norton-Bass
         tables["compare_products.csv"] = batch.product_summary()
@@ -320,12 +454,29 @@ def save_comparison(comparison: Comparison, out: str | Path, *, figure: bool = T
         "headline": comparison.headline(),
         "capped_bass_difference_fit": {"slope": sf.slope, "cap": sf.cap, "success": sf.success, "rmse": sf.rmse},
     }
-    return _save("compare", comparison.batch, out, tables, figures, extra, force=force, figure_format=figure_format,
-                 command_line=command_line)
+    return _save(
+        "compare",
+        comparison.batch,
+        out,
+        tables,
+        figures,
+        extra,
+        force=force,
+        figure_format=figure_format,
+        command_line=command_line,
+    )
 
 
-def save_fit(fit: Fit, out: str | Path, *, periods: int = 12, figure: bool = True, force: bool = False,
-             figure_format: str = "png", command_line: list[str] | None = None) -> list[Path]:
+def save_fit(
+    fit: Fit,
+    out: str | Path,
+    *,
+    periods: int = 12,
+    figure: bool = True,
+    force: bool = False,
+    figure_format: str = "png",
+    command_line: list[str] | None = None,
+) -> list[Path]:
     """Write a fit's results folder (staged, manifest last, as every command's); returns the paths written.
 
     Files: ``posterior.csv`` (final particles: network kind, free fields, weight,
@@ -358,24 +509,34 @@ def save_fit(fit: Fit, out: str | Path, *, periods: int = 12, figure: bool = Tru
     made = SimpleNamespace(scenario=fit.base, replicates=fit.replicates, wall_time=fit.wall_time)
     extra = {
         "study": "fit to an observed series: ABC-SMC (womlab.studies.smc) through womlab.studies.run_paired",
-        "data": {"file": fit.observed.source, "kind": fit.observed.kind, "points": len(fit.observed),
-                 "fitted_points": len(fit.fitted), "held_out_points": 0 if fit.held_out is None else len(fit.held_out),
-                 "market": fit.observed.market},
+        "data": {
+            "file": fit.observed.source,
+            "kind": fit.observed.kind,
+            "points": len(fit.observed),
+            "fitted_points": len(fit.fitted),
+            "held_out_points": 0 if fit.held_out is None else len(fit.held_out),
+            "market": fit.observed.market,
+        },
         "free": list(fit.names),
         "priors": {p.name: p.to_table() for p in fit.priors},
         "network_kinds": list(fit.kinds),
-        "settings": {"particles": fit.settings.particles, "generations": fit.settings.generations,
-                     "simulations": fit.settings.simulations, "quantile": fit.settings.quantile,
-                     "min_acceptance": fit.settings.min_acceptance},
+        "settings": {
+            "particles": fit.settings.particles,
+            "generations": fit.settings.generations,
+            "simulations": fit.settings.simulations,
+            "quantile": fit.settings.quantile,
+            "min_acceptance": fit.settings.min_acceptance,
+        },
         "simulations": fit.smc.simulations,
         "stopped": fit.smc.stopped,
         "notes": fit.notes,
         "spawn_keys": f"proposal j of generation g: SeedSequence(root_seed, spawn_key=({FIT_KEY}, g, j)); "
-                      f"proposals drawn from SeedSequence(root_seed, spawn_key=({FIT_KEY}, g)); forecasts rerun the "
-                      f"accepted keys to a longer horizon; decision draws SeedSequence(root_seed, spawn_key={DRAW_KEY} + (r,))",
+        f"proposals drawn from SeedSequence(root_seed, spawn_key=({FIT_KEY}, g)); forecasts rerun the "
+        f"accepted keys to a longer horizon; decision draws SeedSequence(root_seed, spawn_key={DRAW_KEY} + (r,))",
         "summary_statistic": "cumulative curve at the observed periods (customers, or new customers summed over them)",
         "distance": "root mean square difference of the cumulative curves over the observed total",
         "holdout": None if holdout is None else holdout.to_dict(orient="records"),
     }
-    return _save("fit", made, out, tables, figures, extra, force=force, figure_format=figure_format,
-                 command_line=command_line)
+    return _save(
+        "fit", made, out, tables, figures, extra, force=force, figure_format=figure_format, command_line=command_line
+    )

@@ -17,8 +17,20 @@ from typing import Any
 
 from womlab.errors import ScenarioError
 
-__all__ = ["fail", "in_unit", "non_negative", "positive_int", "one_of", "unknown_field", "coerce", "field_names",
-           "hints", "drop_none", "utf8_text", "found_columns"]
+__all__ = [
+    "fail",
+    "in_unit",
+    "non_negative",
+    "positive_int",
+    "one_of",
+    "unknown_field",
+    "coerce",
+    "field_names",
+    "hints",
+    "drop_none",
+    "utf8_text",
+    "found_columns",
+]
 
 
 def fail(dotted: str, value: Any, allowed: str) -> typing.NoReturn:
@@ -47,7 +59,6 @@ def one_of(dotted: str, value: str, known: tuple[str, ...]) -> None:
         raise ScenarioError(f"{dotted} must be one of {', '.join(known)}; got {value!r}{hint}")
 
 
-
 def field_names(cls: type) -> list[str]:
     return [f.name for f in dataclasses.fields(cls)]
 
@@ -63,7 +74,6 @@ def unknown_field(dotted: str, known: list[str]) -> typing.NoReturn:
     close = difflib.get_close_matches(leaf, known, n=1)
     hint = f"; did you mean {prefix}{close[0]!r}?" if close else ""
     raise ScenarioError(f"unknown field {dotted!r}{hint} (known here: {', '.join(known)})")
-
 
 
 def coerce(value: Any, hint: Any, dotted: str) -> Any:
@@ -98,9 +108,10 @@ def coerce(value: Any, hint: Any, dotted: str) -> Any:
         if not isinstance(value, (list, tuple)):
             raise ScenarioError(f"{dotted} must be a list, got {value!r}")
         (item_hint,) = typing.get_args(base)[:1] or (Any,)
-        return tuple(value if item_hint is Any else (coerce(v, item_hint, f"{dotted}[{i}]") for i, v in enumerate(value)))
+        return tuple(
+            value if item_hint is Any else (coerce(v, item_hint, f"{dotted}[{i}]") for i, v in enumerate(value))
+        )
     return value
-
 
 
 def drop_none(value: Any) -> Any:
@@ -109,7 +120,6 @@ def drop_none(value: Any) -> Any:
     if isinstance(value, (list, tuple)):
         return [drop_none(v) for v in value]
     return value
-
 
 
 def utf8_text(raw: bytes, kind: str) -> str:
@@ -135,8 +145,9 @@ def utf8_text(raw: bytes, kind: str) -> str:
     except UnicodeDecodeError as exc:
         line = raw[: exc.start].count(b"\n") + 1
         column = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
-        raise ValueError(f"is not UTF-8 text (byte 0x{raw[exc.start]:02x} at line {line}, column {column}); "
-                         f"save it as UTF-8 {kind}") from None
+        raise ValueError(
+            f"is not UTF-8 text (byte 0x{raw[exc.start]:02x} at line {line}, column {column}); save it as UTF-8 {kind}"
+        ) from None
 
 
 _COLUMN_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_ .-]{0,39}")

@@ -74,7 +74,9 @@ class Prior:
     def describe(self) -> str:
         """One line, e.g. ``log_uniform [0.0001, 0.1]``."""
         if self.distribution == "normal":
-            bounds = f" on [{_fmt(self.low)}, {_fmt(self.high)}]" if self.low is not None or self.high is not None else ""
+            bounds = (
+                f" on [{_fmt(self.low)}, {_fmt(self.high)}]" if self.low is not None or self.high is not None else ""
+            )
             return f"normal (mean {self.mean:g}, sd {self.sd:g}){bounds}"
         return f"{self.distribution} [{self.low:g}, {self.high:g}]"
 
@@ -92,8 +94,10 @@ class Prior:
                 fail(f"{where}.low", self.low, "> 0 for distribution = 'log_uniform'")
             for key in ("mean", "sd"):
                 if getattr(self, key) is not None:
-                    raise ScenarioError(f"{where}.{key} belongs to distribution = 'normal', "
-                                        f"not {self.distribution!r}; got {getattr(self, key)!r}")
+                    raise ScenarioError(
+                        f"{where}.{key} belongs to distribution = 'normal', "
+                        f"not {self.distribution!r}; got {getattr(self, key)!r}"
+                    )
         else:
             for key in ("mean", "sd"):
                 if getattr(self, key) is None:
@@ -199,8 +203,9 @@ class FitSpec:
         if len(set(self.network_kinds)) != len(self.network_kinds):
             fail("fit.network_kinds", list(self.network_kinds), "a list without repeated kinds")
         if "network.kind" in names:
-            raise ScenarioError("fit.free: network.kind is not a number; list the kinds to choose among in "
-                                "fit.network_kinds")
+            raise ScenarioError(
+                "fit.free: network.kind is not a number; list the kinds to choose among in fit.network_kinds"
+            )
         replace = getattr(scenario, "replace", None)
         if replace is None:  # pragma: no cover - a Scenario always has replace
             return
@@ -215,7 +220,9 @@ class FitSpec:
                 try:
                     replace({**plain, prior.name: int(round(value)) if kind is int else value})
                 except ScenarioError as exc:
-                    raise ScenarioError(f"{where}.{key} = {value:g} is outside what {prior.name} allows: {exc}") from None
+                    raise ScenarioError(
+                        f"{where}.{key} = {value:g} is outside what {prior.name} allows: {exc}"
+                    ) from None
         for i, kind in enumerate(self.network_kinds):
             try:
                 replace({**plain, "network.kind": kind})
@@ -253,9 +260,15 @@ class FitSpec:
 
 
 def _check_numeric(name: str, where: str, root: type) -> None:
-    if name == "seed" or name.startswith(("fit.", "sweep.", "study.", "run.")) or name in ("fit", "sweep", "study", "run"):
-        raise ScenarioError(f"{where}: {name!r} cannot be fitted; free fields describe the market, network, "
-                            "adoption, seeding or referral programme")
+    if (
+        name == "seed"
+        or name.startswith(("fit.", "sweep.", "study.", "run."))
+        or name in ("fit", "sweep", "study", "run")
+    ):
+        raise ScenarioError(
+            f"{where}: {name!r} cannot be fitted; free fields describe the market, network, "
+            "adoption, seeding or referral programme"
+        )
     try:
         kind = field_type_in(root, name)
     except ScenarioError as exc:
@@ -269,7 +282,9 @@ def parse_priors(value: Any, dotted: str) -> tuple[Prior, ...]:
     if isinstance(value, (list, tuple)) and all(isinstance(p, Prior) for p in value):
         return tuple(value)
     if not isinstance(value, Mapping):
-        raise ScenarioError(f"[{dotted}] must be a table of dotted field = {{ distribution, low, high }}, got {value!r}")
+        raise ScenarioError(
+            f"[{dotted}] must be a table of dotted field = {{ distribution, low, high }}, got {value!r}"
+        )
     priors = []
     known = ["distribution", "low", "high", "mean", "sd"]
     for name, spec in value.items():
@@ -279,9 +294,11 @@ def parse_priors(value: Any, dotted: str) -> tuple[Prior, ...]:
         for key in spec:
             if key not in known:
                 unknown_field(f"{where}.{key}", known)
-        priors.append(Prior(
-            name=str(name),
-            distribution=coerce(spec.get("distribution", "uniform"), str, f"{where}.distribution"),
-            **{key: coerce(spec.get(key), float | None, f"{where}.{key}") for key in ("low", "high", "mean", "sd")},
-        ))
+        priors.append(
+            Prior(
+                name=str(name),
+                distribution=coerce(spec.get("distribution", "uniform"), str, f"{where}.distribution"),
+                **{key: coerce(spec.get(key), float | None, f"{where}.{key}") for key in ("low", "high", "mean", "sd")},
+            )
+        )
     return tuple(priors)

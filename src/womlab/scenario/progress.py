@@ -147,8 +147,15 @@ class _Bar:
         self.close()
 
 
-def bar(total: int, desc: str = "runs", *, unit: str = "run", show: bool | None = None, initial: int = 0,
-        leave: bool = False) -> _Bar:
+def bar(
+    total: int,
+    desc: str = "runs",
+    *,
+    unit: str = "run",
+    show: bool | None = None,
+    initial: int = 0,
+    leave: bool = False,
+) -> _Bar:
     """A progress count of ``total`` units; call ``.update(k)`` and ``.close()`` (or use ``with``).
 
     ``show`` forces it on or off; by default it shows when reporting is :func:`enabled`.
@@ -166,8 +173,7 @@ def bar(total: int, desc: str = "runs", *, unit: str = "run", show: bool | None 
     elif on_terminal():
         from tqdm.auto import tqdm
 
-        inner = tqdm(total=total, initial=initial, unit=unit, desc=desc, leave=leave, file=sys.stderr,
-                     smoothing=0.1)
+        inner = tqdm(total=total, initial=initial, unit=unit, desc=desc, leave=leave, file=sys.stderr, smoothing=0.1)
         tty = True
     else:
         inner = _Lines(total, desc, unit, initial)

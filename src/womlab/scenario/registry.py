@@ -24,10 +24,21 @@ from __future__ import annotations
 from collections.abc import Callable
 from pathlib import Path
 
-__all__ = ["register_strategy_name", "strategy_names", "register_network_file_reader", "network_file_facts",
-           "network_file_kinds", "register_edgelist_reader", "edgelist_facts",
-           "register_sweep_study_name", "sweep_study_names", "sweep_study_fixed_fields",
-           "register_lever_name", "lever_names", "lever_check"]
+__all__ = [
+    "register_strategy_name",
+    "strategy_names",
+    "register_network_file_reader",
+    "network_file_facts",
+    "network_file_kinds",
+    "register_edgelist_reader",
+    "edgelist_facts",
+    "register_sweep_study_name",
+    "sweep_study_names",
+    "sweep_study_fixed_fields",
+    "register_lever_name",
+    "lever_names",
+    "lever_check",
+]
 
 _STRATEGY_NAMES: set[str] = set()
 _SWEEP_STUDIES: dict[str, dict[str, str]] = {}

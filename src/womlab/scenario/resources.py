@@ -25,9 +25,22 @@ from typing import Any
 
 from womlab.errors import ScenarioError
 
-__all__ = ["COSTS", "MAX_SECONDS", "MAX_ORGANISATIONS", "Part", "Estimate", "estimate_resources", "check_resources",
-           "usable_jobs", "cores", "machine_memory", "describe_bytes", "describe_seconds", "strategy_seconds",
-           "COMMANDS"]
+__all__ = [
+    "COSTS",
+    "MAX_SECONDS",
+    "MAX_ORGANISATIONS",
+    "Part",
+    "Estimate",
+    "estimate_resources",
+    "check_resources",
+    "usable_jobs",
+    "cores",
+    "machine_memory",
+    "describe_bytes",
+    "describe_seconds",
+    "strategy_seconds",
+    "COMMANDS",
+]
 
 #: The commands whose work :func:`estimate_resources` knows.
 COMMANDS = ("run", "compare", "seeding", "referral", "sweep", "fit", "levers")
@@ -40,25 +53,25 @@ MAX_SECONDS = 30 * 24 * 3600.0
 #: Unit costs, rounded up (about twice what was measured, for a busier machine) from
 #: ``benchmarks/results/resources.md`` and ``benchmarks/results/seeding.md`` (bytes and seconds).
 COSTS: dict[str, float] = {
-    "bytes_per_organisation": 80.0,       # network arrays while building (55 measured)
-    "bytes_per_tie": 24.0,                # the builder's pair arrays and the CSR, per undirected tie (14 measured)
-    "bytes_per_tie_scale_free": 24.0,     # preferential attachment, built the same way (14 measured)
-    "bytes_per_region_pair": 16.0,        # the regional builder's block probabilities
-    "bytes_per_curve_row": 48.0,          # one row of a run's curve (six numbers)
+    "bytes_per_organisation": 80.0,  # network arrays while building (55 measured)
+    "bytes_per_tie": 24.0,  # the builder's pair arrays and the CSR, per undirected tie (14 measured)
+    "bytes_per_tie_scale_free": 24.0,  # preferential attachment, built the same way (14 measured)
+    "bytes_per_region_pair": 16.0,  # the regional builder's block probabilities
+    "bytes_per_curve_row": 48.0,  # one row of a run's curve (six numbers)
     "bytes_per_kept_organisation": 17.0,  # a kept run: adoption period, referrer, satisfied, time
     "bytes_per_centrality_organisation": 64.0,  # compiled centralities on the CSR: a few arrays per organisation
-    "bytes_per_mesa_agent": 3000.0,       # one Mesa agent and its cell
-    "seconds_per_run": 0.005,             # fixed cost of one engine run
-    "seconds_per_org_step_array": 3e-8,   # 1.3e-8 measured
-    "seconds_per_org_step_event": 6e-8,   # 3.0e-8 measured
-    "seconds_per_org_step_mesa": 7e-6,    # 3.3e-6 measured
-    "seconds_per_tie_build": 5e-7,        # 0.3e-6 measured (random, 4 million ties)
+    "bytes_per_mesa_agent": 3000.0,  # one Mesa agent and its cell
+    "seconds_per_run": 0.005,  # fixed cost of one engine run
+    "seconds_per_org_step_array": 3e-8,  # 1.3e-8 measured
+    "seconds_per_org_step_event": 6e-8,  # 3.0e-8 measured
+    "seconds_per_org_step_mesa": 7e-6,  # 3.3e-6 measured
+    "seconds_per_tie_build": 5e-7,  # 0.3e-6 measured (random, 4 million ties)
     "seconds_per_tie_build_scale_free": 1e-6,
-    "seconds_per_region_pair": 2e-5,      # the regional builder's loop over region pairs
-    "seconds_per_centrality_tie": 1e-6,   # PageRank or k-cores compiled on the CSR (benchmarks/results/seeding.md)
+    "seconds_per_region_pair": 2e-5,  # the regional builder's loop over region pairs
+    "seconds_per_centrality_tie": 1e-6,  # PageRank or k-cores compiled on the CSR (benchmarks/results/seeding.md)
     "seconds_per_betweenness_visit": 1.2e-7,  # compiled Brandes, per source per (N + 2 ties): 0.3-1.1e-7 measured
-    "seconds_pool_start": 3.0,            # a worker process importing the stack
-    "bytes_per_process": 200 * 2**20,     # Python, numpy, scipy, pandas, networkx loaded
+    "seconds_pool_start": 3.0,  # a worker process importing the stack
+    "bytes_per_process": 200 * 2**20,  # Python, numpy, scipy, pandas, networkx loaded
 }
 
 _NETWORKX_STRATEGIES = ("bridges", "pagerank", "coreness")
@@ -110,8 +123,10 @@ class Estimate:
 
     def largest(self, by: str = "bytes") -> Part:
         """The part that costs most memory (``by="bytes"``) or time (``by="seconds"``)."""
+
         def cost(p: Part) -> float:
             return (p.bytes * (self.workers if p.per_worker else 1)) if by == "bytes" else p.seconds
+
         return max(self.parts, key=cost)
 
     def naming(self, part: Part) -> str:
@@ -123,9 +138,11 @@ class Estimate:
 
     def describe(self) -> str:
         """One line: runs, workers, peak memory and rough time."""
-        return (f"{self.runs:,} engine run{'s' if self.runs != 1 else ''} on {self.workers} worker"
-                f"{'s' if self.workers != 1 else ''}, peak memory about {describe_bytes(self.memory)}, "
-                f"about {describe_seconds(self.seconds)} (rough)")
+        return (
+            f"{self.runs:,} engine run{'s' if self.runs != 1 else ''} on {self.workers} worker"
+            f"{'s' if self.workers != 1 else ''}, peak memory about {describe_bytes(self.memory)}, "
+            f"about {describe_seconds(self.seconds)} (rough)"
+        )
 
 
 def _show(value: Any) -> str:
@@ -205,8 +222,11 @@ def _network_parts(s: Any) -> list[Part]:
     kind = s.network.kind
     parts = []
     if kind == "complete":
-        return [Part("network (complete: from totals)", ("market.organisations",), n * c["bytes_per_organisation"],
-                     n * 1e-7)]
+        return [
+            Part(
+                "network (complete: from totals)", ("market.organisations",), n * c["bytes_per_organisation"], n * 1e-7
+            )
+        ]
     ties = n * float(s.network.mean_degree) / 2
     scale_free = kind == "scale_free"
     per_tie = c["bytes_per_tie_scale_free"] if scale_free else c["bytes_per_tie"]
@@ -215,8 +235,14 @@ def _network_parts(s: Any) -> list[Part]:
     parts.append(Part("network ties", fields, n * c["bytes_per_organisation"] + ties * per_tie, ties * seconds_tie))
     if kind == "regional_blocks":  # the block model loops over every pair of regions
         r = s.market.regions
-        parts.append(Part("region pairs of the regional network", ("market.regions",),
-                          r * r * c["bytes_per_region_pair"], r * r / 2 * c["seconds_per_region_pair"]))
+        parts.append(
+            Part(
+                "region pairs of the regional network",
+                ("market.regions",),
+                r * r * c["bytes_per_region_pair"],
+                r * r / 2 * c["seconds_per_region_pair"],
+            )
+        )
     return parts
 
 
@@ -230,9 +256,16 @@ def _strategy_cost(name: str, s: Any) -> tuple[float, float, tuple[str, ...]]:
     centrality_bytes = n * c["bytes_per_centrality_organisation"]
     if name == "bridges":
         sources = n if n <= s.seeding.betweenness_exact_up_to else min(n, s.seeding.betweenness_sample)
-        field_ = "seeding.betweenness_exact_up_to" if n <= s.seeding.betweenness_exact_up_to else "seeding.betweenness_sample"
-        return (sources * (n + 2 * ties) * c["seconds_per_betweenness_visit"], centrality_bytes,
-                ("market.organisations", field_))
+        field_ = (
+            "seeding.betweenness_exact_up_to"
+            if n <= s.seeding.betweenness_exact_up_to
+            else "seeding.betweenness_sample"
+        )
+        return (
+            sources * (n + 2 * ties) * c["seconds_per_betweenness_visit"],
+            centrality_bytes,
+            ("market.organisations", field_),
+        )
     if name in ("pagerank", "coreness"):
         return ties * c["seconds_per_centrality_tie"], centrality_bytes, ("market.organisations",)
     if name == "greedy":
@@ -240,8 +273,7 @@ def _strategy_cost(name: str, s: Any) -> tuple[float, float, tuple[str, ...]]:
         budget = s.n_initial
         evaluations = pool + 3 * budget + 1
         run = _run_seconds(s)
-        return (evaluations * s.seeding.greedy_runs * run, 0.0,
-                ("seeding.greedy_candidates", "seeding.greedy_runs"))
+        return (evaluations * s.seeding.greedy_runs * run, 0.0, ("seeding.greedy_candidates", "seeding.greedy_runs"))
     return n * 1e-7, n * 16.0, ("market.organisations",)
 
 
@@ -271,8 +303,9 @@ def _replicates(s: Any, command: str, replicates: int | None) -> int:
     return int(s.run.replicates)
 
 
-def estimate_resources(scenario: Any, command: str = "run", *, replicates: int | None = None, jobs: int | None = None,
-             points: int = 1) -> Estimate:
+def estimate_resources(
+    scenario: Any, command: str = "run", *, replicates: int | None = None, jobs: int | None = None, points: int = 1
+) -> Estimate:
     """Estimate what ``command`` will cost on ``scenario``, from the scenario alone.
 
     Parameters
@@ -310,42 +343,73 @@ def estimate_resources(scenario: Any, command: str = "run", *, replicates: int |
     arms = 1 + len(s.levers.names) * pulled + (pulled if "reference_customers" in s.levers.names else 0)
     variants = {"seeding": len(s.study.compared), "referral": 2, "levers": arms}.get(command, 1)
     runs = reps * variants * (points if command == "sweep" else 1)
-    longer = (1.0 + (s.levers.lifetime if s.levers.lifetime is not None else run.periods) / run.periods
-              if command == "levers" else 1.0)
+    longer = (
+        1.0 + (s.levers.lifetime if s.levers.lifetime is not None else run.periods) / run.periods
+        if command == "levers"
+        else 1.0
+    )
     keys = reps * (points if command == "sweep" else 1)
     workers = max(1, min(usable_jobs(run.jobs if jobs is None else jobs), keys))
 
-    parts = [Part(p.what, p.fields, p.bytes, p.seconds * keys, p.per_worker)  # one network per replicate
-             for p in _network_parts(s)]
+    parts = [
+        Part(p.what, p.fields, p.bytes, p.seconds * keys, p.per_worker)  # one network per replicate
+        for p in _network_parts(s)
+    ]
     state = n * (c["bytes_per_mesa_agent"] if run.engine == "mesa" else 60.0)
     parts.append(Part("one run's state", ("market.organisations",), state))
     rep_field = {"seeding": "study.replicates", "sweep": "sweep.replicates", "fit": "fit.simulations"}.get(
-        command, "run.replicates")
+        command, "run.replicates"
+    )
     step_fields = ("run.time_step",) if run.clock == "discrete" and run.steps_per_period > 1 else ()
-    parts.append(Part("engine runs", (rep_field, "run.periods", *step_fields, "market.organisations"), 0.0,
-                      runs * _run_seconds(s) * longer))
+    parts.append(
+        Part(
+            "engine runs",
+            (rep_field, "run.periods", *step_fields, "market.organisations"),
+            0.0,
+            runs * _run_seconds(s) * longer,
+        )
+    )
     grid = run.periods * run.reports_per_period + 1
     curve_fields = ("run.report_every", "run.periods") if run.reports_per_period > 1 else ("run.periods",)
     parts.append(Part("one run's curve", curve_fields, grid * c["bytes_per_curve_row"]))
 
     kept_runs = {"run": reps, "compare": reps, "referral": 2 * reps, "levers": 2 * reps * variants}.get(command, 0)
-    rows_kept = {"run": reps, "compare": reps, "referral": 2 * reps, "seeding": reps * variants,
-                 "sweep": 0, "fit": 0, "levers": 2 * reps * variants}[command]
-    parts.append(Part("runs kept", ("market.organisations", rep_field),
-                      kept_runs * n * c["bytes_per_kept_organisation"], per_worker=False))
-    parts.append(Part("curves kept", (*curve_fields, rep_field), rows_kept * grid * c["bytes_per_curve_row"] * 2,
-                      per_worker=False))
+    rows_kept = {
+        "run": reps,
+        "compare": reps,
+        "referral": 2 * reps,
+        "seeding": reps * variants,
+        "sweep": 0,
+        "fit": 0,
+        "levers": 2 * reps * variants,
+    }[command]
+    parts.append(
+        Part(
+            "runs kept",
+            ("market.organisations", rep_field),
+            kept_runs * n * c["bytes_per_kept_organisation"],
+            per_worker=False,
+        )
+    )
+    parts.append(
+        Part(
+            "curves kept", (*curve_fields, rep_field), rows_kept * grid * c["bytes_per_curve_row"] * 2, per_worker=False
+        )
+    )
 
     chosen = s.study.compared if command == "seeding" else (s.seeding.strategy,)
     for name in chosen:
         if name == "random":
             continue
         secs, mem, fields = _strategy_cost(name, s)
-        parts.append(Part(f"seeding strategy {name}", fields, mem, secs * keys * (1 if command == "seeding" else variants)))
+        parts.append(
+            Part(f"seeding strategy {name}", fields, mem, secs * keys * (1 if command == "seeding" else variants))
+        )
     if command == "referral" and s.referral.enrol == "strategy" and s.referral.strategy != "random":
         secs, mem, fields = _strategy_cost(s.referral.strategy, s)
-        parts.append(Part(f"enrolment strategy {s.referral.strategy}", ("referral.strategy", *fields), mem,
-                          secs * keys * 2))
+        parts.append(
+            Part(f"enrolment strategy {s.referral.strategy}", ("referral.strategy", *fields), mem, secs * keys * 2)
+        )
 
     parts.append(Part("Python and its libraries", (), c["bytes_per_process"]))
     per_worker = sum(p.bytes for p in parts if p.per_worker)
@@ -360,8 +424,16 @@ def estimate_resources(scenario: Any, command: str = "run", *, replicates: int |
         for f in p.fields:
             values[f] = _field_value(s, f)
             growth[f] = _growth(s, f)
-    return Estimate(command=command, runs=runs, workers=workers, memory=memory, seconds=seconds,
-                    parts=tuple(parts), values=values, growth=growth)
+    return Estimate(
+        command=command,
+        runs=runs,
+        workers=workers,
+        memory=memory,
+        seconds=seconds,
+        parts=tuple(parts),
+        values=values,
+        growth=growth,
+    )
 
 
 def _growth(s: Any, dotted: str) -> float:
@@ -388,8 +460,16 @@ def _field_value(s: Any, dotted: str) -> Any:
     return node
 
 
-def check_resources(scenario: Any, command: str = "run", *, replicates: int | None = None, jobs: int | None = None,
-                    points: int = 1, skip: bool = False, memory: int | None = None) -> Estimate:
+def check_resources(
+    scenario: Any,
+    command: str = "run",
+    *,
+    replicates: int | None = None,
+    jobs: int | None = None,
+    points: int = 1,
+    skip: bool = False,
+    memory: int | None = None,
+) -> Estimate:
     """Refuse, before any allocation, what cannot fit this machine; return the estimate.
 
     Organisations beyond :data:`MAX_ORGANISATIONS` are refused always. Unless ``skip``, so
@@ -414,8 +494,9 @@ def check_resources(scenario: Any, command: str = "run", *, replicates: int | No
     """
     n = scenario.market.organisations
     if n > MAX_ORGANISATIONS:
-        raise ScenarioError(f"market.organisations must be at most {MAX_ORGANISATIONS:,} (organisation ids are "
-                            f"32-bit), got {n:,}")
+        raise ScenarioError(
+            f"market.organisations must be at most {MAX_ORGANISATIONS:,} (organisation ids are 32-bit), got {n:,}"
+        )
     est = estimate_resources(scenario, command, replicates=replicates, jobs=jobs, points=points)
     if skip:
         return est
@@ -427,10 +508,12 @@ def check_resources(scenario: Any, command: str = "run", *, replicates: int | No
         workers = f" x {est.workers} workers" if part.per_worker and est.workers > 1 else ""
         raise ScenarioError(
             f"{est.naming(part)} needs about {describe_bytes(held)} of memory ({part.what}{workers}); "
-            f"this machine has {describe_bytes(limit)}{hint}")
+            f"this machine has {describe_bytes(limit)}{hint}"
+        )
     if est.seconds > MAX_SECONDS:
         part = est.largest("seconds")
         raise ScenarioError(
             f"{est.naming(part)} needs about {describe_seconds(est.seconds)} of work ({part.what}, "
-            f"{est.runs:,} runs); more than {describe_seconds(MAX_SECONDS)} is refused as a likely mistake{hint}")
+            f"{est.runs:,} runs); more than {describe_seconds(MAX_SECONDS)} is refused as a likely mistake{hint}"
+        )
     return est

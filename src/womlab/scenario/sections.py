@@ -50,8 +50,19 @@ __all__ = [
     "REWARD_SCHEMES",
 ]
 
-NETWORK_KINDS = ("complete", "ring", "regular", "random", "small_world", "regional", "regional_blocks", "scale_free",
-                 "edgelist", "graphml", "gexf")
+NETWORK_KINDS = (
+    "complete",
+    "ring",
+    "regular",
+    "random",
+    "small_world",
+    "regional",
+    "regional_blocks",
+    "scale_free",
+    "edgelist",
+    "graphml",
+    "gexf",
+)
 # Kinds read from a file named by network.path (their size and mean degree come from it)
 FILE_KINDS = ("edgelist", "graphml", "gexf")
 RULES = ("share", "count", "capped", "threshold", "cascade")
@@ -179,10 +190,17 @@ class NetworkSpec:
             if self.path is None:
                 raise ScenarioError(f'network.path is required when network.kind = "{self.kind}", got None')
             if self.nodes_path is not None and self.kind != "edgelist":
-                fail("network.nodes_path", self.nodes_path, 'only with network.kind = "edgelist" (graph files carry '
-                     "their nodes' regions; see network.region_attribute)")
-            what = {"edgelist": "an existing CSV file", "graphml": "an existing GraphML file",
-                    "gexf": "an existing GEXF file"}[self.kind]
+                fail(
+                    "network.nodes_path",
+                    self.nodes_path,
+                    'only with network.kind = "edgelist" (graph files carry '
+                    "their nodes' regions; see network.region_attribute)",
+                )
+            what = {
+                "edgelist": "an existing CSV file",
+                "graphml": "an existing GraphML file",
+                "gexf": "an existing GEXF file",
+            }[self.kind]
             for name in ("path", "nodes_path"):
                 value = getattr(self, name)
                 if value is not None and not Path(value).is_file():
@@ -204,8 +222,12 @@ class NetworkSpec:
             fail("market.regions", scenario.market.regions, f'at least 2 for network.kind = "{self.kind}"')
         smallest = n // scenario.market.regions
         if self.kind == "regional" and smallest <= k:
-            fail("network.mean_degree", k, f'less than the smallest region ({smallest} organisations) for kind = '
-                 '"regional", whose regions are ring lattices of their own')
+            fail(
+                "network.mean_degree",
+                k,
+                f"less than the smallest region ({smallest} organisations) for kind = "
+                '"regional", whose regions are ring lattices of their own',
+            )
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -316,8 +338,11 @@ class Adoption:
             elif self.rule == "threshold" and value == math.inf:
                 pass  # the instant crossing: the limit of an ever faster rate once over the threshold
             elif not (math.isfinite(value) and value >= 0):
-                allowed = "a finite number >= 0 (or inf under the threshold rule)" if self.rule != "threshold" else (
-                    "a number >= 0 or inf")
+                allowed = (
+                    "a finite number >= 0 (or inf under the threshold rule)"
+                    if self.rule != "threshold"
+                    else ("a number >= 0 or inf")
+                )
                 fail(f"adoption.{name}", value, allowed)
         th = self.threshold
         one_of("adoption.threshold.distribution", th.distribution, THRESHOLD_DISTRIBUTIONS)
@@ -337,8 +362,12 @@ class Adoption:
             non_negative("adoption.churn_dissatisfied", self.churn_dissatisfied)
         for name in ("former_warn", "rejecters_warn"):
             if getattr(self, name) and self.warning == 0:
-                fail(f"adoption.{name}", True, "false while adoption.warning = 0 (only warnings make rejecters, and "
-                     "only warners pass them on); set adoption.warning > 0 or leave it out")
+                fail(
+                    f"adoption.{name}",
+                    True,
+                    "false while adoption.warning = 0 (only warnings make rejecters, and "
+                    "only warners pass them on); set adoption.warning > 0 or leave it out",
+                )
 
     @property
     def dissatisfied_churn(self) -> float:
@@ -410,7 +439,9 @@ class RunSpec:
             fail("run.report_every", r, "1/n of a period for a whole n >= 1 (1, 0.5, 0.25, 0.1, ...)")
         one_of("run.clock", self.clock, CLOCKS)
         if r < 1 and self.engine == "mesa" and self.clock == "discrete":
-            fail("run.report_every", r, 'a whole period (1) with run.engine = "mesa", which keeps adoption periods only')
+            fail(
+                "run.report_every", r, 'a whole period (1) with run.engine = "mesa", which keeps adoption periods only'
+            )
         if self.clock == "continuous":
             rule = scenario.adoption.rule
             if rule not in CONTINUOUS_RULES:
@@ -435,13 +466,14 @@ class RunSpec:
             if scenario.referral.active:
                 raise ScenarioError(
                     f'referral.enrol = "{scenario.referral.enrol}": a referral programme runs on run.clock = "discrete" '
-                    f"only (its boost and payments are per period); use run.clock = \"discrete\""
+                    f'only (its boost and payments are per period); use run.clock = "discrete"'
                 )
             if self.engine != "array":
                 raise ScenarioError(
                     f'run.engine = "{self.engine}" runs on run.clock = "discrete" only; '
                     f'run.clock = "continuous" uses the event engine (leave run.engine = "array")'
                 )
+
     @property
     def steps_per_period(self) -> int:
         return int(round(1 / self.time_step))
@@ -523,23 +555,34 @@ class Seeding:
         given = [name for name in ("ids", "ids_path") if getattr(self, name) is not None]
         if self.strategy != "listed":
             if given:
-                fail(f"seeding.{given[0]}", getattr(self, given[0]), 'used only with seeding.strategy = "listed"; '
-                     "leave it out")
+                fail(
+                    f"seeding.{given[0]}",
+                    getattr(self, given[0]),
+                    'used only with seeding.strategy = "listed"; leave it out',
+                )
             return
         if len(given) != 1:
-            raise ScenarioError('seeding.strategy = "listed" needs exactly one of seeding.ids (a list of organisation '
-                                f"ids) and seeding.ids_path (a CSV file), got {' and '.join(given) or 'neither'}")
+            raise ScenarioError(
+                'seeding.strategy = "listed" needs exactly one of seeding.ids (a list of organisation '
+                f"ids) and seeding.ids_path (a CSV file), got {' and '.join(given) or 'neither'}"
+            )
         ids = self.listed_ids()
         if not ids:
             fail(f"seeding.{given[0]}", self.ids_path or list(self.ids or ()), "at least one organisation id")
         repeated = sorted({i for i in ids if ids.count(i) > 1})
         if repeated:
-            fail(f"seeding.{given[0]}", self.ids_path or list(self.ids or ()),
-                 f"each id once (repeated: {', '.join(repr(r) for r in repeated[:5])})")
+            fail(
+                f"seeding.{given[0]}",
+                self.ids_path or list(self.ids or ()),
+                f"each id once (repeated: {', '.join(repr(r) for r in repeated[:5])})",
+            )
         if len(ids) > m.organisations:
             fail(f"seeding.{given[0]}", f"{len(ids)} ids", f"at most market.organisations = {m.organisations}")
-        stated = self.budget if self.budget is not None else (
-            m.n_initial if (m.initial_customers is not None or m.initial_share is not None) else None)
+        stated = (
+            self.budget
+            if self.budget is not None
+            else (m.n_initial if (m.initial_customers is not None or m.initial_share is not None) else None)
+        )
         if stated is not None and stated != len(ids):
             raise ScenarioError(
                 f"seeding.{given[0]} lists {len(ids)} organisations but the number of initial customers is {stated} "
@@ -699,17 +742,24 @@ class Referral:
 
     def check(self, scenario: ScenarioParts) -> None:
         one_of("referral.enrol", self.enrol, ENROLMENTS)
-        if self.lifetime is not None and (isinstance(self.lifetime, bool) or not isinstance(self.lifetime, int)
-                                          or self.lifetime < 0):
-            fail("referral.lifetime", self.lifetime, "a whole number of periods >= 0 (leave it out: until the "
-                 "baseline's market is exhausted)")
+        if self.lifetime is not None and (
+            isinstance(self.lifetime, bool) or not isinstance(self.lifetime, int) or self.lifetime < 0
+        ):
+            fail(
+                "referral.lifetime",
+                self.lifetime,
+                "a whole number of periods >= 0 (leave it out: until the baseline's market is exhausted)",
+            )
         in_unit("referral.enrol_share", self.enrol_share)
         n = scenario.market.organisations
         if self.enrol == "strategy":
             one_of("referral.strategy", self.strategy, strategy_names())
             if not 1 <= self.enrol_count <= n:
-                fail("referral.enrol_count", self.enrol_count,
-                      f'between 1 and market.organisations = {n} for enrol = "strategy"')
+                fail(
+                    "referral.enrol_count",
+                    self.enrol_count,
+                    f'between 1 and market.organisations = {n} for enrol = "strategy"',
+                )
         T = scenario.run.periods
         if not 1 <= self.start <= T:
             fail("referral.start", self.start, f"a period between 1 and run.periods = {T}")
@@ -732,17 +782,28 @@ class Referral:
         if self.referred_churn_multiplier is not None:
             non_negative("referral.referred_churn_multiplier", self.referred_churn_multiplier)
             if not scenario.adoption.churns:
-                fail("referral.referred_churn_multiplier", self.referred_churn_multiplier,
-                     "left out while no customer churns (adoption.churn and adoption.churn_dissatisfied are 0); "
-                     "set a churn rate > 0")
+                fail(
+                    "referral.referred_churn_multiplier",
+                    self.referred_churn_multiplier,
+                    "left out while no customer churns (adoption.churn and adoption.churn_dissatisfied are 0); "
+                    "set a churn rate > 0",
+                )
 
         if self.lifetime_value_from_churn:
             if self.lifetime_value is not None:
-                fail("referral.lifetime_value_from_churn", True, "false when referral.lifetime_value is given (the "
-                     "lifetime value is either given or derived from churn)")
+                fail(
+                    "referral.lifetime_value_from_churn",
+                    True,
+                    "false when referral.lifetime_value is given (the "
+                    "lifetime value is either given or derived from churn)",
+                )
             if scenario.adoption.churn <= 0:
-                fail("referral.lifetime_value_from_churn", True, "false while adoption.churn = 0 (a lifetime value "
-                     "derived from churn needs customers who leave); set adoption.churn > 0")
+                fail(
+                    "referral.lifetime_value_from_churn",
+                    True,
+                    "false while adoption.churn = 0 (a lifetime value "
+                    "derived from churn needs customers who leave); set adoption.churn > 0",
+                )
 
     @property
     def churn_multiplier(self) -> float:
@@ -790,8 +851,10 @@ def _read_ids(path: str, column: str, mtime: int, size: int) -> tuple[str, ...]:
     for line, row in enumerate(rows[1:], start=2):
         value = row[at].strip() if at < len(row) else ""
         if not value:
-            raise ScenarioError(f"seeding.ids_path: {name!r} line {line} has no id in column {column!r}; "
-                                "allowed: an organisation id on every row")
+            raise ScenarioError(
+                f"seeding.ids_path: {name!r} line {line} has no id in column {column!r}; "
+                "allowed: an organisation id on every row"
+            )
         ids.append(value)
     return tuple(ids)
 
@@ -874,8 +937,11 @@ def without_effect(scenario: Any, given: Iterable[str]) -> list[str]:
 def _uses(scenario: Any, name: str) -> bool:
     """Whether any part of the scenario chooses organisations with the strategy ``name``."""
     r = scenario.referral
-    return (scenario.seeding.strategy == name or name in scenario.study.strategies
-            or (r.enrol == "strategy" and r.strategy == name))
+    return (
+        scenario.seeding.strategy == name
+        or name in scenario.study.strategies
+        or (r.enrol == "strategy" and r.strategy == name)
+    )
 
 
 def _no_one_enrolled(s: Any) -> bool:
@@ -888,62 +954,133 @@ def _enrolment(s: Any) -> str:
     return 'referral.enrol = "share" with referral.enrol_share = 0 enrols no one'
 
 
-no_effect("adoption.cap", lambda s: s.adoption.rule != "capped",
-          lambda s: f'adoption.rule = "{s.adoption.rule}" (only the capped rule has a ceiling)')
-no_effect("adoption.threshold", lambda s: s.adoption.rule != "threshold",
-          lambda s: f'adoption.rule = "{s.adoption.rule}" (thresholds belong to the threshold rule)')
+no_effect(
+    "adoption.cap",
+    lambda s: s.adoption.rule != "capped",
+    lambda s: f'adoption.rule = "{s.adoption.rule}" (only the capped rule has a ceiling)',
+)
+no_effect(
+    "adoption.threshold",
+    lambda s: s.adoption.rule != "threshold",
+    lambda s: f'adoption.rule = "{s.adoption.rule}" (thresholds belong to the threshold rule)',
+)
 _FILE_KINDS = ("edgelist", "graphml", "gexf")
+
+
 def _kinds(s: Any) -> set[str]:
     """The network kinds a scenario runs on: its own, and those a fit chooses among."""
     fit = getattr(s, "fit", None)
     return {s.network.kind, *(getattr(fit, "network_kinds", ()) or ())}
 
 
-no_effect("network.rewiring", lambda s: not _kinds(s) & {"small_world", "regional"},
-          lambda s: f'network.kind = "{s.network.kind}" (rewiring shapes small worlds: kinds small_world, regional)')
-no_effect("network.within_region_share", lambda s: not _kinds(s) & {"regional", "regional_blocks"},
-          lambda s: f'network.kind = "{s.network.kind}" (it shapes regions: kinds regional, regional_blocks)')
-no_effect("network.mean_degree", lambda s: s.network.kind == "complete" or s.network.kind in _FILE_KINDS,
-          lambda s: ("every organisation is tied to every other on the complete network" if s.network.kind == "complete"
-                     else "a network file has its own mean degree, read from the file"))
-no_effect("network.path", lambda s: s.network.kind not in _FILE_KINDS,
-          lambda s: f'network.kind = "{s.network.kind}" (a file is read for kinds {", ".join(_FILE_KINDS)} only)')
-no_effect("network.nodes_path", lambda s: s.network.kind != "edgelist",
-          lambda s: f'network.kind = "{s.network.kind}" (a node file is read for kind = "edgelist" only)')
-no_effect("network.region_attribute", lambda s: s.network.kind not in ("graphml", "gexf"),
-          lambda s: f'network.kind = "{s.network.kind}" (it names a GraphML or GEXF node attribute)')
-no_effect("market.regions", lambda s: s.network.kind == "edgelist" and s.network.nodes_path is None,
-          lambda s: "an edge list without network.nodes_path puts every organisation in one region")
-for _name in ("referral.strategy", "referral.enrol_count", "referral.start", "referral.end",
-              "referral.talk_multiplier", "referral.extra_talkers", "referral.scheme", "referral.reward",
-              "referral.bonus", "referral.bonus_threshold", "referral.referred_reward", "referral.budget"):
+no_effect(
+    "network.rewiring",
+    lambda s: not _kinds(s) & {"small_world", "regional"},
+    lambda s: f'network.kind = "{s.network.kind}" (rewiring shapes small worlds: kinds small_world, regional)',
+)
+no_effect(
+    "network.within_region_share",
+    lambda s: not _kinds(s) & {"regional", "regional_blocks"},
+    lambda s: f'network.kind = "{s.network.kind}" (it shapes regions: kinds regional, regional_blocks)',
+)
+no_effect(
+    "network.mean_degree",
+    lambda s: s.network.kind == "complete" or s.network.kind in _FILE_KINDS,
+    lambda s: (
+        "every organisation is tied to every other on the complete network"
+        if s.network.kind == "complete"
+        else "a network file has its own mean degree, read from the file"
+    ),
+)
+no_effect(
+    "network.path",
+    lambda s: s.network.kind not in _FILE_KINDS,
+    lambda s: f'network.kind = "{s.network.kind}" (a file is read for kinds {", ".join(_FILE_KINDS)} only)',
+)
+no_effect(
+    "network.nodes_path",
+    lambda s: s.network.kind != "edgelist",
+    lambda s: f'network.kind = "{s.network.kind}" (a node file is read for kind = "edgelist" only)',
+)
+no_effect(
+    "network.region_attribute",
+    lambda s: s.network.kind not in ("graphml", "gexf"),
+    lambda s: f'network.kind = "{s.network.kind}" (it names a GraphML or GEXF node attribute)',
+)
+no_effect(
+    "market.regions",
+    lambda s: s.network.kind == "edgelist" and s.network.nodes_path is None,
+    lambda s: "an edge list without network.nodes_path puts every organisation in one region",
+)
+for _name in (
+    "referral.strategy",
+    "referral.enrol_count",
+    "referral.start",
+    "referral.end",
+    "referral.talk_multiplier",
+    "referral.extra_talkers",
+    "referral.scheme",
+    "referral.reward",
+    "referral.bonus",
+    "referral.bonus_threshold",
+    "referral.referred_reward",
+    "referral.budget",
+):
     no_effect(_name, _no_one_enrolled, _enrolment)
-no_effect("referral.enrol_share", lambda s: s.referral.enrol != "share",
-          lambda s: f'referral.enrol = "{s.referral.enrol}" (the share applies to enrol = "share")')
+no_effect(
+    "referral.enrol_share",
+    lambda s: s.referral.enrol != "share",
+    lambda s: f'referral.enrol = "{s.referral.enrol}" (the share applies to enrol = "share")',
+)
 for _name in ("referral.strategy", "referral.enrol_count"):
-    no_effect(_name, lambda s: s.referral.enrol != "strategy",
-              lambda s: f'referral.enrol = "{s.referral.enrol}" (it applies to enrol = "strategy")')
+    no_effect(
+        _name,
+        lambda s: s.referral.enrol != "strategy",
+        lambda s: f'referral.enrol = "{s.referral.enrol}" (it applies to enrol = "strategy")',
+    )
 for _name in ("referral.bonus", "referral.bonus_threshold"):
-    no_effect(_name, lambda s: s.referral.scheme == "linear",
-              lambda s: 'referral.scheme = "linear" pays no bonus (use "bonus" or "both")')
-no_effect("referral.reward", lambda s: s.referral.scheme == "bonus",
-          lambda s: 'referral.scheme = "bonus" pays the bonus only (use "linear" or "both")')
-no_effect("adoption.talkers_per_customer", lambda s: s.adoption.rule == "cascade",
-          lambda s: 'adoption.rule = "cascade" (each tie is one chance with probability word_of_mouth; talkers play '
-                    "no part)")
+    no_effect(
+        _name,
+        lambda s: s.referral.scheme == "linear",
+        lambda s: 'referral.scheme = "linear" pays no bonus (use "bonus" or "both")',
+    )
+no_effect(
+    "referral.reward",
+    lambda s: s.referral.scheme == "bonus",
+    lambda s: 'referral.scheme = "bonus" pays the bonus only (use "linear" or "both")',
+)
+no_effect(
+    "adoption.talkers_per_customer",
+    lambda s: s.adoption.rule == "cascade",
+    lambda s: 'adoption.rule = "cascade" (each tie is one chance with probability word_of_mouth; talkers play no part)',
+)
 # churn and warnings: fields of a mechanism that cannot act in the scenario
-no_effect("adoption.churn_dissatisfied", lambda s: s.adoption.satisfied_share == 1,
-          lambda s: "adoption.satisfied_share = 1 (no customer is dissatisfied)")
-no_effect("adoption.warning", lambda s: s.adoption.satisfied_share == 1 and not (s.adoption.former_warn
-                                                                                and s.adoption.churns),
-          lambda s: "adoption.satisfied_share = 1 and no former customer warns (only dissatisfied customers, former "
-                    "customers with former_warn and rejecters with rejecters_warn warn)")
-no_effect("adoption.former_warn", lambda s: not s.adoption.churns,
-          lambda s: "no customer churns (adoption.churn and adoption.churn_dissatisfied are 0), so there are no former "
-                    "customers")
+no_effect(
+    "adoption.churn_dissatisfied",
+    lambda s: s.adoption.satisfied_share == 1,
+    lambda s: "adoption.satisfied_share = 1 (no customer is dissatisfied)",
+)
+no_effect(
+    "adoption.warning",
+    lambda s: s.adoption.satisfied_share == 1 and not (s.adoption.former_warn and s.adoption.churns),
+    lambda s: (
+        "adoption.satisfied_share = 1 and no former customer warns (only dissatisfied customers, former "
+        "customers with former_warn and rejecters with rejecters_warn warn)"
+    ),
+)
+no_effect(
+    "adoption.former_warn",
+    lambda s: not s.adoption.churns,
+    lambda s: (
+        "no customer churns (adoption.churn and adoption.churn_dissatisfied are 0), so there are no former customers"
+    ),
+)
 for _name in ("run.time_step", "run.step_probability"):
-    no_effect(_name, lambda s: s.run.clock == "continuous",
-              lambda s: 'run.clock = "continuous" has no time step (exact adoption times)')
+    no_effect(
+        _name,
+        lambda s: s.run.clock == "continuous",
+        lambda s: 'run.clock = "continuous" has no time step (exact adoption times)',
+    )
 for _name in ("seeding.betweenness_exact_up_to", "seeding.betweenness_sample"):
     no_effect(_name, lambda s: not _uses(s, "bridges"), lambda s: "no strategy in use is bridges")
 for _name in ("seeding.greedy_runs", "seeding.greedy_candidates"):

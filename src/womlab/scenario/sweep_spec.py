@@ -25,8 +25,16 @@ from womlab.scenario.checks import coerce, fail, field_names, hints, one_of, pos
 from womlab.scenario.registry import sweep_study_fixed_fields, sweep_study_names
 from womlab.scenario.sections import Talkers
 
-__all__ = ["Axis", "SweepSpec", "SWEEP_DESIGNS", "FIXED_FIELDS", "field_type_in", "parse_axes", "is_path_field",
-           "resolve_path"]
+__all__ = [
+    "Axis",
+    "SweepSpec",
+    "SWEEP_DESIGNS",
+    "FIXED_FIELDS",
+    "field_type_in",
+    "parse_axes",
+    "is_path_field",
+    "resolve_path",
+]
 
 SWEEP_DESIGNS = ("grid", "latin", "sobol", "morris")
 
@@ -136,13 +144,19 @@ class SweepSpec:
         positive_int("sweep.samples", self.samples)
         positive_int("sweep.replicates", self.replicates)
         if self.design == "sobol" and (self.samples < 2 or self.samples & (self.samples - 1)):
-            fail("sweep.samples", self.samples, 'a power of 2 >= 2 for design = "sobol" (balance of the Sobol\' sequence)')
+            fail(
+                "sweep.samples",
+                self.samples,
+                'a power of 2 >= 2 for design = "sobol" (balance of the Sobol\' sequence)',
+            )
         if self.design == "morris" and (self.levels < 2 or self.levels % 2):
             fail("sweep.levels", self.levels, 'an even whole number >= 2 for design = "morris"')
         fixed = {**FIXED_FIELDS, **sweep_study_fixed_fields(self.study)}
         for axis in self.axes:
             if axis.name in fixed:
-                raise ScenarioError(f"sweep.axes.{axis.name!r}: {axis.name} may not vary in a sweep: {fixed[axis.name]}")
+                raise ScenarioError(
+                    f"sweep.axes.{axis.name!r}: {axis.name} may not vary in a sweep: {fixed[axis.name]}"
+                )
             _check_axis(axis, self.design, type(scenario))
         _check_followers(self.axes)
 
@@ -184,8 +198,10 @@ def field_type_in(root: type, dotted: str) -> type:
     for depth in range(1, len(parts)):
         if getattr(hint, "KEYED_BY_NAME", None) is not None:  # a section keyed by name: segments.NAME.FIELD
             if depth == len(parts) - 1:
-                raise ScenarioError(f"{dotted} is not a field; name one as {parts[0]}.NAME.FIELD "
-                                    f"({', '.join(n for n in field_names(hint.KEYED_BY_NAME) if n != 'name')})")
+                raise ScenarioError(
+                    f"{dotted} is not a field; name one as {parts[0]}.NAME.FIELD "
+                    f"({', '.join(n for n in field_names(hint.KEYED_BY_NAME) if n != 'name')})"
+                )
             hint = hint.KEYED_BY_NAME
             continue
         if not dataclasses.is_dataclass(hint):
@@ -197,8 +213,10 @@ def field_type_in(root: type, dotted: str) -> type:
     if hint is Talkers:
         return float
     if dataclasses.is_dataclass(hint):
-        raise ScenarioError(f"{dotted} is a table of fields; a sweep axis must name one of them "
-                            f"({', '.join(dotted + '.' + n for n in field_names(hint))})")
+        raise ScenarioError(
+            f"{dotted} is a table of fields; a sweep axis must name one of them "
+            f"({', '.join(dotted + '.' + n for n in field_names(hint))})"
+        )
     args = [a for a in typing.get_args(hint) if a is not type(None)]
     return args[0] if args else hint
 
@@ -215,7 +233,9 @@ def _check_axis(axis: Axis, design: str, root: type) -> None:
         if axis.follows is None and len(set(map(repr, axis.values))) != len(axis.values):
             fail(where, list(axis.values), "a list without repeated values")
         if design == "morris":
-            fail(where, list(axis.values), 'a range { from, to } for design = "morris" (elementary effects need a scale)')
+            fail(
+                where, list(axis.values), 'a range { from, to } for design = "morris" (elementary effects need a scale)'
+            )
         return
     if kind not in (int, float):
         fail(where, axis.to_table(), f"a list of values ({axis.name} is {kind.__name__}, not a number)")
@@ -243,12 +263,19 @@ def _check_followers(axes: tuple[Axis, ...]) -> None:
         where = f"sweep.axes.{axis.name!r}.follows"
         leader = by_name.get(axis.follows)
         if leader is None:
-            fail(where, axis.follows, f"another axis of this sweep ({', '.join(repr(a.name) for a in axes if a is not axis)})")
+            fail(
+                where,
+                axis.follows,
+                f"another axis of this sweep ({', '.join(repr(a.name) for a in axes if a is not axis)})",
+            )
         if leader.values is None or leader.follows is not None:
             fail(where, axis.follows, "a list axis that follows no other (a range axis has no k-th value)")
         if len(leader.values) != len(axis.values or ()):
-            fail(f"sweep.axes.{axis.name!r}.values", list(axis.values or ()),
-                 f"{len(leader.values)} values, as many as {axis.follows!r} has")
+            fail(
+                f"sweep.axes.{axis.name!r}.values",
+                list(axis.values or ()),
+                f"{len(leader.values)} values, as many as {axis.follows!r} has",
+            )
 
 
 def parse_axes(value: Any, dotted: str, base_dir: str | Path | None = None) -> tuple[Axis, ...]:
@@ -277,11 +304,17 @@ def parse_axes(value: Any, dotted: str, base_dir: str | Path | None = None) -> t
                 if key not in ("follows", "values"):
                     unknown_field(f"{where}.{key}", ["follows", "values"])
             values = spec.get("values")
-            if not isinstance(values, (list, tuple)) or any(isinstance(v, (dict, list, tuple)) or v is None
-                                                            for v in values):
+            if not isinstance(values, (list, tuple)) or any(
+                isinstance(v, (dict, list, tuple)) or v is None for v in values
+            ):
                 raise ScenarioError(f"{where}.values must be a list of numbers, text or true/false, got {values!r}")
-            axes.append(Axis(name=str(name), values=_paths(tuple(values), str(name), base_dir),
-                             follows=coerce(spec["follows"], str, f"{where}.follows")))
+            axes.append(
+                Axis(
+                    name=str(name),
+                    values=_paths(tuple(values), str(name), base_dir),
+                    follows=coerce(spec["follows"], str, f"{where}.follows"),
+                )
+            )
             continue
         known = ["from", "to", "steps", "log", "follows"]
         for key in spec:
@@ -297,7 +330,6 @@ def parse_axes(value: Any, dotted: str, base_dir: str | Path | None = None) -> t
             )
         )
     return tuple(axes)
-
 
 
 def _paths(values: tuple, name: str, base_dir: str | Path | None) -> tuple:

@@ -336,8 +336,12 @@ Scenario._source = None  # type: ignore[attr-defined]
 def input_fields() -> tuple[str, ...]:
     """Every scenario field that names an input file (``path`` or ``*_path``, resolved against the
     scenario file's folder), e.g. ``network.path``, ``network.nodes_path``, ``seeding.ids_path``."""
-    return tuple(f"{section}.{name}" for section, cls in SECTIONS.items() for name in field_names(cls)
-                 if is_path_field(f"{section}.{name}"))
+    return tuple(
+        f"{section}.{name}"
+        for section, cls in SECTIONS.items()
+        for name in field_names(cls)
+        if is_path_field(f"{section}.{name}")
+    )
 
 
 def _remember(scenario: Scenario, given: tuple[str, ...], paths: dict[str, str], source: dict | None) -> None:
@@ -456,7 +460,12 @@ def _fill_edgelist_facts(kwargs: dict[str, Any], market_given: Mapping[str, Any]
     derived quantity (the mapped Bass Q, the manifest) uses the network actually read.
     """
     network = kwargs.get("network")
-    if network is None or network.kind not in network_file_kinds() or network.path is None or not Path(network.path).is_file():
+    if (
+        network is None
+        or network.kind not in network_file_kinds()
+        or network.path is None
+        or not Path(network.path).is_file()
+    ):
         return
     if network.nodes_path is not None and not Path(network.nodes_path).is_file():
         return  # NetworkSpec.check names the missing file
@@ -472,11 +481,15 @@ def _fill_edgelist_facts(kwargs: dict[str, Any], market_given: Mapping[str, Any]
         )
     changes: dict[str, Any] = {"organisations": n}
     if network.nodes_path is not None or regions > 1:  # a node file, or a graph file's region attribute
-        source = ("node file", Path(network.nodes_path).name) if network.nodes_path is not None else (
-            _FILE_NAMES.get(network.kind, "network file"), name)
+        source = (
+            ("node file", Path(network.nodes_path).name)
+            if network.nodes_path is not None
+            else (_FILE_NAMES.get(network.kind, "network file"), name)
+        )
         if "regions" in market_given and market.regions != regions:
-            raise ScenarioError(f"market.regions must match the {source[0]} ({regions} regions in {source[1]}), "
-                                f"got {market.regions}")
+            raise ScenarioError(
+                f"market.regions must match the {source[0]} ({regions} regions in {source[1]}), got {market.regions}"
+            )
         changes["regions"] = regions
     kwargs["market"] = dataclasses.replace(market, **changes)
 
@@ -539,8 +552,10 @@ def load_scenario(path: str | Path, changes: Mapping[str, Any] | None = None) ->
     except RecursionError:
         raise ScenarioError(f"{path}: not valid TOML: tables or lists nested too deeply to read") from None
     if not data:
-        raise ScenarioError(f"{path}: holds no scenario (the file is empty or only comments); "
-                            "give at least a name and the sections that differ from the defaults")
+        raise ScenarioError(
+            f"{path}: holds no scenario (the file is empty or only comments); "
+            "give at least a name and the sections that differ from the defaults"
+        )
     if changes:
         data = _with_changes(data, changes)
     scenario = Scenario.from_dict(data, base_dir=p.parent)

@@ -9,6 +9,8 @@ dynamics layer registers (:func:`register_simulator`).
 
 from __future__ import annotations
 
+from womlab.seeding.centrality import betweenness, core_numbers
+from womlab.seeding.centrality import pagerank as pagerank_values
 from womlab.seeding.registry import (
     STRATEGIES,
     Simulator,
@@ -18,7 +20,6 @@ from womlab.seeding.registry import (
     register_simulator,
     strategy,
 )
-from womlab.seeding.centrality import betweenness, core_numbers, pagerank as pagerank_values
 from womlab.seeding.strategies import (
     bridges,
     by_region,

@@ -16,9 +16,9 @@ graphs. Compiled once per machine (``cache=True``).
 from __future__ import annotations
 
 import numpy as np
-from womlab.rules.compiled import compiled
 
 from womlab.networks import ReferralNetwork
+from womlab.rules.compiled import compiled
 
 __all__ = ["pagerank", "betweenness", "core_numbers"]
 

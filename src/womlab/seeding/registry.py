@@ -20,8 +20,15 @@ from womlab.networks import ReferralNetwork
 from womlab.scenario import Scenario, progress
 from womlab.scenario.registry import register_strategy_name
 
-__all__ = ["STRATEGIES", "strategy", "choose_seeds", "initial_customers", "register_simulator", "default_simulator",
-           "Simulator"]
+__all__ = [
+    "STRATEGIES",
+    "strategy",
+    "choose_seeds",
+    "initial_customers",
+    "register_simulator",
+    "default_simulator",
+    "Simulator",
+]
 
 Strategy = Callable[..., np.ndarray]
 STRATEGIES: dict[str, Strategy] = {}
@@ -94,9 +101,7 @@ def choose_seeds(
     try:
         func = STRATEGIES[name]
     except KeyError:
-        raise ScenarioError(
-            f"unknown seeding strategy {name!r}; known: {', '.join(sorted(STRATEGIES))}"
-        ) from None
+        raise ScenarioError(f"unknown seeding strategy {name!r}; known: {', '.join(sorted(STRATEGIES))}") from None
     if not 0 <= budget <= network.n:
         raise ScenarioError(f"seeding budget must be between 0 and {network.n} organisations, got {budget}")
     options = _OPTIONS[name](scenario) if (name in _OPTIONS and scenario is not None) else {}
@@ -104,7 +109,11 @@ def choose_seeds(
         options["simulate"] = default_simulator() if simulate is None else simulate
     with _stage(name, network, scenario):
         seeds = np.asarray(func(network, budget, rng, **options), dtype=np.int32)
-    if seeds.size != budget or np.unique(seeds).size != budget or (budget and not 0 <= seeds.min() <= seeds.max() < network.n):
+    if (
+        seeds.size != budget
+        or np.unique(seeds).size != budget
+        or (budget and not 0 <= seeds.min() <= seeds.max() < network.n)
+    ):
         raise RuntimeError(f"seeding strategy {name!r} returned {seeds.size} ids, not {budget} distinct valid ones")
     return seeds
 
@@ -128,5 +137,6 @@ def initial_customers(
     scenario: Scenario, network: ReferralNetwork, rng: np.random.Generator, *, simulate: Simulator | None = None
 ) -> np.ndarray:
     """The customers at period 0: ``scenario.n_initial`` organisations chosen by ``seeding.strategy``."""
-    return choose_seeds(scenario.seeding.strategy, network, scenario.n_initial, rng, scenario=scenario,
-                        simulate=simulate)
+    return choose_seeds(
+        scenario.seeding.strategy, network, scenario.n_initial, rng, scenario=scenario, simulate=simulate
+    )

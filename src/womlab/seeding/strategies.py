@@ -285,13 +285,17 @@ def listed(
     """
     seeds = network.positions(ids, where=where)
     if seeds.size != budget:
-        raise ScenarioError(f"{where} lists {seeds.size} organisations but the seeding budget is {budget}; "
-                            "give the same number")
+        raise ScenarioError(
+            f"{where} lists {seeds.size} organisations but the seeding budget is {budget}; give the same number"
+        )
     return seeds
 
 
 def engine_objective(
-    scenario: Scenario, network: ReferralNetwork, runs: int, rng: np.random.Generator,
+    scenario: Scenario,
+    network: ReferralNetwork,
+    runs: int,
+    rng: np.random.Generator,
     simulate: Simulator | None = None,
 ) -> Callable[[np.ndarray], float]:
     """σ̂(S): total customers at the horizon over ``runs`` Monte Carlo runs of ``simulate``
@@ -408,5 +412,3 @@ def greedy(
             continue
         heapq.heappush(heap, (-gain(v), k, v, len(chosen)))
     return np.asarray(chosen, dtype=np.int32)
-
-

@@ -24,8 +24,22 @@ from womlab.store.folders import (
 )
 from womlab.store.sweep_store import STORE_FORMAT, ResultsStore, runs_schema
 
-__all__ = ["atomic_write", "manifest", "results_folder", "versions", "check_results_folder", "FolderWriter", "MANIFEST",
-           "ResultsStore", "STORE_FORMAT", "RUNS_SCHEMA", "CURVES_SCHEMA", "runs_schema", "file_sha256", "differences"]
+__all__ = [
+    "atomic_write",
+    "manifest",
+    "results_folder",
+    "versions",
+    "check_results_folder",
+    "FolderWriter",
+    "MANIFEST",
+    "ResultsStore",
+    "STORE_FORMAT",
+    "RUNS_SCHEMA",
+    "CURVES_SCHEMA",
+    "runs_schema",
+    "file_sha256",
+    "differences",
+]
 
 
 def __getattr__(name: str) -> Any:  # RUNS_SCHEMA / CURVES_SCHEMA without importing pyarrow at import

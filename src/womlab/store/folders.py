@@ -40,11 +40,36 @@ from typing import Any
 
 from womlab.errors import StoreError
 
-__all__ = ["results_folder", "versions", "machine", "source_commit", "file_sha256", "atomic_write", "manifest",
-           "check_results_folder", "FolderWriter", "MANIFEST", "TIMING_FIELDS", "differences"]
+__all__ = [
+    "results_folder",
+    "versions",
+    "machine",
+    "source_commit",
+    "file_sha256",
+    "atomic_write",
+    "manifest",
+    "check_results_folder",
+    "FolderWriter",
+    "MANIFEST",
+    "TIMING_FIELDS",
+    "differences",
+]
 
-_LIBRARIES = ("womlab", "numpy", "numba", "scipy", "pandas", "networkx", "mesa", "matplotlib", "joblib",
-              "pyarrow", "dask", "distributed", "tqdm")
+_LIBRARIES = (
+    "womlab",
+    "numpy",
+    "numba",
+    "scipy",
+    "pandas",
+    "networkx",
+    "mesa",
+    "matplotlib",
+    "joblib",
+    "pyarrow",
+    "dask",
+    "distributed",
+    "tqdm",
+)
 
 #: The one manifest name of every results folder.
 MANIFEST = "manifest.json"
@@ -73,12 +98,17 @@ def source_commit() -> dict[str, Any] | None:
     """
     here = Path(__file__).resolve().parent
     try:
-        commit = subprocess.run(["git", "-C", str(here), "rev-parse", "HEAD"], capture_output=True, text=True,
-                                timeout=10)
+        commit = subprocess.run(
+            ["git", "-C", str(here), "rev-parse", "HEAD"], capture_output=True, text=True, timeout=10
+        )
         if commit.returncode != 0:
             return None
-        status = subprocess.run(["git", "-C", str(here), "status", "--porcelain", "--untracked-files=no"],
-                                capture_output=True, text=True, timeout=10)
+        status = subprocess.run(
+            ["git", "-C", str(here), "status", "--porcelain", "--untracked-files=no"],
+            capture_output=True,
+            text=True,
+            timeout=10,
+        )
     except (OSError, subprocess.SubprocessError):
         return None
     return {"commit": commit.stdout.strip(), "modified": bool(status.stdout.strip())}
@@ -144,8 +174,15 @@ def _shareable(path: Path) -> None:
     os.chmod(path, 0o666 & ~umask)  # mkstemp makes 0600; results folders are meant to be shared
 
 
-def manifest(study: Any, extra: dict | None = None, *, wall_time: float | None = None, command: str | None = None,
-             command_line: list[str] | None = None, sections: Iterable[str] | None = None) -> dict[str, Any]:
+def manifest(
+    study: Any,
+    extra: dict | None = None,
+    *,
+    wall_time: float | None = None,
+    command: str | None = None,
+    command_line: list[str] | None = None,
+    sections: Iterable[str] | None = None,
+) -> dict[str, Any]:
     """What a results folder records about how it was made, enough to make it again.
 
     ``study`` is anything with a ``scenario`` and a number of ``replicates`` (a batch, a
@@ -248,7 +285,9 @@ def _ours(out: Path, data: dict[str, Any] | None) -> set[str]:
     moving = out / _MOVING
     if moving.exists():
         try:
-            names.update(n for n in json.loads(moving.read_text(encoding="utf-8")) if isinstance(n, str) and "/" not in n)
+            names.update(
+                n for n in json.loads(moving.read_text(encoding="utf-8")) if isinstance(n, str) and "/" not in n
+            )
         except (OSError, UnicodeDecodeError, json.JSONDecodeError, TypeError):
             pass
     return names
@@ -276,8 +315,9 @@ def differences(there: dict, now: dict, limit: int = 6) -> list[str]:
     return out[:limit] + ([f"... and {len(out) - limit} more"] if len(out) > limit else [])
 
 
-def check_results_folder(out: str | Path, command: str, identity: dict[str, Any], names: Iterable[str], *,
-                         force: bool = False) -> Path:
+def check_results_folder(
+    out: str | Path, command: str, identity: dict[str, Any], names: Iterable[str], *, force: bool = False
+) -> Path:
     """Check, before any work, that ``command`` may write the files ``names`` into ``out``.
 
     ``identity`` is what must match for a folder's results to be replaced without
@@ -293,23 +333,30 @@ def check_results_folder(out: str | Path, command: str, identity: dict[str, Any]
         return out
     data = _read_manifest(out)
     if _is_sweep(out, data):
-        raise StoreError(f"--out {str(out)!r} holds a sweep's results (womlab sweep); choose another folder for "
-                         f"womlab {command}")
+        raise StoreError(
+            f"--out {str(out)!r} holds a sweep's results (womlab sweep); choose another folder for womlab {command}"
+        )
     ours = _ours(out, data)
     theirs = sorted(n for n in set(names) | {MANIFEST} if (out / n).exists() and n not in ours)
     if theirs:
-        raise StoreError(f"--out {str(out)!r} holds {', '.join(theirs)}, which womlab did not write; choose another "
-                         "folder (womlab never replaces files it did not make)")
+        raise StoreError(
+            f"--out {str(out)!r} holds {', '.join(theirs)}, which womlab did not write; choose another "
+            "folder (womlab never replaces files it did not make)"
+        )
     if data is None or force:
         return out
     if data.get("command") != command:
         made_by = f"womlab {data['command']}" if data.get("command") else "an earlier womlab"
-        raise StoreError(f"--out {str(out)!r} holds the results of {made_by}; use --force to replace them with "
-                         f"womlab {command}'s, or choose another folder")
+        raise StoreError(
+            f"--out {str(out)!r} holds the results of {made_by}; use --force to replace them with "
+            f"womlab {command}'s, or choose another folder"
+        )
     if data.get("identity") != identity:
         diff = differences(data.get("identity") or {}, identity, limit=4)
-        raise StoreError(f"--out {str(out)!r} holds the results of another scenario ({'; '.join(diff)}); use "
-                         "--force to replace them, or choose another folder")
+        raise StoreError(
+            f"--out {str(out)!r} holds the results of another scenario ({'; '.join(diff)}); use "
+            "--force to replace them, or choose another folder"
+        )
     return out
 
 
@@ -327,8 +374,9 @@ class FolderWriter:
     ['a.txt', 'manifest.json']
     """
 
-    def __init__(self, out: str | Path, command: str, identity: dict[str, Any], names: Iterable[str], *,
-                 force: bool = False) -> None:
+    def __init__(
+        self, out: str | Path, command: str, identity: dict[str, Any], names: Iterable[str], *, force: bool = False
+    ) -> None:
         self.out = check_results_folder(out, command, identity, names, force=force)
         self.command = command
         self.identity = identity
@@ -353,8 +401,9 @@ class FolderWriter:
         try:
             write(self._stage / name)
         except OSError as exc:
-            raise StoreError(f"--out {str(self.out)!r}: {name} could not be written ({exc.strerror or exc}); "
-                             "the folder is as it was") from None
+            raise StoreError(
+                f"--out {str(self.out)!r}: {name} could not be written ({exc.strerror or exc}); the folder is as it was"
+            ) from None
         self._files.append(name)
 
     def commit(self, info: dict[str, Any]) -> list[Path]:
@@ -362,8 +411,7 @@ class FolderWriter:
         if self._stage is None:
             raise RuntimeError("FolderWriter.commit outside its with-block")
         stage = self._stage
-        info = {**info, "command": self.command, "identity": self.identity,
-                "files": sorted({*self._files, MANIFEST})}
+        info = {**info, "command": self.command, "identity": self.identity, "files": sorted({*self._files, MANIFEST})}
         try:
             text = json.dumps(info, indent=2, default=_plain) + "\n"
             (stage / MANIFEST).write_text(text, encoding="utf-8")

@@ -53,14 +53,31 @@ import pandas as pd
 from womlab.errors import StoreError
 from womlab.store.folders import atomic_write, differences, file_sha256  # noqa: F401 - re-exported here too
 
-__all__ = ["ResultsStore", "RUNS_SCHEMA", "CURVES_SCHEMA", "STORE_FORMAT", "LOCK_NAME", "runs_schema", "file_sha256",
-           "differences", "RUN_COLUMNS"]
+__all__ = [
+    "ResultsStore",
+    "RUNS_SCHEMA",
+    "CURVES_SCHEMA",
+    "STORE_FORMAT",
+    "LOCK_NAME",
+    "runs_schema",
+    "file_sha256",
+    "differences",
+    "RUN_COLUMNS",
+]
 
 STORE_FORMAT = 3  # 3: a programme sweep's acceleration and expansion are whole-life (on a continuation)
 LOCK_NAME = ".womlab.lock"
 
-RUN_COLUMNS = (("customers", "int"), ("satisfied_customers", "int"), ("final_share", "float"), ("t10", "float"),
-               ("t50", "float"), ("t90", "float"), ("peak_period", "int"), ("peak_new_share", "float"))
+RUN_COLUMNS = (
+    ("customers", "int"),
+    ("satisfied_customers", "int"),
+    ("final_share", "float"),
+    ("t10", "float"),
+    ("t50", "float"),
+    ("t90", "float"),
+    ("peak_period", "int"),
+    ("peak_new_share", "float"),
+)
 """The outcome columns of the ``run`` study: those of every format 1 folder."""
 
 
@@ -84,10 +101,16 @@ def runs_schema(columns: Any = RUN_COLUMNS):  # noqa: ANN201 - a pyarrow schema
 
 def _curves_schema():  # noqa: ANN202
     pa, _ = _pa()
-    return pa.schema([
-        ("point", pa.int32()), ("replicate", pa.int32()), ("period", pa.int32()),
-        ("customers", pa.int32()), ("new_customers", pa.int32()), ("satisfied_customers", pa.int32()),
-    ])
+    return pa.schema(
+        [
+            ("point", pa.int32()),
+            ("replicate", pa.int32()),
+            ("period", pa.int32()),
+            ("customers", pa.int32()),
+            ("new_customers", pa.int32()),
+            ("satisfied_customers", pa.int32()),
+        ]
+    )
 
 
 def __getattr__(name: str) -> Any:  # RUNS_SCHEMA / CURVES_SCHEMA without importing pyarrow at import
@@ -279,9 +302,9 @@ class ResultsStore:
         self.parts.mkdir(exist_ok=True)
         for tmp in list(self.parts.glob(".*")) + list(self.path.glob(".*.parquet")) + list(self.path.glob(".*.json")):
             tmp.unlink(missing_ok=True)
-        runs = {f.name[len("runs-"):] for f in self.parts.glob("runs-*.parquet")}
+        runs = {f.name[len("runs-") :] for f in self.parts.glob("runs-*.parquet")}
         for f in self.parts.glob("curves-*.parquet"):
-            if f.name[len("curves-"):] not in runs:
+            if f.name[len("curves-") :] not in runs:
                 f.unlink(missing_ok=True)
         self.verify()
 

@@ -69,8 +69,15 @@ from womlab.studies.metrics import time_to_share
 from womlab.studies.observed import ObservedSeries, cumulative_at, observed_series, read_observed
 from womlab.studies.presenting import present
 from womlab.studies.runner import run_one, run_paired
-from womlab.studies.smc import FIT_KEY, SMCResult, SMCSettings, WorkingPrior, abc_smc, effective_sample_size
-from womlab.studies.smc import weighted_quantile
+from womlab.studies.smc import (
+    FIT_KEY,
+    SMCResult,
+    SMCSettings,
+    WorkingPrior,
+    abc_smc,
+    effective_sample_size,
+    weighted_quantile,
+)
 
 __all__ = [
     "Fit",
@@ -225,17 +232,24 @@ class _Progress:
                 if self.bar is None:
                     from tqdm.auto import tqdm
 
-                    self.bar = tqdm(total=info["particles"], desc=f"generation {g}, tolerance {tol_text}",
-                                    unit="accepted", leave=False, file=self.stream)
+                    self.bar = tqdm(
+                        total=info["particles"],
+                        desc=f"generation {g}, tolerance {tol_text}",
+                        unit="accepted",
+                        leave=False,
+                        file=self.stream,
+                    )
                 self.bar.n = info["accepted"]
                 self.bar.set_postfix(acceptance=f"{info['acceptance_rate']:.1%}", simulations=info["simulations"])
             return
         if self.bar is not None:
             self.bar.close()
             self.bar = None
-        line = (f"generation {g}: tolerance {tol_text}, accepted {info['accepted']} of {info['proposals']} "
-                f"({info['acceptance_rate']:.1%}), ESS {info['ess']:.0f}, {info['simulations']} simulations, "
-                f"{info['seconds']:.1f} s")
+        line = (
+            f"generation {g}: tolerance {tol_text}, accepted {info['accepted']} of {info['proposals']} "
+            f"({info['acceptance_rate']:.1%}), ESS {info['ess']:.0f}, {info['simulations']} simulations, "
+            f"{info['seconds']:.1f} s"
+        )
         print(line, file=self.stream, flush=True)
 
 
@@ -359,10 +373,22 @@ class Fit:
         for name, col, prior, role in columns:
             q = weighted_quantile(col, w, [0.05, 0.25, 0.5, 0.75, 0.95])
             mean = float(np.average(col, weights=w))
-            rows.append({"parameter": name, "role": role, "prior": prior, "median": q[2], "low_50": q[1], "high_50": q[3],
-                         "low_90": q[0], "high_90": q[4], "mean": mean,
-                         "sd": float(np.sqrt(np.average((col - mean) ** 2, weights=w))),
-                         "ess": ess, "particles": int(w.size)})
+            rows.append(
+                {
+                    "parameter": name,
+                    "role": role,
+                    "prior": prior,
+                    "median": q[2],
+                    "low_50": q[1],
+                    "high_50": q[3],
+                    "low_90": q[0],
+                    "high_90": q[4],
+                    "mean": mean,
+                    "sd": float(np.sqrt(np.average((col - mean) ** 2, weights=w))),
+                    "ess": ess,
+                    "particles": int(w.size),
+                }
+            )
         return pd.DataFrame(rows)
 
     def generations(self) -> pd.DataFrame:
@@ -382,14 +408,26 @@ class Fit:
         pop = self.smc.final
         probs = pop.model_probabilities(len(self.kinds))
         counts = np.bincount(pop.model, minlength=len(self.kinds))
-        return pd.DataFrame({"network_kind": list(self.kinds), "probability": probs, "particles": counts,
-                             "prior": 1.0 / len(self.kinds)})
+        return pd.DataFrame(
+            {
+                "network_kind": list(self.kinds),
+                "probability": probs,
+                "particles": counts,
+                "prior": 1.0 / len(self.kinds),
+            }
+        )
 
     def posterior_draws(self) -> PosteriorDraws:
         """The per-replicate draws a decision study uses (see :class:`PosteriorDraws`)."""
-        return PosteriorDraws(names=self.names, whole=tuple(field_type(n) is int for n in self.names),
-                              values=self.values(), kinds=self.kinds, models=self.smc.final.model.copy(),
-                              weights=self.weights / self.weights.sum(), seed=self.base.seed)
+        return PosteriorDraws(
+            names=self.names,
+            whole=tuple(field_type(n) is int for n in self.names),
+            values=self.values(),
+            kinds=self.kinds,
+            models=self.smc.final.model.copy(),
+            weights=self.weights / self.weights.sum(),
+            seed=self.base.seed,
+        )
 
     def scenario(self) -> Scenario:
         """The scenario at the posterior: the most probable network kind, and each free field
@@ -425,11 +463,17 @@ class Fit:
         if horizon not in self._paths:
             pop = self.smc.final
             values = self.values()
-            changes = _Changes(names=self.names, whole=tuple(field_type(n) is int for n in self.names),
-                               values=values, kinds=self.kinds, models=pop.model,
-                               rows={tuple(k): i for i, k in enumerate(pop.keys)})
-            runs = run_paired({"": self._sim_base(horizon)}, 0, jobs=self.jobs, keys=pop.keys, reduce=_path,
-                              vary=changes)[""]
+            changes = _Changes(
+                names=self.names,
+                whole=tuple(field_type(n) is int for n in self.names),
+                values=values,
+                kinds=self.kinds,
+                models=pop.model,
+                rows={tuple(k): i for i, k in enumerate(pop.keys)},
+            )
+            runs = run_paired(
+                {"": self._sim_base(horizon)}, 0, jobs=self.jobs, keys=pop.keys, reduce=_path, vary=changes
+            )[""]
             self._paths[horizon] = (np.vstack([r[0] for r in runs]), np.array([r[1] for r in runs], dtype=float))
         return self._paths[horizon]
 
@@ -473,7 +517,9 @@ class Fit:
         t = np.arange(horizon + 1)
         out: dict[str, Any] = {"period": t}
         obs = np.full(t.size, np.nan)
-        obs[self.observed.periods[self.observed.periods <= horizon]] = self.observed.counts[self.observed.periods <= horizon]
+        obs[self.observed.periods[self.observed.periods <= horizon]] = self.observed.counts[
+            self.observed.periods <= horizon
+        ]
         out[f"observed_{self.observed.kind}"] = obs
         held = np.zeros(t.size, dtype=bool)
         if self.held_out is not None:
@@ -534,9 +580,15 @@ class Fit:
         rows = [
             _stage_row("share_reached", reached, w, "share of the market that are customers at the last fitted period"),
             _stage_row("peak_period", peak, w, "period of most new customers"),
-            {"quantity": "peak_passed", "estimate": passed, "low_90": np.nan, "high_90": np.nan, "defined": 1.0,
-             "position": "after the peak" if passed >= 0.5 else "before the peak",
-             "meaning": f"probability the peak of new customers is at or before period {last}"},
+            {
+                "quantity": "peak_passed",
+                "estimate": passed,
+                "low_90": np.nan,
+                "high_90": np.nan,
+                "defined": 1.0,
+                "position": "after the peak" if passed >= 0.5 else "before the peak",
+                "meaning": f"probability the peak of new customers is at or before period {last}",
+            },
             _stage_row("t50", t50, w, "period at which half the market are customers"),
             _stage_row("periods_to_50", t50 - last, w, f"periods from period {last} to half the market"),
             _stage_row("t90", t90, w, "period at which 90 % of the market are customers"),
@@ -569,8 +621,11 @@ class Fit:
         if self.held_out is None:
             raise ScenarioError("holdout_scores needs a fit with holdout >= 1 (fit_observed(..., holdout=6))")
         whole = self.fitted.head(self.held_out.last_period)
-        whole = dataclasses.replace(whole, periods=np.concatenate([self.fitted.periods, self.held_out.periods]),
-                                    counts=np.concatenate([self.fitted.counts, self.held_out.counts]))
+        whole = dataclasses.replace(
+            whole,
+            periods=np.concatenate([self.fitted.periods, self.held_out.periods]),
+            counts=np.concatenate([self.fitted.counts, self.held_out.counts]),
+        )
         n_fit = len(self.fitted)
         truth = whole.cumulative()[n_fit:]
         paths, sizes = self.paths(self.held_out.last_period)
@@ -581,13 +636,22 @@ class Fit:
         bass_point = self._bass_statistic(whole)[n_fit:]
         b_low, b_high = self._bass_interval(whole, bootstrap)
         rows = []
-        for method, point, low, high in (("network model (ABC posterior)", q[1], q[0], q[2]),
-                                         ("Bass (least squares)", bass_point, b_low, b_high)):
+        for method, point, low, high in (
+            ("network model (ABC posterior)", q[1], q[0], q[2]),
+            ("Bass (least squares)", bass_point, b_low, b_high),
+        ):
             err = np.abs(point - truth)
-            rows.append({"method": method, "points": int(truth.size), "mae_customers": float(err.mean()),
-                         "mae_share": float(err.mean() / reference), "share_of": share_of,
-                         "coverage_90": float(np.mean((truth >= low) & (truth <= high))),
-                         "interval_width": float(np.mean(high - low))})
+            rows.append(
+                {
+                    "method": method,
+                    "points": int(truth.size),
+                    "mae_customers": float(err.mean()),
+                    "mae_share": float(err.mean() / reference),
+                    "share_of": share_of,
+                    "coverage_90": float(np.mean((truth >= low) & (truth <= high))),
+                    "interval_width": float(np.mean(high - low)),
+                }
+            )
         table = pd.DataFrame(rows)
         best = int(np.argmin(table["mae_customers"].to_numpy()))
         table["better"] = [i == best for i in range(len(table))]
@@ -645,8 +709,15 @@ def _stage_row(name: str, values: np.ndarray, w: np.ndarray, meaning: str) -> di
         q = weighted_quantile(values[ok], w[ok], (0.05, 0.5, 0.95))
     else:
         q = np.full(3, np.nan)
-    return {"quantity": name, "estimate": float(q[1]), "low_90": float(q[0]), "high_90": float(q[2]),
-            "defined": defined, "position": None, "meaning": meaning}
+    return {
+        "quantity": name,
+        "estimate": float(q[1]),
+        "low_90": float(q[0]),
+        "high_90": float(q[2]),
+        "defined": defined,
+        "position": None,
+        "meaning": meaning,
+    }
 
 
 def _distances(stats: np.ndarray, target: np.ndarray) -> np.ndarray:
@@ -664,8 +735,9 @@ def _bass_values(fit: BassFit, series: ObservedSeries, periods: np.ndarray, scal
     return fit.m * (bass_share(periods, fit.p, fit.Q) - bass_share(periods - 1.0, fit.p, fit.Q))
 
 
-def _fit_bass_to(series: ObservedSeries, values: np.ndarray, scale: float,
-                 start: tuple[float, float, float] | None = None) -> BassFit:
+def _fit_bass_to(
+    series: ObservedSeries, values: np.ndarray, scale: float, start: tuple[float, float, float] | None = None
+) -> BassFit:
     if series.kind == "customers":
         market = 1.0 if series.market is not None else None
         return fit_bass(values / scale, series.periods.astype(float), market=market, start=start)
@@ -673,17 +745,22 @@ def _fit_bass_to(series: ObservedSeries, values: np.ndarray, scale: float,
 
 
 # ----------------------------------------------------------------------------- fit_observed
-def _settle(scenario: Scenario, series: ObservedSeries, spec: FitSpec, notes: list[str]) -> tuple[tuple[str, ...], list[Prior]]:
+def _settle(
+    scenario: Scenario, series: ObservedSeries, spec: FitSpec, notes: list[str]
+) -> tuple[tuple[str, ...], list[Prior]]:
     names = spec.free_fields()
     if spec.free is None and not names:
         names = tuple(n for n in DEFAULT_FREE if not (n == _MARKET and series.market is not None))
         notes.append(f"free fields by default: {', '.join(names)}")
     if series.market is not None and _MARKET in names and spec.free is not None:
-        raise ObservedDataError(f"{series.source}: column 'market' gives the market size ({series.market}), so "
-                                f"market.organisations cannot be free as well; drop it from fit.free")
+        raise ObservedDataError(
+            f"{series.source}: column 'market' gives the market size ({series.market}), so "
+            f"market.organisations cannot be free as well; drop it from fit.free"
+        )
     if _MARKET in names and scenario.network.kind == "edgelist":
-        raise ScenarioError("fit.free: market.organisations is read from the edge list (network.kind = \"edgelist\"); "
-                            "it cannot be free")
+        raise ScenarioError(
+            'fit.free: market.organisations is read from the edge list (network.kind = "edgelist"); it cannot be free'
+        )
     floor = series.largest_count() + (scenario.n_initial if series.kind == "new_customers" else 0)
     priors = []
     for name in names:
@@ -692,25 +769,30 @@ def _settle(scenario: Scenario, series: ObservedSeries, spec: FitSpec, notes: li
             if name == _MARKET:
                 low = max(floor, scenario.n_initial, 1)
                 prior = Prior(name=name, distribution="log_uniform", low=float(low), high=float(10 * low))
-                notes.append(f"default prior for {name}: {prior.describe()} (the most customers the data show, "
-                             "to 10 times that)")
+                notes.append(
+                    f"default prior for {name}: {prior.describe()} (the most customers the data show, to 10 times that)"
+                )
             elif name in DEFAULT_PRIORS:
                 prior = dataclasses.replace(DEFAULT_PRIORS[name])
                 if name == "adoption.word_of_mouth" and scenario.adoption.rule == "cascade":
                     prior = Prior(name=name, distribution="uniform", low=0.0, high=1.0)
                 notes.append(f"default prior for {name}: {prior.describe()}")
             else:
-                raise ScenarioError(f"fit.priors: {name} has no default prior; give one, e.g. "
-                                    f"[fit.priors] \"{name}\" = {{ distribution = \"uniform\", low = ..., high = ... }}")
+                raise ScenarioError(
+                    f"fit.priors: {name} has no default prior; give one, e.g. "
+                    f'[fit.priors] "{name}" = {{ distribution = "uniform", low = ..., high = ... }}'
+                )
         if name == _MARKET:
             low, high = prior.bounds()
             if high < floor:
                 raise ObservedDataError(
                     f"fit.priors.'{_MARKET}'.high = {high:g} is below the {floor} customers {series.source} shows "
-                    f"(a market holds at least every customer seen); raise it above {floor}")
+                    f"(a market holds at least every customer seen); raise it above {floor}"
+                )
             if low < floor:
-                notes.append(f"{_MARKET} below {floor} cannot hold the customers the data show: the posterior "
-                             "has no mass there")
+                notes.append(
+                    f"{_MARKET} below {floor} cannot hold the customers the data show: the posterior has no mass there"
+                )
         priors.append(prior)
     return names, priors
 
@@ -718,9 +800,15 @@ def _settle(scenario: Scenario, series: ObservedSeries, spec: FitSpec, notes: li
 def _working(prior: Prior) -> WorkingPrior:
     low, high = prior.bounds()
     whole = field_type(prior.name) is int
-    return WorkingPrior(name=prior.name, distribution=prior.distribution, low=low, high=high,
-                        mean=prior.mean if prior.mean is not None else 0.0, sd=prior.sd if prior.sd is not None else 1.0,
-                        whole=whole)
+    return WorkingPrior(
+        name=prior.name,
+        distribution=prior.distribution,
+        low=low,
+        high=high,
+        mean=prior.mean if prior.mean is not None else 0.0,
+        sd=prior.sd if prior.sd is not None else 1.0,
+        whole=whole,
+    )
 
 
 def _check_values(base: Scenario, names: Sequence[str], priors: Sequence[Prior], kinds: Sequence[str]) -> None:
@@ -734,8 +822,9 @@ def _check_values(base: Scenario, names: Sequence[str], priors: Sequence[Prior],
             try:
                 base.replace(prior.name, v)
             except ScenarioError as exc:
-                raise ScenarioError(f"fit.priors.{prior.name!r}.{key} = {value:g} is outside what {prior.name} "
-                                    f"allows: {exc}") from None
+                raise ScenarioError(
+                    f"fit.priors.{prior.name!r}.{key} = {value:g} is outside what {prior.name} allows: {exc}"
+                ) from None
     for kind in kinds:
         try:
             base.replace("network.kind", kind)
@@ -813,8 +902,9 @@ def fit_observed(
     start = time.perf_counter()
     if observed is None:
         if scenario.fit.data_path is None:
-            raise ObservedDataError("no observed series: give one (observed=, womlab fit --data) or name its file in "
-                                    "fit.data_path")
+            raise ObservedDataError(
+                "no observed series: give one (observed=, womlab fit --data) or name its file in fit.data_path"
+            )
         observed = scenario.fit.data_path
     series = as_observed(observed)
     changes: dict[str, Any] = {}
@@ -839,8 +929,10 @@ def fit_observed(
         cut = series.last_period - int(holdout)
         fitted, held_out = series.head(cut), series.tail(cut)
         if len(fitted) < 4 or len(held_out) < 1:
-            raise ObservedDataError(f"{series.source}: holdout = {holdout} leaves {len(fitted)} points to fit and "
-                                    f"{len(held_out)} to score; a fit needs at least 4 and the score at least 1")
+            raise ObservedDataError(
+                f"{series.source}: holdout = {holdout} leaves {len(fitted)} points to fit and "
+                f"{len(held_out)} to score; a fit needs at least 4 and the score at least 1"
+            )
     base = _facts(scenario, series)
     names, prior_list = _settle(base, fitted, spec, notes)  # the fitted points only: nothing held out leaks in
     check_observed(series, base, market_free=_MARKET in names)
@@ -859,18 +951,33 @@ def fit_observed(
 
     def simulate(models: np.ndarray, theta: np.ndarray, keys: list) -> np.ndarray:
         values = np.column_stack([p.value(theta[:, j]) for j, p in enumerate(working)]) if working else theta
-        vary = _Changes(names=names, whole=whole, values=values, kinds=kinds, models=models,
-                        rows={tuple(k): i for i, k in enumerate(keys)})
+        vary = _Changes(
+            names=names,
+            whole=whole,
+            values=values,
+            kinds=kinds,
+            models=models,
+            rows={tuple(k): i for i, k in enumerate(keys)},
+        )
         stats = run_paired({"": sim_base}, 0, jobs=jobs, keys=keys, reduce=reduce, vary=vary)[""]
         return _distances(np.vstack(stats), target)
 
-    settings = SMCSettings(particles=spec.particles, generations=spec.generations, simulations=spec.simulations,
-                           quantile=spec.quantile, min_acceptance=spec.min_acceptance)
+    settings = SMCSettings(
+        particles=spec.particles,
+        generations=spec.generations,
+        simulations=spec.simulations,
+        quantile=spec.quantile,
+        min_acceptance=spec.min_acceptance,
+    )
     report = _Progress() if progress else None
     if progress:
-        print(f"fitting {', '.join(names)}{' and the network kind' if len(kinds) > 1 else ''} to {len(fitted)} points "
-              f"of {series.source}: {settings.particles} particles, up to {settings.generations + 1} generations and "
-              f"{settings.simulations} simulations, {jobs} worker(s)", file=sys.stderr, flush=True)
+        print(
+            f"fitting {', '.join(names)}{' and the network kind' if len(kinds) > 1 else ''} to {len(fitted)} points "
+            f"of {series.source}: {settings.particles} particles, up to {settings.generations + 1} generations and "
+            f"{settings.simulations} simulations, {jobs} worker(s)",
+            file=sys.stderr,
+            flush=True,
+        )
     result = abc_smc(working, simulate, seed=base.seed, settings=settings, models=len(kinds), report=report)
     scale = 1.0
     if fitted.kind == "customers":
@@ -882,17 +989,41 @@ def fit_observed(
             scale = float(base.market.organisations)
     bass = _fit_bass_to(fitted, fitted.counts.astype(float), scale)
     if progress:
-        print(f"stopped: {result.stopped}; {result.simulations} simulations in {result.wall_time:.1f} s",
-              file=sys.stderr, flush=True)
-    return Fit(base=base, observed=series, fitted=fitted, held_out=held_out, names=names, priors=tuple(prior_list),
-               working=working, kinds=kinds, smc=result, bass=bass, bass_scale=scale, settings=settings, jobs=jobs,
-               notes=notes, wall_time=time.perf_counter() - start)
+        print(
+            f"stopped: {result.stopped}; {result.simulations} simulations in {result.wall_time:.1f} s",
+            file=sys.stderr,
+            flush=True,
+        )
+    return Fit(
+        base=base,
+        observed=series,
+        fitted=fitted,
+        held_out=held_out,
+        names=names,
+        priors=tuple(prior_list),
+        working=working,
+        kinds=kinds,
+        smc=result,
+        bass=bass,
+        bass_scale=scale,
+        settings=settings,
+        jobs=jobs,
+        notes=notes,
+        wall_time=time.perf_counter() - start,
+    )
 
 
 # ----------------------------------------------------------------------------- synthetic series and calibration
-def simulated_series(scenario: Scenario, *, periods: int | None = None, kind: str = "new_customers",
-                     key: tuple[int, ...] = (0,), drop: Sequence[int] = (), market: bool = False,
-                     source: str = "simulated") -> ObservedSeries:
+def simulated_series(
+    scenario: Scenario,
+    *,
+    periods: int | None = None,
+    kind: str = "new_customers",
+    key: tuple[int, ...] = (0,),
+    drop: Sequence[int] = (),
+    market: bool = False,
+    source: str = "simulated",
+) -> ObservedSeries:
     """One simulated run of ``scenario`` as an observed series (for checks and demos).
 
     Parameters
@@ -927,8 +1058,13 @@ def simulated_series(scenario: Scenario, *, periods: int | None = None, kind: st
     else:
         raise ScenarioError(f"kind must be customers or new_customers, got {kind!r}")
     keep = ~np.isin(t, np.asarray(drop, dtype=int))
-    return ObservedSeries(periods=t[keep], counts=values[keep], kind=kind,
-                          market=scenario.market.organisations if market else None, source=source)
+    return ObservedSeries(
+        periods=t[keep],
+        counts=values[keep],
+        kind=kind,
+        market=scenario.market.organisations if market else None,
+        source=source,
+    )
 
 
 def simulation_based_calibration(
@@ -965,7 +1101,9 @@ def simulation_based_calibration(
     priors = [spec.prior(n) for n in names]
     if not names or any(p is None for p in priors):
         missing = [n for n, p in zip(names, priors) if p is None]
-        raise ScenarioError(f"simulation_based_calibration needs [fit.priors] for every free field; missing: {missing or 'fit.free is empty'}")
+        raise ScenarioError(
+            f"simulation_based_calibration needs [fit.priors] for every free field; missing: {missing or 'fit.free is empty'}"
+        )
     working = [_working(p) for p in priors]
     kinds = tuple(spec.network_kinds) if spec.network_kinds else (scenario.network.kind,)
     horizon = scenario.run.periods if periods is None else int(periods)
@@ -980,16 +1118,34 @@ def simulation_based_calibration(
         changes = dict(truth)
         if len(kinds) > 1:
             changes["network.kind"] = true_kind
-        series = simulated_series(scenario.replace(changes), periods=horizon, kind=kind,
-                                  key=(*_CALIBRATION_KEY, i), source=f"calibration point {i}")
+        series = simulated_series(
+            scenario.replace(changes),
+            periods=horizon,
+            kind=kind,
+            key=(*_CALIBRATION_KEY, i),
+            source=f"calibration point {i}",
+        )
         f = fit_observed(scenario, series, jobs=jobs, progress=progress)
         summary = f.summary().set_index("parameter")
         p_kind = float(f.network_kinds().set_index("network_kind").loc[true_kind, "probability"])
         for name in names:
             r = summary.loc[name]
             t = truth[name]
-            rows.append({"point": i, "parameter": name, "truth": t, "median": r["median"], "low_50": r["low_50"],
-                         "high_50": r["high_50"], "low_90": r["low_90"], "high_90": r["high_90"],
-                         "in_50": bool(r["low_50"] <= t <= r["high_50"]), "in_90": bool(r["low_90"] <= t <= r["high_90"]),
-                         "simulations": f.smc.simulations, "network_kind": true_kind, "p_true_kind": p_kind})
+            rows.append(
+                {
+                    "point": i,
+                    "parameter": name,
+                    "truth": t,
+                    "median": r["median"],
+                    "low_50": r["low_50"],
+                    "high_50": r["high_50"],
+                    "low_90": r["low_90"],
+                    "high_90": r["high_90"],
+                    "in_50": bool(r["low_50"] <= t <= r["high_50"]),
+                    "in_90": bool(r["low_90"] <= t <= r["high_90"]),
+                    "simulations": f.smc.simulations,
+                    "network_kind": true_kind,
+                    "p_true_kind": p_kind,
+                }
+            )
     return pd.DataFrame(rows)

@@ -99,16 +99,28 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
         network = build_network(scenario, np.random.default_rng(streams(scenario.seed, (0,)).network))
     n = market.organisations
     if run.clock == "continuous":
-        return {"bass_mapped": bass_share(t, par.p, par.Q, par.initial_share),
-                "degree_mean_field": degree_mean_field_curve(scenario, network, form="ode")}
+        return {
+            "bass_mapped": bass_share(t, par.p, par.Q, par.initial_share),
+            "degree_mean_field": degree_mean_field_curve(scenario, network, form="ode"),
+        }
     curves = {
         "bass_mapped": bass_share(t, par.p, par.Q, par.initial_share),
-        "bass_difference": bass_difference(run.periods, par.p, par.Q, par.initial_share,
-                                           time_step=run.time_step, form=run.step_probability),
+        "bass_difference": bass_difference(
+            run.periods, par.p, par.Q, par.initial_share, time_step=run.time_step, form=run.step_probability
+        ),
         "capped_bass_difference": capped_bass_difference(
-            run.periods, n, scenario.n_initial, slope=par.slope, satisfied_share=a.satisfied_share,
-            talkers_per_customer=par.mean_talkers, external=par.p, cap=par.cap, time_step=run.time_step,
-            form=run.step_probability) / n,
+            run.periods,
+            n,
+            scenario.n_initial,
+            slope=par.slope,
+            satisfied_share=a.satisfied_share,
+            talkers_per_customer=par.mean_talkers,
+            external=par.p,
+            cap=par.cap,
+            time_step=run.time_step,
+            form=run.step_probability,
+        )
+        / n,
         "degree_mean_field": degree_mean_field_curve(scenario, network),
     }
     if _changing_market(scenario):  # segments, a calendar, openings: the segment model on the same step
@@ -117,12 +129,16 @@ def aggregate_curves(scenario: Scenario, network: object | None = None) -> dict[
 
 
 def _changing_market(scenario: Scenario) -> bool:
-    return (scenario.adoption.rule in ("share", "count")
-            and (scenario.segments.active or scenario.campaign.active or bool(openings(scenario.market))))
+    return scenario.adoption.rule in ("share", "count") and (
+        scenario.segments.active or scenario.campaign.active or bool(openings(scenario.market))
+    )
 
 
 def _churn_models(scenario: Scenario) -> dict[str, pd.DataFrame]:
-    return {"bass_churn_mapped": churn_curves(scenario, continuous=True), "bass_churn_difference": churn_curves(scenario)}
+    return {
+        "bass_churn_mapped": churn_curves(scenario, continuous=True),
+        "bass_churn_difference": churn_curves(scenario),
+    }
 
 
 def installed_base_curves(scenario: Scenario) -> dict[str, np.ndarray]:
@@ -236,7 +252,8 @@ class Comparison:
             "t50_delay": float(m.loc["t50", "network"] - m.loc["t50", ref]),
             "t50_delay_low": float(m.loc["t50", "network_low"] - m.loc["t50", ref]),
             "t50_delay_high": float(m.loc["t50", "network_high"] - m.loc["t50", ref]),
-            "t50_degree_mean_field": float(m.loc["t50", "degree_mean_field"]) if "degree_mean_field" in m.columns
+            "t50_degree_mean_field": float(m.loc["t50", "degree_mean_field"])
+            if "degree_mean_field" in m.columns
             else float("nan"),
             "peak_ratio": float(m.loc["peak_new_share", "network"] / m.loc["peak_new_share", ref]),
             "peak_ratio_low": float(m.loc["peak_new_share", "network_low"] / m.loc["peak_new_share", ref]),
@@ -244,7 +261,8 @@ class Comparison:
             "max_gap": float(g.loc[ref, "gap_at_max"]),
             "time_of_max_gap": float(g.loc[ref, "time_of_max_gap"]),
             "rmse_reference": float(g.loc[ref, "rmse"]),
-            "rmse_degree_mean_field": float(g.loc["degree_mean_field", "rmse"]) if "degree_mean_field" in g.index
+            "rmse_degree_mean_field": float(g.loc["degree_mean_field", "rmse"])
+            if "degree_mean_field" in g.index
             else float("nan"),
         }
         return out
@@ -270,7 +288,9 @@ class Comparison:
 
     def replicate_table(self) -> pd.DataFrame:
         """One row per replicate: its curve metrics, its Bass fit (``fit_*``) and its gaps to the :attr:`reference` model."""
-        fits = self.replicate_fits.rename(columns={c: f"fit_{c}" for c in self.replicate_fits.columns if c != "replicate"})
+        fits = self.replicate_fits.rename(
+            columns={c: f"fit_{c}" for c in self.replicate_fits.columns if c != "replicate"}
+        )
         ref = self.reference
         gaps = self.replicate_gaps[self.replicate_gaps["aggregate"] == ref].drop(columns=["aggregate"])
         gaps = gaps.rename(columns={c: f"{c}_{ref}" for c in gaps.columns if c != "replicate"})
@@ -287,8 +307,11 @@ class Comparison:
             f"  word of mouth kept   Q_eff / Q_mapped = {h['Q_ratio']:.3f}  (95 % {h['Q_ratio_low']:.3f} to "
             f"{h['Q_ratio_high']:.3f}; Q_eff = {h['Q_eff']:.4g}, Q_mapped = {h['Q_mapped']:.4g}, "
             f"p_eff = {h['p_eff']:.3g}, m_eff = {h['m_eff']:.3g}"
-            + (": the fitted curve reaches the whole market)" if h["m_eff"] == 1 else
-               ": the share of the market the fitted curve reaches)"),
+            + (
+                ": the fitted curve reaches the whole market)"
+                if h["m_eff"] == 1
+                else ": the share of the market the fitted curve reaches)"
+            ),
             f"  time to 50 %         network {h['t50_network']:.2f}, {h['t50_delay']:+.2f} periods vs the "
             f"{AGGREGATE_LABELS[self.reference]} (95 % {h['t50_delay_low']:+.2f} to {h['t50_delay_high']:+.2f}); degree mean-field "
             f"{h['t50_degree_mean_field']:.2f}",
@@ -366,12 +389,28 @@ def compare(
     step = {} if run.clock == "continuous" else {"time_step": run.time_step, "form": run.step_probability}
     fit = fit_bass(shares.mean(axis=0), **step)
     curves["bass_fitted"] = fit.share(np.arange(shares.shape[1], dtype=float))
-    per_rep_fits = fit_replicates(shares, market=None if fit.market_fitted else 1.0, start=(fit.p, fit.Q, fit.m), **step)
-    fits = bass_fit_table(shares, Q_mapped=par.Q, p_mapped=par.p, bootstrap=fit_bootstrap, seed=seed, level=level,
-                          per_replicate=per_rep_fits, **step)
-    sf = fit_capped_bass_difference(shares.mean(axis=0), organisations=scenario.market.organisations,
-                                    satisfied_share=a.satisfied_share, talkers_per_customer=par.mean_talkers,
-                                    external=par.p, time_step=run.time_step, form=run.step_probability)
+    per_rep_fits = fit_replicates(
+        shares, market=None if fit.market_fitted else 1.0, start=(fit.p, fit.Q, fit.m), **step
+    )
+    fits = bass_fit_table(
+        shares,
+        Q_mapped=par.Q,
+        p_mapped=par.p,
+        bootstrap=fit_bootstrap,
+        seed=seed,
+        level=level,
+        per_replicate=per_rep_fits,
+        **step,
+    )
+    sf = fit_capped_bass_difference(
+        shares.mean(axis=0),
+        organisations=scenario.market.organisations,
+        satisfied_share=a.satisfied_share,
+        talkers_per_customer=par.mean_talkers,
+        external=par.p,
+        time_step=run.time_step,
+        form=run.step_probability,
+    )
     return Comparison(
         batch=batch,
         curves=curves,
@@ -383,8 +422,13 @@ def compare(
         replicate_fits=per_rep_fits,
         bass_fit=fit,
         stock_flow_fit=sf,
-        settings={"bootstrap": bootstrap, "fit_bootstrap": fit_bootstrap, "bootstrap_seed": seed, "level": level,
-                  "degree_mean_field_network": "replicate 0" if given is None else "the network given"},
+        settings={
+            "bootstrap": bootstrap,
+            "fit_bootstrap": fit_bootstrap,
+            "bootstrap_seed": seed,
+            "level": level,
+            "degree_mean_field_network": "replicate 0" if given is None else "the network given",
+        },
     )
 
 
@@ -426,8 +470,11 @@ def bass_fit_table(
     point = fit_bass(shares.mean(axis=0), saturation=saturation, time_step=time_step, form=form)
     market = None if point.market_fitted else 1.0
     x0 = (point.p, point.Q, point.m)
-    reps = per_replicate if per_replicate is not None else fit_replicates(
-        shares, market=market, start=x0, time_step=time_step, form=form)
+    reps = (
+        per_replicate
+        if per_replicate is not None
+        else fit_replicates(shares, market=market, start=x0, time_step=time_step, form=form)
+    )
     cache: dict[tuple[int, ...], tuple[float, float, float]] = {}
 
     def refit(index: np.ndarray) -> tuple[float, float, float]:
@@ -441,12 +488,14 @@ def bass_fit_table(
         def statistic(index: np.ndarray) -> np.ndarray:
             flat = index.reshape(-1, index.shape[-1])
             return np.array([refit(i)[j] / scale for i in flat]).reshape(index.shape[:-1])
+
         return statistic
 
     def interval(j: int, scale: float, bounds: tuple[float, float] | None):  # noqa: ANN202
         # the same seed for every parameter: the same resamples, so each curve is fitted once
-        return bootstrap_interval(parameter(j, scale), r, rng=np.random.default_rng(seed), level=level,
-                                  resamples=bootstrap, bounds=bounds)
+        return bootstrap_interval(
+            parameter(j, scale), r, rng=np.random.default_rng(seed), level=level, resamples=bootstrap, bounds=bounds
+        )
 
     a = (1 - level) / 2
     mapped = {"p": p_mapped, "Q": Q_mapped, "m": 1.0}

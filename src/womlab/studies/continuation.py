@@ -248,7 +248,12 @@ def continue_paired(
         periods = min(horizon + extra, limit)
         arms = {k: _continued(v, periods) for k, v in variants.items()}
         runs = run_paired(
-            arms, len(pending), jobs=jobs, progress=progress, keys=[keys[j] for j in pending], network=given,
+            arms,
+            len(pending),
+            jobs=jobs,
+            progress=progress,
+            keys=[keys[j] for j in pending],
+            network=given,
             vary=vary,
         )
         since = periods - max(horizon, extra // 2)

@@ -182,26 +182,35 @@ def curve_metrics_array(curves: np.ndarray, times: np.ndarray | None = None) -> 
     return {name: np.where(finite, out[name], np.nan) for name in METRIC_NAMES}
 
 
-def curve_gap_array(curves: np.ndarray, reference: np.ndarray, times: np.ndarray | None = None) -> dict[str, np.ndarray]:
+def curve_gap_array(
+    curves: np.ndarray, reference: np.ndarray, times: np.ndarray | None = None
+) -> dict[str, np.ndarray]:
     """:func:`curve_gap` of many curves (..., T + 1) against one reference: one array (...) per gap."""
     curves = np.asarray(curves, dtype=float)
     reference = np.asarray(reference, dtype=float)
     if curves.shape[-1] != reference.shape[-1]:
-        raise ValueError(f"curve_gap needs curves on one grid, got lengths {curves.shape[-1]} and {reference.shape[-1]}")
+        raise ValueError(
+            f"curve_gap needs curves on one grid, got lengths {curves.shape[-1]} and {reference.shape[-1]}"
+        )
     times = np.arange(curves.shape[-1], dtype=float) if times is None else np.asarray(times, dtype=float)
     gap = curves - reference
     body = gap[..., 1:] if gap.shape[-1] > 1 else gap
     i = np.argmax(np.abs(gap), axis=-1)
     at = _take(gap, i)
-    return {"rmse": np.sqrt(np.mean(body**2, axis=-1)), "max_abs_gap": np.abs(at), "gap_at_max": at,
-            "time_of_max_gap": times[i]}
+    return {
+        "rmse": np.sqrt(np.mean(body**2, axis=-1)),
+        "max_abs_gap": np.abs(at),
+        "gap_at_max": at,
+        "time_of_max_gap": times[i],
+    }
 
 
 _SMOOTH = ("t10", "t50", "t90", "peak_new_share", "final_share", "rmse", "max_abs_gap", "gap_at_max")
 
 
-def _influence(name: str, curves: np.ndarray, mean: np.ndarray, reference: np.ndarray | None,
-               times: np.ndarray) -> np.ndarray:
+def _influence(
+    name: str, curves: np.ndarray, mean: np.ndarray, reference: np.ndarray | None, times: np.ndarray
+) -> np.ndarray:
     """Influence of each replicate curve on a smooth statistic of a mean curve (the delta method).
 
     ``curves`` is (R, T + 1), the replicates; ``mean`` (B, T + 1), the mean curves of B
@@ -266,8 +275,10 @@ def mean_curve_interval(
     periods = t1 - 1
     times = np.arange(t1, dtype=float)
     if metric in METRIC_NAMES:
+
         def value(c: np.ndarray) -> np.ndarray:
             return curve_metrics_array(c)[metric]
+
         reference = None
     elif metric in GAP_NAMES and reference is not None:
         reference = np.asarray(reference, dtype=float)
@@ -275,8 +286,11 @@ def mean_curve_interval(
         def value(c: np.ndarray) -> np.ndarray:
             return curve_gap_array(c, reference)[metric]
     else:
-        raise ValueError(f"metric must be one of {', '.join(METRIC_NAMES)}, or of {', '.join(GAP_NAMES)} with a "
-                         f"reference curve; got {metric!r}")
+        raise ValueError(
+            f"metric must be one of {', '.join(METRIC_NAMES)}, or of {', '.join(GAP_NAMES)} with a "
+            f"reference curve; got {metric!r}"
+        )
+
     def resampled(i: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """How often each replicate is in each resample (B, R), and the resamples' mean curves (B, T + 1)."""
         if cache[0] is not i:
@@ -293,6 +307,7 @@ def mean_curve_interval(
 
     standard_error = None
     if metric in _SMOOTH:
+
         def standard_error(i: np.ndarray) -> np.ndarray:
             c, mean = resampled(i)
             m = i.shape[-1]
@@ -301,11 +316,25 @@ def mean_curve_interval(
             sd = np.sqrt((c * (infl - centre) ** 2).sum(axis=-1) / (m - 1))
             return (sd / np.sqrt(m)).reshape(i.shape[:-1])
 
-    bounds = {"peak_new_share": (0.0, 1.0), "final_share": (0.0, 1.0), "peak_period": (1.0, float(periods)),
-              "rmse": (0.0, 1.0), "max_abs_gap": (0.0, 1.0), "gap_at_max": (-1.0, 1.0)}.get(metric, (0.0, float(periods)))
+    bounds = {
+        "peak_new_share": (0.0, 1.0),
+        "final_share": (0.0, 1.0),
+        "peak_period": (1.0, float(periods)),
+        "rmse": (0.0, 1.0),
+        "max_abs_gap": (0.0, 1.0),
+        "gap_at_max": (-1.0, 1.0),
+    }.get(metric, (0.0, float(periods)))
     batch = max(1, int(4_000_000 // max(r * max(r, t1), 1)))
-    return bootstrap_interval(statistic, r, rng=np.random.default_rng(rng), standard_error=standard_error,
-                              level=level, resamples=bootstrap, bounds=bounds, batch=batch)
+    return bootstrap_interval(
+        statistic,
+        r,
+        rng=np.random.default_rng(rng),
+        standard_error=standard_error,
+        level=level,
+        resamples=bootstrap,
+        bounds=bounds,
+        batch=batch,
+    )
 
 
 def pooled_metrics(
@@ -347,9 +376,15 @@ def pooled_metrics(
             ci = t_interval(shares[:, -1], level, bounds=(0.0, 1.0))
         else:
             ci = mean_curve_interval(shares, name, bootstrap=bootstrap, rng=rng, level=level)
-        row = {"metric": name, "network": point[name], "network_low": ci.low, "network_high": ci.high,
-               "interval": ci.describe(), "replicate_mean": float(per_run[name].mean()),
-               "runs_reaching": int(per_run[name].notna().sum())}
+        row = {
+            "metric": name,
+            "network": point[name],
+            "network_low": ci.low,
+            "network_high": ci.high,
+            "interval": ci.describe(),
+            "replicate_mean": float(per_run[name].mean()),
+            "runs_reaching": int(per_run[name].notna().sum()),
+        }
         row.update({ref: m[name] for ref, m in ref_metrics.items()})
         rows.append(row)
     return pd.DataFrame(rows)

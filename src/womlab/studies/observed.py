@@ -147,8 +147,15 @@ def _fail(source: str, column: str, row: int | None, period: object, message: st
     return ObservedDataError(f"{where}: {message}")
 
 
-def _whole_numbers(frame: pd.DataFrame, column: str, source: str, periods: np.ndarray | None, *,
-                   minimum: int, allow_blank: bool = False) -> np.ndarray:
+def _whole_numbers(
+    frame: pd.DataFrame,
+    column: str,
+    source: str,
+    periods: np.ndarray | None,
+    *,
+    minimum: int,
+    allow_blank: bool = False,
+) -> np.ndarray:
     values = frame[column].tolist()
     out = np.zeros(len(values), dtype=np.int64)
     blank = np.zeros(len(values), dtype=bool)
@@ -160,8 +167,14 @@ def _whole_numbers(frame: pd.DataFrame, column: str, source: str, periods: np.nd
             if allow_blank:
                 blank[i] = True
                 continue
-            raise _fail(source, column, row, period, "is empty; every row needs a value (leave a missing period "
-                                                     "out of the file rather than writing 0 or nothing)")
+            raise _fail(
+                source,
+                column,
+                row,
+                period,
+                "is empty; every row needs a value (leave a missing period "
+                "out of the file rather than writing 0 or nothing)",
+            )
         try:
             number = float(text)
         except ValueError:
@@ -197,18 +210,23 @@ def observed_series(frame: pd.DataFrame, source: str = "data") -> ObservedSeries
     frame.columns = [str(c).strip() for c in frame.columns]
     for column in frame.columns:
         if column not in COLUMNS:
-            raise ObservedDataError(f"{source}: unknown column {column!r}; the columns are period, and "
-                                    "new_customers or customers, and optionally market")
+            raise ObservedDataError(
+                f"{source}: unknown column {column!r}; the columns are period, and "
+                "new_customers or customers, and optionally market"
+            )
     if len(set(frame.columns)) != len(frame.columns):
         raise ObservedDataError(f"{source}: a column appears twice in {list(frame.columns)}")
     if "period" not in frame.columns:
-        raise ObservedDataError(f"{source}: column 'period' is missing; the columns are period, and new_customers "
-                                "or customers, and optionally market")
+        raise ObservedDataError(
+            f"{source}: column 'period' is missing; the columns are period, and new_customers "
+            "or customers, and optionally market"
+        )
     given = [c for c in ("new_customers", "customers") if c in frame.columns]
     if len(given) != 1:
         what = "neither is there" if not given else "both are there"
-        raise ObservedDataError(f"{source}: give one of the columns new_customers (per period) or customers "
-                                f"(cumulative); {what}")
+        raise ObservedDataError(
+            f"{source}: give one of the columns new_customers (per period) or customers (cumulative); {what}"
+        )
     kind = given[0]
     if len(frame) < MIN_POINTS:
         raise ObservedDataError(f"{source}: a fit needs at least {MIN_POINTS} observed periods, got {len(frame)} rows")
@@ -217,14 +235,24 @@ def observed_series(frame: pd.DataFrame, source: str = "data") -> ObservedSeries
         if periods[i] == periods[i - 1]:
             raise _fail(source, "period", i + 2, None, f"period {periods[i]} appears twice (rows {i + 1} and {i + 2})")
         if periods[i] < periods[i - 1]:
-            raise _fail(source, "period", i + 2, None,
-                        f"periods must increase from row to row, got {periods[i]} after {periods[i - 1]}")
+            raise _fail(
+                source,
+                "period",
+                i + 2,
+                None,
+                f"periods must increase from row to row, got {periods[i]} after {periods[i - 1]}",
+            )
     counts = _whole_numbers(frame, kind, source, periods, minimum=0)
     if kind == "customers":
         for i in range(1, counts.size):
             if counts[i] < counts[i - 1]:
-                raise _fail(source, kind, i + 2, periods[i],
-                            f"customers must not fall (the column is cumulative), got {counts[i]} after {counts[i - 1]}")
+                raise _fail(
+                    source,
+                    kind,
+                    i + 2,
+                    periods[i],
+                    f"customers must not fall (the column is cumulative), got {counts[i]} after {counts[i - 1]}",
+                )
     market = None
     if "market" in frame.columns:
         sizes = _whole_numbers(frame, "market", source, periods, minimum=1, allow_blank=True)
@@ -234,8 +262,13 @@ def observed_series(frame: pd.DataFrame, source: str = "data") -> ObservedSeries
         market = int(sizes[given_rows[0]])
         for i in given_rows:
             if sizes[i] != market:
-                raise _fail(source, "market", i + 2, periods[i],
-                            f"the market size must be the same in every row, got {sizes[i]} after {market}")
+                raise _fail(
+                    source,
+                    "market",
+                    i + 2,
+                    periods[i],
+                    f"the market size must be the same in every row, got {sizes[i]} after {market}",
+                )
         running = counts if kind == "customers" else np.cumsum(counts)
         over = np.flatnonzero(running > market)
         if over.size:

@@ -40,8 +40,11 @@ def programme_summary(scenario: Scenario) -> str:
     r = scenario.referral
     if not r.active:
         return 'no programme (referral.enrol = "none")'
-    who = {"all": "all", "share": f"a share {r.enrol_share:g} of organisations",
-           "strategy": f"{r.enrol_count:,} chosen by {r.strategy}"}[r.enrol]
+    who = {
+        "all": "all",
+        "share": f"a share {r.enrol_share:g} of organisations",
+        "strategy": f"{r.enrol_count:,} chosen by {r.strategy}",
+    }[r.enrol]
     parts = [f"enrol {who}", f"periods {r.start}-{r.last_period(scenario.run.periods)}"]
     if r.talk_multiplier != 1:
         parts.append(f"word of mouth x{r.talk_multiplier:g}")
@@ -56,11 +59,16 @@ def programme_summary(scenario: Scenario) -> str:
     parts.append(f"budget {r.budget:g}" if r.budget is not None else "no budget cap")
     v = 1.0 if r.value_per_period is None else r.value_per_period
     if r.lifetime_value_from_churn:
-        parts.append(f"lifetime value from churn ({v:g} per period, churn {scenario.adoption.churn:g}, "
-                     f"discount {r.discount_rate:g})")
+        parts.append(
+            f"lifetime value from churn ({v:g} per period, churn {scenario.adoption.churn:g}, "
+            f"discount {r.discount_rate:g})"
+        )
     else:
-        parts.append(f"lifetime value {r.lifetime_value:g}" if r.lifetime_value is not None else
-                     f"value {v:g} per customer per period")
+        parts.append(
+            f"lifetime value {r.lifetime_value:g}"
+            if r.lifetime_value is not None
+            else f"value {v:g} per customer per period"
+        )
     return ", ".join(parts)
 
 
@@ -98,30 +106,63 @@ def plan(scenario: Scenario, *, jobs: int | None = None) -> pd.DataFrame:
 
     def add(command: str, what: str, points: int = 1) -> None:
         e = estimate_resources(s, command, jobs=jobs, points=points)
-        rows.append({"command": command, "what": what, "runs": e.runs, "workers": e.workers, "memory": e.memory,
-                     "seconds": e.seconds, "estimate": f"{e.runs:,} runs on {e.workers} worker"
-                     f"{'s' if e.workers != 1 else ''}, about {describe_seconds(e.seconds)}, peak memory about "
-                     f"{describe_bytes(e.memory)}"})
+        rows.append(
+            {
+                "command": command,
+                "what": what,
+                "runs": e.runs,
+                "workers": e.workers,
+                "memory": e.memory,
+                "seconds": e.seconds,
+                "estimate": f"{e.runs:,} runs on {e.workers} worker"
+                f"{'s' if e.workers != 1 else ''}, about {describe_seconds(e.seconds)}, peak memory about "
+                f"{describe_bytes(e.memory)}",
+            }
+        )
 
     add("run", f"{run.replicates:,} replicates of {size}")
     add("compare", f"the same {run.replicates:,} replicates, then every aggregate curve, the Bass fits and the gaps")
     reps = s.study.replicates if s.study.replicates is not None else run.replicates
     names = s.study.compared
     where = "study.replicates" if s.study.replicates is not None else "run.replicates, as study.replicates is not set"
-    add("seeding", f"{len(names)} strategies ({', '.join(names)}) x {reps:,} paired replicates ({where}), "
-                   f"budget {s.n_initial:,} seeds")
+    add(
+        "seeding",
+        f"{len(names)} strategies ({', '.join(names)}) x {reps:,} paired replicates ({where}), "
+        f"budget {s.n_initial:,} seeds",
+    )
     if s.referral.active:
         add("referral", f"programme against none on {run.replicates:,} paired replicates: {programme_summary(s)}")
     else:
-        rows.append({"command": "referral", "what": programme_summary(s), "runs": 0, "workers": 0, "memory": 0.0,
-                     "seconds": 0.0, "estimate": "nothing to run"})
+        rows.append(
+            {
+                "command": "referral",
+                "what": programme_summary(s),
+                "runs": 0,
+                "workers": 0,
+                "memory": 0.0,
+                "seconds": 0.0,
+                "estimate": "nothing to run",
+            }
+        )
     if s.levers.levers:
         pulled = s.levers.pulled_at or tuple(range(run.periods))
-        add("levers", f"{len(s.levers.names)} levers ({', '.join(s.levers.names)}) x {len(pulled)} periods pulled, "
-                      f"each arm paired with the baseline on {run.replicates:,} replicates and continued past the horizon")
+        add(
+            "levers",
+            f"{len(s.levers.names)} levers ({', '.join(s.levers.names)}) x {len(pulled)} periods pulled, "
+            f"each arm paired with the baseline on {run.replicates:,} replicates and continued past the horizon",
+        )
     else:
-        rows.append({"command": "levers", "what": "no [levers] section", "runs": 0, "workers": 0, "memory": 0.0,
-                     "seconds": 0.0, "estimate": "nothing to run"})
+        rows.append(
+            {
+                "command": "levers",
+                "what": "no [levers] section",
+                "runs": 0,
+                "workers": 0,
+                "memory": 0.0,
+                "seconds": 0.0,
+                "estimate": "nothing to run",
+            }
+        )
     try:
         points = _sweep_points(s)
     except ScenarioError as exc:  # pragma: no cover - a sweep section is validated on load
@@ -132,17 +173,38 @@ def plan(scenario: Scenario, *, jobs: int | None = None) -> pd.DataFrame:
         sw = s.sweep
         add("sweep", f"{sw.design} design: {points:,} points x {sw.replicates:,} replicates", points=points)
     else:
-        rows.append({"command": "sweep", "what": note, "runs": 0, "workers": 0, "memory": 0.0, "seconds": 0.0,
-                     "estimate": "nothing to run"})
+        rows.append(
+            {
+                "command": "sweep",
+                "what": note,
+                "runs": 0,
+                "workers": 0,
+                "memory": 0.0,
+                "seconds": 0.0,
+                "estimate": "nothing to run",
+            }
+        )
     fit = s.fit
     if fit.free is None and fit.data_path is None:
-        rows.append({"command": "fit", "what": "no [fit] section", "runs": 0, "workers": 0, "memory": 0.0,
-                     "seconds": 0.0, "estimate": "nothing to run"})
+        rows.append(
+            {
+                "command": "fit",
+                "what": "no [fit] section",
+                "runs": 0,
+                "workers": 0,
+                "memory": 0.0,
+                "seconds": 0.0,
+                "estimate": "nothing to run",
+            }
+        )
     else:
         free = ", ".join(fit.free) if fit.free else "the default free fields"
         kinds = f", choosing among {', '.join(fit.network_kinds)}" if fit.network_kinds else ""
-        add("fit", f"ABC-SMC over {free}{kinds}: {fit.particles:,} particles, at most {fit.generations} generations "
-                   f"and {fit.simulations:,} simulations (fit.simulations) of {size}")
+        add(
+            "fit",
+            f"ABC-SMC over {free}{kinds}: {fit.particles:,} particles, at most {fit.generations} generations "
+            f"and {fit.simulations:,} simulations (fit.simulations) of {size}",
+        )
     return pd.DataFrame(rows)
 
 
@@ -176,15 +238,22 @@ def slow_steps(scenario: Scenario, command: str = "seeding", *, limit: float = S
         n = s.market.organisations
         if name == "bridges":
             exact = n <= s.seeding.betweenness_exact_up_to
-            what = (f"exact betweenness over all {n:,} organisations" if exact else
-                    f"sampled betweenness from {min(n, s.seeding.betweenness_sample):,} of {n:,} organisations "
-                    "(seeding.betweenness_sample)")
+            what = (
+                f"exact betweenness over all {n:,} organisations"
+                if exact
+                else f"sampled betweenness from {min(n, s.seeding.betweenness_sample):,} of {n:,} organisations "
+                "(seeding.betweenness_sample)"
+            )
         elif name == "greedy":
-            what = (f"greedy search, {s.seeding.greedy_runs} simulations per evaluation of up to "
-                    f"{s.seeding.greedy_candidates or n:,} candidates (seeding.greedy_runs, greedy_candidates)")
+            what = (
+                f"greedy search, {s.seeding.greedy_runs} simulations per evaluation of up to "
+                f"{s.seeding.greedy_candidates or n:,} candidates (seeding.greedy_runs, greedy_candidates)"
+            )
         else:
             what = f"{name} centrality on {n:,} organisations"
-        out.append(f"{name}: {what} takes about {describe_seconds(secs)} per replicate, about "
-                   f"{describe_seconds(secs * reps / workers)} for {reps:,} replicates on {workers} worker"
-                   f"{'s' if workers != 1 else ''} (rough)")
+        out.append(
+            f"{name}: {what} takes about {describe_seconds(secs)} per replicate, about "
+            f"{describe_seconds(secs * reps / workers)} for {reps:,} replicates on {workers} worker"
+            f"{'s' if workers != 1 else ''} (rough)"
+        )
     return out

@@ -68,8 +68,9 @@ def _value_per_period(referral: Referral) -> float:
     return 1.0 if referral.value_per_period is None else referral.value_per_period
 
 
-def customer_values(adoption_period: np.ndarray, referral: Referral, periods: int,
-                    leave_period: np.ndarray | None = None) -> np.ndarray:
+def customer_values(
+    adoption_period: np.ndarray, referral: Referral, periods: int, leave_period: np.ndarray | None = None
+) -> np.ndarray:
     """Discounted value of each organisation as a customer, to the horizon (0 if it never adopts).
 
     With ``value_per_period`` v a customer that adopts in period a is worth
@@ -126,10 +127,16 @@ def with_lifetime_value_from_churn(scenario: Scenario) -> Scenario:
     a, ref, run = scenario.adoption, scenario.referral, scenario.run
     if not a.churns or a.churn == 0:
         raise ScenarioError(f"adoption.churn must be > 0 to derive referral.lifetime_value from it, got {a.churn!r}")
-    value = geometric_lifetime_value(_value_per_period(ref), a.churn, ref.discount_rate, time_step=run.time_step,
-                                     form=run.step_probability)
-    return scenario.replace({"referral.value_per_period": None, "referral.lifetime_value": value,
-                             "referral.lifetime_value_from_churn": False})
+    value = geometric_lifetime_value(
+        _value_per_period(ref), a.churn, ref.discount_rate, time_step=run.time_step, form=run.step_probability
+    )
+    return scenario.replace(
+        {
+            "referral.value_per_period": None,
+            "referral.lifetime_value": value,
+            "referral.lifetime_value_from_churn": False,
+        }
+    )
 
 
 def _valued(scenario: Scenario) -> Scenario:
@@ -202,7 +209,10 @@ def _split(a0: np.ndarray, a1: np.ndarray, v0: np.ndarray, v1: np.ndarray) -> di
 
 
 def programme_economics(
-    baseline: RunResult, programme: RunResult, referral: Referral, *,
+    baseline: RunResult,
+    programme: RunResult,
+    referral: Referral,
+    *,
     continued: tuple[RunResult, RunResult] | None = None,
 ) -> dict:
     """The economics of one programme run against its paired baseline run.
@@ -274,20 +284,38 @@ def programme_economics(
     out.update(losses(baseline, referral, "baseline"))
     out.update(losses(programme, referral, "programme"))
     if continued is None:
-        out.update(dict.fromkeys(("acceleration", "expansion", "accelerated", "delayed", "expanded", "lost",
-                                  "incremental_value_lifetime", "roi_lifetime", "continued_to"), float("nan")))
+        out.update(
+            dict.fromkeys(
+                (
+                    "acceleration",
+                    "expansion",
+                    "accelerated",
+                    "delayed",
+                    "expanded",
+                    "lost",
+                    "incremental_value_lifetime",
+                    "roi_lifetime",
+                    "continued_to",
+                ),
+                float("nan"),
+            )
+        )
         return out
     c0, c1 = continued
     if c0.n != baseline.n or c1.n != baseline.n or c0.periods != c1.periods or c0.periods < T:
         raise ValueError("the continued runs must have the same organisations and one horizon at or after T")
     H = c0.periods
-    split = _split(c0.adoption_period, c1.adoption_period,
-                   customer_values(c0.adoption_period, referral, H, c0.leave_period),
-                   customer_values(c1.adoption_period, referral, H, c1.leave_period))
+    split = _split(
+        c0.adoption_period,
+        c1.adoption_period,
+        customer_values(c0.adoption_period, referral, H, c0.leave_period),
+        customer_values(c1.adoption_period, referral, H, c1.leave_period),
+    )
     lifetime_value = split["acceleration"] + split["expansion"]
     out.update(split)
-    out.update({"incremental_value_lifetime": lifetime_value, "roi_lifetime": roi(lifetime_value, cost),
-                "continued_to": H})
+    out.update(
+        {"incremental_value_lifetime": lifetime_value, "roi_lifetime": roi(lifetime_value, cost), "continued_to": H}
+    )
     return out
 
 
@@ -326,8 +354,15 @@ def programme_ratios(table: pd.DataFrame, *, bootstrap: int, rng: np.random.Gene
     rows = []
     for name, (num, den, offset, bounds) in _RATIOS.items():
         if num not in table or den not in table:  # a table from before the column existed
-            rows.append({"outcome": name, "estimate": np.nan, "low": np.nan, "high": np.nan,
-                         "interval": f"none: no {num if num not in table else den} column"})
+            rows.append(
+                {
+                    "outcome": name,
+                    "estimate": np.nan,
+                    "low": np.nan,
+                    "high": np.nan,
+                    "interval": f"none: no {num if num not in table else den} column",
+                }
+            )
             continue
         x, b = (table[k].to_numpy(dtype=float) for k in (num, den))
         finite = bool(np.isfinite(x).all() and np.isfinite(b).all())
@@ -342,19 +377,30 @@ def programme_ratios(table: pd.DataFrame, *, bootstrap: int, rng: np.random.Gene
             with np.errstate(divide="ignore", invalid="ignore"):
                 return np.where(total > 0, x[i].sum(axis=-1) / total + offset, np.nan)
 
-        ci = bootstrap_interval(statistic, n, rng=np.random.default_rng(seed), bounds=bounds, resamples=bootstrap,
-                                standard_error=lambda i, x=x, b=b: ratio_standard_error(x[i], b[i]))
-        rows.append({"outcome": name, "estimate": est, "low": ci.low, "high": ci.high,
-                     "interval": f"ratio of totals; {ci.describe()}, {bootstrap} resamples of replicates"})
+        ci = bootstrap_interval(
+            statistic,
+            n,
+            rng=np.random.default_rng(seed),
+            bounds=bounds,
+            resamples=bootstrap,
+            standard_error=lambda i, x=x, b=b: ratio_standard_error(x[i], b[i]),
+        )
+        rows.append(
+            {
+                "outcome": name,
+                "estimate": est,
+                "low": ci.low,
+                "high": ci.high,
+                "interval": f"ratio of totals; {ci.describe()}, {bootstrap} resamples of replicates",
+            }
+        )
     return rows
 
 
 def check_programme(scenario: Scenario) -> None:
     """Raise ScenarioError unless the scenario has a programme that its engine can run."""
     if not scenario.referral.active:
-        raise ScenarioError(
-            'referral.enrol must be one of all, share, strategy to evaluate a programme, got "none"'
-        )
+        raise ScenarioError('referral.enrol must be one of all, share, strategy to evaluate a programme, got "none"')
     if scenario.run.engine not in PROGRAMME_ENGINES:
         raise ScenarioError(
             f"run.engine must be one of {', '.join(PROGRAMME_ENGINES)} for a referral programme "
@@ -399,9 +445,14 @@ class ProgrammeStudy:
     def per_replicate(self) -> pd.DataFrame:
         """One row per replicate: the columns of :func:`programme_economics`."""
         ref = self.scenario.referral
-        continued = (list(zip(self.continued_baseline, self.continued_programme)) if self.continued_baseline
-                     else [None] * len(self.programme))
-        rows = [programme_economics(b, p, ref, continued=c) for b, p, c in zip(self.baseline, self.programme, continued)]
+        continued = (
+            list(zip(self.continued_baseline, self.continued_programme))
+            if self.continued_baseline
+            else [None] * len(self.programme)
+        )
+        rows = [
+            programme_economics(b, p, ref, continued=c) for b, p, c in zip(self.baseline, self.programme, continued)
+        ]
         out = pd.DataFrame(rows)
         out.insert(0, "replicate", np.arange(len(rows)))
         return out
@@ -420,27 +471,63 @@ class ProgrammeStudy:
         """
         table = self.per_replicate()
         n = float(self.scenario.market.organisations)
-        bounds = {"incremental_customers": (-n, n), "customers_baseline": (0.0, n), "customers_programme": (0.0, n),
-                  "cost": (0.0, np.inf), "cost_undiscounted": (0.0, np.inf), "paid_referrals": (0.0, np.inf)}
+        bounds = {
+            "incremental_customers": (-n, n),
+            "customers_baseline": (0.0, n),
+            "customers_programme": (0.0, n),
+            "cost": (0.0, np.inf),
+            "cost_undiscounted": (0.0, np.inf),
+            "paid_referrals": (0.0, np.inf),
+        }
         for name in ("accelerated", "expanded", "lost"):
             bounds[name] = bounds[f"{name}_at_horizon"] = (0.0, n)
         for name in self._loss_columns():
             bounds[name] = (0.0, n) if not name.startswith("value") else (0.0, np.inf)
         rows = []
-        for col in ("incremental_customers", "incremental_value", "cost", "cost_undiscounted", "paid_referrals",
-                    "acceleration", "expansion", "incremental_value_lifetime", "accelerated", "expanded", "lost",
-                    "acceleration_at_horizon", "expansion_at_horizon", "accelerated_at_horizon",
-                    "expanded_at_horizon", "lost_at_horizon", "customers_baseline", "customers_programme",
-                    *self._loss_columns()):
+        for col in (
+            "incremental_customers",
+            "incremental_value",
+            "cost",
+            "cost_undiscounted",
+            "paid_referrals",
+            "acceleration",
+            "expansion",
+            "incremental_value_lifetime",
+            "accelerated",
+            "expanded",
+            "lost",
+            "acceleration_at_horizon",
+            "expansion_at_horizon",
+            "accelerated_at_horizon",
+            "expanded_at_horizon",
+            "lost_at_horizon",
+            "customers_baseline",
+            "customers_programme",
+            *self._loss_columns(),
+        ):
             x = table[col].to_numpy(dtype=float)
             ci = t_interval(x, bounds=bounds.get(col))
-            rows.append({"outcome": col, "estimate": float(np.nanmean(x)) if np.isfinite(x).any() else float("nan"),
-                         "low": ci.low, "high": ci.high, "interval": f"{ci.describe()}, mean over replicates"})
+            rows.append(
+                {
+                    "outcome": col,
+                    "estimate": float(np.nanmean(x)) if np.isfinite(x).any() else float("nan"),
+                    "low": ci.low,
+                    "high": ci.high,
+                    "interval": f"{ci.describe()}, mean over replicates",
+                }
+            )
         rng = np.random.default_rng(np.random.SeedSequence(self.scenario.seed, spawn_key=(ENROLMENT_STREAM, 1)))
         rows += programme_ratios(table, bootstrap=self.bootstrap, rng=rng)
         be = self.break_even_period()
-        rows.append({"outcome": "break_even_period", "estimate": be, "low": np.nan, "high": np.nan,
-                     "interval": "of the mean cumulative curves"})
+        rows.append(
+            {
+                "outcome": "break_even_period",
+                "estimate": be,
+                "low": np.nan,
+                "high": np.nan,
+                "interval": "of the mean cumulative curves",
+            }
+        )
         table = pd.DataFrame(rows)
         table["parameters"] = self.parameters  # fixed, or drawn from a fit's posterior (intervals include it)
         return table
@@ -466,7 +553,9 @@ class ProgrammeStudy:
         """Per period, means over replicates: cumulative discounted cost, cumulative
         incremental discounted value, and their difference (``net``), with the 5–95 % band of ``net``."""
         ref = self.scenario.referral
-        inc = np.vstack([np.cumsum(value_flow(p, ref) - value_flow(b, ref)) for b, p in zip(self.baseline, self.programme)])
+        inc = np.vstack(
+            [np.cumsum(value_flow(p, ref) - value_flow(b, ref)) for b, p in zip(self.baseline, self.programme)]
+        )
         cost = np.vstack([np.cumsum(_cost_flow(p, ref)) for p in self.programme])
         net = inc - cost
         return pd.DataFrame(
@@ -561,18 +650,35 @@ def evaluate_programme(
     given = None if network is None else as_network(network, scenario.market.organisations)
     baseline = scenario.replace("referral.enrol", "none")
     lifetime = scenario.referral.lifetime if lifetime is None else lifetime
-    cont = continue_paired({"baseline": baseline, "programme": scenario}, replicates, lifetime=lifetime, jobs=jobs,
-                           progress=progress, network=given, vary=draws)
+    cont = continue_paired(
+        {"baseline": baseline, "programme": scenario},
+        replicates,
+        lifetime=lifetime,
+        jobs=jobs,
+        progress=progress,
+        network=given,
+        vary=draws,
+    )
     runs = cont.at_horizon()
     degs = []
     if degrees:
         for r in range(replicates):
             at = scenario if draws is None else scenario.replace(draws((r,)))
-            net = given if given is not None else build_network(
-                at, np.random.default_rng(streams(scenario.seed, (r,)).network))
+            net = (
+                given
+                if given is not None
+                else build_network(at, np.random.default_rng(streams(scenario.seed, (r,)).network))
+            )
             degs.append(net.degree())
-    return ProgrammeStudy(scenario=scenario, baseline=runs["baseline"], programme=runs["programme"], degrees=degs,
-                          continued_baseline=cont.runs["baseline"], continued_programme=cont.runs["programme"],
-                          exhausted=cont.exhausted,
-                          parameters="fixed (the scenario's own)" if draws is None else
-                          "drawn from the fit's posterior per replicate, the same for baseline and programme")
+    return ProgrammeStudy(
+        scenario=scenario,
+        baseline=runs["baseline"],
+        programme=runs["programme"],
+        degrees=degs,
+        continued_baseline=cont.runs["baseline"],
+        continued_programme=cont.runs["programme"],
+        exhausted=cont.exhausted,
+        parameters="fixed (the scenario's own)"
+        if draws is None
+        else "drawn from the fit's posterior per replicate, the same for baseline and programme",
+    )

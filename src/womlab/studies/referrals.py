@@ -261,8 +261,13 @@ def referrals_by_adoption_period(runs: Runs) -> pd.DataFrame:
         var = np.where(n_c > 1, (s2 - n_c * mean**2) / np.maximum(n_c - 1, 1), np.nan)
         se = np.sqrt(np.maximum(var, 0) / np.maximum(n_c, 1))
     return pd.DataFrame(
-        {"period": np.arange(T + 1), "customers": n_c.astype(np.int64), "referrals": s1.astype(np.int64),
-         "referrals_per_customer": mean, "se": se}
+        {
+            "period": np.arange(T + 1),
+            "customers": n_c.astype(np.int64),
+            "referrals": s1.astype(np.int64),
+            "referrals_per_customer": mean,
+            "se": se,
+        }
     )
 
 
@@ -299,6 +304,7 @@ def referral_tree_summary(runs: Runs, degrees: np.ndarray | Sequence[np.ndarray]
     ]
     if degrees is not None:
         top = top_degree_referral_share(runs, degrees)
-        rows.append(("top-decile-degree share of referrals",
-                     float(top["top_referrals"].sum() / max(top["referrals"].sum(), 1))))
+        rows.append(
+            ("top-decile-degree share of referrals", float(top["top_referrals"].sum() / max(top["referrals"].sum(), 1)))
+        )
     return pd.DataFrame(rows, columns=["statistic", "value"])

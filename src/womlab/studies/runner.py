@@ -115,8 +115,10 @@ class _Varied:
 
 
 def _chunk(
-    variants: Mapping[str, Scenario] | _Varied, keys: Sequence[tuple[int, ...]],
-    reduce: Callable[[RunResult], Any] | None = None, network: ReferralNetwork | None = None,
+    variants: Mapping[str, Scenario] | _Varied,
+    keys: Sequence[tuple[int, ...]],
+    reduce: Callable[[RunResult], Any] | None = None,
+    network: ReferralNetwork | None = None,
 ) -> list[tuple[tuple, dict[str, Any]]]:
     out = []
     for key in keys:
@@ -208,9 +210,15 @@ def _pool_warm(workers: int) -> bool:
     return _pool["workers"] == workers and time.monotonic() - _pool["last_used"] < POOL_IDLE_SECONDS * 0.9
 
 
-def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int, *,
-               chunk_size: int | None = None, what: str = "runs",
-               chosen: dict[str, str] | None = None) -> Iterator[tuple[int, Any]]:
+def run_chunks(
+    func: Callable[[list[Any]], Any],
+    items: Sequence[Any],
+    jobs: int,
+    *,
+    chunk_size: int | None = None,
+    what: str = "runs",
+    chosen: dict[str, str] | None = None,
+) -> Iterator[tuple[int, Any]]:
     """Run ``func`` over chunks of ``items``, in-process or on a pool of worker processes.
 
     The one place womlab starts workers (batches, paired studies and sweeps all come here).
@@ -271,7 +279,8 @@ def run_chunks(func: Callable[[list[Any]], Any], items: Sequence[Any], jobs: int
         print(f"womlab: starting {workers} worker processes{guess}", file=sys.stderr, flush=True)
     try:
         results = Parallel(n_jobs=workers, backend="loky", return_as="generator_unordered")(
-            delayed(_sized)(func, chunk) for chunk in chunks)
+            delayed(_sized)(func, chunk) for chunk in chunks
+        )
         for count, chunk_result in results:
             yield count, chunk_result
             _pool.update(workers=float(workers), last_used=time.monotonic())
@@ -361,8 +370,16 @@ class Batch:
         out["q95"] = grouped["share"].quantile(0.95).to_numpy()
         m = mapped_generations(s)
         run = s.run
-        x = generations_difference(run.periods, m["launch"], m["p"], m["q"], m["satisfied"], s.n_initial / n,
-                                   time_step=run.time_step, form=run.step_probability)
+        x = generations_difference(
+            run.periods,
+            m["launch"],
+            m["p"],
+            m["q"],
+            m["satisfied"],
+            s.n_initial / n,
+            time_step=run.time_step,
+            form=run.step_probability,
+        )
         q = m["q"].copy()
         q[0] *= m["satisfied"][0]
         market = np.zeros(q.size)
@@ -370,9 +387,12 @@ class Batch:
         closed = norton_bass(np.arange(run.periods + 1.0), np.maximum(m["launch"] - 1, 0), m["p"], q, market)
         names = list(s.product.generations(s.adoption))
         columns = {g.name: k for k, g in enumerate(names)}
-        out["aggregate"] = [x[t, columns[p]] if p in columns else x[t].sum() for p, t in zip(out["product"], out["period"])]
-        out["norton_bass"] = [closed[t, columns[p]] if p in columns else closed[t].sum()
-                              for p, t in zip(out["product"], out["period"])]
+        out["aggregate"] = [
+            x[t, columns[p]] if p in columns else x[t].sum() for p, t in zip(out["product"], out["period"])
+        ]
+        out["norton_bass"] = [
+            closed[t, columns[p]] if p in columns else closed[t].sum() for p, t in zip(out["product"], out["period"])
+        ]
         return out[["period", "product", "mean", "q05", "q95", "aggregate", "norton_bass", "value"]]
 
     def group_shares(self, by: str) -> tuple[np.ndarray, tuple[str, ...]]:
@@ -433,8 +453,9 @@ class Batch:
                 frame = _summary_frame(shares[:, :, g], aggregate[:, g])
                 frame.insert(1, "group", name)
                 frames.append(frame)
-            return pd.concat(frames, ignore_index=True).sort_values(["period", "group"], kind="stable",
-                                                                     ignore_index=True)
+            return pd.concat(frames, ignore_index=True).sort_values(
+                ["period", "group"], kind="stable", ignore_index=True
+            )
         return _summary_frame(self.shares(), self.aggregate())
 
     def ever_shares(self) -> np.ndarray:
@@ -476,13 +497,23 @@ class Batch:
         extra = []
         for name, values, aggregate in (
             ("installed_base", self.shares()[:, -1], float(agg["customers"].iloc[-1])),
-            ("mean_lifetime", np.array([r.mean_lifetime() for r in self.runs]),
-             expected_stay(a.churn, run.time_step, run.step_probability) if same else float("nan")),
+            (
+                "mean_lifetime",
+                np.array([r.mean_lifetime() for r in self.runs]),
+                expected_stay(a.churn, run.time_step, run.step_probability) if same else float("nan"),
+            ),
         ):
             col = pd.Series(values)
-            extra.append({"metric": name, "network_median": col.median(), "network_q05": col.quantile(0.05),
-                          "network_q95": col.quantile(0.95), "runs_reaching": int(col.notna().sum()),
-                          "aggregate": aggregate})
+            extra.append(
+                {
+                    "metric": name,
+                    "network_median": col.median(),
+                    "network_q05": col.quantile(0.05),
+                    "network_q95": col.quantile(0.95),
+                    "runs_reaching": int(col.notna().sum()),
+                    "aggregate": aggregate,
+                }
+            )
         return pd.concat([table, pd.DataFrame(extra)], ignore_index=True)
 
     def organisations(self, replicates: Sequence[int] | None = None) -> pd.DataFrame:

@@ -108,7 +108,11 @@ def run_outcomes(result: RunResult, discount_rate: float = 0.0, keep_first: bool
 
 
 def lift_statistics(
-    x: np.ndarray, baseline: np.ndarray, *, resamples: int = 2000, rng: np.random.Generator | int | None = None,
+    x: np.ndarray,
+    baseline: np.ndarray,
+    *,
+    resamples: int = 2000,
+    rng: np.random.Generator | int | None = None,
     level: float = 0.95,
 ) -> dict[str, float]:
     """Paired lift of outcome ``x`` over ``baseline`` (same replicates, same order).
@@ -162,14 +166,25 @@ def lift_statistics(
     d = x - b
     ratio = float(x.mean() / b.mean()) if b.mean() > 0 else float("nan")
     if np.isfinite(ratio):
-        ci_ratio = bootstrap_interval(lambda i: x[i].mean(axis=-1) / b[i].mean(axis=-1), r,
-                                      rng=np.random.default_rng(seed),
-                                      standard_error=lambda i: ratio_standard_error(x[i], b[i]), level=level,
-                                      resamples=resamples, bounds=(0.0, np.inf))
+        ci_ratio = bootstrap_interval(
+            lambda i: x[i].mean(axis=-1) / b[i].mean(axis=-1),
+            r,
+            rng=np.random.default_rng(seed),
+            standard_error=lambda i: ratio_standard_error(x[i], b[i]),
+            level=level,
+            resamples=resamples,
+            bounds=(0.0, np.inf),
+        )
     else:
         ci_ratio = None
-    ci_diff = bootstrap_interval(lambda i: d[i].mean(axis=-1), r, rng=np.random.default_rng(seed), level=level,
-                                 standard_error=lambda i: d[i].std(axis=-1, ddof=1) / np.sqrt(r), resamples=resamples)
+    ci_diff = bootstrap_interval(
+        lambda i: d[i].mean(axis=-1),
+        r,
+        rng=np.random.default_rng(seed),
+        level=level,
+        standard_error=lambda i: d[i].std(axis=-1, ddof=1) / np.sqrt(r),
+        resamples=resamples,
+    )
     if np.all(d == 0):
         p = 1.0
     else:
@@ -236,9 +251,14 @@ class SeedingStudy:
         study = self.scenario.study
         s = self.scenario
         n, periods = s.market.organisations, s.run.periods
-        bounds = {"customers": (0.0, float(n)), "peak_period": (1.0, float(periods)),
-                  "customer_periods": (0.0, float(n * periods)), "former_customers": (0.0, float(n)),
-                  "customer_periods_lost_to_churn": (0.0, float(n * periods)), "rejecters": (0.0, float(n))}
+        bounds = {
+            "customers": (0.0, float(n)),
+            "peak_period": (1.0, float(periods)),
+            "customer_periods": (0.0, float(n * periods)),
+            "former_customers": (0.0, float(n)),
+            "customer_periods_lost_to_churn": (0.0, float(n * periods)),
+            "rejecters": (0.0, float(n)),
+        }
         wide = {name: g.sort_values("replicate") for name, g in self.runs.groupby("strategy", sort=False)}
         base = wide["random"][study.outcome].to_numpy(dtype=float)
         rows = []
@@ -258,8 +278,9 @@ class SeedingStudy:
             row["lift_outcome"] = study.outcome
             # the same seed for every strategy: the same bootstrap resamples of the replicates
             rng = np.random.default_rng(np.random.SeedSequence(s.seed, spawn_key=BOOTSTRAP_KEY))
-            row.update(lift_statistics(g[study.outcome].to_numpy(dtype=float), base, rng=rng,
-                                       resamples=study.bootstrap))
+            row.update(
+                lift_statistics(g[study.outcome].to_numpy(dtype=float), base, rng=rng, resamples=study.bootstrap)
+            )
             row["parameters"] = self.parameters
             rows.append(row)
         self._table = pd.DataFrame(rows)
@@ -271,11 +292,17 @@ class SeedingStudy:
         for name in self.strategies:
             sh = self.shares[name]
             t = np.arange(sh.shape[1])
-            frames.append(pd.DataFrame({
-                "strategy": name, "period": t,
-                "q05": np.quantile(sh, 0.05, axis=0), "q50": np.quantile(sh, 0.5, axis=0),
-                "q95": np.quantile(sh, 0.95, axis=0),
-            }))
+            frames.append(
+                pd.DataFrame(
+                    {
+                        "strategy": name,
+                        "period": t,
+                        "q05": np.quantile(sh, 0.05, axis=0),
+                        "q50": np.quantile(sh, 0.5, axis=0),
+                        "q95": np.quantile(sh, 0.95, axis=0),
+                    }
+                )
+            )
         return pd.concat(frames, ignore_index=True)
 
 
@@ -344,23 +371,47 @@ def compare_strategies(
         snapshot = scenario.market.organisations <= SNAPSHOT_MAX_ORGANISATIONS and scenario.network.kind != "complete"
     start = time.perf_counter()
     given = None if network is None else as_network(network, scenario.market.organisations)
-    reduced = run_paired(variants, replicates, jobs=jobs, progress=progress, network=given, vary=draws,
-                         reduce=partial(run_outcomes, discount_rate=study.discount_rate, keep_first=snapshot))
+    reduced = run_paired(
+        variants,
+        replicates,
+        jobs=jobs,
+        progress=progress,
+        network=given,
+        vary=draws,
+        reduce=partial(run_outcomes, discount_rate=study.discount_rate, keep_first=snapshot),
+    )
     rows = []
     shares = {}
     for name in names:
         shares[name] = np.vstack([o["share"] for o in reduced[name]])
         for r, o in enumerate(reduced[name]):
-            rows.append({"replicate": r, "strategy": name, **{k: o[k] for k in OUTCOMES},
-                         "final_share": float(o["share"][-1]), **{k: o[k] for k in LOSS_OUTCOMES if k in o}})
+            rows.append(
+                {
+                    "replicate": r,
+                    "strategy": name,
+                    **{k: o[k] for k in OUTCOMES},
+                    "final_share": float(o["share"][-1]),
+                    **{k: o[k] for k in LOSS_OUTCOMES if k in o},
+                }
+            )
     kept = None
     if snapshot:
         # replicate 0's network, rebuilt from its own network stream: the one its runs were on
         first = scenario if draws is None else scenario.replace(draws((0,)))
-        network = given if given is not None else build_network(
-            first, np.random.default_rng(streams(scenario.seed, (0,)).network))
+        network = (
+            given
+            if given is not None
+            else build_network(first, np.random.default_rng(streams(scenario.seed, (0,)).network))
+        )
         kept = (network, {name: reduced[name][0]["run"] for name in names})
-    return SeedingStudy(scenario=scenario, strategies=names, runs=pd.DataFrame(rows), shares=shares,
-                        wall_time=time.perf_counter() - start, snapshot=kept,
-                        parameters="fixed (the scenario's own)" if draws is None else
-                        "drawn from the fit's posterior per replicate, the same for every strategy")
+    return SeedingStudy(
+        scenario=scenario,
+        strategies=names,
+        runs=pd.DataFrame(rows),
+        shares=shares,
+        wall_time=time.perf_counter() - start,
+        snapshot=kept,
+        parameters="fixed (the scenario's own)"
+        if draws is None
+        else "drawn from the fit's posterior per replicate, the same for every strategy",
+    )

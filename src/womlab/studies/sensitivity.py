@@ -207,17 +207,31 @@ def sobol_indices(
         if m == 1:
             s1, st = _indices(fa[ok], fb[ok], fab[ok])
         else:
-            per = np.array([_indices(fa[ok & (block == j)], fb[ok & (block == j)], fab[ok & (block == j)])
-                            for j in range(m)])
+            per = np.array(
+                [_indices(fa[ok & (block == j)], fb[ok & (block == j)], fab[ok & (block == j)]) for j in range(m)]
+            )
             good = np.isfinite(per).all(axis=1)
             s1, st = per[good].mean(axis=0) if good.any() else (float("nan"), float("nan"))
             if good.sum() > 1:
                 se1, se_t = per[good].std(axis=0, ddof=1) / np.sqrt(good.sum())
         outside = [f"{label} = {v:.3g}" for label, v in (("S1", s1), ("ST", st)) if np.isfinite(v) and not 0 <= v <= 1]
-        note = (f"{', '.join(outside)} outside [0, 1]: sampling error of a small base sample (N = {int(ok.sum())})"
-                if outside else "")
-        rows.append({"input": names[i], "S1": float(s1), "S1_se": float(se1), "ST": float(st), "ST_se": float(se_t),
-                     "rows": int(ok.sum()), "scrambles": m, "note": note})
+        note = (
+            f"{', '.join(outside)} outside [0, 1]: sampling error of a small base sample (N = {int(ok.sum())})"
+            if outside
+            else ""
+        )
+        rows.append(
+            {
+                "input": names[i],
+                "S1": float(s1),
+                "S1_se": float(se1),
+                "ST": float(st),
+                "ST_se": float(se_t),
+                "rows": int(ok.sum()),
+                "scrambles": m,
+                "note": note,
+            }
+        )
     return pd.DataFrame(rows)
 
 
@@ -307,11 +321,13 @@ def morris_effects(
     rows = []
     for i in range(k):
         e = np.asarray(effects[i])
-        rows.append({
-            "input": names[i],
-            "mu": float(e.mean()) if e.size else float("nan"),
-            "mu_star": float(np.abs(e).mean()) if e.size else float("nan"),
-            "sigma": float(e.std(ddof=1)) if e.size > 1 else float("nan"),
-            "effects": int(e.size),
-        })
+        rows.append(
+            {
+                "input": names[i],
+                "mu": float(e.mean()) if e.size else float("nan"),
+                "mu_star": float(np.abs(e).mean()) if e.size else float("nan"),
+                "sigma": float(e.std(ddof=1)) if e.size > 1 else float("nan"),
+                "effects": int(e.size),
+            }
+        )
     return pd.DataFrame(rows).sort_values("mu_star", ascending=False, kind="stable").reset_index(drop=True)

@@ -249,8 +249,9 @@ class _Kernel:
     weights, normalised). Proposals then move each particle towards where the next
     generation will be accepted."""
 
-    def __init__(self, theta: np.ndarray, weights: np.ndarray, distances: np.ndarray, tolerance: float,
-                 floor: np.ndarray) -> None:
+    def __init__(
+        self, theta: np.ndarray, weights: np.ndarray, distances: np.ndarray, tolerance: float, floor: np.ndarray
+    ) -> None:
         n, d = theta.shape
         w = weights / weights.sum()
         near = distances <= tolerance
@@ -265,8 +266,9 @@ class _Kernel:
         cov = spread[None, :, :] + offset[:, :, None] * offset[:, None, :] + np.diag(floor**2)[None, :, :]
         self.chol = np.linalg.cholesky(cov)
         self.inv_chol = np.linalg.inv(self.chol)
-        self.log_norm = -0.5 * d * math.log(2 * math.pi) - np.sum(np.log(np.diagonal(self.chol, axis1=1, axis2=2)),
-                                                                  axis=1)
+        self.log_norm = -0.5 * d * math.log(2 * math.pi) - np.sum(
+            np.log(np.diagonal(self.chol, axis1=1, axis2=2)), axis=1
+        )
         self.theta = theta
         self.weights = w
 
@@ -279,9 +281,9 @@ class _Kernel:
         """Σ_j w_j N(x | θ_j, Σ_j) for each row of x."""
         out = np.zeros(x.shape[0])
         for lo in range(0, x.shape[0], 128):
-            diff = x[lo:lo + 128, None, :] - self.theta[None, :, :]
+            diff = x[lo : lo + 128, None, :] - self.theta[None, :, :]
             z = np.einsum("nij,mnj->mni", self.inv_chol, diff)
-            out[lo:lo + 128] = np.exp(self.log_norm[None, :] - 0.5 * np.sum(z**2, axis=2)) @ self.weights
+            out[lo : lo + 128] = np.exp(self.log_norm[None, :] - 0.5 * np.sum(z**2, axis=2)) @ self.weights
         return out
 
 
@@ -391,29 +393,49 @@ def abc_smc(
             dists.extend(dist[ok].tolist())
             keys.extend(batch_keys[i] for i in ok)
             if report is not None:
-                report({"event": "batch", "generation": g, "tolerance": tolerance, "accepted": len(dists),
-                        "particles": n, "proposals": proposals, "simulations": used + proposals,
-                        "acceptance_rate": len(dists) / proposals})
+                report(
+                    {
+                        "event": "batch",
+                        "generation": g,
+                        "tolerance": tolerance,
+                        "accepted": len(dists),
+                        "particles": n,
+                        "proposals": proposals,
+                        "simulations": used + proposals,
+                        "acceptance_rate": len(dists) / proposals,
+                    }
+                )
         used += proposals
         accepted = len(dists)
         theta = np.vstack(thetas) if thetas else np.zeros((0, d))
         model = np.concatenate(mods).astype(np.int64) if mods else np.zeros(0, dtype=np.int64)
         short = accepted < n
         if accepted == 0 or (short and accepted < max(2, n // 2)):
-            stopped = (f"the simulation budget ({settings.simulations}) ran out in generation {g} "
-                       f"({accepted} of {n} accepted, not kept)")
+            stopped = (
+                f"the simulation budget ({settings.simulations}) ran out in generation {g} "
+                f"({accepted} of {n} accepted, not kept)"
+            )
             if not history:
                 raise RuntimeError(f"no simulation could be compared with the data in generation 0 ({stopped})")
             break
         weights = np.full(accepted, 1.0) if prev is None else proposer.weights(theta, model)
         weights = weights / weights.sum()
-        pop = Population(theta=theta, model=model, weights=weights, distances=np.asarray(dists), keys=keys,
-                         tolerance=tolerance)
+        pop = Population(
+            theta=theta, model=model, weights=weights, distances=np.asarray(dists), keys=keys, tolerance=tolerance
+        )
         history.append(pop)
         acceptance = accepted / proposals
-        row = {"generation": g, "tolerance": tolerance, "proposals": proposals, "accepted": accepted,
-               "acceptance_rate": acceptance, "ess": effective_sample_size(weights), "simulations": used,
-               "seconds": time.perf_counter() - t0, "simulating_seconds": sim_seconds}
+        row = {
+            "generation": g,
+            "tolerance": tolerance,
+            "proposals": proposals,
+            "accepted": accepted,
+            "acceptance_rate": acceptance,
+            "ess": effective_sample_size(weights),
+            "simulations": used,
+            "seconds": time.perf_counter() - t0,
+            "simulating_seconds": sim_seconds,
+        }
         probs = pop.model_probabilities(models)
         for k in range(models):
             row[f"model_{k}"] = float(probs[k])
@@ -421,21 +443,36 @@ def abc_smc(
         if report is not None:
             report({"event": "generation", **row})
         if short:
-            stopped = (f"the simulation budget ({settings.simulations}) ran out in generation {g} "
-                       f"({accepted} of {n} accepted, kept)")
+            stopped = (
+                f"the simulation budget ({settings.simulations}) ran out in generation {g} "
+                f"({accepted} of {n} accepted, kept)"
+            )
             break
         if prev is not None and acceptance < settings.min_acceptance:
             stopped = f"acceptance fell to {acceptance:.3g} < {settings.min_acceptance:g} in generation {g}"
             break
-    return SMCResult(populations=history, generations=table, simulations=used, stopped=stopped, models=models,
-                     wall_time=time.perf_counter() - start_time)
+    return SMCResult(
+        populations=history,
+        generations=table,
+        simulations=used,
+        stopped=stopped,
+        models=models,
+        wall_time=time.perf_counter() - start_time,
+    )
 
 
 class _Proposer:
     """Proposals from the last population, and the importance weights of accepted ones."""
 
-    def __init__(self, prev: Population, priors: Sequence[WorkingPrior], models: int, stay: float,
-                 floor: np.ndarray, tolerance: float) -> None:
+    def __init__(
+        self,
+        prev: Population,
+        priors: Sequence[WorkingPrior],
+        models: int,
+        stay: float,
+        floor: np.ndarray,
+        tolerance: float,
+    ) -> None:
         self.prev = prev
         self.priors = priors
         self.models = models

@@ -43,13 +43,12 @@ in which it joined the folder). Anything else that differs is refused, naming it
 from __future__ import annotations
 
 import gc
-
 import hashlib
 import math
 import time
 from collections.abc import Callable, Sequence
-from functools import partial
 from dataclasses import dataclass, field
+from functools import partial
 from pathlib import Path
 from typing import Any
 
@@ -63,7 +62,6 @@ from womlab.scenario import Axis, Scenario, field_type
 from womlab.scenario.sweep_spec import FIXED_FIELDS, is_path_field
 from womlab.store import STORE_FORMAT, ResultsStore, differences, file_sha256, runs_schema, versions
 from womlab.studies.presenting import present
-from womlab.networks.given import as_network
 from womlab.studies.runner import run_chunks
 from womlab.studies.sensitivity import morris_design, saltelli_design
 from womlab.studies.sweep_studies import RUN_OUTCOMES, SweepStudy, sweep_study
@@ -256,9 +254,15 @@ def unit_coordinates(scenario: Scenario, points: pd.DataFrame) -> np.ndarray:
 
 
 # ----------------------------------------------------------------------------- one replicate
-def run_point(scenario: Scenario, point: int, replicate: int, *, curves: bool = False,
-              network: ReferralNetwork | None = None, study: SweepStudy | None = None,
-              ) -> tuple[dict[str, Any], dict[str, np.ndarray] | None]:
+def run_point(
+    scenario: Scenario,
+    point: int,
+    replicate: int,
+    *,
+    curves: bool = False,
+    network: ReferralNetwork | None = None,
+    study: SweepStudy | None = None,
+) -> tuple[dict[str, Any], dict[str, np.ndarray] | None]:
     """Run replicate ``replicate`` of sweep point ``point`` and reduce it to a row of the study's outcomes.
 
     The study is ``study`` or the scenario's ``sweep.study``; it runs through
@@ -281,15 +285,19 @@ def run_point(scenario: Scenario, point: int, replicate: int, *, curves: bool = 
         outcomes, curve = study.run(scenario, (point, replicate), network, curves)
         row.update(status="ok", error="", **outcomes)
     except Exception as exc:  # noqa: BLE001 - a failing run is recorded, and the sweep goes on
-        row.update(status="failed", error=f"{type(exc).__name__}: {exc}"[:2000],
-                   **{o.name: None for o in study.outcomes(scenario)})
+        row.update(
+            status="failed",
+            error=f"{type(exc).__name__}: {exc}"[:2000],
+            **{o.name: None for o in study.outcomes(scenario)},
+        )
         curve = None
     row["wall_time"] = time.perf_counter() - start
     return row, curve
 
 
-def _run_chunk(name: str, tasks: list[tuple[int, int, Scenario]], curves: bool, columns: list,
-               network: ReferralNetwork | None):  # noqa: ANN202 - (runs, curves) pyarrow tables
+def _run_chunk(
+    name: str, tasks: list[tuple[int, int, Scenario]], curves: bool, columns: list, network: ReferralNetwork | None
+):  # noqa: ANN202 - (runs, curves) pyarrow tables
     """Worker side: run a chunk of (point, replicate, scenario) of study ``name`` and return its tables."""
     import pyarrow as pa
 
@@ -302,13 +310,16 @@ def _run_chunk(name: str, tasks: list[tuple[int, int, Scenario]], curves: bool, 
         rows.append(row)
         if curve is not None:
             n = curve["period"].size
-            curve_parts.append({"point": np.full(n, point, np.int32), "replicate": np.full(n, replicate, np.int32),
-                                **curve})
+            curve_parts.append(
+                {"point": np.full(n, point, np.int32), "replicate": np.full(n, replicate, np.int32), **curve}
+            )
     runs = pa.Table.from_pylist(rows, schema=runs_schema(columns))
     curve_table = None
     if curves:
-        cols = {name: (np.concatenate([c[name] for c in curve_parts]) if curve_parts else np.zeros(0, np.int32))
-                for name in CURVES_SCHEMA.names}
+        cols = {
+            name: (np.concatenate([c[name] for c in curve_parts]) if curve_parts else np.zeros(0, np.int32))
+            for name in CURVES_SCHEMA.names
+        }
         curve_table = pa.table(cols, schema=CURVES_SCHEMA)
     return runs, curve_table
 
@@ -383,8 +394,13 @@ def _network_identity(network: ReferralNetwork | None) -> dict[str, Any] | None:
     h = hashlib.sha256()
     for array in (network.indptr, network.indices, network.region):
         h.update(np.ascontiguousarray(array).tobytes())
-    return {"given": True, "organisations": network.n, "ties": network.ties, "complete": network.complete,
-            "sha256": h.hexdigest()}
+    return {
+        "given": True,
+        "organisations": network.n,
+        "ties": network.ties,
+        "complete": network.complete,
+        "sha256": h.hexdigest(),
+    }
 
 
 def _identity(scenario: Scenario, curves: bool, network: ReferralNetwork | None) -> dict[str, Any]:
@@ -397,14 +413,22 @@ def _identity(scenario: Scenario, curves: bool, network: ReferralNetwork | None)
         section, _, name = dotted.rpartition(".")
         (base.get(section, {}) if section else base).pop(name, None)
     spec = scenario.sweep
-    sweep: dict[str, Any] = {"design": spec.design, "study": spec.study,
-                             "axes": {a.name: ({"follows": a.follows} if a.follows else "") for a in spec.axes}}
+    sweep: dict[str, Any] = {
+        "design": spec.design,
+        "study": spec.study,
+        "axes": {a.name: ({"follows": a.follows} if a.follows else "") for a in spec.axes},
+    }
     if spec.design != "grid":
         sweep.update(samples=spec.samples, axes={a.name: a.to_table() for a in spec.axes})
     if spec.design == "morris":
         sweep["levels"] = spec.levels
-    return {"scenario": base, "sweep": sweep, "curves": bool(curves), "format": STORE_FORMAT,
-            "network": _network_identity(network)}
+    return {
+        "scenario": base,
+        "sweep": sweep,
+        "curves": bool(curves),
+        "format": STORE_FORMAT,
+        "network": _network_identity(network),
+    }
 
 
 def _input_files(scenarios: Sequence[Scenario]) -> dict[str, str]:
@@ -442,7 +466,8 @@ def _grow_points(stored: pd.DataFrame, design: pd.DataFrame, spec: Any, where: s
     names = [a.name for a in spec.axes]
     if spec.design != "grid":
         same = len(stored) == len(design) and all(
-            _key(a, names) == _key(b, names) for (_, a), (_, b) in zip(stored.iterrows(), design.iterrows()))
+            _key(a, names) == _key(b, names) for (_, a), (_, b) in zip(stored.iterrows(), design.iterrows())
+        )
         if not same:
             raise StoreError(f"results folder {where!r}: points.parquet differs from this sweep's points")
         return stored
@@ -473,8 +498,9 @@ def _rebuild_points(scenario: Scenario, history: list[dict[str, Any]]) -> pd.Dat
     return points
 
 
-def _open(store: ResultsStore, scenario: Scenario, design: pd.DataFrame, manifest: dict[str, Any]
-          ) -> tuple[pd.DataFrame, int, int]:
+def _open(
+    store: ResultsStore, scenario: Scenario, design: pd.DataFrame, manifest: dict[str, Any]
+) -> tuple[pd.DataFrame, int, int]:
     """Create the folder, or reopen (and grow) it. Returns the points, points added, replicates added."""
     spec = scenario.sweep
     where = str(store.path)
@@ -483,8 +509,10 @@ def _open(store: ResultsStore, scenario: Scenario, design: pd.DataFrame, manifes
         return design, 0, 0
     old = store.manifest()
     if old.get("format") != STORE_FORMAT:
-        raise StoreError(f"results folder {where!r} was written in store format {old.get('format')}, this womlab writes "
-                         f"format {STORE_FORMAT}; read it with `womlab report`, and run this sweep into a new --out folder")
+        raise StoreError(
+            f"results folder {where!r} was written in store format {old.get('format')}, this womlab writes "
+            f"format {STORE_FORMAT}; read it with `womlab report`, and run this sweep into a new --out folder"
+        )
     diff = differences(old.get("identity", {}), manifest["identity"])
     if diff:
         raise StoreError(
@@ -494,11 +522,15 @@ def _open(store: ResultsStore, scenario: Scenario, design: pd.DataFrame, manifes
     for path, digest in old.get("inputs", {}).items():
         now = manifest["inputs"].get(path)
         if now is not None and now != digest:
-            raise StoreError(f"input file {path!r} has changed since this sweep started (SHA-256 {digest[:12]}… there, "
-                             f"{now[:12]}… now); restore it, or run the sweep into a new --out folder")
+            raise StoreError(
+                f"input file {path!r} has changed since this sweep started (SHA-256 {digest[:12]}… there, "
+                f"{now[:12]}… now); restore it, or run the sweep into a new --out folder"
+            )
     if spec.replicates < old["replicates"]:
-        raise StoreError(f"results folder {where!r} holds {old['replicates']} replicates per point, this sweep asks "
-                         f"for {spec.replicates}; a sweep can be extended with more replicates, not cut")
+        raise StoreError(
+            f"results folder {where!r} holds {old['replicates']} replicates per point, this sweep asks "
+            f"for {spec.replicates}; a sweep can be extended with more replicates, not cut"
+        )
     store.tidy()
     stored = store.read_points()
     history = old.get("history", [old.get("sweep")])
@@ -509,11 +541,18 @@ def _open(store: ResultsStore, scenario: Scenario, design: pd.DataFrame, manifes
     added_points, added_replicates = len(points) - len(stored), spec.replicates - old["replicates"]
     if added_points or added_replicates:
         store.write_points(points)
-        store.write_manifest({**old, "sweep": spec.to_table(), "scenario": manifest["scenario"],
-                              "points": len(points), "replicates": spec.replicates,
-                              "runs": len(points) * spec.replicates, "inputs": {**old.get("inputs", {}),
-                                                                               **manifest["inputs"]},
-                              "history": [*history, spec.to_table()]})
+        store.write_manifest(
+            {
+                **old,
+                "sweep": spec.to_table(),
+                "scenario": manifest["scenario"],
+                "points": len(points),
+                "replicates": spec.replicates,
+                "runs": len(points) * spec.replicates,
+                "inputs": {**old.get("inputs", {}), **manifest["inputs"]},
+                "history": [*history, spec.to_table()],
+            }
+        )
     elif manifest["inputs"].keys() - old.get("inputs", {}).keys():
         store.write_manifest({**old, "inputs": {**old.get("inputs", {}), **manifest["inputs"]}})
     return points, added_points, added_replicates
@@ -523,8 +562,9 @@ def _open(store: ResultsStore, scenario: Scenario, design: pd.DataFrame, manifes
 _NO_HTTP = {"distributed.scheduler.http.routes": [], "distributed.worker.http.routes": []}
 
 
-def _connect(scheduler: str | None, cluster: str | None, processes: bool, security: Any, timeout: float
-             ) -> tuple[Any, Any, str, int]:
+def _connect(
+    scheduler: str | None, cluster: str | None, processes: bool, security: Any, timeout: float
+) -> tuple[Any, Any, str, int]:
     """(client, local cluster, backend label, workers) for a Dask run; raises ClusterError in one line."""
     try:
         import dask
@@ -538,13 +578,20 @@ def _connect(scheduler: str | None, cluster: str | None, processes: bool, securi
 
             credentials = Security.temporary()  # a new CA and certificate, in memory: only this process holds them
         except ImportError:  # pragma: no cover - depends on the installation
-            raise ClusterError("--cluster needs the cryptography package for its TLS credentials: "
-                               "pip install 'womlab[cluster]'") from None
+            raise ClusterError(
+                "--cluster needs the cryptography package for its TLS credentials: pip install 'womlab[cluster]'"
+            ) from None
         local = None
         try:
             with dask.config.set(_NO_HTTP):  # no dashboard, no info pages: the HTTP servers serve nothing
-                local = LocalCluster(n_workers=n, threads_per_worker=1, processes=processes, dashboard_address=None,
-                                     security=credentials, host="127.0.0.1")
+                local = LocalCluster(
+                    n_workers=n,
+                    threads_per_worker=1,
+                    processes=processes,
+                    dashboard_address=None,
+                    security=credentials,
+                    host="127.0.0.1",
+                )
                 client = Client(local, security=credentials, timeout=timeout)
         except Exception as exc:  # noqa: BLE001 - one line, never a traceback
             if local is not None:
@@ -566,8 +613,16 @@ def _connect(scheduler: str | None, cluster: str | None, processes: bool, securi
     return client, None, f"dask scheduler {scheduler}", max(1, sum(client.nthreads().values()))
 
 
-def _results(study: str, tasks: list, curves: bool, columns: list, network: ReferralNetwork | None, workers: int,
-             client: Any, chosen: dict[str, str]) -> Any:
+def _results(
+    study: str,
+    tasks: list,
+    curves: bool,
+    columns: list,
+    network: ReferralNetwork | None,
+    workers: int,
+    client: Any,
+    chosen: dict[str, str],
+) -> Any:
     """Chunk results, in any order: on the Dask client's cluster, or in-process / on the reusable
     loky pool as :func:`womlab.studies.runner.run_chunks` chooses (it records its choice in ``chosen``)."""
     if client is not None:
@@ -575,7 +630,8 @@ def _results(study: str, tasks: list, curves: bool, columns: list, network: Refe
 
         with parallel_config(backend="dask"):
             yield from Parallel(n_jobs=-1, return_as="generator_unordered")(
-                delayed(_run_chunk)(study, chunk, curves, columns, network) for chunk in tasks)
+                delayed(_run_chunk)(study, chunk, curves, columns, network) for chunk in tasks
+            )
         return
     items = [task for chunk in tasks for task in chunk]
     size = len(tasks[0]) if tasks else None
@@ -686,8 +742,9 @@ def run_sweep(
         given = as_network(network, scenario.market.organisations)
         for axis in spec.axes:
             if axis.name.startswith("network.") or axis.name == "market.organisations":
-                raise ScenarioError(f"sweep.axes.{axis.name!r}: the network is given (network=), so {axis.name} "
-                                    "cannot vary")
+                raise ScenarioError(
+                    f"sweep.axes.{axis.name!r}: the network is given (network=), so {axis.name} cannot vary"
+                )
     if cluster is not None:
         _parse_cluster(cluster)
     design = design_points(scenario)
@@ -730,21 +787,29 @@ def run_sweep(
             finished = store.finished()
             pending = [k for k in keys if k not in finished]
             skipped = len(keys) - len(pending)
-            session = store.begin_session({"backend": backend, "pending": len(pending),
-                                           "womlab": library_versions["womlab"], "added_points": added_points,
-                                           "added_replicates": added_replicates})
+            session = store.begin_session(
+                {
+                    "backend": backend,
+                    "pending": len(pending),
+                    "womlab": library_versions["womlab"],
+                    "added_points": added_points,
+                    "added_replicates": added_replicates,
+                }
+            )
             at = dict(zip(numbers, scenarios))
             tasks = [[(i, r, at[i]) for i, r in chunk] for chunk in _chunks(pending, workers, chunk_size)]
             bar = None
             if progress:  # a bar on a terminal, a few plain lines when piped
                 from womlab.scenario.progress import bar as progress_bar
 
-                bar = progress_bar(len(keys), f"sweep ({spec.study})", unit="run", initial=skipped, show=True,
-                                   leave=True)
+                bar = progress_bar(
+                    len(keys), f"sweep ({spec.study})", unit="run", initial=skipped, show=True, leave=True
+                )
             try:
                 chosen = {"backend": backend}
-                ran, failed_now = _collect(_results(spec.study, tasks, curves, columns, given, workers, client, chosen),
-                                           store, session, bar)
+                ran, failed_now = _collect(
+                    _results(spec.study, tasks, curves, columns, given, workers, client, chosen), store, session, bar
+                )
                 backend = chosen["backend"]
             finally:
                 if bar is not None:
@@ -752,12 +817,30 @@ def run_sweep(
             store.consolidate()
             runs = store.runs()
             failed = runs[runs["status"] != "ok"]
-            store.end_session(session, {"ran": ran, "failed": failed_now, "backend": backend,
-                                        "wall_time_s": round(time.perf_counter() - start, 3)})
-            summary = SweepSummary(out=store.path, points=len(points), runs=len(keys), skipped=skipped, ran=ran,
-                                   failures=len(failed), wall_time=time.perf_counter() - start, backend=backend,
-                                   study=spec.study, added_points=added_points, added_replicates=added_replicates,
-                                   notices=list(store.notices), failed=failed.reset_index(drop=True))
+            store.end_session(
+                session,
+                {
+                    "ran": ran,
+                    "failed": failed_now,
+                    "backend": backend,
+                    "wall_time_s": round(time.perf_counter() - start, 3),
+                },
+            )
+            summary = SweepSummary(
+                out=store.path,
+                points=len(points),
+                runs=len(keys),
+                skipped=skipped,
+                ran=ran,
+                failures=len(failed),
+                wall_time=time.perf_counter() - start,
+                backend=backend,
+                study=spec.study,
+                added_points=added_points,
+                added_replicates=added_replicates,
+                notices=list(store.notices),
+                failed=failed.reset_index(drop=True),
+            )
             if report:
                 summary.report = present(summary, "report")
     finally:

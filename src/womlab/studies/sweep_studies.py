@@ -181,9 +181,17 @@ def mean_statistics(table: pd.DataFrame, columns: list[str]) -> list[dict]:
         with warnings.catch_warnings():  # a point with one run has no interval; `reached` says why
             warnings.simplefilter("ignore", FewReplicatesWarning)
             mean, low, high = mean_interval(x, bounds=known)
-        rows.append({"outcome": name, "reached": int(x.size), "estimate": mean,
-                     "sd": float(x.std(ddof=1)) if x.size > 1 else np.nan, "low": low, "high": high,
-                     "interval": "t, mean over replicates"})
+        rows.append(
+            {
+                "outcome": name,
+                "reached": int(x.size),
+                "estimate": mean,
+                "sd": float(x.std(ddof=1)) if x.size > 1 else np.nan,
+                "low": low,
+                "high": high,
+                "interval": "t, mean over replicates",
+            }
+        )
     return rows
 
 
@@ -200,30 +208,44 @@ RUN_OUTCOMES = (
 )
 
 
-def run_point_run(scenario: Scenario, key: tuple[int, int], network: ReferralNetwork | None,
-                  curves: bool) -> tuple[Row, Curve | None]:
+def run_point_run(
+    scenario: Scenario, key: tuple[int, int], network: ReferralNetwork | None, curves: bool
+) -> tuple[Row, Curve | None]:
     """The ``run`` study at one key: one run, its adoption outcomes and (if asked) its curve."""
     result = run_paired({"run": scenario}, 1, keys=[key], network=network)["run"][0]
     # with churn the installed base can fall: times and the peak are those of adoptions (ever customers)
     m = curve_metrics(result.ever_share if result.churns else result.share)
     customers, new, satisfied = result.customers, result.new_customers, result.satisfied_customers
-    row = {"customers": int(customers[-1]), "satisfied_customers": int(satisfied[-1]),
-           "final_share": float(result.share[-1]), "t10": m["t10"], "t50": m["t50"], "t90": m["t90"],
-           "peak_period": int(m["peak_period"]), "peak_new_share": m["peak_new_share"]}
+    row = {
+        "customers": int(customers[-1]),
+        "satisfied_customers": int(satisfied[-1]),
+        "final_share": float(result.share[-1]),
+        "t10": m["t10"],
+        "t50": m["t50"],
+        "t90": m["t90"],
+        "peak_period": int(m["peak_period"]),
+        "peak_new_share": m["peak_new_share"],
+    }
     curve = None
     if curves:
-        curve = {"period": np.arange(customers.size, dtype=np.int32), "customers": customers.astype(np.int32),
-                 "new_customers": new.astype(np.int32), "satisfied_customers": satisfied.astype(np.int32)}
+        curve = {
+            "period": np.arange(customers.size, dtype=np.int32),
+            "customers": customers.astype(np.int32),
+            "new_customers": new.astype(np.int32),
+            "satisfied_customers": satisfied.astype(np.int32),
+        }
     return row, curve
 
 
-register_sweep_study(SweepStudy(
-    name="run",
-    outcomes=lambda scenario: RUN_OUTCOMES,
-    run=run_point_run,
-    shown=lambda scenario: ("final_share", "t50", "peak_period", "peak_new_share"),
-    curves=True,
-))
+register_sweep_study(
+    SweepStudy(
+        name="run",
+        outcomes=lambda scenario: RUN_OUTCOMES,
+        run=run_point_run,
+        shown=lambda scenario: ("final_share", "t50", "peak_period", "peak_new_share"),
+        curves=True,
+    )
+)
 
 
 # ----------------------------------------------------------------------------- programme
@@ -253,17 +275,27 @@ PROGRAMME_OUTCOMES = (
 PROGRAMME_BOOTSTRAP = 2000
 
 
-def run_point_programme(scenario: Scenario, key: tuple[int, int], network: ReferralNetwork | None,
-                        curves: bool) -> tuple[Row, Curve | None]:
+def run_point_programme(
+    scenario: Scenario, key: tuple[int, int], network: ReferralNetwork | None, curves: bool
+) -> tuple[Row, Curve | None]:
     """The ``programme`` study at one key: the programme and its baseline, paired, and their economics."""
     if scenario.referral.lifetime_value_from_churn:
         scenario = with_lifetime_value_from_churn(scenario)
     baseline = scenario.replace("referral.enrol", "none")
-    cont = continue_paired({"baseline": baseline, "programme": scenario}, 1, keys=[key], network=network,
-                           lifetime=scenario.referral.lifetime)
+    cont = continue_paired(
+        {"baseline": baseline, "programme": scenario},
+        1,
+        keys=[key],
+        network=network,
+        lifetime=scenario.referral.lifetime,
+    )
     runs = cont.at_horizon()
-    economics = programme_economics(runs["baseline"][0], runs["programme"][0], scenario.referral,
-                                    continued=(cont.runs["baseline"][0], cont.runs["programme"][0]))
+    economics = programme_economics(
+        runs["baseline"][0],
+        runs["programme"][0],
+        scenario.referral,
+        continued=(cont.runs["baseline"][0], cont.runs["programme"][0]),
+    )
     return {o.name: economics[o.name] for o in PROGRAMME_OUTCOMES}, None
 
 
@@ -274,37 +306,50 @@ def programme_statistics(scenario: Scenario, table: pd.DataFrame, point: int) ->
     return programme_ratios(table, bootstrap=PROGRAMME_BOOTSTRAP, rng=rng)
 
 
-register_sweep_study(SweepStudy(
-    name="programme",
-    outcomes=lambda scenario: PROGRAMME_OUTCOMES,
-    run=run_point_programme,
-    statistics=programme_statistics,
-    shown=lambda scenario: ("roi", "incremental_customers", "cost_per_incremental_customer", "acceleration_share"),
-    labels=lambda scenario: {"roi": "return on investment, Σ(ΔValue − Cost) / ΣCost",
-                             "cost_per_incremental_customer": "cost per incremental customer, ΣCost / ΣΔcustomers",
-                             "acceleration_share": "share of incremental value from acceleration"},
-    check=check_programme,
-))
+register_sweep_study(
+    SweepStudy(
+        name="programme",
+        outcomes=lambda scenario: PROGRAMME_OUTCOMES,
+        run=run_point_programme,
+        statistics=programme_statistics,
+        shown=lambda scenario: ("roi", "incremental_customers", "cost_per_incremental_customer", "acceleration_share"),
+        labels=lambda scenario: {
+            "roi": "return on investment, Σ(ΔValue − Cost) / ΣCost",
+            "cost_per_incremental_customer": "cost per incremental customer, ΣCost / ΣΔcustomers",
+            "acceleration_share": "share of incremental value from acceleration",
+        },
+        check=check_programme,
+    )
+)
 
 
 # ----------------------------------------------------------------------------- seeding
 _SEEDING_KINDS = {"customers": "int", "t50": "float", "peak_period": "int", "customer_periods": "float"}
-_SEEDING_LABELS = {"customers": "customers at horizon", "t50": "period reaching 50 % of market",
-                   "peak_period": "peak period", "customer_periods": "discounted customer-periods"}
+_SEEDING_LABELS = {
+    "customers": "customers at horizon",
+    "t50": "period reaching 50 % of market",
+    "peak_period": "peak period",
+    "customer_periods": "discounted customer-periods",
+}
 
 
 def _seeding_outcomes(scenario: Scenario) -> tuple[Outcome, ...]:
-    return tuple(Outcome(f"{k}[{s}]", _SEEDING_KINDS[k], f"{_SEEDING_LABELS[k]}, {s}")
-                 for s in scenario.study.compared for k in SEEDING_OUTCOMES)
+    return tuple(
+        Outcome(f"{k}[{s}]", _SEEDING_KINDS[k], f"{_SEEDING_LABELS[k]}, {s}")
+        for s in scenario.study.compared
+        for k in SEEDING_OUTCOMES
+    )
 
 
-def run_point_seeding(scenario: Scenario, key: tuple[int, int], network: ReferralNetwork | None,
-                      curves: bool) -> tuple[Row, Curve | None]:
+def run_point_seeding(
+    scenario: Scenario, key: tuple[int, int], network: ReferralNetwork | None, curves: bool
+) -> tuple[Row, Curve | None]:
     """The ``seeding`` study at one key: every strategy on one network with the same draws."""
     study = scenario.study
     variants = {name: scenario.replace("seeding.strategy", name) for name in study.compared}
-    out = run_paired(variants, 1, keys=[key], network=network,
-                     reduce=partial(run_outcomes, discount_rate=study.discount_rate))
+    out = run_paired(
+        variants, 1, keys=[key], network=network, reduce=partial(run_outcomes, discount_rate=study.discount_rate)
+    )
     return {f"{k}[{s}]": out[s][0][k] for s in study.compared for k in SEEDING_OUTCOMES}, None
 
 
@@ -323,21 +368,46 @@ def seeding_statistics(scenario: Scenario, table: pd.DataFrame, point: int) -> l
     for s in study.compared[1:]:
         x = table[f"{outcome}[{s}]"].to_numpy(dtype=float)
         if r < 2:  # one replicate: the estimates, no interval
-            lift = {"lift_ratio": float(x.mean() / base.mean()) if base.mean() > 0 else np.nan,
-                    "lift_diff": float((x - base).mean())}
+            lift = {
+                "lift_ratio": float(x.mean() / base.mean()) if base.mean() > 0 else np.nan,
+                "lift_diff": float((x - base).mean()),
+            }
         else:
             with warnings.catch_warnings():  # below five replicates no interval; the table says so
                 warnings.simplefilter("ignore", FewReplicatesWarning)
                 lift = lift_statistics(x, base, rng=np.random.default_rng(seed), resamples=study.bootstrap)
-        rows.append({"outcome": f"lift_ratio[{s}]", "estimate": lift["lift_ratio"], "low": lift.get("lift_ratio_low", np.nan),
-                     "high": lift.get("lift_ratio_high", np.nan), "interval": f"ratio of means; {boot}"})
-        rows.append({"outcome": f"lift_diff[{s}]", "estimate": lift["lift_diff"], "low": lift.get("lift_diff_low", np.nan),
-                     "high": lift.get("lift_diff_high", np.nan), "interval": f"mean paired difference; {boot}"})
-        for name, text in (("wilcoxon_p", "Wilcoxon signed-rank test of the paired differences"),
-                           ("paired_halfwidth", "95 % t half-width of the mean paired difference"),
-                           ("unpaired_halfwidth", "95 % t half-width an unpaired design would give")):
-            rows.append({"outcome": f"{name}[{s}]", "estimate": lift.get(name, np.nan), "low": np.nan, "high": np.nan,
-                         "interval": text})
+        rows.append(
+            {
+                "outcome": f"lift_ratio[{s}]",
+                "estimate": lift["lift_ratio"],
+                "low": lift.get("lift_ratio_low", np.nan),
+                "high": lift.get("lift_ratio_high", np.nan),
+                "interval": f"ratio of means; {boot}",
+            }
+        )
+        rows.append(
+            {
+                "outcome": f"lift_diff[{s}]",
+                "estimate": lift["lift_diff"],
+                "low": lift.get("lift_diff_low", np.nan),
+                "high": lift.get("lift_diff_high", np.nan),
+                "interval": f"mean paired difference; {boot}",
+            }
+        )
+        for name, text in (
+            ("wilcoxon_p", "Wilcoxon signed-rank test of the paired differences"),
+            ("paired_halfwidth", "95 % t half-width of the mean paired difference"),
+            ("unpaired_halfwidth", "95 % t half-width an unpaired design would give"),
+        ):
+            rows.append(
+                {
+                    "outcome": f"{name}[{s}]",
+                    "estimate": lift.get(name, np.nan),
+                    "low": np.nan,
+                    "high": np.nan,
+                    "interval": text,
+                }
+            )
     return rows
 
 
@@ -353,12 +423,14 @@ def _seeding_labels(scenario: Scenario) -> dict[str, str]:
     return out
 
 
-register_sweep_study(SweepStudy(
-    name="seeding",
-    outcomes=_seeding_outcomes,
-    run=run_point_seeding,
-    statistics=seeding_statistics,
-    shown=lambda scenario: tuple(f"lift_ratio[{s}]" for s in scenario.study.compared[1:]),
-    labels=_seeding_labels,
-    fixed_fields={"seeding.strategy": "the seeding study runs every strategy of study.strategies at every point"},
-))
+register_sweep_study(
+    SweepStudy(
+        name="seeding",
+        outcomes=_seeding_outcomes,
+        run=run_point_seeding,
+        statistics=seeding_statistics,
+        shown=lambda scenario: tuple(f"lift_ratio[{s}]" for s in scenario.study.compared[1:]),
+        labels=_seeding_labels,
+        fixed_fields={"seeding.strategy": "the seeding study runs every strategy of study.strategies at every point"},
+    )
+)
