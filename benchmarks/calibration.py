@@ -27,6 +27,7 @@ beside it.
 
 from __future__ import annotations
 
+import argparse
 import os
 import platform
 import sys
@@ -78,6 +79,9 @@ def timed_fit(series, jobs: int):  # noqa: ANN001, ANN201
 
 
 def main() -> None:
+    argparse.ArgumentParser(
+        description=__doc__.splitlines()[0], epilog="Writes benchmarks/results/calibration.md."
+    ).parse_args()
     series = simulated_series(SCENARIO, periods=20, key=(2026,), source="invented 20-period series")
     load_before = os.getloadavg()
     one, wall1, cpu1 = timed_fit(series, 1)

@@ -18,6 +18,7 @@ say "about a minute" rather than "about a day", not to predict seconds.
 
 from __future__ import annotations
 
+import argparse
 import datetime as dt
 import json
 import platform
@@ -155,6 +156,9 @@ def seeding_rows() -> list[dict]:
 
 
 def main() -> None:
+    argparse.ArgumentParser(
+        description=__doc__.splitlines()[0], epilog="Writes benchmarks/results/resources.md."
+    ).parse_args()
     mem = memory_rows()
     a = np.array([[1.0, r["n"], r["ties"]] for r in mem])
     b = np.array([r["peak"] - r["before"] for r in mem], dtype=float)

@@ -21,6 +21,7 @@ Run: ``python benchmarks/sweeps.py`` (or ``make bench``). Writes benchmarks/resu
 
 from __future__ import annotations
 
+import argparse
 import json
 import os
 import platform
@@ -188,6 +189,9 @@ def overhead(n: int, replicates: int) -> tuple[list[tuple[float, float]], list[t
 
 
 def main() -> None:
+    argparse.ArgumentParser(
+        description=__doc__.splitlines()[0], epilog="Writes benchmarks/results/sweeps.md."
+    ).parse_args()
     start = pool_start(REPEATS)
     results = {1_000: throughput(1_000, 50), 10_000: throughput(10_000, 5)}
     bare, swept = overhead(1_000, 25)
