@@ -82,6 +82,7 @@ from womlab.rules import (
     churn_steps,
     compiled,
     hazard,
+    neighbour_talkers,
     rate,
     rejects_first,
     step_adoption_hazard,
@@ -238,20 +239,7 @@ def _kernel(
     start, end, multiplier, extra, exhausted = ledger[1], ledger[2], ledger[7], ledger[8], ledger[10]
     programme = enrolled.size > 0
 
-    # Dᵢ: the talkers of all of i's neighbours, fixed for the run
-    total = np.empty(n)
-    if complete:
-        everyone = 0.0
-        for i in range(n):
-            everyone += tau[i]
-        for i in range(n):
-            total[i] = everyone - tau[i]
-    else:
-        for i in range(n):
-            s = 0.0
-            for k in range(indptr[i], indptr[i + 1]):
-                s += tau[indices[k]]
-            total[i] = s
+    total = neighbour_talkers(indptr, indices, tau, complete)  # Dᵢ, fixed for the run
 
     exposure = np.zeros(0 if complete else n)  # Tᵢ
     market = 0.0  # complete network: Tᵢ of every potential customer

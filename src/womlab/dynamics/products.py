@@ -29,7 +29,7 @@ import numpy as np
 from womlab import rules
 from womlab.dynamics.run_result import RunResult
 from womlab.networks import ReferralNetwork
-from womlab.rules import compiled, hazard, rate, upgrade_rate
+from womlab.rules import compiled, hazard, neighbour_talkers, rate, upgrade_rate
 from womlab.scenario import Scenario
 
 __all__ = ["run_products", "product_rng", "PRODUCT_STREAM"]
@@ -84,19 +84,7 @@ def _products_kernel(
     """
     n = tau.size
     G = p.size
-    total = np.empty(n)  # Dᵢ
-    if complete:
-        everyone = 0.0
-        for i in range(n):
-            everyone += tau[i]
-        for i in range(n):
-            total[i] = everyone - tau[i]
-    else:
-        for i in range(n):
-            s = 0.0
-            for k in range(indptr[i], indptr[i + 1]):
-                s += tau[indices[k]]
-            total[i] = s
+    total = neighbour_talkers(indptr, indices, tau, complete)  # Dᵢ
     expo = np.zeros((G, 0 if complete else n))
     totals = np.zeros(G)
     for i in range(n):  # the initial customers' talk

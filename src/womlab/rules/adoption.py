@@ -132,6 +132,7 @@ __all__ = [
     "draw_satisfied",
     "draw_thresholds",
     "talk_weights",
+    "neighbour_talkers",
     "word_of_mouth_part",
     "step_adoption_hazard",
     "step_external_part",
@@ -667,6 +668,28 @@ def draw_thresholds(thresholds: Thresholds, n: int, rng: np.random.Generator) ->
     if thresholds.distribution == "normal":
         return np.clip(rng.normal(thresholds.mean, thresholds.sd, size=n), 1e-12, 1.0)
     raise ValueError(f"threshold distribution must be uniform, fixed or normal, got {thresholds.distribution!r}")
+
+
+@compiled
+def neighbour_talkers(indptr, indices, tau, complete):  # noqa: ANN001, ANN201
+    """Dᵢ of every organisation: the talkers of all of its neighbours on the CSR ``indptr``,
+    ``indices`` (everyone else's on the complete network), fixed for a run; what the engines'
+    kernels divide by under ``share`` and compare with under ``threshold``."""
+    n = tau.size
+    total = np.empty(n)
+    if complete:
+        everyone = 0.0
+        for i in range(n):
+            everyone += tau[i]
+        for i in range(n):
+            total[i] = everyone - tau[i]
+    else:
+        for i in range(n):
+            s = 0.0
+            for k in range(indptr[i], indptr[i + 1]):
+                s += tau[indices[k]]
+            total[i] = s
+    return total
 
 
 def talk_weights(rule: str, tau: np.ndarray, satisfied_customer: np.ndarray, fresh: np.ndarray) -> np.ndarray:
