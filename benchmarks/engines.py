@@ -24,7 +24,6 @@ import argparse
 import datetime as dt
 import json
 import os
-import platform
 import subprocess
 import sys
 import time
@@ -34,6 +33,8 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "src"))
+
+from about import machine, versions  # noqa: E402
 
 from womlab import Scenario, build_network  # noqa: E402
 from womlab.dynamics import ENGINES  # noqa: E402
@@ -82,28 +83,6 @@ def floor_seconds(network, periods: int, repeats: int) -> float:
             matrix @ x
 
     return _time(products, repeats)
-
-
-def versions() -> dict[str, str]:
-    out = {"python": platform.python_version()}
-    for name in ("numpy", "scipy", "networkx", "mesa", "numba", "joblib", "womlab"):
-        try:
-            out[name] = __import__(name).__version__
-        except Exception:  # noqa: BLE001 - a missing library is reported, not fatal
-            out[name] = "not installed"
-    return out
-
-
-def machine() -> str:
-    cpu = platform.processor() or platform.machine()
-    try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                cpu = line.split(":", 1)[1].strip()
-                break
-    except OSError:
-        pass
-    return f"{cpu}, {os.cpu_count()} logical cores, {platform.system()} {platform.release()}"
 
 
 def scipy_first_passage(scenario, network, initial, rng):  # noqa: ANN001, ANN201
@@ -347,7 +326,7 @@ def _x(v: float | None, digits: int = 2) -> str:
 
 
 def report(rows: list[dict], cold: dict, whole: list[dict], command: str) -> str:
-    v = versions()
+    v = versions(("numpy", "scipy", "networkx", "mesa", "numba", "joblib", "womlab"))
     lines = [
         "# Engine benchmark",
         "",
